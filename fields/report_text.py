@@ -1,0 +1,119 @@
+"""Plain-text tables for the terminal, rendered from the JSON-ready data."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+
+def _fmt(x: float | None, digits: int = 3) -> str:
+    if x is None:
+        return "-"
+    if x == 0:
+        return "0"
+    return f"{x:.{digits}g}"
+
+
+def _table(header: list[str], rows: list[list[str]]) -> str:
+    widths = [
+        max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(header)
+    ]
+    line = "  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True))
+    out = [line, "  ".join("-" * w for w in widths)]
+    out += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
+    return "\n".join(out)
+
+
+def _minutes(seconds: float | None) -> str:
+    return "-" if seconds is None else f"{seconds / 60:g} min"
+
+
+def limits_table(data: dict[str, Any]) -> str:
+    """The ``limits`` listing."""
+    rows = [
+        [
+            v["id"],
+            _fmt(v["power_density_w_m2"], 4),
+            _fmt(v["power_density_w_m2"] / 10.0, 4),
+            _fmt(v["e_v_m"], 4),
+            _fmt(v["h_a_m"], 4),
+            _minutes(v["averaging_time_s"]),
+            v["source"],
+        ]
+        for v in data["limits"]
+    ]
+    head = f"Exposure limits at {data['frequency_hz'] / 1e6:g} MHz"
+    text = (
+        head
+        + "\n\n"
+        + _table(["limit", "S W/m2", "mW/cm2", "E V/m", "H A/m", "averaging", "source"], rows)
+    )
+    if data.get("not_covering_frequency"):
+        text += "\n\nNot defined at this frequency: " + ", ".join(data["not_covering_frequency"])
+    return text
+
+
+def probe_table(data: dict[str, Any]) -> str:
+    """The ``probe`` listing: one block per point."""
+    lines = [f"Scenario: {data['scenario']}    reflections: {data['reflections']}", ""]
+    for p in data["points"]:
+        x, y, z = p["position_m"]
+        lines.append(f"Point ({x:g}, {y:g}, {z:g}) m")
+        lines.append(
+            f"  E {_fmt(p['e_v_m'])} V/m   H {_fmt(p['h_a_m'])} A/m   "
+            f"S {_fmt(p['power_density_w_m2'])} W/m2 time-averaged, "
+            f"{_fmt(p['peak_power_density_w_m2'])} W/m2 while radiating"
+        )
+        for limit_id, q in p["quotients"].items():
+            verdict = "EXCEEDS" if q >= 1 else "below"
+            lines.append(f"  {limit_id:36s} {100 * q:10.3g} % of limit  {verdict}")
+        lines.append("")
+    return "\n".join(lines).rstrip()
+
+
+def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = False) -> str:
+    """The ``keepout`` listing."""
+    c = data["centre_m"]
+    lines = [
+        f"Scenario: {data['scenario']}",
+        f"Keep-out about the first source at ({c[0]:g}, {c[1]:g}, {c[2]:g}) m; "
+        f"time-averaged power {_fmt(data['average_power_w'], 4)} W; "
+        f"reflections: {data['reflections']}",
+        "",
+    ]
+    header = ["limit", "limit W/m2", "keep-out m", "with model uncertainty m", "farthest towards"]
+    if screening:
+        header.append("screening m")
+    rows = []
+    for k in data["keepout"]:
+        d = k["direction"]
+        towards = (
+            "not reached anywhere" if d is None else "(" + ", ".join(f"{x:+.2f}" for x in d) + ")"
+        )
+        row = [
+            k["limit"],
+            _fmt(k["limit_w_m2"], 4),
+            f"{k['distance_m']:.3f}",
+            f"{k['distance_with_uncertainty_m']:.3f}"
+            + (f" (+{k['model_uncertainty_db']:.1f} dB)" if k["model_uncertainty_db"] > 0 else ""),
+            towards,
+        ]
+        if screening:
+            row.append(f"{k['screening_distance_m']:.3f}")
+        rows.append(row)
+    lines.append(_table(header, rows))
+    if screening:
+        lines += [
+            "",
+            "Screening: S = P G / (4 pi R^2) with the peak gain in every direction and the "
+            "FCC OET 65 reflection factor (2.56 ground, 4 perfect reflector); enclosures and shields ignored.",
+        ]
+    if any(k["model_uncertainty_db"] > 0 for k in data["keepout"]):
+        lines += [
+            "",
+            "Mark out the larger figure: the source model's gain is uncertain by the stated dB.",
+        ]
+    if scenario is not None and np.any([k["distance_m"] > 0 for k in data["keepout"]]):
+        lines += ["", "Keep people outside this radius while the source can radiate."]
+    return "\n".join(lines)

@@ -1,0 +1,589 @@
+"""Scenario files: read once, validate everything, build immutable objects.
+
+A scenario is a TOML file (read with :mod:`tomllib`).  The keys of the stable
+contract are accepted exactly; every value is checked for type, range and unit
+sense before anything is computed, and an unknown key is an error with a "did you
+mean" suggestion, because a typo silently ignored in a safety tool is a wrong
+answer.  Errors name the file, the key path (``source[1].power_w``) and what is
+allowed.
+
+After loading, computation never reads the file again: :class:`Scenario` and the
+objects it holds are frozen.
+
+Alternatives (``[[option]]``) are parsed here too: each option overrides parts of
+the base document (top-level keys are replaced; ``[[option.source]]`` tables are
+merged into the base source with the same ``id``; ``[option.enclosure]`` is merged
+key by key into the base enclosure) and the merged document is validated as a
+whole scenario of its own.
+"""
+
+from __future__ import annotations
+
+import copy
+import math
+import tomllib
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from keepclear.antennas.base import Placement, Radiator
+
+from . import limits as limits_mod
+from .errors import InputError, LimitError, ScenarioError
+from .validate import Table, suggest
+
+#: Default operating frequency [Hz] (the 2.45 GHz ISM band centre).
+DEFAULT_FREQUENCY_HZ = 2.45e9
+#: Limits assessed when a scenario has no ``[exposure]`` table.
+DEFAULT_LIMIT_IDS = ("icnirp-2020/general-public", "icnirp-2020/occupational")
+ANTENNA_KINDS = ("isotropic", "dipole", "monopole", "open-waveguide", "horn")
+REFLECTION_MODES = ("envelope", "coherent")
+#: Keys a [[source]] table may hold, per antenna kind (besides the common ones).
+_COMMON_SOURCE_KEYS = ("id", "antenna", "power_w", "duty_cycle", "position_m")
+_KIND_KEYS: dict[str, tuple[str, ...]] = {
+    "isotropic": ("gain_dbi", "polarization"),
+    "dipole": ("axis", "length_m"),
+    "monopole": ("axis", "length_m"),
+    "open-waveguide": ("boresight", "polarization", "waveguide", "broad_m", "narrow_m"),
+    "horn": (
+        "boresight",
+        "polarization",
+        "waveguide",
+        "broad_m",
+        "narrow_m",
+        "aperture_width_m",
+        "aperture_height_m",
+        "length_m",
+    ),
+}
+_ALL_SOURCE_KEYS = sorted(set(_COMMON_SOURCE_KEYS).union(*_KIND_KEYS.values()))
+_TOP_KEYS = (
+    "name",
+    "frequency_hz",
+    "reflections",
+    "source",
+    "exposure",
+    "reflector",
+    "shield",
+    "enclosure",
+    "point",
+    "option",
+)
+#: Frequencies the models accept at all [Hz]; limits narrow this further.
+FREQUENCY_RANGE_HZ = (1e8, 1e11)
+
+
+@dataclass(frozen=True)
+class Source:
+    """One radiating source of a scenario.
+
+    Parameters
+    ----------
+    id : str
+        Unique label.
+    antenna : str
+        Model name (one of :data:`ANTENNA_KINDS`).
+    power_w : float
+        Power delivered to the antenna while it radiates [W].
+    duty_cycle : float
+        Fraction of time radiating, 0 < d <= 1.
+    radiator : Radiator
+        The field model, placed in the scenario.
+    given : dict
+        The keys as written in the file (for reports).
+    """
+
+    id: str
+    antenna: str
+    power_w: float
+    duty_cycle: float
+    radiator: Radiator
+    given: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def position_m(self) -> NDArray[np.float64]:
+        """Reference point [m]."""
+        return self.radiator.position_m
+
+    @property
+    def average_power_w(self) -> float:
+        """Time-averaged radiated power d * P [W]."""
+        return self.duty_cycle * self.power_w
+
+
+@dataclass(frozen=True)
+class PointOfInterest:
+    """A named place to report (``[[point]]``): the operator's seat, a doorway."""
+
+    name: str
+    position_m: NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class Option:
+    """A named alternative (``[[option]]``): the whole scenario as it would be."""
+
+    name: str
+    description: str
+    scenario: Scenario
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A validated scenario: sources, surroundings and the limits to assess.
+
+    Parameters
+    ----------
+    name : str
+        Free text title.
+    path : str
+        The file it came from (for messages and reports).
+    frequency_hz : float
+        Operating frequency [Hz].
+    reflections : str
+        ``"envelope"`` (worst case) or ``"coherent"``.
+    sources : tuple of Source
+    limit_ids : tuple of str
+    reflectors, shields : tuple
+        Objects from :mod:`keepclear.fields.reflection` and :mod:`keepclear.fields.shield`.
+    enclosure : object or None
+        An :class:`keepclear.fields.enclosure.Enclosure`.
+    points : tuple of PointOfInterest
+    options : tuple of Option
+    document : dict
+        The parsed TOML as given.
+    """
+
+    name: str
+    path: str
+    frequency_hz: float
+    reflections: str
+    sources: tuple[Source, ...]
+    limit_ids: tuple[str, ...]
+    reflectors: tuple[Any, ...] = ()
+    shields: tuple[Any, ...] = ()
+    enclosure: Any = None
+    points: tuple[PointOfInterest, ...] = ()
+    options: tuple[Option, ...] = ()
+    document: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def centre_m(self) -> NDArray[np.float64]:
+        """Keep-out centre: the first source's reference point [m]."""
+        return self.sources[0].position_m
+
+    @property
+    def average_power_w(self) -> float:
+        """Sum of time-averaged source powers [W]."""
+        return float(sum(s.average_power_w for s in self.sources))
+
+    @property
+    def wavelength_m(self) -> float:
+        """Free-space wavelength [m]."""
+        return self.sources[0].radiator.wavelength_m
+
+    def with_limits(self, limit_ids: tuple[str, ...]) -> Scenario:
+        """A copy assessing other limits."""
+        return replace(self, limit_ids=limit_ids)
+
+
+# ----------------------------------------------------------------- sources
+def _placement(t: Table, axis_key: str, polarization: bool) -> Placement:
+    position = t.vector("position_m", np.zeros(3), unit="m")
+    if axis_key == "boresight":
+        axis = t.vector("boresight", unit="unit-free direction", nonzero=True)
+    else:
+        axis = t.vector(axis_key, np.array([0.0, 0.0, 1.0]), nonzero=True)
+    pol = t.vector("polarization", None, nonzero=True) if polarization else None
+    if pol is None and axis_key == "boresight":
+        # E along the vertical where the boresight is horizontal (the usual bench set-up).
+        up = np.array([0.0, 0.0, 1.0])
+        pol = up if abs(np.dot(up, axis) / np.linalg.norm(axis)) < 0.99 else np.array([1.0, 0, 0])
+    return t.build(Placement.from_axes, position, axis, pol)
+
+
+def _feed_dimensions(t: Table) -> tuple[float, float]:
+    from keepclear.antennas.waveguide import waveguide_dimensions
+
+    has_name = t.has("waveguide")
+    has_dims = t.has("broad_m") or t.has("narrow_m")
+    if has_name and has_dims:
+        raise t.error(
+            "waveguide", 'give either waveguide = "WR-340" or broad_m and narrow_m, not both'
+        )
+    if has_name:
+        name = t.string("waveguide")
+        return t.build(waveguide_dimensions, name)
+    if not has_dims:
+        raise t.error(
+            "waveguide",
+            'is required: a standard size name such as "WR-340", or broad_m and narrow_m',
+        )
+    broad = t.number("broad_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=10.0)
+    narrow = t.number("narrow_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=10.0)
+    if narrow > broad:
+        raise t.error(
+            "narrow_m", f"must not exceed broad_m ({broad:g} m): the broad wall is the wider one"
+        )
+    return broad, narrow
+
+
+def _build_isotropic(t: Table, f: float, p: float) -> Radiator:
+    from keepclear.antennas.isotropic import IsotropicSource
+
+    gain = t.number("gain_dbi", 0.0, unit="dBi", minimum=-30.0, maximum=60.0)
+    placement = _placement(t, "axis_unused", polarization=True) if t.has("polarization") else None
+    if placement is None:
+        placement = t.build(Placement.from_axes, t.vector("position_m", np.zeros(3), unit="m"))
+    return t.build(IsotropicSource, f, p, gain_dbi=gain, placement=placement)
+
+
+def _build_wire(t: Table, f: float, p: float, kind: str) -> Radiator:
+    from keepclear.antennas import wire
+
+    length = t.number(
+        "length_m", None, unit="m", minimum=0.0, exclusive_minimum=True, maximum=100.0
+    )
+    placement = _placement(t, "axis", polarization=False)
+    cls = wire.Dipole if kind == "dipole" else wire.Monopole
+    return t.build(cls, f, p, length_m=length, placement=placement)
+
+
+def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
+    from keepclear.antennas.aperture import OpenWaveguide
+
+    broad, narrow = _feed_dimensions(t)
+    placement = _placement(t, "boresight", polarization=True)
+    return t.build(OpenWaveguide, f, p, broad, narrow, placement=placement)
+
+
+def _build_horn(t: Table, f: float, p: float) -> Radiator:
+    from keepclear.antennas.horn import PyramidalHorn
+
+    broad, narrow = _feed_dimensions(t)
+    width = t.number(
+        "aperture_width_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
+    )
+    height = t.number(
+        "aperture_height_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
+    )
+    length = t.number("length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0)
+    placement = _placement(t, "boresight", polarization=True)
+    return t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
+
+
+_BUILDERS: dict[str, Callable[[Table, float, float], Radiator]] = {
+    "isotropic": _build_isotropic,
+    "dipole": lambda t, f, p: _build_wire(t, f, p, "dipole"),
+    "monopole": lambda t, f, p: _build_wire(t, f, p, "monopole"),
+    "open-waveguide": _build_open_waveguide,
+    "horn": _build_horn,
+}
+
+
+def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
+    # Refuse unknown keys first, so a typo is named before any value error it causes.
+    for key in t.data:
+        if key not in _ALL_SOURCE_KEYS:
+            raise t.error(
+                key,
+                "is not a known source key"
+                + suggest(key, _ALL_SOURCE_KEYS)
+                + f"; allowed: {', '.join(_ALL_SOURCE_KEYS)}",
+            )
+    kind = t.string("antenna", choices=ANTENNA_KINDS)
+    allowed = set(_COMMON_SOURCE_KEYS) | set(_KIND_KEYS[kind])
+    for key in t.data:
+        if key not in allowed:
+            users = [k for k, keys in _KIND_KEYS.items() if key in keys]
+            raise t.error(
+                key,
+                f'does not apply to antenna = "{kind}" (it is a key of '
+                f"{', '.join(users)}); allowed here: {', '.join(sorted(allowed))}",
+            )
+    source_id = t.string("id", f"source{index + 1}")
+    if not source_id.strip():
+        raise t.error("id", "must not be empty")
+    power = t.number("power_w", unit="W", minimum=0.0, exclusive_minimum=True, maximum=1e7)
+    duty = t.number("duty_cycle", 1.0, minimum=0.0, exclusive_minimum=True, maximum=1.0)
+    radiator = _BUILDERS[kind](t, frequency_hz, power)
+    t.finish(allowed)
+    return Source(source_id, kind, power, duty, radiator, dict(t.data))
+
+
+# --------------------------------------------------------------- top level
+def _read_limits(root: Table, frequency_hz: float) -> tuple[str, ...]:
+    exposure = root.table("exposure", None)
+    if exposure is None:
+        ids = list(DEFAULT_LIMIT_IDS)
+    else:
+        ids = exposure.string_list("limits")
+        exposure.finish(["limits"])
+        if not ids:
+            raise exposure.error(
+                "limits", "must name at least one limit id; see `keepclear limits`"
+            )
+    seen = set()
+    for i, limit_id in enumerate(ids):
+        key = f"limits[{i}]"
+        if limit_id in seen:
+            raise root.error(f"exposure.{key}", f"'{limit_id}' is listed twice")
+        seen.add(limit_id)
+        try:
+            limit = limits_mod.get_limit(limit_id)
+            limit.at(frequency_hz)
+        except LimitError as exc:
+            raise ScenarioError(exc.message, root.source, f"exposure.{key}") from None
+    return tuple(ids)
+
+
+def _read_points(root: Table) -> tuple[PointOfInterest, ...]:
+    points = []
+    names: set[str] = set()
+    for t in root.tables("point"):
+        name = t.string("name")
+        if name in names:
+            raise t.error("name", f"'{name}' is used by another [[point]]; names must be unique")
+        names.add(name)
+        points.append(PointOfInterest(name, t.vector("position_m", unit="m")))
+        t.finish()
+    return tuple(points)
+
+
+def _read_reflectors(root: Table, frequency_hz: float) -> tuple[Any, ...]:
+    tables = root.tables("reflector")
+    if not tables:
+        return ()
+    from .reflection import reflector_from_table
+
+    return tuple(reflector_from_table(t, frequency_hz) for t in tables)
+
+
+def _read_shields(root: Table, frequency_hz: float) -> tuple[Any, ...]:
+    tables = root.tables("shield")
+    if not tables:
+        return ()
+    from .shield import shield_from_table
+
+    return tuple(shield_from_table(t, frequency_hz) for t in tables)
+
+
+def _read_enclosure(root: Table, frequency_hz: float, sources: tuple[Source, ...]) -> Any:
+    t = root.table("enclosure", None)
+    if t is None:
+        return None
+    from .enclosure import enclosure_from_table
+
+    enclosure = enclosure_from_table(t, frequency_hz)
+    positions = np.array([s.position_m for s in sources])
+    try:
+        enclosure.check_sources(positions, [s.id for s in sources])
+    except InputError as exc:
+        raise exc.located(root.source, "enclosure") from None
+    return enclosure
+
+
+def scenario_from_document(
+    document: dict[str, Any], source: str, *, allow_options: bool = True
+) -> Scenario:
+    """Validate a parsed TOML document and build the :class:`Scenario`.
+
+    Parameters
+    ----------
+    document : dict
+        As returned by :func:`tomllib.loads`.
+    source : str
+        File name used in messages.
+    allow_options : bool
+        Whether ``[[option]]`` tables may appear (not inside an option).
+
+    Raises
+    ------
+    ScenarioError
+        For the first problem found, located by file and key path.
+    """
+    root = Table(document, "", source)
+    for key in root.data:
+        allowed = _TOP_KEYS if allow_options else tuple(k for k in _TOP_KEYS if k != "option")
+        if key not in allowed:
+            raise root.error(
+                key,
+                "is not a known top-level key"
+                + suggest(key, allowed)
+                + f"; allowed: {', '.join(allowed)}",
+            )
+    name = root.string("name", Path(source).stem)
+    frequency = root.number(
+        "frequency_hz",
+        DEFAULT_FREQUENCY_HZ,
+        unit="Hz",
+        minimum=FREQUENCY_RANGE_HZ[0],
+        maximum=FREQUENCY_RANGE_HZ[1],
+    )
+    mode = root.string("reflections", "envelope", choices=REFLECTION_MODES)
+    source_tables = root.tables("source")
+    if not source_tables:
+        raise root.error("source", "at least one [[source]] table is required")
+    if len(source_tables) > 200:
+        raise root.error("source", f"at most 200 sources are supported, got {len(source_tables)}")
+    sources = tuple(_read_source(t, i, frequency) for i, t in enumerate(source_tables))
+    ids = [s.id for s in sources]
+    for i, sid in enumerate(ids):
+        if ids.index(sid) != i:
+            raise root.error(
+                f"source[{i}].id",
+                f"'{sid}' is used by source[{ids.index(sid)}]; ids must be unique",
+            )
+    limit_ids = _read_limits(root, frequency)
+    reflectors = _read_reflectors(root, frequency)
+    shields = _read_shields(root, frequency)
+    enclosure = _read_enclosure(root, frequency, sources)
+    points = _read_points(root)
+    root.raw("option", None)
+    scenario = Scenario(
+        name=name,
+        path=source,
+        frequency_hz=frequency,
+        reflections=mode,
+        sources=sources,
+        limit_ids=limit_ids,
+        reflectors=reflectors,
+        shields=shields,
+        enclosure=enclosure,
+        points=points,
+        document=document,
+    )
+    if allow_options and "option" in document:
+        scenario = replace(scenario, options=_read_options(root, document, source))
+    return scenario
+
+
+def _merge_option(base: dict[str, Any], option: Table) -> dict[str, Any]:
+    merged = copy.deepcopy(base)
+    merged.pop("option", None)
+    for key, value in option.data.items():
+        if key in ("name", "description"):
+            continue
+        if key not in _TOP_KEYS or key == "option":
+            allowed = [k for k in _TOP_KEYS if k != "option"] + ["name", "description"]
+            raise option.error(
+                key,
+                "is not a key an option may override"
+                + suggest(key, allowed)
+                + f"; allowed: {', '.join(allowed)}",
+            )
+        if key == "source":
+            merged["source"] = _merge_sources(merged.get("source", []), value, option)
+        elif key == "enclosure" and isinstance(value, dict) and isinstance(merged.get(key), dict):
+            merged[key] = {**merged[key], **copy.deepcopy(value)}
+        else:
+            merged[key] = copy.deepcopy(value)
+    return merged
+
+
+def _merge_sources(base: list[Any], changes: Any, option: Table) -> list[Any]:
+    """Merge ``[[option.source]]`` tables into the base sources by ``id``."""
+    if isinstance(changes, dict):
+        changes = [changes]
+    if not isinstance(changes, list) or not all(isinstance(c, dict) for c in changes):
+        raise option.error("source", "must be an array of tables ([[option.source]])")
+    out = copy.deepcopy(base)
+    base_ids = [
+        s.get("id", f"source{i + 1}") if isinstance(s, dict) else None for i, s in enumerate(out)
+    ]
+    for i, change in enumerate(changes):
+        sid = change.get("id")
+        if sid in base_ids and "antenna" not in change:
+            j = base_ids.index(sid)
+            out[j] = {**out[j], **copy.deepcopy(change)}
+        elif sid in base_ids:
+            # A new antenna replaces the source whole: the old kind's keys would not apply.
+            out[base_ids.index(sid)] = copy.deepcopy(change)
+        elif "antenna" in change:
+            out.append(copy.deepcopy(change))
+        else:
+            raise option.error(
+                f"source[{i}].id",
+                f"must name a base source ({', '.join(str(b) for b in base_ids)}) to change it, "
+                "or the table must be a whole new source with `antenna`"
+                + suggest(str(sid), map(str, base_ids)),
+            )
+    return out
+
+
+def _read_options(root: Table, document: dict[str, Any], source: str) -> tuple[Option, ...]:
+    options = []
+    names: set[str] = set()
+    for t in root.tables("option"):
+        name = t.string("name")
+        if name in names:
+            raise t.error("name", f"'{name}' names two options; option names must be unique")
+        names.add(name)
+        description = t.string("description", "")
+        merged = _merge_option(document, t)
+        try:
+            scenario = scenario_from_document(merged, source, allow_options=False)
+        except InputError as exc:
+            raise ScenarioError(
+                f"in option '{name}': {exc.key}: {exc.message}" if exc.key else exc.message,
+                source,
+                t.path,
+            ) from None
+        options.append(
+            Option(name, description, replace(scenario, name=f"{scenario.name} — {name}"))
+        )
+    return tuple(options)
+
+
+def load_scenario(path: str | Path) -> Scenario:
+    """Read and validate a scenario file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+
+    Returns
+    -------
+    Scenario
+
+    Raises
+    ------
+    ScenarioError
+        If the file is missing, a directory, not UTF-8 TOML, or invalid.
+    """
+    p = Path(path)
+    label = str(path)
+    if not p.exists():
+        raise ScenarioError("no such file", label)
+    if p.is_dir():
+        raise ScenarioError("is a directory; give a scenario .toml file", label)
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise ScenarioError(f"cannot be read ({exc.strerror})", label) from None
+    if len(raw) > 2_000_000:
+        raise ScenarioError(f"is {len(raw)} bytes; a scenario file is at most 2 MB", label)
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", label) from None
+    try:
+        document = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ScenarioError(f"is not valid TOML: {exc}", label) from None
+    except RecursionError:
+        raise ScenarioError("is nested too deeply to be a scenario", label) from None
+    try:
+        return scenario_from_document(document, label)
+    except RecursionError:
+        raise ScenarioError("is nested too deeply to be a scenario", label) from None
+
+
+def is_finite_number(value: Any) -> bool:
+    """True for a real, finite int or float (not a bool)."""
+    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)

@@ -1,0 +1,286 @@
+"""The command line: contract shapes, exit codes, one-line errors.
+
+Contract: ../shared/contract.md (commands, JSON shapes, exit status).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+from typer.testing import CliRunner
+
+from keepclear.fields.cli import app
+
+from .conftest import ISOTROPIC, SCENARIOS
+
+runner = CliRunner()
+
+
+def run(*args: str):
+    return runner.invoke(app, list(args))
+
+
+def one_error_line(result) -> str:
+    assert result.exit_code == 2, (result.exit_code, result.output, result.stderr)
+    lines = [ln for ln in result.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1, result.stderr
+    assert "Traceback" not in result.stderr
+    assert result.stdout == ""
+    return lines[0]
+
+
+# ------------------------------------------------------------------ help, version
+@pytest.mark.parametrize("command", [[], ["limits"], ["probe"], ["keepout"]])
+def test_help(command):
+    result = run(*command, "--help")
+    assert result.exit_code == 0
+    assert "Usage" in result.stdout
+
+
+def test_version():
+    result = run("--version")
+    assert result.exit_code == 0 and result.stdout.startswith("keepclear ")
+
+
+# ----------------------------------------------------------------------- limits
+def test_limits_json_shape():
+    result = run("limits", "--json")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["schema_version"] == 1 and data["frequency_hz"] == 2.45e9
+    ids = {v["id"] for v in data["limits"]}
+    assert "icnirp-2020/general-public" in ids and "fda-1030.10/in-service" in ids
+    for v in data["limits"]:
+        assert set(v) >= {
+            "id",
+            "power_density_w_m2",
+            "e_v_m",
+            "h_a_m",
+            "averaging_time_s",
+            "source",
+        }
+    icnirp = next(v for v in data["limits"] if v["id"] == "icnirp-2020/general-public")
+    # ICNIRP 2020, Table 5: 10 W/m^2 above 2 GHz, whole body, 30 min; E and H NA.
+    assert icnirp["power_density_w_m2"] == pytest.approx(10.0)
+    assert icnirp["e_v_m"] is None and icnirp["averaging_time_s"] == 1800
+
+
+def test_limits_text_has_caution():
+    result = run("limits", "--frequency-hz", "5.8e9")
+    assert result.exit_code == 0
+    assert "CAUTION" in result.stdout and "beryllium" in result.stdout
+
+
+# ------------------------------------------------------------------------ probe
+def test_probe_json_shape(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    result = run("probe", str(path), "--at", "1,0,0", "--at=-0.5,0,1", "--json")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["schema_version"] == 1 and len(data["points"]) == 2
+    p = data["points"][0]
+    assert set(p) >= {
+        "position_m",
+        "e_v_m",
+        "h_a_m",
+        "power_density_w_m2",
+        "peak_power_density_w_m2",
+        "quotients",
+    }
+    # OET 65 eq. (3): S = P / (4 pi r^2) for an isotropic source, P = 100 W, r = 1 m.
+    assert p["power_density_w_m2"] == pytest.approx(100 / (4 * np.pi), rel=1e-9)
+    assert data["points"][1]["position_m"] == [-0.5, 0.0, 1.0]
+
+
+def test_probe_bulk_csv_roundtrip(write_scenario, tmp_path):
+    path = write_scenario(ISOTROPIC)
+    pts = np.array([[1.0, 0, 0], [0, 2.0, 0], [-3.0, 0, 0]])
+    inp = tmp_path / "in.csv"
+    inp.write_text("x_m,y_m,z_m\n" + "\n".join(",".join(map(str, p)) for p in pts) + "\n")
+    out = tmp_path / "out.csv"
+    result = run("probe", str(path), "--points", str(inp), "--csv", str(out))
+    assert result.exit_code == 0, result.stderr
+    lines = out.read_text().splitlines()
+    assert lines[0] == "x_m,y_m,z_m,e_v_m,h_a_m,power_density_w_m2,peak_power_density_w_m2"
+    rows = np.loadtxt(out, delimiter=",", skiprows=1)
+    np.testing.assert_allclose(rows[:, :3], pts)
+    r = np.linalg.norm(pts, axis=1)
+    np.testing.assert_allclose(rows[:, 5], 100 / (4 * np.pi * r**2), rtol=1e-6)
+    # E = sqrt(S eta0) for the far-zone plane wave
+    np.testing.assert_allclose(rows[:, 3] ** 2 / 376.730313, rows[:, 5], rtol=1e-6)
+
+
+# ---------------------------------------------------------------------- keepout
+def test_keepout_json_shape(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    result = run("keepout", str(path), "--json")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["schema_version"] == 1 and data["average_power_w"] == pytest.approx(100.0)
+    entry = data["keepout"][0]
+    assert set(entry) >= {"limit", "limit_w_m2", "distance_m", "direction"}
+    assert entry["limit"] == "icnirp-2020/general-public"
+    assert entry["distance_m"] == pytest.approx(np.sqrt(100 / (4 * np.pi * 10)), rel=5e-3)
+
+
+def test_keepout_text_screening_and_caution(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    result = run("keepout", str(path), "--screening")
+    assert result.exit_code == 0, result.stderr
+    assert "screening" in result.stdout and "CAUTION" in result.stdout
+
+
+# -------------------------------------------------------------------- bad input
+BAD_SCENARIOS = {
+    "negative power": ('[[source]]\nantenna = "isotropic"\npower_w = -5\n', "source[0].power_w"),
+    "duty zero": (
+        '[[source]]\nantenna = "isotropic"\npower_w = 5\nduty_cycle = 0\n',
+        "source[0].duty_cycle",
+    ),
+    "duty 1.5": (
+        '[[source]]\nantenna = "isotropic"\npower_w = 5\nduty_cycle = 1.5\n',
+        "source[0].duty_cycle",
+    ),
+    "unknown antenna": ('[[source]]\nantenna = "yagi"\npower_w = 5\n', "source[0].antenna"),
+    "unknown limit": (
+        '[[source]]\nantenna = "isotropic"\npower_w = 5\n[exposure]\nlimits = ["icnirp-2020/general-publc"]\n',
+        "did you mean",
+    ),
+    "missing power": ('[[source]]\nantenna = "isotropic"\n', "source[0].power_w"),
+    "nan": ('[[source]]\nantenna = "isotropic"\npower_w = nan\n', "source[0].power_w"),
+    "inf": ('[[source]]\nantenna = "isotropic"\npower_w = inf\n', "source[0].power_w"),
+    "zero vector": (
+        '[[source]]\nantenna = "dipole"\npower_w = 5\naxis = [0, 0, 0]\n',
+        "source[0].axis",
+    ),
+    "not toml": ("this is = = not toml\n", "not valid TOML"),
+    "string for number": (
+        '[[source]]\nantenna = "isotropic"\npower_w = "800"\n',
+        "source[0].power_w",
+    ),
+    "typo key": ('[[source]]\nantenna = "isotropic"\npowr_w = 5\n', "did you mean 'power_w'"),
+    "typo top key": (
+        'nmae = "x"\n[[source]]\nantenna = "isotropic"\npower_w = 5\n',
+        "did you mean 'name'",
+    ),
+    "no source": ('name = "empty"\n', "source"),
+    "key of another antenna": (
+        '[[source]]\nantenna = "isotropic"\npower_w = 5\nlength_m = 0.06\n',
+        "does not apply",
+    ),
+    "duplicate ids": (
+        '[[source]]\nid="a"\nantenna = "isotropic"\npower_w = 5\n'
+        '[[source]]\nid="a"\nantenna = "isotropic"\npower_w = 5\n',
+        "source[1].id",
+    ),
+    "bad reflection mode": (
+        'reflections = "worst"\n[[source]]\nantenna = "isotropic"\npower_w = 5\n',
+        "reflections",
+    ),
+    "frequency out of range": (
+        'frequency_hz = -1\n[[source]]\nantenna = "isotropic"\npower_w = 5\n',
+        "frequency_hz",
+    ),
+    "limit out of band": (
+        'frequency_hz = 1.0e10\n[[source]]\nantenna = "isotropic"\npower_w = 5\n'
+        '[exposure]\nlimits = ["fda-1030.10/in-service"]\n',
+        "exposure.limits[0]",
+    ),
+    "position wrong length": (
+        '[[source]]\nantenna = "isotropic"\npower_w = 5\nposition_m = [1, 2]\n',
+        "source[0].position_m",
+    ),
+    "bool for number": ('[[source]]\nantenna = "isotropic"\npower_w = true\n', "source[0].power_w"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(BAD_SCENARIOS))
+def test_bad_scenario_exit_2_one_line(write_scenario, case):
+    text, fragment = BAD_SCENARIOS[case]
+    path = write_scenario(text)
+    for command in (["keepout", str(path)], ["probe", str(path), "--at", "1,0,0"]):
+        line = one_error_line(run(*command))
+        assert str(path) in line or "scenario.toml" in line
+        assert fragment in line
+
+
+def test_missing_file_and_directory(tmp_path):
+    line = one_error_line(run("keepout", str(tmp_path / "nope.toml")))
+    assert "nope.toml" in line and "no such file" in line
+    line = one_error_line(run("keepout", str(tmp_path)))
+    assert "directory" in line
+
+
+@pytest.mark.parametrize(
+    ("args", "fragment"),
+    [
+        (["--at", "1,2"], "--at"),
+        (["--at", "a,b,c"], "--at"),
+        (["--at", "1,2,nan"], "--at"),
+        ([], "--at"),
+    ],
+)
+def test_bad_probe_arguments(write_scenario, args, fragment):
+    path = write_scenario(ISOTROPIC)
+    line = one_error_line(run("probe", str(path), *args))
+    assert fragment in line
+
+
+def test_bad_points_file_writes_nothing(write_scenario, tmp_path):
+    path = write_scenario(ISOTROPIC)
+    inp = tmp_path / "in.csv"
+    inp.write_text("x,y,z\n1,2,3\n")
+    out = tmp_path / "out.csv"
+    line = one_error_line(run("probe", str(path), "--points", str(inp), "--csv", str(out)))
+    assert "header" in line and not out.exists()
+    inp.write_text("x_m,y_m,z_m\n1,2,3\n1,2\n")
+    assert "--points" in one_error_line(
+        run("probe", str(path), "--points", str(inp), "--csv", str(out))
+    )
+    assert not out.exists()
+
+
+def test_probe_refuses_to_overwrite_scenario(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    before = path.read_text()
+    line = one_error_line(run("probe", str(path), "--at", "1,0,0", "--csv", str(path)))
+    assert "overwrite" in line and path.read_text() == before
+
+
+def test_unknown_option_and_command():
+    assert "--bogus" in one_error_line(run("limits", "--bogus"))
+    assert "frobnicate" in one_error_line(run("frobnicate"))
+
+
+def test_limits_bad_frequency():
+    assert "--frequency-hz" in one_error_line(run("limits", "--frequency-hz", "abc"))
+
+
+# --------------------------------------------------------- the installed script
+def test_installed_entry_point_subprocess(tmp_path):
+    exe = shutil.which("keepclear", path=str(Path(sys.executable).parent)) or shutil.which(
+        "keepclear"
+    )
+    assert exe, "the keepclear console script is not installed"
+    scenario = SCENARIOS / "isotropic-screening.toml"
+    done = subprocess.run(
+        [exe, "keepout", str(scenario), "--json"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        env={**os.environ, "COLUMNS": "120"},
+    )
+    assert done.returncode == 0, done.stderr
+    data = json.loads(done.stdout)
+    assert data["keepout"][0]["distance_m"] > 0
+    bad = subprocess.run(
+        [exe, "keepout", str(tmp_path / "missing.toml")], capture_output=True, text=True, timeout=60
+    )
+    assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1
