@@ -217,18 +217,28 @@ def probe_command(
     ] = None,
     json_out: JsonFlag = False,
 ) -> None:
-    """Fields, power density and exposure quotients at points."""
+    """Fields, power density and exposure quotients at points.
+
+    Without --at or --points, the scenario's named [[point]] places are probed.
+    """
     from .outputs import atomic_write_bytes, probe_csv_bytes, read_points_csv, refuse_overwriting
 
-    if not at and points is None:
-        raise InputError("give at least one --at X,Y,Z or a --points file", "argument", "--at")
     if csv_out is not None:
         refuse_overwriting(csv_out, [scenario] + ([points] if points else []))
+    at_points = _parse_at(at) if at else None
     loaded = _load(scenario)
-    pts = [_parse_at(at)] if at else []
+    pts = [at_points] if at_points is not None else []
     if points is not None:
         pts.append(read_points_csv(points))
-    all_points = np.vstack(pts) if pts else np.zeros((0, 3))
+    if not pts:
+        if not loaded.points:
+            raise InputError(
+                "give at least one --at X,Y,Z or a --points file (the scenario has no [[point]])",
+                "argument",
+                "--at",
+            )
+        pts.append(np.array([p.position_m for p in loaded.points]))
+    all_points = np.vstack(pts)
     from .assessment import probe_data
 
     if csv_out is not None and not json_out:

@@ -107,7 +107,8 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
         lines += [
             "",
             "Screening: S = P G / (4 pi R^2) with the peak gain in every direction and the "
-            "FCC OET 65 reflection factor (2.56 ground, 4 perfect reflector); enclosures and shields ignored.",
+            "FCC OET 65 reflection factor (2.56 ground, 4 perfect reflector); "
+            "enclosures and shields ignored.",
         ]
     if any(k["model_uncertainty_db"] > 0 for k in data["keepout"]):
         lines += [
