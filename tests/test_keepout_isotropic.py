@@ -42,7 +42,9 @@ def test_isotropic_keepout_matches_closed_form_and_never_below(
         expected = closed_form_m(power_w, duty, gain_dbi, result.limit_w_m2)
         assert result.distance_m >= expected  # never below the closed form
         assert result.distance_m == pytest.approx(expected, rel=5e-3)
-        assert result.screening_distance_m == pytest.approx(expected, rel=1e-9)
+        # SC6 also gives E and H; their plane-wave equivalents differ from S by the rounding of
+        # the printed coefficients, and the stricter of them sets the threshold.
+        assert result.screening_distance_m == pytest.approx(expected, rel=1e-3)
         assert result.direction is not None and np.linalg.norm(result.direction) == pytest.approx(
             1.0
         )
