@@ -9,7 +9,7 @@ local z axis carries the standing-wave current
 
 the classic approximation for a centre-fed wire of radius :math:`a \\ll \\lambda`.
 For this current the fields everywhere outside the filament are known in closed
-form (Schelkunoff; Jordan & Balmain [2]_ sec. 14.x; Balanis [1]_ sec. 8.5, the
+form (Schelkunoff [3]_; Jordan & Balmain [2]_ ch. 14; Balanis [1]_ sec. 8.5, the
 near fields used by the induced-EMF method).  With
 :math:`R_1 = \\sqrt{\\rho^2 + (z-h)^2}`, :math:`R_2 = \\sqrt{\\rho^2 + (z+h)^2}`,
 :math:`r = \\sqrt{\\rho^2 + z^2}` and the time convention :math:`e^{+j\\omega t}`:
