@@ -73,8 +73,9 @@ References
    (superseded above 100 kHz by [1]; cited for comparison only).
 .. [3] IEEE Std C95.1-2019, "IEEE Standard for Safety Levels with Respect to Human
    Exposure to Electric, Magnetic, and Electromagnetic Fields, 0 Hz to 300 GHz",
-   IEEE Xplore document 8859679, doi:10.1109/IEEESTD.2019.8859679.  ERL Table 7
-   (unrestricted) and Table 8 (restricted).
+   IEEE Xplore document 8859679 (doi:10.1109/IEEESTD.2019.8859679; the DOI follows
+   IEEE's pattern for that document, not read).  ERL Table 7 (unrestricted) and
+   Table 8 (restricted); table numbers and values from memory.
 .. [4] 47 CFR 1.1310, "Radiofrequency radiation exposure limits", Table 1 (limits for
    maximum permissible exposure), as amended 85 FR 18146, 1 Apr 2020.
 .. [5] Health Canada, Safety Code 6 (2015), "Limits of Human Exposure to
