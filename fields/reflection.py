@@ -1,0 +1,939 @@
+"""Reflecting planes: Fresnel coefficients and the image method.
+
+Model
+-----
+A reflector is an infinite plane through ``point_m`` with unit normal
+:math:`\\hat n` pointing to the side of the sources (the *accessible* side).  The
+other side is a homogeneous half-space: a perfect conductor (``metal``), an
+ITU-R P.2040 material or a given complex permittivity, or an idealised surface
+with a given, angle-independent reflection coefficient.
+
+Geometry.  The signed distance of a point is :math:`d(p) = (p - p_0)\\cdot\\hat n`
+(> 0 on the source side).  The mirror image of a point is
+:math:`\\mathcal M p = p - 2 d(p)\\, \\hat n`, whose linear part is the reflection
+matrix :math:`M = I - 2 \\hat n \\hat n^T` (symmetric, orthogonal, det M = -1).
+
+Exact images over a perfect conductor.  Let (E, H) be the source's field.  Under
+the improper map :math:`x \\mapsto \\mathcal M x` a polar vector field goes to
+:math:`M E(\\mathcal M x)` and an axial one to :math:`\\det(M)\\, M H(\\mathcal M x)`;
+the pair is again a solution of Maxwell's equations (with mirrored sources), and
+so is its negative:
+
+.. math::
+
+    E_\\mathrm{img}(p) = -M\\, E(\\mathcal M p), \\qquad
+    H_\\mathrm{img}(p) = +M\\, H(\\mathcal M p).
+
+On the plane (:math:`\\mathcal M p = p`) the total field obeys the conductor's
+boundary conditions, :math:`\\hat n \\times (I - M) E = 2\\hat n \\times \\hat n
+(\\hat n \\cdot E) = 0` and :math:`\\hat n\\cdot(I + M) H = 0`; the image sources
+lie on the far side, so by uniqueness :math:`E + E_\\mathrm{img}` is the exact
+field over the conducting plane.  Only the source's fields are used, obtained by
+calling ``radiator.fields`` at the mirrored points, so this holds for every model
+(wires, apertures, isotropic).  For an electric current element the image current
+is :math:`-M J` (horizontal reversed, vertical kept: Balanis [2]_ sec. 4.7.1).
+
+Other materials (ray optics).  The reflected field at p is taken as the exact
+conductor image with each polarisation scaled by the ratio of the material's
+Fresnel coefficient to the conductor's.  The plane of incidence at p contains
+:math:`\\hat n` and the ray :math:`\\hat k = (p - s')/|p - s'|` from the image
+reference point :math:`s' = \\mathcal M s`; :math:`\\cos\\theta = \\hat k\\cdot\\hat n`.
+With :math:`\\hat s = \\hat n\\times\\hat k / |\\hat n\\times\\hat k|`:
+
+.. math::
+
+    E_r = a_s (E_\\mathrm{img}\\cdot\\hat s)\\hat s
+          + a_p [E_\\mathrm{img} - (E_\\mathrm{img}\\cdot\\hat s)\\hat s], \\qquad
+    H_r = a_p (H_\\mathrm{img}\\cdot\\hat s)\\hat s
+          + a_s [H_\\mathrm{img} - (H_\\mathrm{img}\\cdot\\hat s)\\hat s],
+
+with :math:`a_s = \\Gamma_\\perp/(-1)` and :math:`a_p = \\Gamma_\\parallel/(+1)`: the
+part of E perpendicular to the plane of incidence (TE, "s") takes the TE
+coefficient, the part in it (TM, "p", including any radial near-field part)
+the TM coefficient; for H the roles swap.  For a conductor both factors are 1
+and the exact image is recovered.
+
+Coefficient convention (time :math:`e^{+j\\omega t}`, incidence from air).
+:math:`\\Gamma_\\perp` is the ratio of reflected to incident E along
+:math:`\\hat s`; :math:`\\Gamma_\\parallel` is the ratio of the H components along
+:math:`\\hat s` (equivalently of E along :math:`\\hat s\\times\\hat k`):
+
+.. math::
+
+    \\Gamma_\\perp = \\frac{\\cos\\theta - \\sqrt{\\varepsilon_r - \\sin^2\\theta}}
+                        {\\cos\\theta + \\sqrt{\\varepsilon_r - \\sin^2\\theta}}, \\qquad
+    \\Gamma_\\parallel = \\frac{\\varepsilon_r\\cos\\theta
+                             - \\sqrt{\\varepsilon_r - \\sin^2\\theta}}
+                             {\\varepsilon_r\\cos\\theta
+                             + \\sqrt{\\varepsilon_r - \\sin^2\\theta}}.
+
+A perfect conductor has :math:`\\Gamma_\\perp = -1`, :math:`\\Gamma_\\parallel = +1`;
+at normal incidence :math:`\\Gamma_\\parallel = -\\Gamma_\\perp`.  Balanis [1]_ writes
+the parallel coefficient for the E-field with reference directions that give -1 at
+a conductor, i.e. the negative of ours (sign relation from memory).  A given
+``reflection_coefficient`` :math:`\\Gamma` is the normal-incidence E-field
+coefficient (-1 = metal-like) applied to both polarisations at all angles:
+:math:`\\Gamma_\\perp = \\Gamma`, :math:`\\Gamma_\\parallel = -\\Gamma`, i.e. the
+reflected field is :math:`-\\Gamma` times the conductor image.
+
+Several planes.  Each plane gives a first-order image; with ``order=2`` every
+ordered pair (i, j), i != j, gives the image of the i-image in plane j (first
+bounce on i, last on j), with the product of the two planes' factors each taken at
+its own reflection point and angle.  An image contributes only where its path
+exists: the field point and every reflection point must lie on the accessible side
+of all planes (the intersection of the half-spaces, convex, so the straight legs
+stay inside).  For a 90-degree conducting corner this gives exactly the three
+images of the classical solution (Balanis [2]_, corner reflector, ch. 15).
+
+Points behind any reflector (d < 0) get no reflected field; the orchestrator
+uses :func:`transmission_power_factor` for the direct ray there.
+
+Assumptions and range of validity
+---------------------------------
+* Planes are infinite and flat; the far side is a half-space, so a wall has no
+  thickness: no slab resonance, no absorption inside the wall.
+* Ray optics for non-conducting planes: the Fresnel coefficient at the image
+  ray's angle.  Accurate when the source and the field point are more than about
+  a wavelength from the plane; surface-wave (Sommerfeld) terms near the
+  interface are ignored.  For ``metal`` the image is exact at any distance.
+* A source whose structure crosses a plane is not detected; a source behind a
+  plane is an input error.
+
+References
+----------
+.. [1] C. A. Balanis, *Advanced Engineering Electromagnetics*, 2nd ed., Wiley,
+   2012, sec. 5.3 (oblique incidence on a planar interface: perpendicular and
+   parallel polarisation, Brewster angle) and sec. 7.4 (image theory).
+.. [2] C. A. Balanis, *Antenna Theory: Analysis and Design*, 4th ed., Wiley, 2016,
+   sec. 4.7 (ground effects: image theory, vertical and horizontal electric
+   dipoles above a conductor) and ch. 15 (corner reflector).
+.. [3] Recommendation ITU-R P.2040-3 (08/2023), sec. 2.2.1 (plane-wave reflection
+   at a planar interface; 2.2.1.5 simplified expressions for incidence from air)
+   and sec. 2.2.1.4 (coefficients for power flux densities).
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Final
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from keepclear.antennas.base import (
+    ModelInputError,
+    ModelRangeWarning,
+    Radiator,
+    as_points,
+    unit_vector,
+)
+
+from .materials import (
+    MATERIAL_NAMES,
+    canonical_material_name,
+    complex_permittivity,
+    out_of_range_message,
+    relative_permittivity_itu_p2040,
+)
+from .validate import Table
+
+#: Distance below which a point counts as on a plane [m].
+PLANE_TOLERANCE_M: Final[float] = 1e-9
+
+#: The modes of :func:`combine` (the scenario's ``reflections`` values).
+REFLECTION_MODES: Final[tuple[str, ...]] = ("envelope", "coherent")
+
+#: The keys of a ``[[reflector]]`` table.
+REFLECTOR_KEYS: Final[tuple[str, ...]] = (
+    "point_m",
+    "normal",
+    "material",
+    "relative_permittivity",
+    "conductivity_s_m",
+    "reflection_coefficient",
+    "name",
+)
+
+FieldFunction = Callable[
+    [NDArray[np.float64]], tuple[NDArray[np.complex128], NDArray[np.complex128]]
+]
+
+
+# --------------------------------------------------------------------------- Fresnel
+def fresnel_coefficients(
+    relative_permittivity: complex | NDArray, cos_incidence: ArrayLike
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+    """Fresnel reflection coefficients of a planar half-space, incidence from air.
+
+    Parameters
+    ----------
+    relative_permittivity : complex or ndarray
+        Complex relative permittivity of the half-space, e^{+jwt} convention
+        (imaginary part <= 0 for a lossy medium); broadcast against
+        ``cos_incidence`` [1].
+    cos_incidence : array_like
+        Cosine of the angle of incidence from the normal, 0..1 (1 = normal
+        incidence, 0 = grazing) [1].
+
+    Returns
+    -------
+    gamma_perp : ndarray, complex
+        TE coefficient, ratio of reflected to incident E perpendicular to the plane
+        of incidence [1].
+    gamma_par : ndarray, complex
+        TM coefficient, ratio of reflected to incident H perpendicular to the plane
+        of incidence (+1 for a perfect conductor) [1].
+
+    Raises
+    ------
+    ValueError
+        If a cosine lies outside 0..1 (beyond rounding).
+
+    Notes
+    -----
+    With :math:`c = \\cos\\theta`, :math:`r = \\sqrt{\\varepsilon_r - 1 + c^2}`
+    (principal root, Re r >= 0, so the transmitted wave decays):
+    :math:`\\Gamma_\\perp = (c - r)/(c + r)` and
+    :math:`\\Gamma_\\parallel = (\\varepsilon_r c - r)/(\\varepsilon_r c + r)`
+    (Balanis [1]_ sec. 5.3 with :math:`\\mu_r = 1`; ITU-R P.2040 [2]_ sec. 2.2.1.5).
+    The limits: :math:`\\Gamma_\\parallel = 0` at the Brewster angle
+    :math:`\\tan\\theta_B = \\sqrt{\\varepsilon_r}` (lossless), both -> -1 at grazing
+    incidence, and -> (-1, +1) as :math:`|\\varepsilon_r| \\to \\infty`.
+    Exactly :math:`\\varepsilon_r = 1` (no interface) gives 0 at every angle.
+
+    References
+    ----------
+    .. [1] C. A. Balanis, *Advanced Engineering Electromagnetics*, 2nd ed., Wiley,
+       2012, sec. 5.3.1 (perpendicular) and 5.3.2 (parallel polarisation).
+    .. [2] ITU-R P.2040-3 (08/2023), sec. 2.2.1.
+    """
+    c = np.asarray(cos_incidence, dtype=float)
+    if np.any(~np.isfinite(c)) or np.any(c < -1e-9) or np.any(c > 1.0 + 1e-9):
+        raise ValueError("cos_incidence must lie in 0..1")
+    c = np.clip(c, 0.0, 1.0)  # rounding only: values beyond 1e-9 were refused above
+    eps = np.asarray(relative_permittivity, dtype=complex)
+    root = np.sqrt(eps - (1.0 - c) * (1.0 + c))
+    num_perp, den_perp = c - root, c + root
+    num_par, den_par = eps * c - root, eps * c + root
+    with np.errstate(invalid="ignore", divide="ignore"):
+        g_perp = np.where(den_perp != 0, num_perp / np.where(den_perp != 0, den_perp, 1), 0)
+        g_par = np.where(den_par != 0, num_par / np.where(den_par != 0, den_par, 1), 0)
+    return np.asarray(g_perp, dtype=complex), np.asarray(g_par, dtype=complex)
+
+
+def normal_incidence_coefficient_from_permittivity(relative_permittivity: complex) -> complex:
+    """E-field reflection coefficient at normal incidence, (1 - sqrt(eps))/(1 + sqrt(eps)).
+
+    Parameters
+    ----------
+    relative_permittivity : complex
+        Complex relative permittivity (e^{+jwt}) [1].
+
+    Returns
+    -------
+    complex
+        :math:`\\Gamma = (1 - \\sqrt{\\varepsilon_r})/(1 + \\sqrt{\\varepsilon_r})` [1].
+
+    References
+    ----------
+    .. [1] C. A. Balanis, *Advanced Engineering Electromagnetics*, 2nd ed., 2012,
+       sec. 5.2 (normal incidence, lossy media).
+    """
+    root = np.sqrt(complex(relative_permittivity))
+    return complex((1.0 - root) / (1.0 + root))
+
+
+# ------------------------------------------------------------------------- Reflector
+@dataclass(frozen=True, eq=False)
+class Reflector:
+    """An infinite reflecting plane.
+
+    Parameters
+    ----------
+    point_m : array_like, shape (3,)
+        Any point on the plane [m].
+    normal : array_like, shape (3,)
+        Normal pointing to the side where the sources are; normalised here [1].
+    material : str, optional
+        An ITU-R P.2040 material name (see
+        :data:`keepclear.fields.materials.MATERIAL_NAMES`); ``"metal"`` is a
+        perfect conductor.
+    relative_permittivity : float, optional
+        Real relative permittivity of the half-space, >= 1 [1].
+    conductivity_s_m : float, optional
+        Its conductivity, >= 0 (default 0 with ``relative_permittivity``) [S m^-1].
+    reflection_coefficient : float, optional
+        A given normal-incidence E-field coefficient, -1..1, applied to both
+        polarisations at all angles (-1 behaves as metal) [1].
+    label : str
+        Name used in messages.
+
+    Raises
+    ------
+    ModelInputError
+        Naming the scenario key: not exactly one of the three forms, a value out of
+        range, an unknown material, a zero normal.
+
+    Notes
+    -----
+    Exactly one of ``material``, ``relative_permittivity`` (with
+    ``conductivity_s_m``) or ``reflection_coefficient`` is given.  Instances are
+    immutable (the arrays are read-only) and compare by identity.
+    """
+
+    point_m: NDArray[np.float64]
+    normal: NDArray[np.float64]
+    material: str | None = None
+    relative_permittivity: float | None = None
+    conductivity_s_m: float | None = None
+    reflection_coefficient: float | None = None
+    label: str = "reflector"
+
+    def __post_init__(self) -> None:
+        point = np.asarray(self.point_m, dtype=float)
+        if point.shape != (3,) or not np.all(np.isfinite(point)):
+            raise ModelInputError(
+                "point_m", f"point_m must be three finite numbers, got {self.point_m!r}"
+            )
+        normal = unit_vector(self.normal, "normal")
+        point = point.copy()
+        point.setflags(write=False)
+        normal.setflags(write=False)
+        object.__setattr__(self, "point_m", point)
+        object.__setattr__(self, "normal", normal)
+
+        forms = [
+            key
+            for key, value in (
+                ("material", self.material),
+                ("relative_permittivity", self.relative_permittivity),
+                ("reflection_coefficient", self.reflection_coefficient),
+            )
+            if value is not None
+        ]
+        if self.conductivity_s_m is not None and self.relative_permittivity is None:
+            forms.append("conductivity_s_m")
+        if not forms:
+            raise ModelInputError(
+                "material",
+                "a reflector needs one of: material (an ITU-R P.2040 name or 'metal'), "
+                "relative_permittivity with conductivity_s_m, or reflection_coefficient",
+            )
+        if len(forms) > 1:
+            raise ModelInputError(
+                forms[1],
+                f"give only one of material, relative_permittivity (+ conductivity_s_m) or "
+                f"reflection_coefficient; got both {forms[0]} and {forms[1]}",
+            )
+        if forms[0] == "conductivity_s_m":
+            raise ModelInputError(
+                "relative_permittivity",
+                "conductivity_s_m needs relative_permittivity (the real part, >= 1)",
+            )
+        if self.material is not None:
+            object.__setattr__(self, "material", canonical_material_name(self.material))
+        if self.relative_permittivity is not None:
+            eps = self.relative_permittivity
+            if isinstance(eps, bool) or not np.isfinite(eps) or eps < 1.0:
+                raise ModelInputError(
+                    "relative_permittivity",
+                    f"relative_permittivity must be a number >= 1, got {eps!r}",
+                )
+            sigma = 0.0 if self.conductivity_s_m is None else self.conductivity_s_m
+            if isinstance(sigma, bool) or not np.isfinite(sigma) or sigma < 0.0:
+                raise ModelInputError(
+                    "conductivity_s_m",
+                    f"conductivity_s_m must be a number >= 0 [S/m], got {sigma!r}",
+                )
+            object.__setattr__(self, "relative_permittivity", float(eps))
+            object.__setattr__(self, "conductivity_s_m", float(sigma))
+        if self.reflection_coefficient is not None:
+            g = self.reflection_coefficient
+            if isinstance(g, bool) or not np.isfinite(g) or not -1.0 <= g <= 1.0:
+                raise ModelInputError(
+                    "reflection_coefficient",
+                    f"reflection_coefficient must be a real number in -1..1, got {g!r}",
+                )
+            object.__setattr__(self, "reflection_coefficient", float(g))
+
+    # --------------------------------------------------------------- kind
+    @property
+    def kind(self) -> str:
+        """``"metal"`` (perfect conductor), ``"dielectric"`` or ``"coefficient"``."""
+        if self.material == "metal":
+            return "metal"
+        if self.reflection_coefficient is not None:
+            return "coefficient"
+        return "dielectric"
+
+    @property
+    def is_perfect_conductor(self) -> bool:
+        """Whether the plane is a perfect conductor (``material = "metal"``)."""
+        return self.kind == "metal"
+
+    def permittivity(self, frequency_hz: float) -> complex | None:
+        """Complex relative permittivity of the half-space (None for metal or a given Gamma).
+
+        Parameters
+        ----------
+        frequency_hz : float
+            Frequency [Hz].
+
+        Returns
+        -------
+        complex or None
+            :math:`\\eta' - j\\sigma/(2\\pi f \\varepsilon_0)` [1].
+        """
+        if self.kind != "dielectric":
+            return None
+        if self.material is not None:
+            return relative_permittivity_itu_p2040(self.material, frequency_hz, warn=False)
+        assert self.relative_permittivity is not None and self.conductivity_s_m is not None
+        return complex_permittivity(self.relative_permittivity, self.conductivity_s_m, frequency_hz)
+
+    # -------------------------------------------------------- coefficients
+    def coefficients(
+        self, frequency_hz: float, cos_incidence: ArrayLike
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        """(gamma_perp, gamma_par) at the given incidence cosines.
+
+        Parameters
+        ----------
+        frequency_hz : float
+            Frequency [Hz].
+        cos_incidence : array_like
+            Cosine of the incidence angle, 0..1 [1].
+
+        Returns
+        -------
+        gamma_perp, gamma_par : ndarray, complex
+            In the convention of :func:`fresnel_coefficients`: metal gives
+            (-1, +1), a given Gamma gives (Gamma, -Gamma) [1].
+        """
+        c = np.asarray(cos_incidence, dtype=float)
+        if self.kind == "metal":
+            return np.full(c.shape, -1.0 + 0j), np.full(c.shape, 1.0 + 0j)
+        if self.kind == "coefficient":
+            g = float(self.reflection_coefficient)  # type: ignore[arg-type]
+            return np.full(c.shape, g + 0j), np.full(c.shape, -g + 0j)
+        eps = self.permittivity(frequency_hz)
+        assert eps is not None
+        return fresnel_coefficients(eps, c)
+
+    def image_factors(
+        self, frequency_hz: float, cos_incidence: ArrayLike
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        """Factors (a_s, a_p) = (-gamma_perp, gamma_par) that scale the conductor image.
+
+        Parameters
+        ----------
+        frequency_hz : float
+            Frequency [Hz].
+        cos_incidence : array_like
+            Cosine of the incidence angle, 0..1 [1].
+
+        Returns
+        -------
+        a_s, a_p : ndarray, complex
+            1 and 1 for a perfect conductor [1].
+        """
+        g_perp, g_par = self.coefficients(frequency_hz, cos_incidence)
+        return -g_perp, g_par
+
+    def normal_incidence_coefficient(self, frequency_hz: float) -> complex:
+        """E-field reflection coefficient at normal incidence (-1 for metal).
+
+        Parameters
+        ----------
+        frequency_hz : float
+            Frequency [Hz].
+
+        Returns
+        -------
+        complex
+            :math:`(1 - \\sqrt{\\varepsilon_r})/(1 + \\sqrt{\\varepsilon_r})`, or the
+            given coefficient [1].
+        """
+        if self.kind == "metal":
+            return -1.0 + 0j
+        if self.kind == "coefficient":
+            return complex(float(self.reflection_coefficient))  # type: ignore[arg-type]
+        eps = self.permittivity(frequency_hz)
+        assert eps is not None
+        return normal_incidence_coefficient_from_permittivity(eps)
+
+    def transmitted_power_fraction(
+        self, frequency_hz: float, cos_incidence: ArrayLike
+    ) -> NDArray[np.float64]:
+        """Power fraction that enters the half-space, 1 - |Gamma|^2 (the larger polarisation).
+
+        Parameters
+        ----------
+        frequency_hz : float
+            Frequency [Hz].
+        cos_incidence : array_like
+            Cosine of the incidence angle, 0..1 [1].
+
+        Returns
+        -------
+        ndarray
+            :math:`\\max(1 - |\\Gamma_\\perp|^2, 1 - |\\Gamma_\\parallel|^2)`; 0 for
+            metal [1].
+
+        Notes
+        -----
+        The polarisation of the ray is not tracked, so the polarisation that
+        transmits more is taken (conservative for the field behind the plane).
+        By energy conservation the power that is not reflected enters the
+        half-space (P.2040-3 sec. 2.2.1.4); absorption in a real wall's thickness
+        is ignored (the half-space has none).
+        """
+        c = np.asarray(cos_incidence, dtype=float)
+        if self.kind == "metal":
+            return np.zeros(c.shape)
+        g_perp, g_par = self.coefficients(frequency_hz, c)
+        t = np.maximum(1.0 - np.abs(g_perp) ** 2, 1.0 - np.abs(g_par) ** 2)
+        return np.clip(t, 0.0, 1.0)
+
+    # ------------------------------------------------------------ geometry
+    @property
+    def mirror_matrix(self) -> NDArray[np.float64]:
+        """Reflection matrix M = I - 2 n n^T (symmetric, det -1) [1]."""
+        n = self.normal
+        return np.eye(3) - 2.0 * np.outer(n, n)
+
+    def signed_distance_m(self, points_m: ArrayLike) -> NDArray[np.float64]:
+        """Signed distance of points (N, 3) from the plane, > 0 on the source side [m]."""
+        pts = as_points(points_m)
+        return (pts - self.point_m) @ self.normal
+
+    def mirror_points(self, points_m: ArrayLike) -> NDArray[np.float64]:
+        """Mirror images of points (N, 3) in the plane [m]."""
+        pts = as_points(points_m)
+        d = (pts - self.point_m) @ self.normal
+        return pts - 2.0 * d[:, None] * self.normal
+
+
+# ------------------------------------------------------------------- table reading
+def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
+    """Build a :class:`Reflector` from one ``[[reflector]]`` table.
+
+    Parameters
+    ----------
+    table : Table
+        The table, with keys ``point_m``, ``normal`` and exactly one of
+        ``material`` | (``relative_permittivity`` and ``conductivity_s_m``) |
+        ``reflection_coefficient``, plus an optional ``name``.
+    frequency_hz : float
+        The scenario frequency, for the material range check [Hz].
+
+    Returns
+    -------
+    Reflector
+
+    Raises
+    ------
+    ScenarioError
+        Located at the offending key: missing or conflicting forms, out-of-range
+        values, an unknown material (with the known names and a suggestion), a
+        zero normal, an unknown key.
+
+    Warns
+    -----
+    ModelRangeWarning
+        When the frequency is outside the material's ITU-R P.2040 range.
+    """
+    point = table.vector("point_m", unit="m")
+    normal = table.vector("normal", nonzero=True)
+    name = table.string("name", None)
+    has = {key: key in table.data for key in REFLECTOR_KEYS}
+    forms = []
+    if has["material"]:
+        forms.append("material")
+    if has["relative_permittivity"] or has["conductivity_s_m"]:
+        forms.append(
+            "relative_permittivity" if has["relative_permittivity"] else "conductivity_s_m"
+        )
+    if has["reflection_coefficient"]:
+        forms.append("reflection_coefficient")
+    if not forms:
+        table.finish(REFLECTOR_KEYS)  # a misspelt key gets its "did you mean" first
+        raise table.error(
+            "material",
+            "is required here: give material = an ITU-R P.2040 name or 'metal' ("
+            + ", ".join(MATERIAL_NAMES)
+            + "), or relative_permittivity and conductivity_s_m, or reflection_coefficient",
+        )
+    if len(forms) > 1:
+        raise table.error(
+            forms[1],
+            f"conflicts with {forms[0]}: give exactly one of material, "
+            "relative_permittivity + conductivity_s_m, or reflection_coefficient",
+        )
+    label = name if name else (table.path or "reflector")
+    kwargs: dict[str, object] = {}
+    if forms[0] == "material":
+        kwargs["material"] = table.string("material")
+    elif forms[0] in ("relative_permittivity", "conductivity_s_m"):
+        kwargs["relative_permittivity"] = table.number("relative_permittivity", minimum=1.0)
+        kwargs["conductivity_s_m"] = table.number("conductivity_s_m", minimum=0.0, unit="S/m")
+    else:
+        kwargs["reflection_coefficient"] = table.number(
+            "reflection_coefficient", minimum=-1.0, maximum=1.0
+        )
+    reflector = table.build(Reflector, point_m=point, normal=normal, label=label, **kwargs)
+    if reflector.material is not None:
+        message = out_of_range_message(reflector.material, frequency_hz)
+        if message is not None:
+            where = ": ".join(p for p in (table.source, table.key_path("material")) if p)
+            warnings.warn(f"{where}: {message}", ModelRangeWarning, stacklevel=2)
+    table.finish()
+    return reflector
+
+
+# ------------------------------------------------------------------ image method
+def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.float64]) -> None:
+    for r in reflectors:
+        d = float(r.signed_distance_m(position_m)[0])
+        if d < -PLANE_TOLERANCE_M:
+            raise ModelInputError(
+                "normal",
+                f"{r.label}: a source at {position_m.tolist()} is {-d:.4g} m behind the plane; "
+                "the normal must point to the side where the sources are",
+            )
+
+
+def _accessible(
+    reflectors: Sequence[Reflector], points_m: NDArray[np.float64], exclude: Sequence[int]
+) -> NDArray[np.bool_]:
+    """Points on the source side (or on) every plane not in ``exclude``."""
+    ok = np.ones(points_m.shape[0], dtype=bool)
+    for k, r in enumerate(reflectors):
+        if k not in exclude:
+            ok &= r.signed_distance_m(points_m) >= -PLANE_TOLERANCE_M
+    return ok
+
+
+def _crossing(
+    reflector: Reflector, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
+    """Where segments from ``start`` (far side or on) to ``end`` (near side) meet the plane."""
+    d0 = reflector.signed_distance_m(start_m)
+    d1 = reflector.signed_distance_m(end_m)
+    span = d1 - d0
+    good = (d0 <= PLANE_TOLERANCE_M) & (d1 >= -PLANE_TOLERANCE_M) & (span > 0)
+    t = np.where(good, -d0 / np.where(good, span, 1.0), 0.0)
+    t = np.clip(t, 0.0, 1.0)
+    points = start_m + t[:, None] * (end_m - start_m)
+    # Start and end both on the plane: any point of the segment; take the end.
+    both_on = (np.abs(d0) <= PLANE_TOLERANCE_M) & (np.abs(d1) <= PLANE_TOLERANCE_M)
+    points = np.where(both_on[:, None], end_m, points)
+    return points, good | both_on
+
+
+def _image_operator(
+    field: FieldFunction,
+    reference_m: NDArray[np.float64],
+    reflector: Reflector,
+    frequency_hz: float,
+) -> FieldFunction:
+    """The reflected field of ``field`` (reference point ``reference_m``) in one plane.
+
+    The returned function evaluates, at points p on the source side,
+    the conductor image :math:`(-M E(\\mathcal M p), M H(\\mathcal M p))` scaled
+    per polarisation by the plane's factors at the angle of the ray from the image
+    reference point :math:`\\mathcal M s` to p.  No masking is done here.
+    """
+    m = reflector.mirror_matrix
+    n = reflector.normal
+    image_ref = reflector.mirror_points(reference_m[None, :])[0]
+
+    def reflected(points_m: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
+        e0, h0 = field(reflector.mirror_points(points_m))
+        e_img = -(e0 @ m)  # M is symmetric: rows @ M == (M @ rows.T).T
+        h_img = h0 @ m
+        if reflector.is_perfect_conductor:
+            return e_img, h_img
+        ray = points_m - image_ref
+        dist = np.linalg.norm(ray, axis=1)
+        safe = np.where(dist > 0, dist, 1.0)
+        cos = np.where(dist > 0, np.abs(ray @ n) / safe, 1.0)
+        a_s, a_p = reflector.image_factors(frequency_hz, np.clip(cos, 0.0, 1.0))
+        if reflector.kind == "coefficient":
+            return e_img * a_s[:, None], h_img * a_s[:, None]
+        s_hat = np.cross(n, ray)
+        s_norm = np.linalg.norm(s_hat, axis=1)
+        # At normal incidence a_s == a_p, so any direction across the normal will do.
+        fallback = np.cross(n, [1.0, 0.0, 0.0] if abs(n[0]) < 0.9 else [0.0, 1.0, 0.0])
+        fallback = fallback / np.linalg.norm(fallback)
+        ok = s_norm > 1e-12 * np.maximum(dist, 1e-300)
+        s_hat = np.where(ok[:, None], s_hat / np.where(ok, s_norm, 1.0)[:, None], fallback)
+        es = np.sum(e_img * s_hat, axis=1)
+        hs = np.sum(h_img * s_hat, axis=1)
+        e_r = a_p[:, None] * e_img + ((a_s - a_p) * es)[:, None] * s_hat
+        h_r = a_s[:, None] * h_img + ((a_p - a_s) * hs)[:, None] * s_hat
+        return e_r, h_r
+
+    return reflected
+
+
+def image_labels(reflectors: Sequence[Reflector], order: int = 1) -> list[str]:
+    """Labels of the images :func:`reflected_fields` returns, in the same order.
+
+    Parameters
+    ----------
+    reflectors : sequence of Reflector
+        The planes.
+    order : int
+        1 or 2.
+
+    Returns
+    -------
+    list of str
+        ``"floor"`` for a first-order image, ``"floor>wall"`` for the image with
+        its first bounce on ``floor`` and its last on ``wall``.
+    """
+    labels = [r.label for r in reflectors]
+    if order >= 2:
+        labels += [
+            f"{ri.label}>{rj.label}"
+            for i, ri in enumerate(reflectors)
+            for j, rj in enumerate(reflectors)
+            if i != j
+        ]
+    return labels
+
+
+def reflected_fields(
+    radiator: Radiator,
+    reflectors: Sequence[Reflector],
+    points_m: ArrayLike,
+    frequency_hz: float,
+    order: int = 1,
+) -> list[tuple[NDArray[np.complex128], NDArray[np.complex128]]]:
+    """Reflected E and H of one radiator at points, one pair per image.
+
+    Parameters
+    ----------
+    radiator : Radiator
+        Any source model; its ``fields`` are evaluated at mirrored points.
+    reflectors : sequence of Reflector
+        The planes; the radiator's reference point must be on (or in front of)
+        each plane's source side.
+    points_m : array_like, shape (N, 3)
+        Field points [m].
+    frequency_hz : float
+        Frequency for the material coefficients [Hz].
+    order : int
+        1: one image per plane.  2: also one image per ordered pair (i, j) of
+        distinct planes (first bounce on i, last on j).
+
+    Returns
+    -------
+    list of (e_v_m, h_a_m)
+        Complex RMS E [V/m] and H [A/m], each (N, 3), in the order of
+        :func:`image_labels`: first-order images in plane order, then the pairs
+        (i, j) in row-major order.  Zero where the image's path does not exist
+        and at points behind any plane.
+
+    Raises
+    ------
+    ModelInputError
+        (parameter ``normal``) if the radiator's reference point is behind a plane.
+    ValueError
+        If ``order`` is not 1 or 2.
+
+    Notes
+    -----
+    First order in plane j: :math:`E_j = \\mathcal R_j[E]`, the image operator of
+    the module docstring with reference point :math:`s_j = \\mathcal M_j s`.
+    Second order (i, j): :math:`E_{ij} = \\mathcal R_j[\\mathcal R_i[E]]`, image
+    point :math:`s_{ij} = \\mathcal M_j \\mathcal M_i s`; the last reflection point
+    :math:`Q_j` is where the segment :math:`s_{ij} \\to p` meets plane j, the first
+    :math:`Q_i` where :math:`s_i \\to Q_j` meets plane i; the inner operator is
+    evaluated at :math:`\\mathcal M_j p`, on the ray :math:`s_i \\to Q_j`, so each
+    plane's coefficient is taken at its own angle.  The image exists where p and
+    every reflection point are on the accessible side of all planes, and (second
+    order) :math:`s_i` is on the source side of plane j.
+    """
+    if order not in (1, 2):
+        raise ValueError(f"order must be 1 or 2, got {order!r}")
+    pts = as_points(points_m)
+    refl = tuple(reflectors)
+    n_pts = pts.shape[0]
+    source = np.asarray(radiator.position_m, dtype=float)
+    _check_source_side(refl, source[None, :])
+    inside = _accessible(refl, pts, exclude=())
+
+    def zeros() -> tuple[NDArray, NDArray]:
+        return np.zeros((n_pts, 3), dtype=complex), np.zeros((n_pts, 3), dtype=complex)
+
+    images: list[tuple[NDArray, NDArray]] = []
+    first_ops = [_image_operator(radiator.fields, source, r, frequency_hz) for r in refl]
+    first_refs = [r.mirror_points(source[None, :]) for r in refl]
+
+    for j, rj in enumerate(refl):
+        e, h = zeros()
+        q_j, met = _crossing(rj, np.broadcast_to(first_refs[j], pts.shape), pts)
+        valid = inside & met & _accessible(refl, q_j, exclude=(j,))
+        if valid.any():
+            e[valid], h[valid] = first_ops[j](pts[valid])
+        images.append((e, h))
+
+    if order == 2:
+        for i, ri in enumerate(refl):
+            s_i = first_refs[i]
+            for j, rj in enumerate(refl):
+                if i == j:
+                    continue
+                e, h = zeros()
+                if float(rj.signed_distance_m(s_i)[0]) > PLANE_TOLERANCE_M:
+                    s_ij = rj.mirror_points(s_i)
+                    q_j, met_j = _crossing(rj, np.broadcast_to(s_ij, pts.shape), pts)
+                    valid = inside & met_j & _accessible(refl, q_j, exclude=(j,))
+                    q_i, met_i = _crossing(ri, np.broadcast_to(s_i, pts.shape), q_j)
+                    valid &= met_i & _accessible(refl, q_i, exclude=(i,))
+                    if valid.any():
+                        op = _image_operator(first_ops[i], s_i[0], rj, frequency_hz)
+                        e[valid], h[valid] = op(pts[valid])
+                images.append((e, h))
+    return images
+
+
+def behind(reflectors: Sequence[Reflector], points_m: ArrayLike) -> NDArray[np.bool_]:
+    """Whether each point (N, 3) is on the far side of any reflector (N,) bool.
+
+    Points on a plane (within :data:`PLANE_TOLERANCE_M`) are not behind it.
+    """
+    pts = as_points(points_m)
+    return ~_accessible(tuple(reflectors), pts, exclude=())
+
+
+def transmission_power_factor(
+    reflectors: Sequence[Reflector],
+    radiator_position_m: ArrayLike,
+    points_m: ArrayLike,
+    frequency_hz: float,
+) -> NDArray[np.float64]:
+    """Power fraction of the direct ray that reaches points behind planes (N,).
+
+    Parameters
+    ----------
+    reflectors : sequence of Reflector
+        The planes.
+    radiator_position_m : array_like, shape (3,)
+        The source's reference point, on the source side of every plane [m].
+    points_m : array_like, shape (N, 3)
+        Field points [m].
+    frequency_hz : float
+        Frequency [Hz].
+
+    Returns
+    -------
+    ndarray, shape (N,)
+        1 in front of every plane; behind, the product over the planes the direct
+        ray crosses of :math:`1 - |\\Gamma|^2` at that ray's incidence angle (the
+        polarisation that transmits more); 0 behind metal [1].
+
+    Raises
+    ------
+    ModelInputError
+        (parameter ``normal``) if the source is behind a plane.
+
+    Notes
+    -----
+    :math:`T = 1 - |\\Gamma(\\theta)|^2` is the power that enters a half-space
+    (P.2040-3 sec. 2.2.1.4, energy conservation).  Absorption in the wall's
+    thickness is ignored: the half-space model has no thickness, so this is
+    conservative for thick or lossy walls (a 200 mm concrete wall transmits far
+    less).  It is *not* an upper bound for a thin low-loss panel near a
+    half-wave resonance, which can transmit almost everything (P.2040-3
+    sec. 2.2.2, slab formulas).
+    """
+    pts = as_points(points_m)
+    source = np.asarray(radiator_position_m, dtype=float).reshape(1, 3)
+    refl = tuple(reflectors)
+    _check_source_side(refl, source)
+    factor = np.ones(pts.shape[0])
+    ray = pts - source
+    dist = np.linalg.norm(ray, axis=1)
+    for r in refl:
+        crossing = r.signed_distance_m(pts) < -PLANE_TOLERANCE_M
+        if not crossing.any():
+            continue
+        cos = np.abs(ray[crossing] @ r.normal) / dist[crossing]
+        factor[crossing] *= r.transmitted_power_fraction(frequency_hz, np.clip(cos, 0.0, 1.0))
+    return factor
+
+
+# -------------------------------------------------------------------- combination
+def combine(
+    e_direct: NDArray[np.complex128],
+    h_direct: NDArray[np.complex128],
+    images: Sequence[tuple[NDArray[np.complex128], NDArray[np.complex128]]],
+    mode: str,
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """|E|^2 and |H|^2 of the direct field plus its images.
+
+    Parameters
+    ----------
+    e_direct, h_direct : ndarray, shape (N, 3), complex
+        Direct E [V/m] and H [A/m].
+    images : sequence of (e, h)
+        Image fields as returned by :func:`reflected_fields` [V/m], [A/m].
+    mode : str
+        ``"coherent"``: phasors summed (the standing-wave pattern).
+        ``"envelope"``: magnitudes summed, the worst phase at every point.
+
+    Returns
+    -------
+    e_sq_v2_m2 : ndarray, shape (N,)
+        :math:`|E|^2` [V^2 m^-2].
+    h_sq_a2_m2 : ndarray, shape (N,)
+        :math:`|H|^2` [A^2 m^-2].
+
+    Raises
+    ------
+    ValueError
+        For an unknown mode.
+
+    Notes
+    -----
+    Coherent: :math:`|E_d + \\sum_k E_k|^2`.  Envelope:
+    :math:`(|E_d| + \\sum_k |E_k|)^2`, which is never below the coherent value
+    (triangle inequality) and equals :math:`(1 + |\\Gamma|)^2 |E_d|^2` for one
+    image of relative strength :math:`|\\Gamma|` (the contract's definition).
+    """
+    if mode == "coherent":
+        e = np.array(e_direct, dtype=complex, copy=True)
+        h = np.array(h_direct, dtype=complex, copy=True)
+        for ei, hi in images:
+            e += ei
+            h += hi
+        return np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
+    if mode == "envelope":
+        e_mag = np.linalg.norm(e_direct, axis=1)
+        h_mag = np.linalg.norm(h_direct, axis=1)
+        for ei, hi in images:
+            e_mag = e_mag + np.linalg.norm(ei, axis=1)
+            h_mag = h_mag + np.linalg.norm(hi, axis=1)
+        return e_mag**2, h_mag**2
+    raise ValueError(f"mode must be one of {', '.join(REFLECTION_MODES)}, got {mode!r}")
+
+
+__all__ = [
+    "PLANE_TOLERANCE_M",
+    "REFLECTION_MODES",
+    "REFLECTOR_KEYS",
+    "Reflector",
+    "behind",
+    "combine",
+    "fresnel_coefficients",
+    "image_labels",
+    "normal_incidence_coefficient_from_permittivity",
+    "reflected_fields",
+    "reflector_from_table",
+    "transmission_power_factor",
+]
