@@ -621,3 +621,14 @@ def test_second_order_path_validity_against_forward_tracing():
             assert np.array_equal(got, exists), (pi.label, pj.label)
             mixed += bool(exists.any() and not exists.all())
     assert mixed >= 3  # the scene exercises the validity rules, not just all-or-nothing
+
+
+def test_vertical_element_on_a_conductor_doubles_its_field():
+    # Balanis, Antenna Theory 4th ed., sec. 4.7.1 (image theory; the monopole principle): a
+    # vertical electric element standing on a conducting plane has a coincident image of the
+    # same sign, so the field above the plane is twice the free-space field.
+    src = HertzianDipole([0.2, -0.1, 0.0], [0, 0, 1])
+    pts = np.random.default_rng(2).uniform([-1, -1, 0.05], [1, 1, 1], (100, 3))
+    e, h = src.fields(pts)
+    ((ei, hi),) = reflected_fields(src, [metal([0, 0, 0], [0, 0, 1])], pts, F_HZ)
+    assert np.allclose(ei, e, rtol=1e-12, atol=0) and np.allclose(hi, h, rtol=1e-12, atol=0)
