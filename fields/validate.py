@@ -34,7 +34,13 @@ def suggest(word: str, choices: Iterable[str]) -> str:
 
 
 def _describe(value: Any) -> str:
-    text = repr(value)
+    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 200:
+        # repr() of a very long integer is slow, and refused beyond 4300 digits.
+        return f"an integer of about {value.bit_length() * math.log10(2):.0f} digits"
+    try:
+        text = repr(value)
+    except (ValueError, RecursionError):
+        text = f"a {type(value).__name__} too large to show"
     return text if len(text) <= 60 else text[:57] + "..."
 
 
@@ -99,7 +105,10 @@ class Table:
         allowed = self._range_text(minimum, maximum, exclusive_minimum, exclusive_maximum, unit)
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise self.error(key, f"must be {allowed}, got {_describe(value)}")
-        x = float(value)
+        try:
+            x = float(value)
+        except OverflowError:  # an integer beyond the float range (TOML integers are unbounded)
+            x = math.inf
         if not math.isfinite(x):
             raise self.error(key, f"must be a finite number ({allowed}), got {_describe(value)}")
         low_bad = minimum is not None and (x <= minimum if exclusive_minimum else x < minimum)
@@ -155,7 +164,10 @@ class Table:
             or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
         ):
             raise self.error(key, f"must be {what}, got {_describe(value)}")
-        arr = np.asarray(value, dtype=float)
+        try:
+            arr = np.asarray(value, dtype=float)
+        except OverflowError:  # an integer beyond the float range
+            arr = np.full(3, np.inf)
         if not np.all(np.isfinite(arr)):
             raise self.error(key, f"must be {what}, all finite, got {_describe(value)}")
         if np.max(np.abs(arr)) > 1e6:
