@@ -578,6 +578,11 @@ def load_scenario(path: str | Path) -> Scenario:
         raise ScenarioError(f"is not valid TOML: {exc}", label) from None
     except RecursionError:
         raise ScenarioError("is nested too deeply to be a scenario", label) from None
+    except ValueError:  # an integer literal beyond Python's 4300-digit conversion limit
+        raise ScenarioError(
+            "is not a usable scenario: it holds an integer too long to read (over 4300 digits)",
+            label,
+        ) from None
     try:
         return scenario_from_document(document, label)
     except RecursionError:
