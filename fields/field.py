@@ -13,8 +13,9 @@ leaks the power of the sources inside) the field at each point is
 * combined per the scenario's ``reflections`` mode: ``"coherent"`` sums the
   phasors (the standing-wave pattern); ``"envelope"`` adds the magnitudes (the
   worst phase everywhere, never below coherent);
-* behind a reflector (inside the wall or floor half-space) only the direct field
-  times the transmitted power fraction remains.
+* behind a reflector (inside the wall or floor half-space, or the room beyond)
+  only the direct field remains, unattenuated (the wall's thickness is unknown and a
+  thin panel can pass nearly all of it: conservative), or nothing behind metal.
 
 Terms add as power: magnetrons are not phase-locked, so
 :math:`|E|^2 = \\sum_i |E_i|^2` over terms.  The time average weights each term by
@@ -150,9 +151,13 @@ def _term_squares(
     e2, h2 = reflection.combine(e, h, images, scenario.reflections)
     behind = reflection.behind(scenario.reflectors, points_m)
     if behind.any():
+        # Behind a plane (inside the floor or wall half-space, or the room beyond it) the
+        # wall's thickness is unknown, and a thin panel can pass nearly everything: keep the
+        # full direct field (conservative), except behind metal, which passes nothing.
         t = reflection.transmission_power_factor(
             scenario.reflectors, radiator.position_m, points_m[behind], scenario.frequency_hz
         )
+        t = np.where(t > 0, 1.0, 0.0)
         e2[behind] = np.sum(np.abs(e[behind]) ** 2, axis=1) * t
         h2[behind] = np.sum(np.abs(h[behind]) ** 2, axis=1) * t
     return e2, h2
