@@ -10,6 +10,19 @@ from __future__ import annotations
 from keepclear.antennas.base import ModelInputError
 
 
+def one_line(text: str) -> str:
+    """``text`` as one printable line: line breaks and other unprintable characters escaped.
+
+    File names, keys and values come from the user and may hold a newline (or a Unicode
+    line separator); the error must still be the one line the command line promises.
+    """
+    if text.isprintable():
+        return text
+    return "".join(
+        ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text
+    )
+
+
 class InputError(Exception):
     """Bad input from the user: one line that names where, what and what is allowed.
 
@@ -31,7 +44,7 @@ class InputError(Exception):
 
     def __str__(self) -> str:
         where = ": ".join(part for part in (self.source, self.key) if part)
-        return f"{where}: {self.message}" if where else self.message
+        return one_line(f"{where}: {self.message}" if where else self.message)
 
     def located(self, source: str | None = None, key: str | None = None) -> InputError:
         """Return a copy with the file and/or key filled in where still missing."""
@@ -50,4 +63,11 @@ class ResourceError(InputError):
     """A request that would exceed a resource bound (memory, grid size) or an unwritable output."""
 
 
-__all__ = ["InputError", "LimitError", "ModelInputError", "ResourceError", "ScenarioError"]
+__all__ = [
+    "InputError",
+    "LimitError",
+    "ModelInputError",
+    "ResourceError",
+    "ScenarioError",
+    "one_line",
+]
