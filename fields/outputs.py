@@ -33,18 +33,44 @@ PROBE_CSV_COLUMNS = (
 )
 #: Largest point file accepted [rows]; beyond it the caller should split the work.
 MAX_POINTS = 20_000_000
+#: Largest coordinate accepted in a point file [m] (as for scenario vectors).
+MAX_COORDINATE_M = 1e6
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    if a.resolve() == b.resolve():
+        return True
+    try:
+        return a.exists() and b.exists() and os.path.samefile(a, b)  # hard links too
+    except OSError:
+        return False
 
 
 def refuse_overwriting(path: Path, protected: Iterable[Path]) -> None:
-    """Refuse to write ``path`` if it is one of the ``protected`` inputs."""
-    target = path.resolve()
+    """Refuse to write ``path`` if it is one of the ``protected`` inputs.
+
+    The same file reached by another name (a symbolic or hard link, ``..``) counts.
+    """
+    target = Path(path)
     for p in protected:
-        if Path(p).resolve() == target:
+        if _same_file(target, Path(p)):
             raise InputError("would overwrite an input file; choose another output path", str(path))
+
+
+def _new_file_mode() -> int:
+    """The mode an ordinary new file gets under the current umask (0o666 & ~umask)."""
+    umask = os.umask(0)
+    os.umask(umask)
+    return 0o666 & ~umask
 
 
 def atomic_write_bytes(path: str | Path, data: bytes) -> None:
     """Write ``data`` to ``path`` via a temporary file and a rename.
+
+    The temporary file sits in the destination folder (so the rename is atomic), is
+    flushed to disk before the rename, gets the mode of an ordinary new file, and is
+    removed whatever interrupts the write (an error, Ctrl-C): the destination holds
+    either its old content or the whole new one, never a part.
 
     Raises
     ------
@@ -56,7 +82,8 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> None:
     if target.is_dir():
         raise ResourceError("is a directory; give a file name to write", str(path))
     if not folder.is_dir():
-        raise ResourceError(f"cannot be written: folder '{folder}' does not exist", str(path))
+        what = "is not a folder" if folder.exists() else "does not exist"
+        raise ResourceError(f"cannot be written: '{folder}' {what}", str(path))
     try:
         fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=folder)
     except OSError as exc:
@@ -64,11 +91,16 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> None:
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, _new_file_mode())
         os.replace(tmp, target)
-    except OSError as exc:
+    except BaseException as exc:
         if os.path.exists(tmp):
             os.unlink(tmp)
-        raise ResourceError(f"cannot be written ({exc.strerror})", str(path)) from None
+        if isinstance(exc, OSError):
+            raise ResourceError(f"cannot be written ({exc.strerror})", str(path)) from None
+        raise
 
 
 def atomic_write_text(path: str | Path, text: str) -> None:
@@ -116,6 +148,14 @@ def read_points_csv(path: str | Path) -> NDArray[np.float64]:
     if p.is_dir():
         raise InputError("is a directory; give a CSV file", label, "--points")
     try:
+        rows = _count_rows(p)
+        if rows > MAX_POINTS:
+            # Refused before the file is read into memory.
+            raise ResourceError(
+                f"holds about {rows} points; at most {MAX_POINTS} per run: split the file",
+                label,
+                "--points",
+            )
         raw = p.read_bytes()
     except OSError as exc:
         raise InputError(f"cannot be read ({exc.strerror})", label, "--points") from None
@@ -147,11 +187,29 @@ def read_points_csv(path: str | Path) -> NDArray[np.float64]:
     if bad.any():
         row = int(np.argmax(bad)) + 2
         raise InputError(f"row {row} holds a value that is not a finite number", label, "--points")
+    far = np.any(np.abs(data) > MAX_COORDINATE_M, axis=1)
+    if far.any():
+        row = int(np.argmax(far)) + 2
+        raise InputError(
+            f"row {row} holds a coordinate beyond {MAX_COORDINATE_M:g} m in size", label, "--points"
+        )
     if data.shape[0] > MAX_POINTS:
         raise ResourceError(
             f"holds {data.shape[0]} points; at most {MAX_POINTS} per run", label, "--points"
         )
     return data
+
+
+def _count_rows(path: Path, block_bytes: int = 1 << 20) -> int:
+    """Data rows of a text file (line breaks after the header), read in bounded blocks."""
+    breaks = 0
+    last = b"\n"
+    with path.open("rb") as fh:
+        while block := fh.read(block_bytes):
+            breaks += block.count(b"\n")
+            last = block[-1:]
+    lines = breaks + (last != b"\n")
+    return max(0, lines - 1)
 
 
 def probe_csv_bytes(points_m: NDArray[np.float64], columns: Iterable[NDArray[np.float64]]) -> bytes:
