@@ -1,0 +1,246 @@
+"""Shield sheets: ray crossing, edge and near-field rules, and the [[shield]] keys."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from keepclear.antennas.base import C_M_S, ModelInputError
+from keepclear.fields import shielding as sh
+from keepclear.fields.errors import ScenarioError
+from keepclear.fields.shield import (
+    MeshSpec,
+    PerforatedSpec,
+    RatedSpec,
+    SheetSpec,
+    Shield,
+    SlotSpec,
+    shield_from_table,
+)
+from keepclear.fields.validate import Table
+
+from ._hypothesis import examples
+
+F = 2.45e9
+LAM = C_M_S / F
+SOURCE = np.array([-1.0, 0.0, 0.0])
+
+
+def wall(spec, size: float = 1.0, **kw) -> Shield:
+    return Shield(np.zeros(3), np.array([1.0, 0.0, 0.0]), size, size, spec, F, **kw)
+
+
+def test_ray_through_a_large_sheet_is_attenuated_by_its_se() -> None:
+    # A 20 dB panel, 200 m square: edge diffraction (four knife edges, ITU-R P.526) adds
+    # well under 0.3 dB, so the factor is the sheet's 10^(-20/20).
+    shield = wall(RatedSpec(20.0), size=200.0)
+    factor = shield.amplitude_factor(SOURCE, np.array([[1.0, 0.0, 0.0]]))
+    assert 20 * math.log10(1 / factor[0]) == pytest.approx(20.0, abs=0.3)
+    assert factor[0] >= 0.1  # never more credit than the sheet's own
+
+
+def test_ray_beside_the_sheet_and_same_side_get_no_credit() -> None:
+    shield = wall(RatedSpec(40.0))
+    pts = np.array([[1.0, 2.0, 0.0], [1.0, 0.0, 3.0], [-0.5, 0.0, 0.0], [0.0, 0.1, 0.0]])
+    np.testing.assert_array_equal(shield.amplitude_factor(SOURCE, pts), 1.0)
+
+
+def test_ray_near_the_edge_gets_no_credit() -> None:
+    # Default margin lambda / 2 = 61 mm: a ray crossing 30 mm inside the edge passes.
+    shield = wall(RatedSpec(40.0))
+    assert shield.edge_margin_m == pytest.approx(LAM / 2)
+    near_edge = np.array([[1.0, 2 * (0.5 - 0.03), 0.0]])  # crosses at y = 0.47
+    assert shield.amplitude_factor(SOURCE, near_edge)[0] == 1.0
+    inside = np.array([[1.0, 2 * (0.5 - 0.1), 0.0]])  # crosses at y = 0.4
+    assert shield.amplitude_factor(SOURCE, inside)[0] < 1.0
+
+
+def test_credit_behind_a_finite_sheet_is_limited_by_edge_diffraction() -> None:
+    # Behind a perfect 1 m sheet the field is at least the knife-edge field of the
+    # nearest edge (ITU-R P.526 J(nu) approximation) -- the sheet's 200 dB is not credited.
+    shield = wall(RatedSpec(200.0))
+    factor = shield.amplitude_factor(SOURCE, np.array([[1.0, 0.0, 0.0]]))[0]
+    nu = 0.5 * math.sqrt(2 * 2.0 / (LAM * 1.0 * 1.0))
+    j_db = 6.9 + 20 * math.log10(math.sqrt((nu - 0.1) ** 2 + 1) + nu - 0.1)
+    assert factor >= 10 ** (-j_db / 20)
+    assert factor < 1.0
+
+
+def test_source_extent_requires_every_corner_ray_to_cross() -> None:
+    shield = wall(RatedSpec(30.0), size=2.0)
+    pts = np.array([[1.0, 1.7, 0.0]])  # centre ray crosses at y = 0.85 (inside 1 - margin)
+    assert shield.amplitude_factor(SOURCE, pts)[0] < 1.0
+    # A 0.2 m source: its corner rays cross at up to y = 0.95 (inside the margin).
+    assert shield.amplitude_factor(SOURCE, pts, source_extent_m=0.2)[0] == 1.0
+
+
+def test_near_field_sheet_keeps_only_its_absorption() -> None:
+    al = sh.METALS["aluminium"]
+    spec = SheetSpec(al, 1e-6)
+    terms = sh.schelkunoff_sheet_se(F, al.conductivity_s_m, 1e-6)
+    far = spec.power_transmission(F, np.ones(1), np.array([1.0]))
+    near = spec.power_transmission(F, np.ones(1), np.array([0.01]))  # < lambda / 2 pi
+    assert -10 * math.log10(far[0]) == pytest.approx(float(terms.total_db), abs=1e-6)
+    expected = float(terms.absorption_db + min(float(terms.multiple_reflection_db), 0.0))
+    assert -10 * math.log10(near[0]) == pytest.approx(expected, abs=1e-6)
+    assert near[0] > far[0]
+
+
+def test_near_field_aperture_panel_loses_credit() -> None:
+    spec = RatedSpec(30.0)
+    r = 0.005
+    t = spec.power_transmission(F, np.ones(1), np.array([r]))
+    expected = 30.0 - 20 * math.log10(LAM / (2 * math.pi * r))
+    assert -10 * math.log10(t[0]) == pytest.approx(expected, abs=1e-9)
+
+
+def test_oblique_rays_get_less_credit() -> None:
+    spec = RatedSpec(30.0)
+    t = spec.power_transmission(F, np.array([1.0, 0.5]), np.array([1.0, 1.0]))
+    assert -10 * math.log10(t[1]) == pytest.approx(30.0 - 20 * math.log10(2), abs=1e-9)
+    sheet = SheetSpec(sh.METALS["aluminium"], 1e-5)
+    ts = sheet.power_transmission(F, np.array([1.0, 0.5]), np.array([1.0, 1.0]))
+    assert ts[1] > ts[0]
+
+
+def test_slot_perforated_and_mesh_specs() -> None:
+    slot = SlotSpec(0.01, 4)
+    assert slot.normal_incidence_se_db(F) == pytest.approx(15.73 - 6.02, abs=0.01)  # Ott
+    assert SlotSpec(0.08).normal_incidence_se_db(F) == 0.0
+    perf = PerforatedSpec(0.003, 0.005, 0.001)
+    assert 20 < perf.normal_incidence_se_db(F) < 120
+    mesh = MeshSpec(0.002, 0.0003)
+    assert 20 < mesh.normal_incidence_se_db(F) < 60
+    with pytest.raises(ModelInputError):
+        wall(PerforatedSpec(0.003, 0.08, 0.001))
+
+
+@settings(max_examples=examples(60))
+@given(
+    st.lists(st.floats(-3, 3), min_size=3, max_size=3),
+    st.lists(st.floats(-3, 3), min_size=3, max_size=3),
+    st.floats(0.0, 120.0),
+    st.floats(0.0, 0.3),
+)
+def test_an_added_shield_never_raises_a_field(src, pt, se_db, extent) -> None:
+    shield = Shield(
+        np.array([0.1, 0.2, 0.0]), np.array([1.0, 0.3, 0.2]), 1.5, 0.8, RatedSpec(se_db), F
+    )
+    factor = shield.amplitude_factor(np.array(src), np.array([pt]), source_extent_m=extent)
+    assert 0.0 < factor[0] <= 1.0
+
+
+def test_vectorised_paired_sources() -> None:
+    shield = wall(RatedSpec(20.0), size=3.0)
+    pts = np.array([[1.0, 0.0, 0.0], [1.0, 0.0, 0.0]])
+    srcs = np.array([[-1.0, 0.0, 0.0], [0.5, 0.0, 0.0]])
+    f = shield.amplitude_factor(srcs, pts)
+    assert f[0] < 1.0 and f[1] == 1.0
+    assert shield.corners().shape == (4, 3)
+
+
+# --------------------------------------------------------------- scenario keys
+def table(data: dict) -> Table:
+    return Table(data, "shield[0]", "bench.toml")
+
+
+BASE = {"center_m": [0.5, 0.0, 1.0], "normal": [1.0, 0.0, 0.0], "width_m": 1.0, "height_m": 0.8}
+
+
+def test_shield_from_table_sheet() -> None:
+    s = shield_from_table(
+        table({**BASE, "type": "sheet", "metal": "aluminium", "thickness_m": 0.001}), F
+    )
+    assert isinstance(s.spec, SheetSpec)
+    assert s.spec.metal.name == "aluminium"
+    np.testing.assert_allclose(s.height_axis, [0, 0, 1])
+    assert s.label == "shield[0]"
+
+
+def test_shield_from_table_rated_without_type_and_other_types() -> None:
+    s = shield_from_table(table({**BASE, "shielding_db": 25, "id": "screen"}), F)
+    assert isinstance(s.spec, RatedSpec) and s.label == "screen"
+    s = shield_from_table(
+        table(
+            {
+                **BASE,
+                "type": "perforated",
+                "hole_size_m": 0.003,
+                "pitch_m": 0.005,
+                "thickness_m": 0.001,
+                "lattice": "square",
+            }
+        ),
+        F,
+    )
+    assert isinstance(s.spec, PerforatedSpec)
+    s = shield_from_table(
+        table(
+            {**BASE, "type": "mesh", "pitch_m": 0.002, "wire_diameter_m": 0.0003, "metal": "copper"}
+        ),
+        F,
+    )
+    assert isinstance(s.spec, MeshSpec)
+    s = shield_from_table(
+        table({**BASE, "type": "slot", "slot_length_m": 0.02, "slot_count": 3}), F
+    )
+    assert isinstance(s.spec, SlotSpec) and s.spec.slot_count == 3
+
+
+@pytest.mark.parametrize(
+    ("extra", "key", "words"),
+    [
+        (
+            {"type": "sheet", "metal": "alumnium", "thickness_m": 0.001},
+            "shield[0].metal",
+            "did you mean 'aluminium'",
+        ),
+        (
+            {"type": "sheet", "metal": "copper", "thickness_m": -0.001},
+            "shield[0].thickness_m",
+            "> 0",
+        ),
+        ({"type": "sheet", "metal": "copper"}, "shield[0].thickness_m", "required"),
+        ({"type": "plate", "shielding_db": 3}, "shield[0].type", "one of"),
+        ({}, "shield[0].type", "required"),
+        (
+            {"type": "sheet", "metal": "copper", "thickness_m": 0.001, "hole_size_m": 0.002},
+            "shield[0].hole_size_m",
+            "not a known key",
+        ),
+        ({"shielding_db": 20, "up": [1.0, 0.0, 0.0]}, "shield[0].up", "parallel"),
+        (
+            {"type": "perforated", "hole_size_m": 0.003, "pitch_m": 0.09, "thickness_m": 0.001},
+            "shield[0].pitch_m",
+            "half a wavelength",
+        ),
+        (
+            {"type": "slot", "slot_length_m": 0.02, "slot_count": 1.5},
+            "shield[0].slot_count",
+            "whole number",
+        ),
+    ],
+)
+def test_shield_bad_input_names_the_key(extra: dict, key: str, words: str) -> None:
+    with pytest.raises(ScenarioError) as err:
+        shield_from_table(table({**BASE, **extra}), F)
+    text = str(err.value)
+    assert text.startswith(f"bench.toml: {key}:"), text
+    assert words in text
+
+
+def test_zero_normal_is_refused() -> None:
+    with pytest.raises(ScenarioError) as err:
+        shield_from_table(table({**BASE, "normal": [0, 0, 0], "shielding_db": 10}), F)
+    assert "shield[0].normal" in str(err.value)
+
+
+def test_unknown_metal_lists_known_ones() -> None:
+    with pytest.raises(ScenarioError) as err:
+        shield_from_table(table({**BASE, "type": "sheet", "metal": "tin", "thickness_m": 1e-3}), F)
+    for name in sh.METAL_NAMES:
+        assert name in str(err.value)
