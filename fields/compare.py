@@ -1,0 +1,327 @@
+"""Option comparison: the base scenario and each ``[[option]]`` assessed and ranked.
+
+Each variant (the base, then every option as the loader merged it) gets
+
+* the keep-out distance for each selected limit (:mod:`keepclear.fields.keepout`),
+* the zone area on the floor plane at a common height, on one common grid,
+* the leakage 5 cm from the enclosure where there is one (the enclosure model's
+  ``face_density_5cm``, with the enclosed sources' power while radiating: the
+  21 CFR 1030.10 reading is taken with the source on),
+* the worst named point: the ``[[point]]`` with the largest exposure quotient
+  over the selected limits.
+
+Ranking: the smallest "largest keep-out distance across the selected limits"
+first (each with the model's gain uncertainty where one is stated, the figure to
+mark out), ties (to the millimetre) broken by the smaller zone area of the
+strictest limit, then by the worst named point's quotient.  The ranking says
+which option needs the least space; it is not a judgement that any option is
+safe.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from . import maps
+from .cautions import CAUTION_TEXT
+from .field import evaluate
+from .keepout import KeepoutResult, keepout_distances
+from .scenario import Scenario
+
+SCHEMA_VERSION = 1
+ProgressFactory = Callable[[str], Callable[[int, int], None] | None]
+
+
+@dataclass(frozen=True)
+class Variant:
+    """One assessed variant: the base or an option.
+
+    Parameters
+    ----------
+    name : str
+        ``"base"`` or the option's name.
+    description : str
+    scenario : Scenario
+    keepouts : tuple of KeepoutResult
+    floor : MapRun
+        The floor-plane map on the common grid.
+    leakage_5cm_w_m2 : float or None
+        Largest leakage power density 5 cm from the enclosure [W m^-2].
+    worst_point : dict or None
+        ``{"name", "quotient", "limit", "power_density_w_m2"}``.
+    """
+
+    name: str
+    description: str
+    scenario: Scenario
+    keepouts: tuple[KeepoutResult, ...]
+    floor: maps.MapRun
+    leakage_5cm_w_m2: float | None
+    worst_point: dict[str, Any] | None
+
+    @property
+    def is_base(self) -> bool:
+        """Whether this is the base scenario."""
+        return self.name == "base"
+
+    @property
+    def largest_keepout_m(self) -> float:
+        """The largest keep-out distance (with uncertainty) across the limits [m]."""
+        return max((k.recommended_distance_m for k in self.keepouts), default=0.0)
+
+    @property
+    def zone_area_m2(self) -> float:
+        """Floor-plane zone area of the strictest limit (the largest zone) [m^2]."""
+        return max((zs[-1].area_m2 for zs in self.floor.zones.values()), default=0.0)
+
+    def rank_key(self) -> tuple[float, float, float]:
+        """Sort key: keep-out to the millimetre, then zone area, then worst point."""
+        q = self.worst_point["quotient"] if self.worst_point else 0.0
+        return (round(self.largest_keepout_m, 3), round(self.zone_area_m2, 3), q)
+
+
+def leakage_5cm_w_m2(scenario: Scenario) -> float | None:
+    """The enclosure model's largest leakage density 5 cm from its faces [W m^-2].
+
+    The power is that of the enclosed sources while radiating (duty cycle not
+    applied: the product limit is read with the source on).  None without an
+    enclosure.
+    """
+    enclosure = scenario.enclosure
+    if enclosure is None:
+        return None
+    positions = np.array([s.position_m for s in scenario.sources])
+    inside = np.asarray(enclosure.contains(positions), dtype=bool)
+    total_w = float(sum(s.power_w for s, i in zip(scenario.sources, inside, strict=True) if i))
+    value = enclosure.face_density_5cm(total_w, scenario.frequency_hz)
+    return _largest(value)
+
+
+def _largest(value: Any) -> float | None:
+    """The largest number in a float, array, or mapping of them."""
+    if isinstance(value, dict):
+        numbers = [_largest(v) for v in value.values()]
+        numbers = [n for n in numbers if n is not None]
+        return max(numbers) if numbers else None
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        return None
+    arr = arr[np.isfinite(arr)] if arr.ndim else arr[None][np.isfinite(arr[None])]
+    return float(arr.max()) if arr.size else None
+
+
+def worst_point(scenario: Scenario, limit_ids: Sequence[str]) -> dict[str, Any] | None:
+    """The named point with the largest exposure quotient over the limits, or None."""
+    if not scenario.points:
+        return None
+    from . import limits as limits_mod
+
+    pts = np.array([p.position_m for p in scenario.points])
+    res = evaluate(scenario, pts)
+    best: dict[str, Any] | None = None
+    for limit_id in limit_ids:
+        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        q = limits_mod.quotient(value, res.power_density_w_m2, res.e_v_m, res.h_a_m)
+        i = int(np.argmax(q))
+        if best is None or q[i] > best["quotient"]:
+            best = {
+                "name": scenario.points[i].name,
+                "position_m": [float(x) for x in pts[i]],
+                "quotient": float(q[i]),
+                "limit": limit_id,
+                "power_density_w_m2": float(res.power_density_w_m2[i]),
+            }
+    return best
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """The ranked variants on a common floor grid.
+
+    Parameters
+    ----------
+    base : Scenario
+    limit_ids : tuple of str
+    height_m : float
+        Height of the common floor plane [m].
+    variants : tuple of Variant
+        In rank order (best first).
+    """
+
+    base: Scenario
+    limit_ids: tuple[str, ...]
+    height_m: float
+    variants: tuple[Variant, ...]
+
+    def data(self) -> dict[str, Any]:
+        """The ``compare --json`` object (schema_version 1)."""
+        grid = self.variants[0].floor.result.grid
+        rows = []
+        for rank, v in enumerate(self.variants, start=1):
+            floor = {z[0].limit_id: z for z in v.floor.zones.values()}
+            rows.append(
+                {
+                    "rank": rank,
+                    "name": v.name,
+                    "description": v.description,
+                    "is_base": v.is_base,
+                    "scenario": v.scenario.name,
+                    "average_power_w": v.scenario.average_power_w,
+                    "largest_keepout_m": v.largest_keepout_m,
+                    "keepout": [
+                        {
+                            "limit": k.limit_id,
+                            "limit_w_m2": k.limit_w_m2,
+                            "distance_m": k.distance_m,
+                            "distance_with_uncertainty_m": k.distance_with_uncertainty_m,
+                            "reached": k.reached,
+                        }
+                        for k in v.keepouts
+                    ],
+                    "zone_area_m2": {i: floor[i][0].area_m2 for i in self.limit_ids},
+                    "zone_area_with_uncertainty_m2": {
+                        i: floor[i][-1].area_m2 for i in self.limit_ids
+                    },
+                    "zone_clipped_at_map_edge": any(z.clipped for zs in floor.values() for z in zs),
+                    "leakage_5cm_w_m2": v.leakage_5cm_w_m2,
+                    "worst_point": v.worst_point,
+                }
+            )
+        return {
+            "schema_version": SCHEMA_VERSION,
+            "scenario": self.base.name,
+            "frequency_hz": self.base.frequency_hz,
+            "limits": list(self.limit_ids),
+            "floor_plane": {
+                "height_m": self.height_m,
+                "extent_m": list(grid.extent_m),
+                "step_m": grid.step_m,
+            },
+            "ranked_by": (
+                "largest keep-out distance across the limits (with model uncertainty), "
+                "then floor zone area of the strictest limit, then worst named point"
+            ),
+            "options": rows,
+            "caution": CAUTION_TEXT,
+        }
+
+    def figure(self) -> Any:
+        """Side-by-side floor maps on one colour scale, in rank order."""
+        from .plots import comparison_figure
+
+        panels = []
+        for rank, v in enumerate(self.variants, start=1):
+            caption = (
+                f"{rank}. {v.name}: keep-out {v.largest_keepout_m:.2f} m, "
+                f"zone {v.zone_area_m2:.2f} m²"
+            )
+            panels.append((caption, v.floor.result, v.scenario, v.keepouts))
+        return comparison_figure(panels, f"Options compared: {self.base.name}")
+
+
+def compare_options(
+    scenario: Scenario,
+    limit_ids: Sequence[str] | None = None,
+    *,
+    height_m: float | None = None,
+    half_extent_m: float | None = None,
+    step_m: float | None = None,
+    pixels: int | None = None,
+    progress: ProgressFactory | None = None,
+) -> Comparison:
+    """Assess the base and every option on a common floor grid and rank them.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The base scenario (its ``options`` are the alternatives).
+    limit_ids : sequence of str, optional
+        Limits for every variant (default: the base's).
+    height_m : float, optional
+        Height of the floor plane (default: the base's first source) [m].
+    half_extent_m, step_m, pixels : optional
+        Grid settings (default: wide enough for the largest variant).
+    progress : callable, optional
+        ``progress(label)`` returns a ``(done, total)`` callback or None.
+
+    Returns
+    -------
+    Comparison
+    """
+    ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
+    height = float(scenario.centre_m[2]) if height_m is None else float(height_m)
+    if not math.isfinite(height):
+        from .errors import InputError
+
+        raise InputError("must be a finite height in metres", "argument", "--height-m")
+    variants = [("base", "the scenario as given", scenario)] + [
+        (o.name, o.description, o.scenario) for o in scenario.options
+    ]
+    keepouts = [tuple(keepout_distances(s, ids)) for _, _, s in variants]
+    centre = scenario.centre_m
+    plane = maps.principal_plane("xy", [centre[0], centre[1], height])
+    if half_extent_m is None:
+        half_extent_m = max(
+            maps.default_half_extent_m(s, k, plane)
+            for (_, _, s), k in zip(variants, keepouts, strict=True)
+        )
+    out = []
+    for (name, description, s), k in zip(variants, keepouts, strict=True):
+        callback = progress(f"option {name}") if progress is not None else None
+        run = maps.run_map(
+            s,
+            plane,
+            k,
+            half_extent_m=half_extent_m,
+            step_m=step_m,
+            pixels=pixels,
+            centre_st_m=plane.centre_st_m,
+            progress=callback,
+        )
+        out.append(Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst_point(s, ids)))
+    out.sort(key=Variant.rank_key)
+    return Comparison(scenario, ids, height, tuple(out))
+
+
+def comparison_table(data: dict[str, Any]) -> str:
+    """The ranked comparison as a plain-text table."""
+    limits = data["limits"]
+    header = ["rank", "option"] + [f"keep-out m {i}" for i in limits]
+    header += ["floor zone m2", "leak 5 cm W/m2", "worst named point"]
+    rows = []
+    for row in data["options"]:
+        k = {e["limit"]: e for e in row["keepout"]}
+        cells = [str(row["rank"]), row["name"] if row["is_base"] else f"option: {row['name']}"]
+        for i in limits:
+            e = k[i]
+            text = f"{e['distance_m']:.2f}"
+            if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
+                text += f" ({e['distance_with_uncertainty_m']:.2f})"
+            cells.append(text)
+        strictest = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
+        cells.append(f"{strictest:.2f}" + (" clipped" if row["zone_clipped_at_map_edge"] else ""))
+        leak = row["leakage_5cm_w_m2"]
+        cells.append("-" if leak is None else f"{leak:.3g}")
+        wp = row["worst_point"]
+        cells.append(
+            "-" if wp is None else f"{wp['name']}: {100 * wp['quotient']:.3g} % of {wp['limit']}"
+        )
+        rows.append(cells)
+    widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
+    lines = [
+        f"Options compared: {data['scenario']}",
+        f"Floor plane at z = {data['floor_plane']['height_m']:.2f} m; ranked by "
+        + data["ranked_by"],
+        "",
+        "  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True)),
+        "  ".join("-" * w for w in widths),
+    ]
+    lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
+    lines += ["", "Keep-out in brackets: widened by the source model's stated gain uncertainty."]
+    return "\n".join(lines)

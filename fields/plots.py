@@ -1,0 +1,832 @@
+"""Figures: density and quotient maps with limit contours, objects to scale, comparisons.
+
+Every figure is built on a bare :class:`matplotlib.figure.Figure` (no pyplot, no
+global state, safe in threads and servers) and carries what a reader needs to
+use it without the report: the scenario, the plane, the quantity and its unit,
+the assumptions (time averaging, reflection mode), a legend of the limit
+contours with their keep-out radii, the objects drawn to scale, and the short
+caution as a footer.
+
+Conventions of the drawing
+--------------------------
+* Colour: time-averaged power density on a logarithmic scale, W/m^2 on the
+  colour bar with mW/cm^2 beside it (1 mW/cm^2 = 10 W/m^2); or the exposure
+  quotient in dB against one limit (0 dB = the limit).
+* A solid/dashed coloured line per limit: where the quotient is one (the zone's
+  edge; the zone is the side towards the source).  A dotted circle in the same
+  colour: the keep-out sphere cut by the plane.
+* Objects in the plane are drawn solid; objects off the plane are drawn as
+  their outline seen along the plane normal, dashed and light.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import textwrap
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import matplotlib as mpl
+import numpy as np
+from matplotlib.colors import LogNorm, Normalize, TwoSlopeNorm
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from matplotlib.patches import Circle, Polygon
+from matplotlib.ticker import FuncFormatter, NullFormatter
+from numpy.typing import NDArray
+
+from . import maps
+from .cautions import CAUTION_LINES
+from .keepout import KeepoutResult
+from .scenario import Scenario
+
+#: Line colours and styles of the limit contours, in the order of the limits.
+LIMIT_COLOURS = ("#111111", "#1748c4", "#b5127f", "#0b7d5e", "#8a4b00", "#5a2d91", "#4d4d4d")
+LIMIT_STYLES = ("-", "--", "-.", (0, (5, 1.5, 1, 1.5, 1, 1.5)), (0, (1, 1.2)), "-", "--")
+DENSITY_CMAP = "YlOrRd"
+QUOTIENT_CMAP = "RdBu_r"
+#: Colour-scale span of a quotient map [dB] below and above the limit.
+QUOTIENT_SPAN_DB = (-30.0, 30.0)
+#: mW/cm^2 per W/m^2.
+MW_CM2_PER_W_M2 = 0.1
+#: A light box behind labels on the map (kept as text in SVG, unlike a stroked halo).
+_LABEL_BOX = {"boxstyle": "round,pad=0.12", "fc": "white", "ec": "none", "alpha": 0.8}
+_RC = {
+    "svg.fonttype": "none",
+    "font.size": 9.5,
+    "axes.titlesize": 10,
+    "axes.labelsize": 10,
+    "legend.fontsize": 8.5,
+    "legend.frameon": True,
+    "legend.framealpha": 0.95,
+}
+
+
+def short_caution() -> str:
+    """The caution's first line: an estimate, not a measurement."""
+    return CAUTION_LINES[0]
+
+
+def limit_style(index: int) -> dict[str, Any]:
+    """Colour and line style of the i-th limit contour."""
+    return {
+        "color": LIMIT_COLOURS[index % len(LIMIT_COLOURS)],
+        "linestyle": LIMIT_STYLES[index % len(LIMIT_STYLES)],
+    }
+
+
+def density_range(
+    results: Sequence[maps.MapResult], margin_below: float = 1e2, margin_above: float = 30.0
+) -> tuple[float, float]:
+    """Colour limits of a density map, narrowed to the data [W m^-2].
+
+    From ``margin_below`` under the strictest limit to ``margin_above`` over the
+    most lenient, so equal colours mean equal densities on every map of a run.
+    """
+    limits = [v.power_density_w_m2 for r in results for v in r.limits]
+    data = np.concatenate([r.power_density_w_m2.ravel() for r in results])
+    data = data[np.isfinite(data) & (data > 0)]
+    top = float(data.max()) if data.size else 1.0
+    lo = min(limits) / margin_below if limits else top / 1e4
+    hi = max(limits) * margin_above if limits else top
+    hi = min(hi, top)
+    if hi <= lo * 10:
+        lo = hi / 1e4
+    return lo, hi
+
+
+def figure_bytes(fig: Figure, fmt: str, dpi: int = 150) -> bytes:
+    """Render a figure to PNG or SVG bytes."""
+    buf = io.BytesIO()
+    with mpl.rc_context(_RC):
+        fig.savefig(buf, format=fmt, dpi=dpi, metadata=_metadata(fmt))
+    return buf.getvalue()
+
+
+_SUPERSCRIPTS = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def power_of_ten(exponent: int) -> str:
+    """``10`` with the exponent as Unicode superscripts, e.g. ``10⁻³``."""
+    return "10" + str(int(exponent)).translate(_SUPERSCRIPTS)
+
+
+def _metadata(fmt: str) -> dict[str, Any]:
+    if fmt == "svg":
+        return {"Date": None, "Creator": "keepclear"}
+    if fmt == "png":
+        return {"Software": "keepclear"}
+    return {}
+
+
+# ----------------------------------------------------------------- labels
+def duty_text(scenario: Scenario) -> str:
+    """How the duty cycle enters: the time average."""
+    duties = sorted({s.duty_cycle for s in scenario.sources})
+    if duties == [1.0]:
+        return "continuous (duty cycle 1)"
+    if len(duties) == 1:
+        return f"time-averaged over duty cycle {duties[0]:g}"
+    return "time-averaged over each source's duty cycle"
+
+
+def reflection_text(scenario: Scenario) -> str:
+    """The reflection assumption in words."""
+    if not scenario.reflectors:
+        return "no reflecting planes modelled"
+    names = ", ".join(_reflector_name(r) for r in scenario.reflectors)
+    mode = {
+        "envelope": "worst-phase envelope",
+        "coherent": "coherent (standing waves)",
+    }.get(scenario.reflections, scenario.reflections)
+    return f"reflections from {names}: {mode}"
+
+
+def _reflector_name(reflector: Any) -> str:
+    label = getattr(reflector, "label", "") or "plane"
+    material = getattr(reflector, "material", None)
+    if material and material not in label:
+        return f"{label} ({material})"
+    gamma = getattr(reflector, "reflection_coefficient", None)
+    if gamma is not None:
+        return f"{label} (Gamma = {gamma:g})"
+    return label
+
+
+def assumptions_text(scenario: Scenario) -> str:
+    """One line of the assumptions a map rests on."""
+    parts = [duty_text(scenario), reflection_text(scenario)]
+    if scenario.shields:
+        parts.append(f"{len(scenario.shields)} shield(s)")
+    if scenario.enclosure is not None:
+        parts.append("enclosure leakage modelled")
+    return "; ".join(parts)
+
+
+def _axis_label(plane: maps.Plane, which: int) -> str:
+    name = plane.axis_names[which]
+    if plane.kind == "custom":
+        vec = plane.u if which == 0 else plane.v
+        return f"{name} [m]  (along {vec[0]:.2f}, {vec[1]:.2f}, {vec[2]:.2f})"
+    if name == "along boresight":
+        return "horizontal distance along boresight from the source [m]"
+    return f"{name} [m]"
+
+
+def _short_id(limit_id: str) -> str:
+    return limit_id
+
+
+# ---------------------------------------------------------------- drawing
+@dataclass(frozen=True)
+class MapStyle:
+    """What a map shows: the quantity and the colour limits.
+
+    Parameters
+    ----------
+    quantity : str
+        ``"density"`` or ``"quotient"``.
+    quotient_limit : str or None
+        The limit of a quotient map.
+    vmin, vmax : float
+        Colour limits: W/m^2 for density, dB for quotient.
+    """
+
+    quantity: str = "density"
+    quotient_limit: str | None = None
+    vmin: float | None = None
+    vmax: float | None = None
+
+
+def _norm(style: MapStyle, results: Sequence[maps.MapResult]) -> Normalize:
+    if style.quantity == "quotient":
+        lo = QUOTIENT_SPAN_DB[0] if style.vmin is None else style.vmin
+        hi = QUOTIENT_SPAN_DB[1] if style.vmax is None else style.vmax
+        return TwoSlopeNorm(vcenter=0.0, vmin=min(lo, -1.0), vmax=max(hi, 1.0))
+    lo, hi = density_range(results)
+    lo = lo if style.vmin is None else style.vmin
+    hi = hi if style.vmax is None else style.vmax
+    return LogNorm(vmin=lo, vmax=hi)
+
+
+def _image_data(result: maps.MapResult, style: MapStyle) -> NDArray[np.float64]:
+    if style.quantity == "quotient":
+        limit = style.quotient_limit or result.limit_ids[0]
+        return 10.0 * maps.log_quotient(result.quotient(limit))
+    return np.maximum(result.power_density_w_m2, 1e-300)
+
+
+def draw_map(
+    ax: Any,
+    result: maps.MapResult,
+    scenario: Scenario,
+    keepouts: Sequence[KeepoutResult],
+    style: MapStyle,
+    norm: Normalize,
+    *,
+    zones: dict[str, list[maps.Zone]] | None = None,
+    labels: bool = True,
+) -> Any:
+    """Draw one map into an axes: colour image, contours, objects, points.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    result : MapResult
+    scenario : Scenario
+    keepouts : sequence of KeepoutResult
+        For the keep-out circles and the legend (may be empty).
+    style : MapStyle
+    norm : Normalize
+        Shared colour normalisation.
+    zones : dict, optional
+        Unused for drawing (contours are drawn from the quotient directly, with the
+        same marching squares); accepted so callers can pass what they have.
+    labels : bool
+        Whether to write names beside sources and points.
+
+    Returns
+    -------
+    The image artist (for a colour bar).
+    """
+    del zones
+    grid = result.grid
+    plane = grid.plane
+    s0, s1, t0, t1 = grid.extent_m
+    ds = (s1 - s0) / max(grid.s_m.size - 1, 1)
+    dt = (t1 - t0) / max(grid.t_m.size - 1, 1)
+    cmap = mpl.colormaps[QUOTIENT_CMAP if style.quantity == "quotient" else DENSITY_CMAP]
+    image = ax.imshow(
+        _image_data(result, style),
+        origin="lower",
+        extent=(s0 - ds / 2, s1 + ds / 2, t0 - dt / 2, t1 + dt / 2),
+        cmap=cmap,
+        norm=norm,
+        interpolation="nearest",
+        aspect="equal",
+        rasterized=True,
+    )
+    by_id = {k.limit_id: k for k in keepouts}
+    centre = scenario.centre_m
+    centre_st = plane.to_plane(centre)[0][0]
+    for i, limit_id in enumerate(result.limit_ids):
+        st = limit_style(i)
+        lines = maps.contour_lines(result, limit_id)
+        for line in lines:
+            ax.plot(line[:, 0], line[:, 1], lw=1.9, **st, zorder=4)
+        if labels and lines:
+            _tag_contour(ax, lines, i, centre_st, st["color"])
+        k = by_id.get(limit_id)
+        if k is not None and k.reached:
+            section = maps.sphere_section(plane, centre, k.distance_m)
+            if section is not None:
+                ax.add_patch(
+                    Circle(
+                        section[0],
+                        section[1],
+                        fill=False,
+                        lw=0.9,
+                        ls=(0, (1, 2.5)),
+                        color=st["color"],
+                        zorder=3,
+                    )
+                )
+    _draw_reflectors(ax, result, scenario)
+    for shield in scenario.shields:
+        _draw_object(ax, plane, maps.object_corners(shield), "shield", grid.step_m)
+    if scenario.enclosure is not None:
+        _draw_object(ax, plane, maps.object_corners(scenario.enclosure), "enclosure", grid.step_m)
+    _draw_sources(ax, plane, scenario, (s1 - s0), grid.step_m, labels)
+    _draw_points(ax, plane, scenario, (s0, s1, t0, t1), grid.step_m, labels)
+    ax.set_xlim(s0 - ds / 2, s1 + ds / 2)
+    ax.set_ylim(t0 - dt / 2, t1 + dt / 2)
+    ax.set_xlabel(_axis_label(plane, 0))
+    ax.set_ylabel(_axis_label(plane, 1))
+    ax.set_aspect("equal")
+    ax.grid(True, color="#000000", alpha=0.12, lw=0.5)
+    return image
+
+
+def _tag_contour(
+    ax: Any, lines: list[NDArray[np.float64]], index: int, centre: NDArray, colour: str
+) -> None:
+    """Write the limit's number on its contour, at an angle of its own (no two collide)."""
+    longest = max(lines, key=len)
+    rel = longest - centre
+    angle = np.radians(50.0 + 32.0 * index)
+    want = np.array([np.cos(angle), np.sin(angle)])
+    norm = np.hypot(rel[:, 0], rel[:, 1])
+    score = (rel @ want) / np.where(norm > 0, norm, 1.0)
+    s, t = longest[int(np.argmax(score))]
+    ax.text(
+        s,
+        t,
+        str(index + 1),
+        fontsize=8,
+        fontweight="bold",
+        color=colour,
+        ha="center",
+        va="center",
+        zorder=9,
+        bbox={"boxstyle": "circle,pad=0.18", "fc": "white", "ec": colour, "lw": 1.0},
+    )
+
+
+def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> None:
+    grid = result.grid
+    plane = grid.plane
+    s0, s1, t0, t1 = grid.extent_m
+    ss, tt = np.meshgrid(grid.s_m, grid.t_m)
+    for reflector in scenario.reflectors:
+        trace = maps.plane_trace(plane, reflector.point_m, reflector.normal)
+        if trace is None:
+            continue
+        a, b, c = trace
+        behind = (a * ss + b * tt - c) < 0
+        if behind.any():
+            ax.contourf(
+                ss,
+                tt,
+                behind.astype(float),
+                levels=[0.5, 1.5],
+                colors=["#808080"],
+                alpha=0.35,
+                zorder=2,
+            )
+            ax.contourf(
+                ss,
+                tt,
+                behind.astype(float),
+                levels=[0.5, 1.5],
+                colors="none",
+                hatches=["////"],
+                zorder=2,
+            )
+        # The trace line across the map.
+        if abs(b) > abs(a):
+            xs = np.array([s0, s1])
+            ys = (c - a * xs) / b
+        else:
+            ys = np.array([t0, t1])
+            xs = (c - b * ys) / a
+        ax.plot(xs, ys, color="#333333", lw=2.4, solid_capstyle="butt", zorder=5)
+
+
+def _draw_object(
+    ax: Any, plane: maps.Plane, corners: NDArray[np.float64] | None, role: str, step: float
+) -> None:
+    if corners is None:
+        return
+    colour = {"shield": "#3b3b8f", "enclosure": "#2d2d2d"}[role]
+    section = maps.convex_section(plane, corners)
+    if section is not None:
+        if section.shape[0] == 2:
+            ax.plot(
+                section[:, 0], section[:, 1], color=colour, lw=3.2, zorder=6, solid_capstyle="butt"
+            )
+        else:
+            ax.add_patch(Polygon(section, closed=True, fill=False, ec=colour, lw=2.2, zorder=6))
+        return
+    hull = maps.projected_hull(plane, corners)
+    if hull is None:
+        return
+    if hull.shape[0] == 2:
+        ax.plot(hull[:, 0], hull[:, 1], color=colour, lw=1.6, ls="--", alpha=0.7, zorder=6)
+    else:
+        ax.add_patch(
+            Polygon(hull, closed=True, fill=False, ec=colour, lw=1.3, ls="--", alpha=0.7, zorder=6)
+        )
+
+
+def _draw_sources(
+    ax: Any, plane: maps.Plane, scenario: Scenario, width: float, step: float, labels: bool
+) -> None:
+    for source in scenario.sources:
+        st, offset = plane.to_plane(source.position_m)
+        near = abs(float(offset[0])) <= max(step, 1e-6)
+        for outline in maps.source_outlines(source):
+            pts, off = plane.to_plane(outline.points_m)
+            on = bool(np.all(np.abs(off) <= max(step, 1e-6)))
+            kw = {
+                "color": "#0d2a6b",
+                "lw": 1.8 if on else 1.0,
+                "zorder": 7,
+                "ls": "-" if on else "--",
+            }
+            if outline.closed:
+                pts = np.vstack([pts, pts[:1]])
+            ax.plot(pts[:, 0], pts[:, 1], **kw)
+        ax.plot(
+            st[0, 0],
+            st[0, 1],
+            marker="*",
+            ms=13 if near else 10,
+            mfc="#0d2a6b",
+            mec="white",
+            mew=1.0,
+            ls="none",
+            zorder=8,
+        )
+        if source.antenna in ("open-waveguide", "horn"):
+            _draw_boresight(ax, plane, source, st[0], width)
+        if labels:
+            where = _off_plane(plane, source.position_m, float(offset[0]))
+            text = source.id if near else f"{source.id} ({where})"
+            ax.annotate(
+                text,
+                st[0],
+                xytext=(7, -12),
+                textcoords="offset points",
+                fontsize=8.5,
+                color="#0d2a6b",
+                bbox=_LABEL_BOX,
+                zorder=9,
+            )
+
+
+def _draw_boresight(ax: Any, plane: maps.Plane, source: Any, start: NDArray, width: float) -> None:
+    axis = source.radiator.placement.rotation[:, 2]
+    along = np.array([axis @ plane.u, axis @ plane.v])
+    length = 0.12 * width
+    if np.hypot(*along) < 0.2:
+        # Nearly along the plane normal: the usual "out of" / "into" the page symbols.
+        out_of_page = float(axis @ plane.normal) > 0
+        ax.plot(*start, marker="o", ms=12, mfc="none", mec="#0d2a6b", mew=1.3, zorder=8)
+        ax.plot(*start, marker="." if out_of_page else "x", ms=6, color="#0d2a6b", zorder=8)
+        return
+    end = start + along * length
+    ax.annotate(
+        "",
+        xy=end,
+        xytext=start,
+        arrowprops={"arrowstyle": "-|>", "color": "#0d2a6b", "lw": 1.6},
+        zorder=8,
+    )
+
+
+def _draw_points(
+    ax: Any,
+    plane: maps.Plane,
+    scenario: Scenario,
+    extent: tuple[float, float, float, float],
+    step: float,
+    labels: bool,
+) -> None:
+    if not scenario.points:
+        return
+    s0, s1, t0, t1 = extent
+    st, offset = plane.to_plane(np.array([p.position_m for p in scenario.points]))
+    metres_per_inch = (s1 - s0) / max(ax.get_position().width * ax.figure.get_figwidth(), 1e-6)
+    line_m = 12.0 / 72 * metres_per_inch  # one label line (12 pt) in metres
+    placed: list[tuple[float, float, float]] = []  # (t, s_lo, s_hi) of labels written
+    order = np.argsort(st[:, 1])
+    for i in order:
+        p, (s, t), d = scenario.points[i], st[i], offset[i]
+        if not (s0 <= s <= s1 and t0 <= t <= t1):
+            continue
+        on = abs(d) <= step
+        ax.plot(
+            s,
+            t,
+            marker="o",
+            ms=7,
+            mfc="white" if on else "#dddddd",
+            mec="black",
+            mew=1.2,
+            ls="none",
+            zorder=8,
+        )
+        if not labels:
+            continue
+        text = p.name if on else f"{p.name} ({_off_plane(plane, p.position_m, d)})"
+        # Text width at 8.5 pt, about 0.56 em a character.
+        width_m = len(text) * 8.5 * 0.56 / 72 * metres_per_inch
+        right = s + width_m + 0.1 * metres_per_inch > s1
+        lo, hi = (s - width_m, s) if right else (s, s + width_m)
+        lift = 0
+        while (
+            any(
+                abs(t + lift * line_m - pt) < line_m and lo < phi and plo < hi
+                for pt, plo, phi in placed
+            )
+            and lift < 6
+        ):
+            lift += 1
+        placed.append((t + lift * line_m, lo, hi))
+        ax.annotate(
+            text,
+            (s, t),
+            xytext=(-7 if right else 7, 6 + 12 * lift),
+            textcoords="offset points",
+            ha="right" if right else "left",
+            fontsize=8.5,
+            bbox=_LABEL_BOX,
+            zorder=9,
+            arrowprops=None if lift == 0 else {"arrowstyle": "-", "lw": 0.6, "color": "#333333"},
+        )
+
+
+def _off_plane(plane: maps.Plane, position_m: NDArray, offset_m: float) -> str:
+    if plane.kind == "xy":
+        return f"at z = {position_m[2]:.2f} m"
+    return f"{offset_m:+.2f} m off plane"
+
+
+def _legend_handles(
+    result: maps.MapResult, keepouts: Sequence[KeepoutResult], scenario: Scenario
+) -> list[Any]:
+    by_id = {k.limit_id: k for k in keepouts}
+    handles: list[Any] = []
+    for i, v in enumerate(result.limits):
+        k = by_id.get(v.id)
+        if k is None:
+            tail = ""
+        elif not k.reached:
+            tail = ": not reached anywhere"
+        else:
+            tail = f": keep-out {k.distance_m:.2f} m"
+            if k.distance_with_uncertainty_m > k.distance_m + 1e-9:
+                tail += f" ({k.distance_with_uncertainty_m:.2f} m with model uncertainty)"
+        label = f"[{i + 1}] {v.id}, {v.power_density_w_m2:.3g} W/m²{tail}"
+        handles.append(Line2D([], [], lw=1.9, label=label, **limit_style(i)))
+    if keepouts:
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color="#444444",
+                lw=0.9,
+                ls=(0, (1, 2.5)),
+                label="keep-out sphere about the first source, cut by this plane",
+            )
+        )
+    apertures = any(s.antenna in ("open-waveguide", "horn") for s in scenario.sources)
+    handles.append(
+        Line2D(
+            [],
+            [],
+            marker="*",
+            ms=10,
+            mfc="#0d2a6b",
+            mec="white",
+            ls="none",
+            label="source (arrow: boresight; outline to scale)" if apertures else "source",
+        )
+    )
+    if scenario.points:
+        handles.append(
+            Line2D(
+                [],
+                [],
+                marker="o",
+                ms=7,
+                mfc="white",
+                mec="black",
+                ls="none",
+                label="named point (grey: off this plane)",
+            )
+        )
+    plane = result.grid.plane
+    if any(maps.plane_trace(plane, r.point_m, r.normal) for r in scenario.reflectors):
+        handles.append(
+            Line2D([], [], color="#333333", lw=2.4, label="reflecting plane (hatched: behind it)")
+        )
+    if scenario.shields:
+        handles.append(Line2D([], [], color="#3b3b8f", lw=3.2, label="shield"))
+    if scenario.enclosure is not None:
+        handles.append(Line2D([], [], color="#2d2d2d", lw=2.2, label="enclosure"))
+    return handles
+
+
+def _colour_bar(fig: Figure, image: Any, cax: Any, style: MapStyle, limit_id: str | None) -> None:
+    if style.quantity == "quotient":
+        bar = fig.colorbar(image, cax=cax, extend="both")
+        bar.set_label(f"exposure quotient against {limit_id} [dB]  (0 dB = the limit)")
+        ticks = [
+            t
+            for t in (-30, -20, -10, -6, -3, 0, 3, 6, 10, 20)
+            if image.norm.vmin <= t <= image.norm.vmax
+        ]
+        bar.set_ticks(ticks)
+        return
+    bar = fig.colorbar(image, cax=cax, extend="both")
+    bar.set_label("time-averaged power density [W/m²]  (right scale)")
+    # Decade labels as plain text (mathtext costs more to lay out than the map to draw).
+    bar.ax.yaxis.set_major_formatter(
+        FuncFormatter(lambda x, _pos: power_of_ten(round(math.log10(x))) if x > 0 else "")
+    )
+    bar.ax.yaxis.set_minor_formatter(NullFormatter())
+    # The same decades in mW/cm² on the left (1 mW/cm² = 10 W/m²), written directly: a
+    # secondary log axis would cost more to draw than the whole map.
+    lo, hi = image.norm.vmin, image.norm.vmax
+    decades = range(math.ceil(math.log10(lo) - 1e-9), math.floor(math.log10(hi) + 1e-9) + 1)
+    transform = cax.get_yaxis_transform()
+    for k in decades:
+        exponent = k + round(math.log10(MW_CM2_PER_W_M2))
+        cax.text(
+            -0.35,
+            10.0**k,
+            power_of_ten(exponent),
+            transform=transform,
+            ha="right",
+            va="center",
+            fontsize=9.5,
+        )
+        cax.plot(
+            [-0.25, 0.0], [10.0**k] * 2, transform=transform, color="black", lw=0.8, clip_on=False
+        )
+    cax.text(-0.5, 1.035, "mW/cm²", transform=cax.transAxes, ha="right", va="bottom", fontsize=8.5)
+    cax.text(1.5, 1.035, "W/m²", transform=cax.transAxes, ha="left", va="bottom", fontsize=8.5)
+
+
+def quantity_title(style: MapStyle, result: maps.MapResult) -> str:
+    """What the colour shows, in words."""
+    if style.quantity == "quotient":
+        limit = style.quotient_limit or result.limit_ids[0]
+        return f"Exposure quotient against {limit}"
+    return "Time-averaged power density"
+
+
+def map_figure(
+    result: maps.MapResult,
+    scenario: Scenario,
+    keepouts: Sequence[KeepoutResult],
+    style: MapStyle | None = None,
+    zones: dict[str, list[maps.Zone]] | None = None,
+) -> Figure:
+    """The complete figure of one map: title, map, colour bar, legend, caution.
+
+    Parameters
+    ----------
+    result : MapResult
+    scenario : Scenario
+    keepouts : sequence of KeepoutResult
+    style : MapStyle, optional
+    zones : dict, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    style = style or MapStyle()
+    handles = _legend_handles(result, keepouts, scenario)
+    # Layout in inches: title block, square map with colour bar, legend, caution.
+    width, left, side, top = 8.4, 0.85, 5.6, 1.15
+    legend_h = 0.2 * len(handles) + 0.2
+    height = top + side + 0.6 + legend_h + 0.55
+    with mpl.rc_context(_RC):
+        fig = Figure(figsize=(width, height))
+        bottom = (height - top - side) / height
+        ax = fig.add_axes((left / width, bottom, side / width, side / height))
+        cax = fig.add_axes(((left + side + 0.95) / width, bottom, 0.22 / width, side / height))
+        norm = _norm(style, [result])
+        image = draw_map(ax, result, scenario, keepouts, style, norm, zones=zones)
+        _colour_bar(fig, image, cax, style, style.quotient_limit or result.limit_ids[0])
+        _title(fig, scenario, result, style, height)
+        fig.legend(
+            handles=handles,
+            loc="upper left",
+            bbox_to_anchor=(0.5 / width, (0.55 + legend_h) / height),
+            ncols=1,
+            borderaxespad=0.0,
+            handlelength=3.2,
+        )
+        _footer(fig, width)
+    return fig
+
+
+def _title(
+    fig: Figure, scenario: Scenario, result: maps.MapResult, style: MapStyle, height: float
+) -> None:
+    plane = result.grid.plane
+    grid = result.grid
+    x = 0.5 / fig.get_figwidth()
+    fig.text(
+        x,
+        1 - 0.22 / height,
+        textwrap.shorten(scenario.name, 90),
+        fontsize=12.5,
+        fontweight="bold",
+        va="top",
+    )
+    fig.text(
+        x,
+        1 - 0.52 / height,
+        f"{quantity_title(style, result)} on the {plane.description}",
+        fontsize=10.5,
+        va="top",
+    )
+    fig.text(
+        x,
+        1 - 0.76 / height,
+        textwrap.fill(
+            f"{assumptions_text(scenario)}; grid step {grid.step_m * 100:.1f}\u00a0cm; "
+            f"{scenario.frequency_hz / 1e9:g}\u00a0GHz",
+            115,
+        ),
+        fontsize=8.5,
+        va="top",
+        color="#333333",
+    )
+
+
+def _footer(fig: Figure, width: float) -> None:
+    fig.text(
+        0.5 / width,
+        0.012,
+        textwrap.fill("CAUTION: " + short_caution(), 120),
+        fontsize=8,
+        style="italic",
+        va="bottom",
+        color="#222222",
+    )
+
+
+# ------------------------------------------------------------ comparison
+def comparison_figure(
+    panels: Sequence[tuple[str, maps.MapResult, Scenario, Sequence[KeepoutResult]]],
+    title: str,
+    style: MapStyle | None = None,
+) -> Figure:
+    """Maps of several options side by side on one colour scale.
+
+    Parameters
+    ----------
+    panels : sequence of (caption, MapResult, Scenario, keepouts)
+        One panel per option, in rank order.
+    title : str
+        Figure title.
+    style : MapStyle, optional
+    """
+    style = style or MapStyle()
+    n = len(panels)
+    cols = n if n <= 3 else (2 if n == 4 else 3)
+    rows = math.ceil(n / cols)
+    # Layout in inches.
+    side, gap, left, top, row_head, row_foot = 3.6, 0.75, 0.8, 0.95, 0.5, 0.55
+    bar_gap, bar, right = 0.95, 0.22, 0.95
+    legend_h = 0.75
+    width = left + cols * side + (cols - 1) * gap + bar_gap + bar + right
+    row_h = row_head + side + row_foot
+    height = top + rows * row_h + legend_h + 0.35
+    with mpl.rc_context(_RC):
+        fig = Figure(figsize=(width, height))
+        norm = _norm(style, [p[1] for p in panels])
+        image = None
+        for k, (caption, result, scenario, keepouts) in enumerate(panels):
+            r, c = divmod(k, cols)
+            x = left + c * (side + gap)
+            y = height - top - r * row_h - row_head - side
+            ax = fig.add_axes((x / width, y / height, side / width, side / height))
+            image = draw_map(ax, result, scenario, keepouts, style, norm, labels=False)
+            ax.set_title(textwrap.fill(caption, 48), fontsize=9, loc="left")
+            if c != 0:
+                ax.set_ylabel("")
+        bar_x = left + cols * side + (cols - 1) * gap + bar_gap
+        bar_y = height - top - rows * row_h + row_foot
+        cax = fig.add_axes(
+            (
+                bar_x / width,
+                bar_y / height,
+                bar / width,
+                (rows * row_h - row_foot - row_head) / height,
+            )
+        )
+        _colour_bar(fig, image, cax, style, style.quotient_limit or panels[0][1].limit_ids[0])
+        fig.text(
+            left / width,
+            1 - 0.2 / height,
+            textwrap.shorten(title, 110),
+            fontsize=12,
+            fontweight="bold",
+            va="top",
+        )
+        first = panels[0][1]
+        fig.text(
+            left / width,
+            1 - 0.5 / height,
+            f"{quantity_title(style, first)} on the {first.grid.plane.description}; "
+            "one colour scale for all panels; ranked best first",
+            fontsize=9.5,
+            va="top",
+        )
+        handles = _legend_handles(first, [], panels[0][2])
+        fig.legend(
+            handles=handles,
+            loc="upper left",
+            bbox_to_anchor=(left / width, (legend_h + 0.3) / height),
+            ncols=2,
+            borderaxespad=0.0,
+            handlelength=3.2,
+        )
+        fig.text(
+            left / width,
+            0.08 / height,
+            "CAUTION: " + short_caution(),
+            fontsize=8,
+            style="italic",
+            va="bottom",
+        )
+    return fig

@@ -1,0 +1,573 @@
+"""The assessment report: one self-contained HTML file, and the terminal summary.
+
+The report is written for a lab-safety committee: what was assessed (the scenario
+file as given), how (the method and its assumptions), the answer per limit (keep-out
+radius, the figure to mark out with the model uncertainty, the far-field screening
+estimate, the shapes to tape), the named places, the options compared, what the
+estimate leaves out, the cautions, and the source of every limit and formula.
+
+Self-contained: the figures are embedded as base64 PNG, the style sheet is inline,
+there is no script and no reference to anything outside the file, so it opens the
+same offline, in an archive, or printed.  A print style sheet (A4, no page break
+inside a table or figure) makes "print to PDF" give a clean document.
+
+Everything shown comes from the ``assessment.json`` data (:func:`render_report`
+takes that dictionary), so the report and the JSON can never disagree.
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as _dt
+import html
+from typing import Any
+
+from .cautions import CAUTION_LINES, caution_block
+
+#: What the estimate leaves out, as printed in the report.
+LEFT_OUT: tuple[tuple[str, str], ...] = (
+    (
+        "Specific absorption rate (SAR).",
+        "The limits used are reference levels (incident fields). The basic restrictions "
+        "they protect, whole-body and 10 g SAR (and absorbed power density above 6 GHz), "
+        "are not computed; close to a source, within a wavelength or two, the incident-field "
+        "comparison can be far from the absorbed dose in either direction.",
+    ),
+    (
+        "Pulsed and peak limits.",
+        "Only time-averaged exposure is compared with the limits. The peak (while-radiating) "
+        "density is reported, but the separate limits some standards set on brief or pulsed "
+        "exposure (ICNIRP 2020 brief-exposure and peak limits, IEEE C95.1 peak power "
+        "density) are not checked.",
+    ),
+    (
+        "Multipath beyond the modelled planes.",
+        "Only the reflecting planes in the scenario are included, as infinite planes, to "
+        "second order at most. Walls, ceilings, benches, cabinets and people that are not "
+        "listed reflect and focus too; in a small metal-rich room the field can exceed the "
+        "estimate.",
+    ),
+    (
+        "Objects not in the scenario.",
+        "Anything metallic near the source (tools, trolleys, cable trays, a second "
+        "waveguide) changes the pattern. Shields and enclosures are only what the scenario "
+        "describes; gaps, seams, door seals and ageing are not assessed.",
+    ),
+    (
+        "Measurement and model uncertainty.",
+        "Source models carry a stated gain uncertainty where they give one (widened "
+        "distances are reported). Power, duty cycle and geometry are taken as given; an "
+        "error in them passes straight into the answer. A survey with a calibrated meter "
+        "is the check.",
+    ),
+    (
+        "Electromagnetic interference with devices.",
+        "Active implanted medical devices and electronics can be affected at levels far "
+        "below the human-exposure limits; those need their own assessment.",
+    ),
+)
+
+_CSS = """
+:root { --ink: #1b1b1b; --muted: #555; --rule: #c9c9c9; --warn: #8a1c00; --band: #f4f1ea; }
+* { box-sizing: border-box; }
+body { font-family: "DejaVu Sans", "Segoe UI", Helvetica, Arial, sans-serif; color: var(--ink);
+       max-width: 60rem; margin: 2rem auto; padding: 0 1.2rem; line-height: 1.45;
+       font-size: 15px; }
+h1 { font-size: 1.55rem; margin: 0 0 .3rem; }
+h2 { font-size: 1.2rem; margin: 2.2rem 0 .6rem; border-bottom: 2px solid var(--ink);
+     padding-bottom: .15rem; }
+h3 { font-size: 1.02rem; margin: 1.4rem 0 .4rem; }
+p.meta { color: var(--muted); margin: 0 0 1rem; font-size: .9rem; }
+table { border-collapse: collapse; width: 100%; margin: .5rem 0 1rem; font-size: .88rem; }
+th, td { border-bottom: 1px solid var(--rule); padding: .3rem .45rem; text-align: left;
+         vertical-align: top; }
+th { background: var(--band); font-weight: 600; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+.summary { border: 2px solid var(--ink); padding: .8rem 1rem; margin: 1rem 0 1.4rem;
+           background: #fffdf8; }
+.summary p { margin: .3rem 0; }
+.exceed { color: var(--warn); font-weight: 600; }
+.caution { border-left: 6px solid var(--warn); background: #fff4f0; padding: .6rem 1rem;
+           margin: 1rem 0; }
+.caution ul { margin: .3rem 0; padding-left: 1.2rem; }
+figure { margin: 1rem 0 1.6rem; }
+figure img { width: 100%; height: auto; border: 1px solid var(--rule); }
+figcaption { font-size: .86rem; color: var(--muted); margin-top: .3rem; }
+pre { background: #f7f7f7; border: 1px solid var(--rule); padding: .7rem; overflow-x: auto;
+      font-size: .8rem; line-height: 1.3; white-space: pre-wrap; word-break: break-word; }
+code { font-size: .88em; }
+dl dt { font-weight: 600; margin-top: .5rem; }
+dl dd { margin: .1rem 0 .3rem 1.2rem; }
+footer { margin-top: 2.5rem; border-top: 1px solid var(--rule); padding-top: .6rem;
+         font-size: .82rem; color: var(--muted); }
+@page { size: A4; margin: 16mm 14mm 18mm; }
+@media print {
+  body { max-width: none; margin: 0; padding: 0; font-size: 10.5pt; }
+  h2 { break-after: avoid; page-break-after: avoid; }
+  table, figure, .summary, .caution, pre, dl { break-inside: avoid; page-break-inside: avoid; }
+  figure.map { break-before: page; page-break-before: always; }
+  figure img { border: none; max-height: 24cm; width: auto; max-width: 100%; }
+  a { color: inherit; text-decoration: none; }
+  .noprint { display: none; }
+}
+"""
+
+
+def _e(text: Any) -> str:
+    return html.escape(str(text), quote=True)
+
+
+def _num(x: float | None, digits: int = 3) -> str:
+    if x is None:
+        return "–"
+    if x == 0:
+        return "0"
+    return f"{x:.{digits}g}"
+
+
+def _metres(x: float | None) -> str:
+    return "–" if x is None else f"{x:.2f}&nbsp;m"
+
+
+def _img(png: bytes, alt: str) -> str:
+    data = base64.b64encode(png).decode("ascii")
+    return f'<img alt="{_e(alt)}" src="data:image/png;base64,{data}">'
+
+
+def _table(header: list[str], rows: list[list[str]], numeric: set[int] | None = None) -> str:
+    numeric = numeric or set()
+    head = "".join(
+        f'<th class="num">{h}</th>' if i in numeric else f"<th>{h}</th>"
+        for i, h in enumerate(header)
+    )
+    body = "".join(
+        "<tr>"
+        + "".join(
+            f'<td class="num">{c}</td>' if i in numeric else f"<td>{c}</td>"
+            for i, c in enumerate(r)
+        )
+        + "</tr>"
+        for r in rows
+    )
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+
+
+# --------------------------------------------------------------------- sections
+def _summary(data: dict[str, Any]) -> str:
+    rows = []
+    for k in data["keepout"]:
+        cyl = k["cylinder"]
+        zone = k["floor_zone"]
+        if not k["reached"]:
+            rows.append([_e(k["limit"]), _num(k["limit_w_m2"]), "not reached", "–", "–", "–"])
+            continue
+        rows.append(
+            [
+                _e(k["limit"]),
+                _num(k["limit_w_m2"]),
+                _metres(k["distance_m"]),
+                f"<strong>{_metres(k['recommended_distance_m'])}</strong>",
+                _metres(zone["circle"]["radius_m"]) if zone["circle"]["radius_m"] else "–",
+                f"r {_metres(cyl['radius_m'])}, z {cyl['z_min_m']:.2f} to "
+                f"{cyl['z_max_m']:.2f}&nbsp;m",
+            ]
+        )
+    floor_h = data["maps"]["floor"]["height_m"]
+    table = _table(
+        [
+            "limit",
+            "limit W/m²",
+            "keep-out radius",
+            "mark out",
+            f"circle on floor plane (z = {floor_h:.2f} m)",
+            "vertical cylinder",
+        ],
+        rows,
+        numeric={1, 2, 3},
+    )
+    exceed = [p for p in data["points"] if p["exceeds"]]
+    lines = [
+        '<section class="summary">',
+        "<p><strong>Keep people outside these distances from the first source while it "
+        "can radiate.</strong> “Mark out” includes the source model’s stated gain "
+        "uncertainty; the circle and cylinder are widened by one grid step.</p>",
+        table,
+    ]
+    if exceed:
+        names = ", ".join(_e(p["name"]) for p in exceed)
+        lines.append(f'<p class="exceed">Named places where a limit is reached: {names}.</p>')
+    elif data["points"]:
+        lines.append("<p>No named place reaches a limit.</p>")
+    lines.append(f"<p>{_e(CAUTION_LINES[0])}</p>")
+    lines.append("</section>")
+    return "\n".join(lines)
+
+
+def _results(data: dict[str, Any]) -> str:
+    rows = []
+    for k in data["keepout"]:
+        d = k["direction"]
+        towards = "–" if d is None else "(" + ", ".join(f"{x:+.2f}" for x in d) + ")"
+        zone = k["floor_zone"]
+        box = zone.get("box")
+        if box:
+            keys = [key for key in box if key.endswith("_m") and key != "size_m"]
+            box_text = "; ".join(
+                f"{_e(key[:-2])} {box[key][0]:.2f} to {box[key][1]:.2f}&nbsp;m" for key in keys
+            )
+        else:
+            box_text = "–"
+        avg = k["averaging_time_s"]
+        rows.append(
+            [
+                _e(k["limit"]),
+                _num(k["limit_w_m2"]),
+                "–" if avg is None else f"{avg / 60:g}&nbsp;min",
+                _metres(k["distance_m"]),
+                _metres(k["distance_with_uncertainty_m"])
+                + (
+                    f" (+{k['model_uncertainty_db']:.1f}&nbsp;dB)"
+                    if k["model_uncertainty_db"] > 0
+                    else ""
+                ),
+                _metres(k["screening_distance_m"]),
+                towards,
+                box_text
+                + (" <em>(clipped at map edge)</em>" if zone["clipped_at_map_edge"] else ""),
+                _num(zone["area_m2"]) + "&nbsp;m²",
+            ]
+        )
+    return _table(
+        [
+            "limit",
+            "W/m²",
+            "averaging",
+            "keep-out (model)",
+            "with model uncertainty",
+            "screening (far-field formula)",
+            "farthest towards",
+            "box on floor plane",
+            "zone area",
+        ],
+        rows,
+        numeric={1, 2, 3, 4, 5, 8},
+    )
+
+
+def _points(data: dict[str, Any]) -> str:
+    points = data["points"]
+    if not points:
+        return "<p>The scenario names no places (<code>[[point]]</code>).</p>"
+    limit_ids = [v["id"] for v in data["limits"]]
+    header = ["place", "position (x, y, z)", "S time-avg W/m²", "S while on W/m²"]
+    header += [f"% of {_e(i)}" for i in limit_ids]
+    rows = []
+    for p in points:
+        x, y, z = p["position_m"]
+        cells = [
+            _e(p["name"]),
+            f"({x:g}, {y:g}, {z:g})&nbsp;m",
+            _num(p["power_density_w_m2"]),
+            _num(p["peak_power_density_w_m2"]),
+        ]
+        for i in limit_ids:
+            q = p["quotients"][i]
+            text = f"{100 * q:.3g}&nbsp;%"
+            cells.append(f'<span class="exceed">{text}</span>' if q >= 1 else text)
+        rows.append(cells)
+    return _table(header, rows, numeric=set(range(2, len(header))))
+
+
+def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
+    comp = data.get("comparison")
+    if not comp:
+        return "<p>The scenario lists no alternatives (<code>[[option]]</code>).</p>"
+    limits = comp["limits"]
+    header = ["rank", "option", "description"] + [f"keep-out {_e(i)}" for i in limits]
+    header += ["floor zone m²", "leakage 5 cm W/m²", "worst named place"]
+    rows = []
+    for row in comp["options"]:
+        k = {e["limit"]: e for e in row["keepout"]}
+        cells = [str(row["rank"]), _e(row["name"]), _e(row["description"])]
+        for i in limits:
+            e = k[i]
+            text = _metres(e["distance_m"])
+            if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
+                text += f" ({_metres(e['distance_with_uncertainty_m'])})"
+            cells.append(text)
+        cells.append(_num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)))
+        cells.append(_num(row["leakage_5cm_w_m2"]))
+        wp = row["worst_point"]
+        cells.append(
+            "–"
+            if wp is None
+            else f"{_e(wp['name'])}: {100 * wp['quotient']:.3g}&nbsp;% of {_e(wp['limit'])}"
+        )
+        rows.append(cells)
+    parts = [
+        f"<p>Ranked by {_e(comp['ranked_by'])}. Floor plane at z = "
+        f"{comp['floor_plane']['height_m']:.2f}&nbsp;m. The ranking says which option needs "
+        "the least space; it does not make any option safe by itself.</p>",
+        _table(header, rows, numeric={0, *range(3, 3 + len(limits) + 2)}),
+    ]
+    if figure is not None:
+        parts.append(
+            '<figure class="map">'
+            + _img(figure, "floor-plane maps of the options side by side")
+            + "<figcaption>The options on one colour scale, best first.</figcaption></figure>"
+        )
+    return "\n".join(parts)
+
+
+def _method(data: dict[str, Any]) -> str:
+    a = data["assumptions"]
+    floor = data["maps"]["floor"]
+    vertical = data["maps"]["vertical"]
+    return f"""
+<dl>
+<dt>Quantity compared</dt>
+<dd>RMS fields E and H from the source models (near and far field), and the
+plane-wave-equivalent power density S = max(|E|²/η₀, η₀|H|²), η₀ = √(μ₀/ε₀) ≈ 376.73 Ω
+(CODATA via SciPy). The exposure quotient is max(S/S<sub>lim</sub>, (E/E<sub>lim</sub>)²,
+(H/H<sub>lim</sub>)²) over the quantities the standard gives; a limit is reached where it is
+at least one.</dd>
+<dt>Time averaging</dt>
+<dd>{_e(_sentence(a["time_averaging"]))}. Each source’s |E|² and |H|² are weighted by its duty cycle
+(the time average over any window the duty pattern repeats within); sources are not
+phase-locked and add as power. “While on” values assume every source radiates at once.</dd>
+<dt>Reflections</dt>
+<dd>{_e(_sentence(a["reflections"]))}. Each reflecting plane adds the image of every source with the
+Fresnel coefficients of its material (ITU-R P.2040 where named). In the envelope mode the
+reflected field adds in the worst phase everywhere ((1 + |Γ|)² on power), never below the
+coherent sum; the coherent mode sums phasors and shows the standing waves.</dd>
+<dt>Keep-out distance</dt>
+<dd>The radius, about the first source’s reference point, of the smallest sphere holding
+every point where the time-averaged quotient reaches one: rays in about 400 quasi-uniform
+directions (golden-spiral lattice) plus the radiators’ axes, sampled outwards (λ/16 near
+the source, growing 3 % a step), the outermost exceedance kept and bisected to 10⁻⁴, the
+farthest rays refined twice with denser caps. Where a source model states a gain
+uncertainty u, the search is repeated at a quotient of 10<sup>−u/10</sup> (“with model
+uncertainty”, the figure to mark out).</dd>
+<dt>Screening estimate</dt>
+<dd>The trade’s far-field formula R = √(F Σ dᵢ Pᵢ Gᵢ / (4π S<sub>lim</sub>)) with the
+peak gain in every direction and the reflection factor F of FCC OET Bulletin 65 (1 in free
+space, 2.56 for a ground, 4 for a perfect reflector); enclosures and shields ignored. It is
+shown for comparison only: within the near field it can err either way.</dd>
+<dt>Maps and zones</dt>
+<dd>The floor-plane map is the horizontal plane at z = {floor["height_m"]:.2f}&nbsp;m
+({floor["shape"][1]} × {floor["shape"][0]} samples, step {100 * floor["step_m"]:.1f}&nbsp;cm);
+the vertical map is the {_e(vertical["plane"]["description"])} (step
+{100 * vertical["step_m"]:.1f}&nbsp;cm). Zone boundaries are marching-squares contours of
+log₁₀ of the quotient (exact along grid lines for a 1/r² fall-off). The circle about the
+source and the axis-aligned box are widened by one grid step; the vertical cylinder comes
+from rays in about 900 directions sampled to the keep-out radius, widened by one radial
+step and never larger than the cylinder around the keep-out sphere. The zones are written
+as GeoJSON in metres in the plane’s own coordinates (x, y on the floor plane), not
+longitude and latitude.</dd>
+</dl>
+"""
+
+
+def _sentence(text: str) -> str:
+    return text[:1].upper() + text[1:]
+
+
+def _left_out() -> str:
+    items = "".join(f"<li><strong>{_e(h)}</strong> {_e(t)}</li>" for h, t in LEFT_OUT)
+    return f"<ul>{items}</ul>"
+
+
+def _cautions() -> str:
+    items = "".join(f"<li>{_e(c)}</li>" for c in CAUTION_LINES)
+    return f'<div class="caution"><strong>CAUTION</strong><ul>{items}</ul></div>'
+
+
+def _limit_sources(data: dict[str, Any]) -> str:
+    rows = []
+    for v in data["limits"]:
+        avg = v["averaging_time_s"]
+        fields = [f"S {_num(v['power_density_w_m2'], 4)}&nbsp;W/m²"]
+        if v["e_v_m"] is not None:
+            fields.append(f"E {_num(v['e_v_m'], 4)}&nbsp;V/m")
+        if v["h_a_m"] is not None:
+            fields.append(f"H {_num(v['h_a_m'], 4)}&nbsp;A/m")
+        rows.append(
+            [
+                _e(v["id"]),
+                ", ".join(fields),
+                "–" if avg is None else f"{avg / 60:g}&nbsp;min",
+                _e(v["source"]),
+                f"<code>{_e(v['expression'])}</code>",
+                _e(v.get("verification", "")),
+            ]
+        )
+    return _table(
+        [
+            "limit",
+            f"value at {data['frequency_hz'] / 1e9:g} GHz",
+            "averaging",
+            "source",
+            "printed expression",
+            "verification",
+        ],
+        rows,
+    )
+
+
+_REFERENCES = (
+    "ICNIRP, Guidelines for limiting exposure to electromagnetic fields (100 kHz to 300 GHz), "
+    "Health Physics 118(5):483–524, 2020, doi:10.1097/HP.0000000000001210 (Tables 5, 6).",
+    "IEEE Std C95.1-2019, Safety Levels with Respect to Human Exposure to Electric, Magnetic, "
+    "and Electromagnetic Fields, 0 Hz to 300 GHz, doi:10.1109/IEEESTD.2019.8859679.",
+    "47 CFR 1.1310, Radiofrequency radiation exposure limits, Table 1.",
+    "Health Canada, Safety Code 6 (2015), Tables 5 and 6.",
+    "21 CFR 1030.10, Microwave ovens, (c)(1): leakage 5 cm from the external surface.",
+    "FCC OET Bulletin 65, Edition 97-01 (1997): far-field prediction equations (3)–(6) and "
+    "the ground-reflection factors 2.56 and 4.",
+    "C. A. Balanis, Antenna Theory: Analysis and Design, 4th ed., Wiley, 2016, ch. 2 and 12; "
+    "Advanced Engineering Electromagnetics, 2nd ed., Wiley, 2012, sec. 5.2 and 7.4 "
+    "(Fresnel coefficients, image theory).",
+    "ITU-R Recommendation P.2040, Effects of building materials and structures on "
+    "radiowave propagation above about 100 MHz (material constants).",
+    "Á. González, Measurement of areas on a sphere using Fibonacci and latitude–longitude "
+    "lattices, Math. Geosci. 42 (2010) 49–64, doi:10.1007/s11004-009-9257-x.",
+    "W. E. Lorensen and H. E. Cline, Marching cubes, Computer Graphics 21(4) (1987) 163–169, "
+    "doi:10.1145/37402.37422 (marching squares is its two-dimensional case).",
+    "IETF RFC 7946 (2016), The GeoJSON Format.",
+)
+
+
+def render_report(
+    data: dict[str, Any], figures: dict[str, bytes], scenario_text: str | None = None
+) -> str:
+    """The HTML report of an assessment.
+
+    Parameters
+    ----------
+    data : dict
+        The ``assessment.json`` object (:func:`keepclear.fields.assessment.run_assessment`).
+    figures : dict
+        PNG bytes by role: ``"floor"``, ``"vertical"`` and, with options, ``"compare"``.
+    scenario_text : str, optional
+        The scenario file as written.
+
+    Returns
+    -------
+    str
+        A complete HTML document with no external reference.
+    """
+    generated = _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
+    title = f"RF exposure assessment: {data['scenario']}"
+    sources = ", ".join(
+        f"{_e(s['id'])} ({_e(s['antenna'])}, {s['power_w']:g}&nbsp;W, duty {s['duty_cycle']:g})"
+        for s in data["sources"]
+    )
+    floor = data["maps"]["floor"]
+    vertical = data["maps"]["vertical"]
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>{_e(title)}</title>",
+        f"<style>{_CSS}</style></head><body>",
+        f"<header><h1>{_e(title)}</h1>",
+        f'<p class="meta">Scenario file {_e(data["scenario_file"])} · '
+        f"{data['frequency_hz'] / 1e9:g}&nbsp;GHz · sources: {sources} · time-averaged power "
+        f"{data['average_power_w']:g}&nbsp;W · keepclear {_e(data['tool_version'])} · "
+        f"generated {generated}</p></header>",
+        _summary(data),
+        "<h2>1. Maps</h2>",
+        '<figure class="map">'
+        + _img(figures["floor"], "power density on the floor plane")
+        + f"<figcaption>Floor plane at z = {floor['height_m']:.2f}&nbsp;m: time-averaged power "
+        "density, the contour of each limit and the keep-out sphere cut by the plane. "
+        "This is the zone to mark on the floor (zones-floor.geojson).</figcaption></figure>",
+        '<figure class="map">'
+        + _img(figures["vertical"], "power density on the vertical plane")
+        + f"<figcaption>{_e(vertical['plane']['description']).capitalize()}: how high and "
+        "how low the zones reach.</figcaption></figure>",
+        "<h2>2. Results per limit</h2>",
+        _results(data),
+        "<h2>3. Named places</h2>",
+        _points(data),
+        "<h2>4. Options compared</h2>",
+        _comparison(data, figures.get("compare")),
+        "<h2>5. Method and assumptions</h2>",
+        _method(data),
+        "<h2>6. What this estimate leaves out</h2>",
+        _left_out(),
+        "<h2>7. Cautions</h2>",
+        _cautions(),
+        "<h2>8. Sources of the limits</h2>",
+        _limit_sources(data),
+        "<h2>9. References for the formulas</h2>",
+        "<ol>" + "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES) + "</ol>",
+        "<h2>10. The scenario as given</h2>",
+        (
+            f"<pre>{_e(scenario_text)}</pre>"
+            if scenario_text is not None
+            else "<p>(scenario text not available)</p>"
+        ),
+        "<h2>11. Files of this assessment</h2>",
+        "<ul>" + "".join(f"<li><code>{_e(n)}</code></li>" for n in data["files"]) + "</ul>",
+        f"<footer>{_e(CAUTION_LINES[0])}</footer>",
+        "</body></html>",
+    ]
+    return "\n".join(parts)
+
+
+# ------------------------------------------------------------- terminal summary
+def summary_text(data: dict[str, Any], written: list[str] | None = None, width: int = 100) -> str:
+    """The terminal summary of an assessment: keep-out, named places, options, files."""
+    lines = [
+        f"Scenario: {data['scenario']}",
+        f"{data['frequency_hz'] / 1e9:g} GHz; time-averaged power {data['average_power_w']:g} W; "
+        f"{data['assumptions']['time_averaging']}; {data['assumptions']['reflections']}",
+        "",
+        "Keep-out about the first source (mark out the larger figure):",
+    ]
+    header = ["limit", "W/m2", "keep-out m", "mark out m", "floor circle m", "cylinder r m, z m"]
+    rows = []
+    for k in data["keepout"]:
+        cyl = k["cylinder"]
+        rows.append(
+            [
+                k["limit"],
+                _num(k["limit_w_m2"]),
+                f"{k['distance_m']:.2f}" if k["reached"] else "not reached",
+                f"{k['recommended_distance_m']:.2f}" if k["reached"] else "-",
+                f"{k['floor_zone']['circle']['radius_m']:.2f}" if k["reached"] else "-",
+                (
+                    f"{cyl['radius_m']:.2f}, {cyl['z_min_m']:.2f}..{cyl['z_max_m']:.2f}"
+                    if k["reached"]
+                    else "-"
+                ),
+            ]
+        )
+    lines += _text_table(header, rows)
+    if data["points"]:
+        lines += ["", "Named places (largest % of a limit):"]
+        for p in data["points"]:
+            verdict = "REACHES A LIMIT" if p["exceeds"] else "below every limit"
+            lines.append(
+                f"  {p['name']}: {100 * p['worst_quotient']:.3g} % of {p['worst_limit']}  {verdict}"
+            )
+    comp = data.get("comparison")
+    if comp:
+        lines += ["", "Options, best first:"]
+        for row in comp["options"]:
+            lines.append(
+                f"  {row['rank']}. {row['name']}: largest keep-out {row['largest_keepout_m']:.2f} m"
+            )
+    if written:
+        lines += ["", "Written:"] + [f"  {w}" for w in written]
+    lines += ["", caution_block(width)]
+    return "\n".join(lines)
+
+
+def _text_table(header: list[str], rows: list[list[str]]) -> list[str]:
+    widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
+    out = ["  " + "  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True))]
+    out.append("  " + "  ".join("-" * w for w in widths))
+    out += ["  " + "  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
+    return out
