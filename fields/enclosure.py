@@ -790,7 +790,7 @@ def _db_to_power(db: ArrayLike) -> float:
 
 
 # ------------------------------------------------------------------- enclosure
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Enclosure:
     """An axis-aligned metal box around sources, leaking through its openings.
 

@@ -97,8 +97,11 @@ class SheetSpec:
     Far from the source (beyond lambda / 2 pi): Schelkunoff's SE at the ray's angle,
     worse polarisation (:func:`~keepclear.fields.shielding.sheet_power_transmission`).
     Nearer: absorption only, A + min(B, 0), because the near-field reflection loss of a
-    low-impedance (magnetic) wave can be much less than the plane-wave R (Ott 2009,
-    sec. 6.5, R_H = 14.6 + 10 log10(f r^2 sigma_r / mu_r) falls with distance).
+    low-impedance (magnetic) wave can be much less than the plane-wave R.  Ott (2009,
+    sec. 6.5; from memory) gives R_H = 14.6 + 10 log10(f r^2 sigma_r / mu_r) for a magnetic
+    source, which falls towards 0 dB as r shrinks, and R_E = 322 - 10 log10(mu_r f^3 r^2 /
+    sigma_r) for an electric one, which is larger than the plane-wave value; the source
+    type is not known, so the magnetic case is taken, and R is dropped altogether.
     """
 
     metal: sh.Metal
@@ -366,7 +369,7 @@ class RatedSpec:
         return 10 ** (-_oblique_and_near(se0, cos_incidence, source_distance_m, frequency_hz) / 10)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Shield:
     """A flat rectangular shield sheet.
 

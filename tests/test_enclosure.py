@@ -204,6 +204,25 @@ def test_more_openings_leak_more() -> None:
     assert leaked(oven(vent(0.01, count=400))) > leaked(oven(vent(0.01, count=100)))
 
 
+def test_widely_spaced_vent_cells_add_one_by_one() -> None:
+    # Cells further apart than lambda / 2 do not act as one array: no coherent term.
+    wide = Opening(
+        "+z",
+        "vent-array",
+        (0, 0),
+        "v",
+        cell="round",
+        cell_size_m=0.005,
+        pitch_m=0.07,
+        depth_m=0.005,
+        count=4,
+    )
+    one = Opening("+z", "hole", (0, 0), "h", diameter_m=0.005, depth_m=0.005)
+    w = oven(wide).power_balance(800.0, F)["cross_sections_m2"]["openings"]
+    h = oven(one).power_balance(800.0, F)["cross_sections_m2"]["openings"]
+    assert w == pytest.approx(4 * h, rel=1e-9)
+
+
 def test_a_water_load_lowers_the_leakage() -> None:
     assert leaked(oven(slot(0.05), water=275e-6)) < leaked(oven(slot(0.05), water=0.0))
     assert water_load_cross_section_m2(F, 1e-3) > water_load_cross_section_m2(F, 275e-6) > 0
@@ -491,3 +510,59 @@ def test_small_box_and_propagating_vent_warn() -> None:
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         enclosure_from_table(table(BASE), F)
+
+
+# ------------------------------------------------------------ with the loader
+def test_scenario_with_enclosure_and_shield_end_to_end() -> None:
+    # The loader and field orchestrator call this module's public API.
+    from keepclear.fields.field import evaluate
+    from keepclear.fields.scenario import scenario_from_document
+
+    doc = {
+        "name": "oven",
+        "source": [
+            {
+                "id": "mag",
+                "antenna": "isotropic",
+                "power_w": 800.0,
+                "duty_cycle": 0.5,
+                "position_m": [0.0, 0.0, 0.5],
+            }
+        ],
+        "enclosure": {
+            **BASE,
+            "opening": [
+                {"face": "+x", "type": "slot", "length_m": 0.05, "width_m": 0.002, "along": "z"}
+            ],
+        },
+        "exposure": {"limits": ["icnirp-2020/general-public"]},
+    }
+    bare = scenario_from_document(doc, "oven.toml")
+    point = np.array([[0.5, 0.0, 0.5]])
+    leak = evaluate(bare, point)
+    assert leak.power_density_w_m2[0] > 0
+    assert leak.peak_power_density_w_m2[0] == pytest.approx(2 * leak.power_density_w_m2[0])
+    shielded = scenario_from_document(
+        {
+            **doc,
+            "shield": [
+                {
+                    "center_m": [0.3, 0.0, 0.5],
+                    "normal": [1, 0, 0],
+                    "width_m": 2.0,
+                    "height_m": 2.0,
+                    "type": "sheet",
+                    "metal": "aluminium",
+                    "thickness_m": 0.001,
+                }
+            ],
+        },
+        "oven.toml",
+    )
+    assert evaluate(shielded, point).power_density_w_m2[0] < 0.1 * leak.power_density_w_m2[0]
+    with pytest.raises(ScenarioError) as err:
+        scenario_from_document(
+            {**doc, "source": [{**doc["source"][0], "position_m": [0.1754, 0.0, 0.5]}]},
+            "oven.toml",
+        )
+    assert "source[0].position_m" in str(err.value)
