@@ -86,12 +86,25 @@ class FieldResult:
     peak_power_density_w_m2: NDArray[np.float64]
 
 
+def _cached(scenario: Scenario, name: str, build):  # noqa: ANN001, ANN202
+    """Derived data kept on the (frozen) scenario, computed on first use."""
+    cache = scenario.__dict__.setdefault("_derived", {})
+    if name not in cache:
+        cache[name] = build()
+    return cache[name]
+
+
 def radiating_terms(scenario: Scenario) -> list[RadiatingTerm]:
     """The incoherent terms of a scenario: free sources, and enclosure openings.
 
     Sources inside the enclosure do not radiate outside directly; the openings of
-    the enclosure do, with the leaked share of their power.
+    the enclosure do, with the leaked share of their power.  Computed once per
+    scenario (the power balance of the enclosure is not repeated per evaluation).
     """
+    return _cached(scenario, "terms", lambda: _radiating_terms(scenario))
+
+
+def _radiating_terms(scenario: Scenario) -> list[RadiatingTerm]:
     enclosure = scenario.enclosure
     inside = np.zeros(len(scenario.sources), dtype=bool)
     if enclosure is not None:
@@ -226,8 +239,12 @@ def _cavity_squares(scenario: Scenario, pts: NDArray[np.float64]):  # noqa: ANN2
     enclosed = [s for s in scenario.sources if enclosure.contains(s.position_m[None, :])[0]]
     total_w = sum(s.power_w for s in enclosed)
     average_w = sum(s.average_power_w for s in enclosed)
-    s_cavity = float(
-        enclosure.power_balance(total_w, scenario.frequency_hz)["cavity_power_density_w_m2"]
+    s_cavity = _cached(
+        scenario,
+        "cavity_density",
+        lambda: float(
+            enclosure.power_balance(total_w, scenario.frequency_hz)["cavity_power_density_w_m2"]
+        ),
     )
     inner = pts[mask]
     direct = [np.zeros(inner.shape[0]) for _ in range(4)]

@@ -83,6 +83,12 @@ class KeepoutResult:
         uncertainty [m]; equals ``distance_m`` when u = 0.
     uncertainty_db : float
         The largest model gain uncertainty among the radiating terms [dB].
+    averaging_time_s : float or None
+        The limit's averaging time [s].
+    outside_enclosure : dict or None
+        With an enclosure: the same search counting only points outside the box and its
+        walls (``distance_m``, ``direction``, and ``clearance_from_enclosure_m``, the
+        farthest exceedance's distance from the outer box surface [m]).
     """
 
     limit_id: str
@@ -93,6 +99,7 @@ class KeepoutResult:
     distance_with_uncertainty_m: float
     uncertainty_db: float
     averaging_time_s: float | None
+    outside_enclosure: dict[str, object] | None = None
 
     @property
     def reached(self) -> bool:
@@ -180,12 +187,18 @@ class _Search:
             r = max(r, offset + max(bound, 2 * rad.far_field_distance_m) + rad.largest_dimension_m)
         return 1.3 * r
 
+    #: When set, points inside the enclosure or its walls do not count.
+    outside_only: bool = False
+
     def quotients(self, points: NDArray[np.float64]) -> NDArray[np.float64]:
         """Exposure quotient per limit, shape (L, N), for the time-averaged fields."""
         res = evaluate(self.scenario, points)
         q = np.empty((len(self.values), points.shape[0]))
         for i, v in enumerate(self.values):
             q[i] = limits_mod.quotient(v, res.power_density_w_m2, res.e_v_m, res.h_a_m)
+        enclosure = self.scenario.enclosure
+        if self.outside_only and enclosure is not None:
+            q[:, enclosure.contains(points) | enclosure.in_wall(points)] = 0.0
         return q
 
     def crossings(self, directions: NDArray[np.float64], scale: NDArray[np.float64]) -> NDArray:
@@ -283,33 +296,20 @@ def keepout_distances(
     ids = list(limit_ids) if limit_ids is not None else list(scenario.limit_ids)
     values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
     search = _Search(scenario, values)
-    scales = np.ones(len(values))
+    ones = np.ones(len(values))
     margin = 10 ** (search.uncertainty_db / 10)
-    scale_sets = [scales] + ([scales * margin] if search.uncertainty_db > 0 else [])
-
-    answers = []
-    for scale in scale_sets:
-        directions = np.vstack([fibonacci_sphere(n_directions), _special_directions(search)])
-        radius = search.crossings(directions, scale)  # (L, D)
-        best_r = radius.max(axis=1)
-        best_d = directions[radius.argmax(axis=1)]
-        spacing = np.sqrt(4 * np.pi / n_directions)
-        for level in range(2):
-            half_angle = spacing * (1.5 if level == 0 else 0.5)
-            caps = [_cap(best_d[i], half_angle, 60) for i in range(len(values)) if best_r[i] > 0]
-            if not caps:
-                break
-            cap_dirs = np.vstack(caps)
-            r_cap = search.crossings(cap_dirs, scale)
-            better = r_cap.max(axis=1) > best_r
-            best_d = np.where(better[:, None], cap_dirs[r_cap.argmax(axis=1)], best_d)
-            best_r = np.maximum(best_r, r_cap.max(axis=1))
-        answers.append((best_r, best_d))
+    model = _pass(search, ones, n_directions)
+    widened = _pass(search, ones * margin, n_directions) if search.uncertainty_db > 0 else model
+    outside = None
+    if scenario.enclosure is not None:
+        search.outside_only = True
+        outside = _pass(search, ones, n_directions)
+        search.outside_only = False
 
     results = []
     for i, v in enumerate(values):
-        r, d = answers[0][0][i], answers[0][1][i]
-        r_u = answers[-1][0][i]
+        r, d = model[0][i], model[1][i]
+        r_u = widened[0][i]
         results.append(
             KeepoutResult(
                 limit_id=v.id,
@@ -320,6 +320,51 @@ def keepout_distances(
                 distance_with_uncertainty_m=float(max(r_u, r)),
                 uncertainty_db=search.uncertainty_db,
                 averaging_time_s=v.averaging_time_s,
+                outside_enclosure=None if outside is None else _outside(scenario, outside, i),
             )
         )
     return results
+
+
+def _pass(search: _Search, scale: NDArray[np.float64], n_directions: int):  # noqa: ANN202
+    """One full search: lattice rays, then two levels of caps about the farthest ray."""
+    directions = np.vstack([fibonacci_sphere(n_directions), _special_directions(search)])
+    radius = search.crossings(directions, scale)  # (L, D)
+    best_r = radius.max(axis=1)
+    best_d = directions[radius.argmax(axis=1)]
+    spacing = np.sqrt(4 * np.pi / n_directions)
+    for level in range(2):
+        half_angle = spacing * (1.5 if level == 0 else 0.5)
+        todo = [i for i in range(len(scale)) if best_r[i] > 0]
+        if not todo:
+            break
+        caps = [_cap(best_d[i], half_angle, 60) for i in todo]
+        cap_dirs = np.vstack(caps)
+        r_cap = search.crossings(cap_dirs, scale)
+        better = r_cap.max(axis=1) > best_r
+        best_d = np.where(better[:, None], cap_dirs[r_cap.argmax(axis=1)], best_d)
+        best_r = np.maximum(best_r, r_cap.max(axis=1))
+        directions = np.vstack([directions, cap_dirs])
+        radius = np.hstack([radius, r_cap])
+    return best_r, best_d, directions, radius
+
+
+def _outside(scenario: Scenario, found, i: int) -> dict[str, object]:  # noqa: ANN001
+    """The keep-out outside the enclosure: radius about the centre and clearance from the box.
+
+    The clearance is the largest distance from the enclosure's outer surface among the
+    outermost exceedances of all rays of the search.
+    """
+    r, d, directions, radius = found
+    if r[i] <= 0:
+        return {"distance_m": 0.0, "direction": None, "clearance_from_enclosure_m": 0.0}
+    corners = scenario.enclosure.outline()
+    lo, hi = corners.min(axis=0), corners.max(axis=0)
+    hits = radius[i] > 0
+    pts = scenario.centre_m + directions[hits] * radius[i][hits][:, None]
+    gap = np.linalg.norm(np.maximum(np.maximum(lo - pts, pts - hi), 0.0), axis=1)
+    return {
+        "distance_m": float(r[i]),
+        "direction": d[i] / np.linalg.norm(d[i]),
+        "clearance_from_enclosure_m": float(gap.max()) if gap.size else 0.0,
+    }

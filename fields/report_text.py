@@ -83,6 +83,9 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
         "",
     ]
     header = ["limit", "limit W/m2", "keep-out m", "with model uncertainty m", "farthest towards"]
+    boxed = any("outside_enclosure" in k for k in data["keepout"])
+    if boxed:
+        header += ["outside enclosure m", "clear of enclosure m"]
     if screening:
         header.append("screening m")
     rows = []
@@ -99,6 +102,12 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
             + (f" (+{k['model_uncertainty_db']:.1f} dB)" if k["model_uncertainty_db"] > 0 else ""),
             towards,
         ]
+        if boxed:
+            out = k.get("outside_enclosure") or {}
+            row += [
+                f"{out.get('distance_m', 0.0):.3f}",
+                f"{out.get('clearance_from_enclosure_m', 0.0):.3f}",
+            ]
         if screening:
             row.append(f"{k['screening_distance_m']:.3f}")
         rows.append(row)
@@ -114,6 +123,13 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
         lines += [
             "",
             "Mark out the larger figure: the source model's gain is uncertain by the stated dB.",
+        ]
+    if boxed:
+        lines += [
+            "",
+            "Keep-out counts the points inside the enclosure too (the cavity field is far above "
+            "every limit); 'outside enclosure' counts only points outside the box, and 'clear of "
+            "enclosure' is how far from its outer surface the farthest of them lies.",
         ]
     if scenario is not None and np.any([k["distance_m"] > 0 for k in data["keepout"]]):
         lines += ["", "Keep people outside this radius while the source can radiate."]
