@@ -236,9 +236,17 @@ def _build_isotropic(t: Table, f: float, p: float) -> Radiator:
     from keepclear.antennas.isotropic import IsotropicSource
 
     gain = t.number("gain_dbi", 0.0, unit="dBi", minimum=-30.0, maximum=60.0)
-    placement = _placement(t, "axis_unused", polarization=True) if t.has("polarization") else None
-    if placement is None:
-        placement = t.build(Placement.from_axes, t.vector("position_m", np.zeros(3), unit="m"))
+    position = t.vector("position_m", np.zeros(3), unit="m")
+    pol = t.vector("polarization", None, nonzero=True)
+    if pol is None:
+        placement = t.build(Placement.from_axes, position)
+    else:
+        # A point source has no main axis: take any direction across the polarisation as
+        # local z, so that local +y (the E direction) is the given polarisation itself.
+        trial = np.array([0.0, 0.0, 1.0])
+        if abs(pol[2]) >= 0.9 * float(np.linalg.norm(pol)):
+            trial = np.array([1.0, 0.0, 0.0])
+        placement = t.build(Placement.from_axes, position, np.cross(pol, trial), pol)
     return t.build(IsotropicSource, f, p, gain_dbi=gain, placement=placement)
 
 
