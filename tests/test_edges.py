@@ -498,3 +498,21 @@ def test_unwritable_output_place(write_scenario, tmp_path, where):
     assert str(target) in line
     assert sorted(p.name for p in tmp_path.iterdir()) == before
     assert blocker.read_text() == "not a folder\n"
+
+
+# ------------------------------------------------------------ isotropic polarisation
+@pytest.mark.parametrize("polarization", [[0.0, 0.0, 1.0], [1.0, 0.0, 1.0], [0.0, -2.0, 0.0]])
+def test_isotropic_polarization_is_its_e_direction(write_scenario, polarization):
+    # README scenario reference: `polarization` of an isotropic source is its E direction
+    # (made transverse to the ray).  A vertical one must be accepted: a point source has no
+    # boresight it could be parallel to.
+    from keepclear.fields.scenario import load_scenario
+
+    path = write_scenario(ISOTROPIC + f"polarization = {polarization!r}\n")
+    radiator = load_scenario(path).sources[0].radiator
+    pol = np.array(polarization) / np.linalg.norm(polarization)
+    ray = np.cross(pol, [0.3, 0.4, 0.5])  # any direction across the polarisation
+    ray /= np.linalg.norm(ray)
+    e, _ = radiator.fields(2.0 * ray[None, :])
+    direction = np.abs(e[0]) / np.linalg.norm(np.abs(e[0]))
+    np.testing.assert_allclose(direction, np.abs(pol), atol=1e-12)
