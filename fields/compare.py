@@ -98,21 +98,28 @@ def leakage_5cm_w_m2(scenario: Scenario) -> float | None:
     positions = np.array([s.position_m for s in scenario.sources])
     inside = np.asarray(enclosure.contains(positions), dtype=bool)
     total_w = float(sum(s.power_w for s, i in zip(scenario.sources, inside, strict=True) if i))
-    value = enclosure.face_density_5cm(total_w, scenario.frequency_hz)
-    return _largest(value)
+    return _largest(enclosure.face_density_5cm(total_w, scenario.frequency_hz))
 
 
 def _largest(value: Any) -> float | None:
-    """The largest number in a float, array, or mapping of them."""
+    """The largest density in what ``face_density_5cm`` returns [W m^-2].
+
+    A list of per-face records (``{"face", "power_density_w_m2", ...}``), one such
+    record, a mapping of face to value, an array, or a number.
+    """
     if isinstance(value, dict):
-        numbers = [_largest(v) for v in value.values()]
-        numbers = [n for n in numbers if n is not None]
+        if "power_density_w_m2" in value:
+            return _largest(value["power_density_w_m2"])
+        numbers = [n for n in (_largest(v) for v in value.values()) if n is not None]
+        return max(numbers) if numbers else None
+    if isinstance(value, (list, tuple)) and value and all(isinstance(v, dict) for v in value):
+        numbers = [n for n in (_largest(v) for v in value) if n is not None]
         return max(numbers) if numbers else None
     try:
-        arr = np.asarray(value, dtype=float)
+        arr = np.atleast_1d(np.asarray(value, dtype=float))
     except (TypeError, ValueError):
         return None
-    arr = arr[np.isfinite(arr)] if arr.ndim else arr[None][np.isfinite(arr[None])]
+    arr = arr[np.isfinite(arr)]
     return float(arr.max()) if arr.size else None
 
 

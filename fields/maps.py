@@ -324,6 +324,10 @@ def default_half_extent_m(
     shift = float(np.max(np.abs(st_c[0] - centre)))
     base = max(MIN_HALF_EXTENT_M, KEEPOUT_EXTENT_FACTOR * r + shift)
     places = [p.position_m for p in scenario.points] + [s.position_m for s in scenario.sources]
+    for obj in (*scenario.shields, scenario.enclosure):
+        corners = object_corners(obj) if obj is not None else None
+        if corners is not None:
+            places += list(corners)
     reach = 0.0
     if places:
         st, _ = plane.to_plane(np.array(places))
@@ -1124,6 +1128,23 @@ def object_corners(obj: Any) -> NDArray[np.float64] | None:
             c - w * across + h * vertical,
         ]
     )
+
+
+def opening_corners(enclosure: Any) -> list[NDArray[np.float64]]:
+    """Corner sets (4, 3) of an enclosure's openings, where it can say them [m]."""
+    outline = getattr(enclosure, "opening_outline", None)
+    openings = getattr(enclosure, "openings", ())
+    if outline is None:
+        return []
+    out = []
+    for opening in openings:
+        try:
+            corners = np.asarray(outline(opening), dtype=float)
+        except Exception:  # noqa: BLE001 - a drawing aid only
+            continue
+        if corners.ndim == 2 and corners.shape[1] == 3:
+            out.append(corners)
+    return out
 
 
 def convex_section(

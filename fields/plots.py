@@ -298,6 +298,8 @@ def draw_map(
         _draw_object(ax, plane, maps.object_corners(shield), "shield", grid.step_m)
     if scenario.enclosure is not None:
         _draw_object(ax, plane, maps.object_corners(scenario.enclosure), "enclosure", grid.step_m)
+        for corners in maps.opening_corners(scenario.enclosure):
+            _draw_object(ax, plane, corners, "opening", grid.step_m)
     _draw_sources(ax, plane, scenario, (s1 - s0), grid.step_m, labels)
     _draw_points(ax, plane, scenario, (s0, s1, t0, t1), grid.step_m, labels)
     ax.set_xlim(s0 - ds / 2, s1 + ds / 2)
@@ -379,7 +381,7 @@ def _draw_object(
 ) -> None:
     if corners is None:
         return
-    colour = {"shield": "#3b3b8f", "enclosure": "#2d2d2d"}[role]
+    colour = {"shield": "#3b3b8f", "enclosure": "#2d2d2d", "opening": "#e0006c"}[role]
     section = maps.convex_section(plane, corners)
     if section is not None:
         if section.shape[0] == 2:
@@ -596,7 +598,9 @@ def _legend_handles(
     if scenario.shields:
         handles.append(Line2D([], [], color="#3b3b8f", lw=3.2, label="shield"))
     if scenario.enclosure is not None:
-        handles.append(Line2D([], [], color="#2d2d2d", lw=2.2, label="enclosure"))
+        handles.append(
+            Line2D([], [], color="#2d2d2d", lw=2.2, label="enclosure (openings in magenta)")
+        )
     return handles
 
 

@@ -1,0 +1,134 @@
+"""Option comparison: ranking, worst named point, JSON shape, the demo options file.
+
+The ranking check rests on the far-field law of FCC OET Bulletin 65, Edition 97-01
+(1997), eq. (3): R = sqrt(P G / (4 pi S)), so a tenth of the power needs
+1/sqrt(10) of the keep-out radius.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from typer.testing import CliRunner
+
+from keepclear.fields.cli import app
+from keepclear.fields.compare import _largest, compare_options, comparison_table
+from keepclear.fields.scenario import load_scenario
+
+from .conftest import ISOTROPIC, SCENARIOS
+
+runner = CliRunner()
+
+OPTIONS = (
+    ISOTROPIC
+    + """
+[[point]]
+name = "desk"
+position_m = [0.5, 0.0, 0.0]
+
+[[point]]
+name = "door"
+position_m = [0.0, 3.0, 0.0]
+
+[[option]]
+name = "same again"
+description = "nothing changes"
+
+[[option]]
+name = "a tenth of the power"
+description = "10 W instead of 100 W"
+[[option.source]]
+id = "s"
+power_w = 10.0
+"""
+)
+
+
+def test_lower_power_option_ranks_first_by_the_far_field_law(write_scenario):
+    scenario = load_scenario(write_scenario(OPTIONS))
+    comparison = compare_options(scenario, pixels=41)
+    names = [v.name for v in comparison.variants]
+    assert names[0] == "a tenth of the power"
+    best, *_ = comparison.variants
+    base = next(v for v in comparison.variants if v.is_base)
+    # OET 65 eq. (3): R scales as sqrt(P).
+    assert best.largest_keepout_m / base.largest_keepout_m == pytest.approx(
+        1 / math.sqrt(10), rel=2e-3
+    )
+    assert best.zone_area_m2 < base.zone_area_m2
+    # A tie on keep-out and zone area is broken by the worst point, then kept stable.
+    assert {names[1], names[2]} == {"base", "same again"}
+
+
+def test_worst_named_point_is_the_nearest_to_an_isotropic_source(write_scenario):
+    scenario = load_scenario(write_scenario(OPTIONS))
+    data = compare_options(scenario, pixels=41).data()
+    for row in data["options"]:
+        assert row["worst_point"]["name"] == "desk"
+        # OET 65 eq. (3) at R = 0.5 m: S = P / (4 pi R^2), against 10 W/m^2 (ICNIRP 2020 Table 5).
+        power = 10.0 if row["name"] == "a tenth of the power" else 100.0
+        expected = power / (4 * math.pi * 0.5**2) / 10.0
+        assert row["worst_point"]["quotient"] == pytest.approx(expected, rel=1e-3)
+        assert row["leakage_5cm_w_m2"] is None
+
+
+def test_compare_json_shape(write_scenario):
+    path = write_scenario(OPTIONS)
+    result = runner.invoke(app, ["compare", str(path), "--json", "--pixels", "31"])
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["schema_version"] == 1
+    assert [r["rank"] for r in data["options"]] == [1, 2, 3]
+    assert sum(r["is_base"] for r in data["options"]) == 1
+    for row in data["options"]:
+        assert set(row["zone_area_m2"]) == set(data["limits"])
+        assert {k["limit"] for k in row["keepout"]} == set(data["limits"])
+
+
+def test_compare_text_and_figure_files(write_scenario, tmp_path):
+    path = write_scenario(OPTIONS)
+    out = tmp_path / "cmp"
+    result = runner.invoke(app, ["compare", str(path), "--pixels", "31", "--out", str(out)])
+    assert result.exit_code == 0, result.stderr
+    assert "a tenth of the power" in result.stdout and "CAUTION" in result.stdout
+    assert sorted(p.name for p in out.iterdir()) == ["compare.json", "compare.png", "compare.svg"]
+    assert (out / "compare.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_compare_without_options_assesses_the_base(write_scenario):
+    result = runner.invoke(app, ["compare", str(write_scenario(ISOTROPIC)), "--pixels", "21"])
+    assert result.exit_code == 0
+    assert "no [[option]]" in result.stderr and "base" in result.stdout
+
+
+def test_demo_options_scenario_ranks_and_renders():
+    scenario = load_scenario(SCENARIOS / "test-cell-options.toml")
+    comparison = compare_options(scenario, pixels=41)
+    data = comparison.data()
+    ranked = [r["name"] for r in data["options"]]
+    assert len(ranked) == 1 + len(scenario.options)
+    keepouts = [r["largest_keepout_m"] for r in data["options"]]
+    assert keepouts == sorted(keepouts)
+    # Half the power: R / sqrt(2) by OET 65 eq. (3).
+    half = next(r for r in data["options"] if r["name"] == "half power")
+    base = next(r for r in data["options"] if r["is_base"])
+    assert half["largest_keepout_m"] == pytest.approx(
+        base["largest_keepout_m"] / math.sqrt(2), rel=2e-3
+    )
+    assert "half power" in comparison_table(data)
+
+
+def test_largest_reads_floats_arrays_and_mappings():
+    assert _largest(2.5) == 2.5
+    assert _largest(np.array([1.0, 3.0, np.nan])) == 3.0
+    assert _largest({"front": 0.2, "door": {"gap": 0.7}}) == 0.7
+    # The enclosure model's per-face records: the density, not the coordinates.
+    faces = [
+        {"face": "+x", "power_density_w_m2": 0.3, "position_m": [9.0, 0.0, 0.0]},
+        {"face": "-x", "power_density_w_m2": 1.2, "position_m": [-9.0, 0.0, 0.0]},
+    ]
+    assert _largest(faces) == 1.2
+    assert _largest("not a number") is None

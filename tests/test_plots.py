@@ -1,0 +1,132 @@
+"""Figures: valid, non-blank PNG and parseable SVG, with and without objects to draw.
+
+The checks are on the files (PNG signature per ISO/IEC 15948:2004 sec. 5.2, SVG as
+XML) and on the pixels (a blank or single-colour image has no variance).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import io
+import xml.etree.ElementTree as ET
+
+import matplotlib.image as mpimg
+import numpy as np
+import pytest
+
+from keepclear.fields import maps, plots
+from keepclear.fields.keepout import keepout_distances
+from keepclear.fields.scenario import load_scenario
+
+from .conftest import ISOTROPIC
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948:2004, sec. 5.2
+
+
+def assert_good_png(data: bytes) -> np.ndarray:
+    assert data[:8] == PNG_SIGNATURE
+    image = mpimg.imread(io.BytesIO(data), format="png")
+    assert image.ndim == 3 and image.shape[0] > 300 and image.shape[1] > 300
+    assert float(np.var(image[..., :3])) > 0.005, "image is (nearly) blank"
+    return image
+
+
+def assert_good_svg(data: bytes) -> ET.Element:
+    root = ET.fromstring(data)
+    assert root.tag.endswith("svg")
+    return root
+
+
+@pytest.fixture
+def iso_run(write_scenario):
+    scenario = load_scenario(write_scenario(ISOTROPIC))
+    keepouts = keepout_distances(scenario)
+    run = maps.run_map(scenario, maps.principal_plane("xy", scenario.centre_m), keepouts, pixels=41)
+    return scenario, keepouts, run
+
+
+def test_density_map_png_and_svg(iso_run):
+    scenario, keepouts, run = iso_run
+    fig = plots.map_figure(run.result, scenario, keepouts)
+    assert_good_png(plots.figure_bytes(fig, "png", dpi=60))
+    root = assert_good_svg(plots.figure_bytes(fig, "svg"))
+    text = "".join(root.itertext())
+    # Title, units on both colour scales, every limit in the legend, the caution.
+    assert scenario.name in text
+    assert "W/m²" in text and "mW/cm²" in text
+    for limit_id in scenario.limit_ids:
+        assert limit_id in text
+    assert plots.short_caution()[:40] in text
+
+
+def test_quotient_map_says_what_it_is_against(iso_run):
+    scenario, keepouts, run = iso_run
+    style = plots.MapStyle("quotient", "icnirp-2020/occupational")
+    fig = plots.map_figure(run.result, scenario, keepouts, style)
+    assert_good_png(plots.figure_bytes(fig, "png", dpi=60))
+    text = "".join(assert_good_svg(plots.figure_bytes(fig, "svg")).itertext())
+    assert "quotient against icnirp-2020/occupational" in text and "dB" in text
+
+
+class _Sheet:
+    """A shield-like object that offers only centre, normal and size."""
+
+    center_m = np.array([0.4, 0.0, 0.0])
+    normal = np.array([1.0, 0.0, 0.0])
+    width_m = 0.6
+    height_m = 0.5
+
+
+class _Box:
+    """An enclosure-like object with an outline() of corners."""
+
+    def outline(self):
+        return np.array(
+            [[x, y, z] for x in (-0.2, 0.2) for y in (-0.15, 0.15) for z in (-0.1, 0.1)]
+        )
+
+
+def test_objects_are_drawn_without_their_modules(iso_run):
+    scenario, keepouts, run = iso_run
+    # Drawing only: the objects are not used to compute the fields here.
+    decorated = dataclasses.replace(scenario, shields=(_Sheet(),), enclosure=_Box())
+    fig = plots.map_figure(run.result, decorated, keepouts)
+    assert_good_png(plots.figure_bytes(fig, "png", dpi=60))
+    assert maps.object_corners(_Sheet()).shape == (4, 3)
+    assert maps.object_corners(object()) is None
+
+
+def test_reflector_trace_and_vertical_plane(write_scenario):
+    scenario = load_scenario(
+        write_scenario(
+            ISOTROPIC.replace("[0.0, 0.0, 0.0]", "[0.0, 0.0, 1.0]")
+            + """
+[[reflector]]
+point_m = [0.0, 0.0, 0.0]
+normal = [0.0, 0.0, 1.0]
+material = "concrete"
+
+[[point]]
+name = "seat"
+position_m = [0.8, 0.0, 1.2]
+"""
+        )
+    )
+    keepouts = keepout_distances(scenario)
+    run = maps.run_map(scenario, maps.boresight_plane(scenario), keepouts, pixels=41)
+    fig = plots.map_figure(run.result, scenario, keepouts)
+    text = "".join(assert_good_svg(plots.figure_bytes(fig, "svg")).itertext())
+    assert "seat" in text and "reflecting plane" in text and "concrete" in text
+    assert maps.plane_trace(run.plane, [0, 0, 0], [0, 0, 1]) is not None
+
+
+def test_comparison_figure_shares_one_colour_scale(iso_run):
+    scenario, keepouts, run = iso_run
+    fig = plots.comparison_figure(
+        [("1. a", run.result, scenario, keepouts), ("2. b", run.result, scenario, keepouts)],
+        "two panels",
+    )
+    assert_good_png(plots.figure_bytes(fig, "png", dpi=50))
+    images = [im for ax in fig.axes for im in ax.get_images()]
+    assert len(images) == 2
+    assert images[0].norm.vmin == images[1].norm.vmin and images[0].norm.vmax == images[1].norm.vmax
