@@ -464,8 +464,18 @@ LimitOption = Annotated[
     list[str] | None,
     typer.Option(
         "--limit",
-        help="A limit id to assess (repeat for more; default: the scenario's [exposure] limits). "
-        "With --quantity quotient the first is the colour scale's reference.",
+        help="A limit id to assess (repeat for more; default: the scenario's [exposure] "
+        "limits); see `keepclear limits`.",
+        rich_help_panel=PANEL_QUANTITY,
+        show_default=False,
+    ),
+]
+MapLimitOption = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--limit",
+        help="A limit id to contour (repeat for more; default: the scenario's [exposure] "
+        "limits). With --quantity quotient the first is the colour scale's reference.",
         rich_help_panel=PANEL_QUANTITY,
         show_default=False,
     ),
@@ -532,7 +542,7 @@ def map_command(
             rich_help_panel=PANEL_QUANTITY,
         ),
     ] = Quantity.density,
-    limit: LimitOption = None,
+    limit: MapLimitOption = None,
     plane: Annotated[
         PlaneChoice | None,
         typer.Option(

@@ -132,3 +132,78 @@ def test_largest_reads_floats_arrays_and_mappings():
     ]
     assert _largest(faces) == 1.2
     assert _largest("not a number") is None
+
+
+def _shield_box_scenario() -> str:
+    text = """
+name = "shield box"
+[[source]]
+id = "s"
+antenna = "isotropic"
+power_w = 2000.0
+position_m = [0.0, 0.0, 0.0]
+
+[[option]]
+name = "30 dB shield box"
+description = "six rated sheets round the source, overlapping at the edges"
+"""
+    for axis in range(3):
+        for sign in (-1.0, 1.0):
+            centre = [0.0, 0.0, 0.0]
+            centre[axis] = sign
+            normal = [0.0, 0.0, 0.0]
+            normal[axis] = 1.0
+            text += f"""
+[[option.shield]]
+center_m = {centre}
+normal = {normal}
+width_m = 2.6
+height_m = 2.6
+shielding_db = 30.0
+"""
+    return text
+
+
+def test_a_30_db_shield_box_ranks_first(write_scenario):
+    scenario = load_scenario(write_scenario(_shield_box_scenario()))
+    comparison = compare_options(scenario, pixels=41)
+    first, second = comparison.variants
+    assert first.name == "30 dB shield box" and second.is_base
+    # Unshielded: OET 65 eq. (3), R = sqrt(2000 / (4 pi 10)) = 3.99 m.
+    assert second.largest_keepout_m == pytest.approx(math.sqrt(2000 / (4 * math.pi * 10)), rel=2e-3)
+    # Shielded: 30 dB is a power factor of 1e-3 (SE = 10 log10 P_in/P_out), so outside the
+    # 2 m cube S <= 2000 / (4 pi 1^2) * 1e-3 = 0.16 W/m^2, far below 10 W/m^2: every
+    # exceedance is inside the cube, within its half-diagonal sqrt(3) m.
+    assert 1.0 <= first.largest_keepout_m <= math.sqrt(3) + 0.01
+
+
+ENCLOSED = """
+name = "leaky box"
+[[source]]
+id = "inbox"
+antenna = "isotropic"
+power_w = 800.0
+duty_cycle = 0.5
+position_m = [0.0, 0.0, 1.0]
+
+[enclosure]
+center_m = [0.0, 0.0, 1.0]
+size_m = [0.5, 0.4, 0.35]
+metal = "mild-steel"
+thickness_m = 0.001
+[[enclosure.opening]]
+face = "+x"
+type = "hole"
+diameter_m = 0.03
+count = 4
+"""
+
+
+def test_leakage_5cm_is_read_with_the_source_on(write_scenario):
+    scenario = load_scenario(write_scenario(ENCLOSED))
+    data = compare_options(scenario, pixels=21).data()
+    leak = data["options"][0]["leakage_5cm_w_m2"]
+    # 21 CFR 1030.10(c)(1) is read with the oven running: the full 800 W, not d * P.
+    faces = scenario.enclosure.face_density_5cm(800.0, scenario.frequency_hz)
+    assert leak == pytest.approx(max(f["power_density_w_m2"] for f in faces))
+    assert leak > 0
