@@ -357,7 +357,13 @@ def run_assessment(
     vertical = maps.run_map(
         scenario, vertical_plane, keepouts, progress=callback("vertical map"), **grid_args
     )
-    cylinders = maps.keepout_cylinders(scenario, keepouts, progress=callback("vertical extent"))
+    zone_points = {
+        k.limit_id: np.vstack([floor.zone_points_m(k.limit_id), vertical.zone_points_m(k.limit_id)])
+        for k in keepouts
+    }
+    cylinders = maps.keepout_cylinders(
+        scenario, keepouts, progress=callback("vertical extent"), extra_points_m=zone_points
+    )
     points = named_points_data(scenario, ids)
 
     files: dict[str, bytes] = {}
@@ -380,6 +386,12 @@ def run_assessment(
     for k in keepouts:
         row = keepout_entry(k)
         row["recommended_distance_m"] = k.recommended_distance_m
+        # Cross-check of the keep-out search by the maps: the farthest zone point found.
+        reach = max(floor.reach_m(k.limit_id), vertical.reach_m(k.limit_id))
+        step = max(floor.result.grid.step_m, vertical.result.grid.step_m)
+        row["map_reach_m"] = reach
+        row["map_reach_beyond_keepout"] = bool(reach > k.recommended_distance_m + step)
+        row["mark_out_m"] = max(k.recommended_distance_m, reach)
         row["cylinder"] = by_cyl[k.limit_id].as_dict()
         row["floor_zone"] = floor.conservative_shapes(k.limit_id)
         keepout_rows.append(row)

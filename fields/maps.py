@@ -28,8 +28,11 @@ reported beside the shapes.
 
 The cylinder comes from rays in 800-odd quasi-uniform directions plus a
 horizontal ring, the radiators' axes and the keep-out direction, sampled out to
-the keep-out radius; it is widened by one radial step and never exceeds the
-cylinder circumscribing the keep-out sphere.
+1.25 times the keep-out radius, together with the zone outlines of the maps; it is
+widened by one radial step.  The maps also check the keep-out search: the
+farthest zone point of a map from the keep-out centre (:meth:`MapRun.reach_m`)
+should not exceed the keep-out radius by more than a grid step; where it does, the
+larger figure is the one to mark out.
 
 References
 ----------
@@ -722,15 +725,16 @@ def keepout_cylinders(
     scenario: Scenario,
     keepouts: Sequence[KeepoutResult],
     progress: ProgressCallback | None = None,
+    extra_points_m: dict[str, NDArray[np.float64]] | None = None,
 ) -> list[Cylinder]:
-    """Vertical cylinders about the first source holding every exceedance, per limit.
+    """Vertical cylinders about the first source holding every exceedance found, per limit.
 
-    Rays from the keep-out centre are sampled out to the keep-out radius (with
-    uncertainty); every sample where the quotient reaches the limit (scaled by the
-    gain uncertainty as in :mod:`keepclear.fields.keepout`) counts, and so does
-    the keep-out search's farthest point.  The result is widened by one radial
-    step and clipped to the cylinder circumscribing the keep-out sphere, which
-    holds every exceedance by definition.
+    Rays from the keep-out centre are sampled out to 1.25 times the keep-out radius
+    (with uncertainty), so an exceedance the keep-out search missed still counts;
+    every sample where the quotient reaches the limit (scaled by the gain
+    uncertainty as in :mod:`keepclear.fields.keepout`) is held, and so are the
+    keep-out search's farthest point and any ``extra_points_m`` (the zone outlines of
+    the maps).  The cylinder is widened by one radial step.
 
     Parameters
     ----------
@@ -739,6 +743,8 @@ def keepout_cylinders(
         From :func:`keepclear.fields.keepout.keepout_distances`.
     progress : callable, optional
         ``progress(done, total)`` in points.
+    extra_points_m : dict, optional
+        Limit id -> (n, 3) points known to reach the limit [m].
 
     Returns
     -------
@@ -747,43 +753,47 @@ def keepout_cylinders(
     """
     c = scenario.centre_m
     axis_xy = (float(c[0]), float(c[1]))
+    extra = extra_points_m or {}
     reach = max((k.recommended_distance_m for k in keepouts), default=0.0)
-    if reach <= 0:
-        return [Cylinder(k.limit_id, axis_xy, 0.0, float(c[2]), float(c[2]), 0.0) for k in keepouts]
-    wavelength = scenario.wavelength_m
-    n_r = int(np.clip(math.ceil(reach / (wavelength / 8)), 60, 300))
-    dr = reach * 1.02 / n_r
-    radii = (np.arange(n_r) + 1) * dr
-    dirs = _scan_directions(scenario, keepouts)
-    pts = (c + dirs[:, None, :] * radii[None, :, None]).reshape(-1, 3)
-    values = limit_values(scenario, [k.limit_id for k in keepouts])
-    n = pts.shape[0]
-    chunk = max(8192, n // 40)
-    s_parts, e_parts, h_parts = [], [], []
-    for start in range(0, n, chunk):
-        res = evaluate(scenario, pts[start : start + chunk])
-        s_parts.append(res.power_density_w_m2)
-        e_parts.append(res.e_v_m)
-        h_parts.append(res.h_a_m)
-        if progress is not None:
-            progress(min(n, start + chunk), n)
-    s, e, h = (np.concatenate(p) for p in (s_parts, e_parts, h_parts))
-    rel = pts - c
-    horizontal = np.hypot(rel[:, 0], rel[:, 1])
+    dr = 0.0
+    hits_by_limit: dict[str, NDArray[np.float64]] = {}
+    if reach > 0:
+        wavelength = scenario.wavelength_m
+        n_r = int(np.clip(math.ceil(1.25 * reach / (wavelength / 8)), 60, 375))
+        dr = 1.25 * reach / n_r
+        radii = (np.arange(n_r) + 1) * dr
+        dirs = _scan_directions(scenario, keepouts)
+        pts = (c + dirs[:, None, :] * radii[None, :, None]).reshape(-1, 3)
+        values = limit_values(scenario, [k.limit_id for k in keepouts])
+        n = pts.shape[0]
+        chunk = max(8192, n // 40)
+        s_parts, e_parts, h_parts = [], [], []
+        for start in range(0, n, chunk):
+            res = evaluate(scenario, pts[start : start + chunk])
+            s_parts.append(res.power_density_w_m2)
+            e_parts.append(res.e_v_m)
+            h_parts.append(res.h_a_m)
+            if progress is not None:
+                progress(min(n, start + chunk), n)
+        s, e, h = (np.concatenate(p) for p in (s_parts, e_parts, h_parts))
+        for k, v in zip(keepouts, values, strict=True):
+            scale = 1.0 / uncertainty_level(k)
+            hits_by_limit[k.limit_id] = pts[limits_mod.quotient(v, s, e, h) * scale >= 1.0]
     out = []
-    for k, v in zip(keepouts, values, strict=True):
-        if not k.reached:
+    for k in keepouts:
+        known = [hits_by_limit.get(k.limit_id, np.zeros((0, 3)))]
+        if k.reached:
+            known.append((c + k.direction * k.recommended_distance_m)[None, :])
+        if k.limit_id in extra and len(extra[k.limit_id]):
+            known.append(np.asarray(extra[k.limit_id], dtype=float).reshape(-1, 3))
+        held = np.vstack(known)
+        if held.shape[0] == 0:
             out.append(Cylinder(k.limit_id, axis_xy, 0.0, float(c[2]), float(c[2]), dr))
             continue
-        scale = 1.0 / uncertainty_level(k)
-        hit = limits_mod.quotient(v, s, e, h) * scale >= 1.0
-        far = c + k.direction * k.recommended_distance_m
-        hr = np.append(horizontal[hit], math.hypot(*(far - c)[:2]))
-        zz = np.append(pts[hit, 2], far[2])
-        bound = k.recommended_distance_m
-        radius = min(float(hr.max()) + dr, bound)
-        z_min = max(float(zz.min()) - dr, float(c[2]) - bound)
-        z_max = min(float(zz.max()) + dr, float(c[2]) + bound)
+        rel = held - c
+        radius = float(np.max(np.hypot(rel[:, 0], rel[:, 1]))) + dr
+        z_min = float(held[:, 2].min()) - dr
+        z_max = float(held[:, 2].max()) + dr
         out.append(Cylinder(k.limit_id, axis_xy, radius, z_min, z_max, dr))
     return out
 
@@ -1244,6 +1254,19 @@ class MapRun:
         """The plane of the map."""
         return self.result.grid.plane
 
+    def zone_points_m(self, limit_id: str) -> NDArray[np.float64]:
+        """Scenario coordinates (n, 3) of the widest zone's outline of a limit [m]."""
+        zone = self.zones[limit_id][-1]
+        st = zone.vertices()
+        return self.plane.to_scenario(st[:, 0], st[:, 1]) if st.size else np.zeros((0, 3))
+
+    def reach_m(self, limit_id: str) -> float:
+        """Largest distance from the keep-out centre to the widest zone of a limit [m]."""
+        pts = self.zone_points_m(limit_id)
+        if pts.shape[0] == 0:
+            return 0.0
+        return float(np.max(np.linalg.norm(pts - self.scenario.centre_m, axis=1)))
+
     def conservative_shapes(self, limit_id: str) -> dict[str, Any]:
         """The shapes of the widest zone of a limit (with uncertainty where stated)."""
         kinds = self.shapes[limit_id]
@@ -1266,6 +1289,7 @@ class MapRun:
                     "zone_area_with_uncertainty_m2": zones[-1].area_m2,
                     "clipped_at_map_edge": any(z.clipped for z in zones),
                     "max_quotient_on_map": float(self.result.quotient(v.id).max()),
+                    "zone_reach_from_centre_m": self.reach_m(v.id),
                     "shapes": self.shapes[v.id],
                 }
             )

@@ -49,6 +49,8 @@ DENSITY_CMAP = "YlOrRd"
 QUOTIENT_CMAP = "RdBu_r"
 #: Colour-scale span of a quotient map [dB] below and above the limit.
 QUOTIENT_SPAN_DB = (-30.0, 30.0)
+#: Named places farther than this from a non-horizontal plane are not drawn on it [m].
+OFF_PLANE_SHOWN_M = 0.5
 #: mW/cm^2 per W/m^2.
 MW_CM2_PER_W_M2 = 0.1
 #: A light box behind labels on the map (kept as text in SVG, unlike a stroked halo).
@@ -487,6 +489,10 @@ def _draw_points(
     for i in order:
         p, (s, t), d = scenario.points[i], st[i], offset[i]
         if not (s0 <= s <= s1 and t0 <= t <= t1):
+            continue
+        # On a horizontal plane every place is shown at its foot point (where to stand);
+        # on other planes only places near the plane, so none appears where it is not.
+        if plane.kind != "xy" and abs(d) > max(OFF_PLANE_SHOWN_M, 3 * step):
             continue
         on = abs(d) <= step
         ax.plot(

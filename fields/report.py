@@ -166,7 +166,7 @@ def _summary(data: dict[str, Any]) -> str:
                 _e(k["limit"]),
                 _num(k["limit_w_m2"]),
                 _metres(k["distance_m"]),
-                f"<strong>{_metres(k['recommended_distance_m'])}</strong>",
+                f"<strong>{_metres(k['mark_out_m'])}</strong>",
                 _metres(zone["circle"]["radius_m"]) if zone["circle"]["radius_m"] else "–",
                 f"r {_metres(cyl['radius_m'])}, z {cyl['z_min_m']:.2f} to "
                 f"{cyl['z_max_m']:.2f}&nbsp;m",
@@ -189,10 +189,13 @@ def _summary(data: dict[str, Any]) -> str:
     lines = [
         '<section class="summary">',
         "<p><strong>Keep people outside these distances from the first source while it "
-        "can radiate.</strong> “Mark out” includes the source model’s stated gain "
-        "uncertainty; the circle and cylinder are widened by one grid step.</p>",
+        "can radiate.</strong> “Mark out” is the keep-out radius widened by the source "
+        "model’s stated gain uncertainty, or the farthest zone point the maps found if that "
+        "is farther; the circle and cylinder are widened by one grid step.</p>",
         table,
     ]
+    for note in _reach_notes(data):
+        lines.append(f'<p class="exceed">{_e(note)}</p>')
     if exceed:
         names = ", ".join(_e(p["name"]) for p in exceed)
         lines.append(f'<p class="exceed">Named places where a limit is reached: {names}.</p>')
@@ -201,6 +204,17 @@ def _summary(data: dict[str, Any]) -> str:
     lines.append(f"<p>{_e(CAUTION_LINES[0])}</p>")
     lines.append("</section>")
     return "\n".join(lines)
+
+
+def _reach_notes(data: dict[str, Any]) -> list[str]:
+    """Sentences for limits whose map zones reach beyond the keep-out search's radius."""
+    return [
+        f"{k['limit']}: the maps find the limit reached {k['map_reach_m']:.2f} m from the "
+        f"source, beyond the keep-out search's {k['recommended_distance_m']:.2f} m (a narrow "
+        "lobe or a grazing reflection between the search's rays); mark out the larger."
+        for k in data["keepout"]
+        if k.get("map_reach_beyond_keepout")
+    ]
 
 
 def _results(data: dict[str, Any]) -> str:
@@ -484,7 +498,7 @@ def render_report(
         "This is the zone to mark on the floor (zones-floor.geojson).</figcaption></figure>",
         '<figure class="map">'
         + _img(figures["vertical"], "power density on the vertical plane")
-        + f"<figcaption>{_e(vertical['plane']['description']).capitalize()}: how high and "
+        + f"<figcaption>{_e(_sentence(vertical['plane']['description']))}: how high and "
         "how low the zones reach.</figcaption></figure>",
         "<h2>2. Results per limit</h2>",
         _results(data),
@@ -535,7 +549,7 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
                 k["limit"],
                 _num(k["limit_w_m2"]),
                 f"{k['distance_m']:.2f}" if k["reached"] else "not reached",
-                f"{k['recommended_distance_m']:.2f}" if k["reached"] else "-",
+                f"{k['mark_out_m']:.2f}" if k["mark_out_m"] > 0 else "-",
                 f"{k['floor_zone']['circle']['radius_m']:.2f}" if k["reached"] else "-",
                 (
                     f"{cyl['radius_m']:.2f}, {cyl['z_min_m']:.2f}..{cyl['z_max_m']:.2f}"
@@ -545,6 +559,7 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
             ]
         )
     lines += _text_table(header, rows)
+    lines += ["  Note: " + note for note in _reach_notes(data)]
     if data["points"]:
         lines += ["", "Named places (largest % of a limit):"]
         for p in data["points"]:

@@ -117,6 +117,11 @@ def test_assessment_json(assessed):
     # OET 65 eq. (3): 100 W isotropic against 10 W/m^2 (ICNIRP 2020 Table 5).
     assert gp["distance_m"] == pytest.approx(math.sqrt(100 / (4 * math.pi * 10)), rel=2e-3)
     assert gp["cylinder"]["radius_m"] > 0 and gp["floor_zone"]["circle"]["radius_m"] > 0
+    # The maps cross-check the keep-out search: for a point source they agree within a step.
+    step = data["maps"]["floor"]["step_m"]
+    assert abs(gp["map_reach_m"] - gp["distance_m"]) <= step
+    assert not gp["map_reach_beyond_keepout"]
+    assert gp["mark_out_m"] >= gp["recommended_distance_m"]
     assert data["points"][0]["name"] == "desk"
     assert set(data["files"]) == ASSESS_FILES
     assert data["comparison"] is None
