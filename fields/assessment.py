@@ -348,7 +348,11 @@ def run_assessment(
     keepouts = keepout_distances(scenario, ids)
     centre = scenario.centre_m
     height = float(centre[2]) if height_m is None else float(height_m)
-    grid_args = {"half_extent_m": half_extent_m, "step_m": step_m, "pixels": pixels}
+    grid_args: dict[str, Any] = {
+        "half_extent_m": half_extent_m,
+        "step_m": step_m,
+        "pixels": pixels,
+    }
     floor_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     vertical_plane = maps.boresight_plane(scenario)
     floor = maps.run_map(

@@ -668,9 +668,12 @@ def map_command(
     loaded = _load(scenario)
     ids = _check_limits(loaded, limit)
     if custom:
-        the_plane = maps.custom_plane(
-            _parse_vector(origin, "--origin"), _parse_vector(u, "--u"), _parse_vector(v, "--v")
+        origin_m, u_axis, v_axis = (
+            _parse_vector(text, name)
+            for text, name in ((origin, "--origin"), (u, "--u"), (v, "--v"))
         )
+        assert origin_m is not None and u_axis is not None and v_axis is not None
+        the_plane = maps.custom_plane(origin_m, u_axis, v_axis)
     elif plane == PlaneChoice.boresight:
         if through_m is not None:
             raise InputError("does not apply to --plane boresight", "argument", "--through")
@@ -705,12 +708,12 @@ def map_command(
                 atomic_write_bytes(staging / name, blob)
             written += publish_output_folder(staging, out, [scenario])
             staging = None
-        for kind, path in singles.items():
-            if path is None:
+        for kind, single in singles.items():
+            if single is None:
                 continue
             name = next(n for n in files if n.endswith("." + kind))
-            atomic_write_bytes(path, files[name])
-            written.append(path)
+            atomic_write_bytes(single, files[name])
+            written.append(single)
     finally:
         if staging is not None:
             discard_staging(staging)

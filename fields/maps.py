@@ -437,7 +437,7 @@ def make_grid(
         )
     cs, ct = plane.centre_st_m if centre_st_m is None else centre_st_m
     offsets = (np.arange(n) - (n - 1) / 2) * step_m
-    return Grid(plane, cs + offsets, ct + offsets)
+    return Grid(plane, np.asarray(cs + offsets, dtype=float), np.asarray(ct + offsets, dtype=float))
 
 
 # -------------------------------------------------------------- evaluation
@@ -624,7 +624,8 @@ def zone_of(map_result: MapResult, limit_id: str, level: float = 1.0, kind: str 
     gen = contourpy.contour_generator(
         grid.s_m, grid.t_m, lq, name="serial", fill_type=contourpy.FillType.OuterOffset
     )
-    points, offsets = gen.filled(threshold, np.inf)
+    filled: Any = gen.filled(threshold, np.inf)
+    points, offsets = filled[0], filled[1]
     polygons = []
     for pts, offs in zip(points, offsets, strict=True):
         rings = [pts[offs[i] : offs[i + 1]] for i in range(len(offs) - 1)]
@@ -711,7 +712,7 @@ def _scan_directions(scenario: Scenario, keepouts: Sequence[KeepoutResult]) -> N
     dirs = [fibonacci_sphere(800)]
     phi = np.radians(np.arange(0, 360, 5.0))
     dirs.append(np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(phi)]))
-    extra = [[0, 0, 1.0], [0, 0, -1.0]]
+    extra: list[Any] = [[0, 0, 1.0], [0, 0, -1.0]]
     for term in radiating_terms(scenario):
         axis = term.radiator.placement.rotation[:, 2]
         extra += [axis, -axis]
@@ -782,7 +783,7 @@ def keepout_cylinders(
     out = []
     for k in keepouts:
         known = [hits_by_limit.get(k.limit_id, np.zeros((0, 3)))]
-        if k.reached:
+        if k.direction is not None:
             known.append((c + k.direction * k.recommended_distance_m)[None, :])
         if k.limit_id in extra and len(extra[k.limit_id]):
             known.append(np.asarray(extra[k.limit_id], dtype=float).reshape(-1, 3))
@@ -1073,7 +1074,8 @@ def source_outlines(source: Any) -> list[Outline]:
                 try:
                     from keepclear.antennas.waveguide import waveguide_dimensions
 
-                    feed = tuple(float(x) for x in waveguide_dimensions(source.given["waveguide"]))
+                    fw, fh = waveguide_dimensions(source.given["waveguide"])
+                    feed = (float(fw), float(fh))
                 except Exception:  # noqa: BLE001 - a drawing aid only
                     feed = None
             if length and feed:

@@ -55,7 +55,7 @@ OFF_PLANE_SHOWN_M = 0.5
 MW_CM2_PER_W_M2 = 0.1
 #: A light box behind labels on the map (kept as text in SVG, unlike a stroked halo).
 _LABEL_BOX = {"boxstyle": "round,pad=0.12", "fc": "white", "ec": "none", "alpha": 0.8}
-_RC = {
+_RC: dict[str, Any] = {
     "svg.fonttype": "none",
     "font.size": 9.5,
     "axes.titlesize": 10,
@@ -102,7 +102,7 @@ def density_range(
 def figure_bytes(fig: Figure, fmt: str, dpi: int = 150) -> bytes:
     """Render a figure to PNG or SVG bytes."""
     buf = io.BytesIO()
-    with mpl.rc_context(_RC):
+    with mpl.rc_context(_RC):  # type: ignore[arg-type]
         fig.savefig(buf, format=fmt, dpi=dpi, metadata=_metadata(fmt))
     return buf.getvalue()
 
@@ -686,7 +686,7 @@ def map_figure(
     width, left, side, top = 8.4, 0.85, 5.6, 1.15
     legend_h = 0.2 * len(handles) + 0.2
     height = top + side + 0.6 + legend_h + 0.55
-    with mpl.rc_context(_RC):
+    with mpl.rc_context(_RC):  # type: ignore[arg-type]
         fig = Figure(figsize=(width, height))
         bottom = (height - top - side) / height
         ax = fig.add_axes((left / width, bottom, side / width, side / height))
@@ -781,7 +781,7 @@ def comparison_figure(
     width = left + cols * side + (cols - 1) * gap + bar_gap + bar + right
     row_h = row_head + side + row_foot
     height = top + rows * row_h + legend_h + 0.35
-    with mpl.rc_context(_RC):
+    with mpl.rc_context(_RC):  # type: ignore[arg-type]
         fig = Figure(figsize=(width, height))
         norm = _norm(style, [p[1] for p in panels])
         image = None
