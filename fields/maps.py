@@ -59,7 +59,7 @@ import contourpy
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from keepclear.antennas.base import ModelRangeWarning, fibonacci_sphere
+from keepclear.antennas.base import ETA0_OHM, ModelRangeWarning, fibonacci_sphere
 
 from . import limits as limits_mod
 from .errors import InputError, ResourceError
@@ -77,6 +77,8 @@ DEFAULT_PIXELS = 241
 MIN_HALF_EXTENT_M = 2.0
 #: Default half-width as a multiple of the largest keep-out radius.
 KEEPOUT_EXTENT_FACTOR = 1.5
+#: Density given to a sample on a source singularity (far above any limit) [W m^-2].
+SINGULAR_DENSITY_W_M2 = 1e12
 #: Floor of the quotient before taking its logarithm (q = 0 far behind a shield).
 _Q_FLOOR = 1e-30
 PLANE_NAMES = ("xy", "xz", "yz")
@@ -519,13 +521,37 @@ def evaluate_map(
     def cat(name: str) -> NDArray[np.float64]:
         return np.concatenate([getattr(p, name) for p in parts]).reshape(grid.shape)
 
-    s = cat("power_density_w_m2")
-    e = cat("e_v_m")
-    h = cat("h_a_m")
+    s, e, h, peak = _singular_as_exceeding(
+        cat("power_density_w_m2"), cat("e_v_m"), cat("h_a_m"), cat("peak_power_density_w_m2")
+    )
     q = np.empty((len(values), *grid.shape))
     for i, v in enumerate(values):
         q[i] = limits_mod.quotient(v, s, e, h)
-    return MapResult(grid, s, cat("peak_power_density_w_m2"), e, h, values, q)
+    return MapResult(grid, s, peak, e, h, values, q)
+
+
+def _singular_as_exceeding(
+    s: NDArray[np.float64], e: NDArray[np.float64], h: NDArray[np.float64], peak: NDArray
+) -> tuple[NDArray, NDArray, NDArray, NDArray]:
+    """Samples where a model returns no finite field (on a source) count as exceeding.
+
+    They are set to :data:`SINGULAR_DENSITY_W_M2` (E and H of a plane wave of that
+    density), far above every limit, and a warning says how many there are.
+    """
+    bad = ~(np.isfinite(s) & np.isfinite(e) & np.isfinite(h) & np.isfinite(peak))
+    if not bad.any():
+        return s, e, h, peak
+    warnings.warn(
+        f"{int(bad.sum())} map sample(s) fall on a source singularity (no finite field); "
+        "they are counted as exceeding every limit",
+        ModelRangeWarning,
+        stacklevel=3,
+    )
+    s, e, h, peak = (np.where(bad, 0.0, x) for x in (s, e, h, peak))
+    s[bad] = peak[bad] = SINGULAR_DENSITY_W_M2
+    e[bad] = math.sqrt(SINGULAR_DENSITY_W_M2 * ETA0_OHM)
+    h[bad] = math.sqrt(SINGULAR_DENSITY_W_M2 / ETA0_OHM)
+    return s, e, h, peak
 
 
 def _warn_undersampled(scenario: Scenario, grid: Grid) -> None:

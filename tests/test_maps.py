@@ -262,3 +262,24 @@ material = "concrete"
     plane = maps.principal_plane("xz", scenario.centre_m)
     cs, ct = maps.default_centre_st_m(scenario, plane, 4.0)
     assert ct - 4.0 == pytest.approx(-0.8)  # the floor sits a tenth of the map above the edge
+
+
+def test_a_singular_sample_counts_as_exceeding(iso, monkeypatch):
+    """A model that returns NaN on its own source point must not crash or hide an exceedance."""
+    scenario, keepouts = iso
+    import keepclear.fields.maps as maps_mod
+
+    real = maps_mod.evaluate
+
+    def with_nan(scen, points):
+        res = real(scen, points)
+        at_source = np.linalg.norm(np.asarray(points) - scen.centre_m, axis=1) < 1e-9
+        res.power_density_w_m2[at_source] = np.nan
+        return res
+
+    monkeypatch.setattr(maps_mod, "evaluate", with_nan)
+    grid = maps.make_grid(maps.principal_plane("xy", scenario.centre_m), 1.0, pixels=21)
+    with pytest.warns(maps.ModelRangeWarning, match="singularity"):
+        result = maps.evaluate_map(scenario, grid)
+    assert np.all(np.isfinite(result.quotients))
+    assert result.quotients[:, 10, 10].min() > 1e9
