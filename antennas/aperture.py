@@ -1,0 +1,1112 @@
+"""Radiation from a planar aperture by the equivalence principle, near field included.
+
+The engine behind the open-waveguide and horn models.  An aperture is a
+rectangle ``|x| <= width/2, |y| <= height/2`` in the plane z = 0 of the local
+frame, radiating towards +z, on which the tangential fields E_t and H_t are
+known (:class:`ApertureDistribution`).  They are replaced by equivalent surface
+currents (Balanis [1]_ sec. 12.2, eqs. (12-3)/(12-4); Harrington's form of the
+equivalence principle)
+
+.. math:: \\mathbf J_s = \\hat n \\times \\mathbf H_a,\\qquad
+          \\mathbf M_s = -\\hat n \\times \\mathbf E_a,\\qquad \\hat n = \\hat z,
+
+which radiate in free space ("huygens": both currents; the Kirchhoff-Huygens
+or Stratton-Chu aperture model), or, for an aperture in an infinite
+perfectly conducting plane, as ``2 M_s`` alone by image theory ("ground-plane",
+Balanis [1]_ sec. 12.5.1 and 12.5.3; no field behind the plane).
+
+Near field
+----------
+E and H at any point are the surface integrals of the *complete* free-space
+dyadic Green's function: writing R = r - r', R = |R|, u = 1/(jkR) and
+G = e^{-jkR}/(4 pi R),
+
+.. math::
+   \\mathbf E = -jk\\int G\\,\\big[\\eta_0 (a\\mathbf J + b\\hat R(\\hat R\\cdot\\mathbf J))
+                - c\\,\\hat R\\times\\mathbf M\\big]\\,dS'
+
+   \\mathbf H = -jk\\int G\\,\\big[(a\\mathbf M + b\\hat R(\\hat R\\cdot\\mathbf M))/\\eta_0
+                + c\\,\\hat R\\times\\mathbf J\\big]\\,dS'
+
+with a = 1 + u + u^2, b = -(1 + 3u + 3u^2), c = 1 + u: the 1/R (radiation),
+1/R^2 (induction) and 1/R^3 (quasi-static) terms all kept.  This is
+E = -j omega A - j grad(div A)/(omega mu eps) - curl(F)/eps and
+H = curl(A)/mu - j omega F - j grad(div F)/(omega mu eps) with
+A = mu int J G, F = eps int M G (Balanis [1]_ eqs. (3-29), (3-30), from
+memory of the numbering), written out as in the complete fields of an
+oscillating electric dipole and of a magnetic dipole (Jackson [2]_ eqs.
+(9.18) and (9.36), converted to e^{+j omega t}).  Every quadrature node of the
+aperture is such a pair of elementary dipoles, so the sum holds at any
+distance from the aperture; what limits it close in is the quadrature, see
+below.
+
+Quadrature
+----------
+Tensor Gauss-Legendre nodes over the aperture rectangle.  The node count per
+coordinate is chosen per field point from the analyticity of the integrand
+(Trefethen [3]_, Theorem 19.3: for f analytic and bounded by M inside the
+Bernstein ellipse E_rho, the n-point Gauss error is at most
+64 M rho^{-2n} / (15 (rho^2 - 1))).  The integrand has a near-singularity
+(its 1/R^3 pole) at the complex coordinate x' = x_p + j d, d the distance of
+the point from the line of integration, and grows like e^{omega Im x'} from
+the oscillation e^{-jkR} and the aperture's own phase; the estimate
+minimises the required n over the ellipse parameter between the two
+(:func:`gauss_legendre_order`).  Calibrated against brute-force integration
+it gives at least the requested accuracy with 1.6 times the minimal node
+count on average.  Points that need the same rule are grouped and evaluated
+together in cache-sized blocks, in single precision (the phase is taken
+relative to the aperture centre, so the float32 arguments stay small), on
+several threads.  ``method="direct"`` instead uses one fixed, fine rule (the
+one a point lambda/10 above the aperture centre needs at 1e-7) in double
+precision for every point: the reference the adaptive result is tested and
+benchmarked against.
+
+Far field and normalisation
+---------------------------
+The far-field amplitude is the radiation integral
+F(u) = -jk/(4 pi) [eta0 (N - (u.N) u) - u x L], N = int J e^{jk u.r'} dS',
+L = int M e^{jk u.r'} dS' (Balanis [1]_ eqs. (12-10)-(12-12)), integrated
+with a rule fine enough for the whole visible region.  The aperture amplitude
+is scaled so that the power radiated into the half-space in front,
+(1/eta0) int_{u_z > 0} |F|^2 dOmega (Gauss-Legendre in cos(theta), trapezoid
+in phi), equals ``power_w``; power a Huygens aperture sends backwards comes on
+top (:attr:`ApertureRadiator.back_fraction`), which errs on the safe side.
+Beyond :attr:`ApertureRadiator.far_zone_distance_m` = max(10 * 2D^2/lambda,
+20 lambda) the adaptive method uses F e^{-jkr}/r directly: there the
+neglected Fresnel phase is below pi/80 at the rim and the induction terms
+below 0.1 % in power, far inside 0.1 dB.
+
+Validity
+--------
+* The fields are those of the equivalent currents of the given aperture
+  distribution: exact for a ground-plane aperture with that field, the
+  Kirchhoff approximation otherwise.  Behind the aperture plane (z < 0) a
+  "huygens" aperture returns the same integral (the Kirchhoff continuation:
+  the spill-over an aperture without a flange sends sideways and back); a
+  "ground-plane" aperture returns zero.
+* Accuracy: within 0.1 dB of the converged integral from lambda/10 off the
+  aperture outward (tested).  Points closer than the minimum standoff
+  :attr:`ApertureRadiator.min_standoff_m` = lambda/20 to the aperture
+  rectangle are evaluated at that standoff, moved along z (front side for
+  z = 0): finite values, of the order of the aperture field; a current sheet
+  with a rim has no meaningful value closer in (the fields of its edge
+  charges grow without bound at the rim).
+
+References
+----------
+.. [1] C. A. Balanis, *Antenna Theory: Analysis and Design*, 4th ed., Wiley,
+   2016, ch. 3 (vector potentials), ch. 12 (aperture antennas: 12.2 field
+   equivalence, 12.3 radiation equations, 12.5 rectangular apertures,
+   Tables 12.1 and 12.2).
+.. [2] J. D. Jackson, *Classical Electrodynamics*, 3rd ed., Wiley, 1999,
+   eqs. (9.18) (electric dipole) and (9.36) (magnetic dipole), all orders in
+   1/(kr).
+.. [3] L. N. Trefethen, *Approximation Theory and Approximation Practice*,
+   SIAM, 2013, ch. 19, Theorem 19.3 (Gauss quadrature error in a Bernstein
+   ellipse).
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+from functools import lru_cache
+from typing import Final
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .base import (
+    DEFAULT_CHUNK_BYTES,
+    ETA0_OHM,
+    ModelInputError,
+    Placement,
+    Radiator,
+    as_points,
+    fibonacci_sphere,
+)
+
+#: Equivalent-current models.
+HUYGENS: Final[str] = "huygens"
+GROUND_PLANE: Final[str] = "ground-plane"
+EQUIVALENCES: Final[tuple[str, ...]] = (HUYGENS, GROUND_PLANE)
+
+#: Quadrature methods of :meth:`ApertureRadiator.fields`.
+METHODS: Final[tuple[str, ...]] = ("adaptive", "direct")
+
+#: Relative quadrature error aimed at by the adaptive rule (relative to the
+#: integral of |integrand|; 1e-4 leaves 0.1 dB down to about -40 dB sidelobes).
+DEFAULT_TOLERANCE: Final[float] = 1e-4
+
+#: Tolerance of the fixed fine rule of ``method="direct"``.
+DIRECT_TOLERANCE: Final[float] = 1e-7
+
+#: Ladder of Gauss-Legendre orders the adaptive rule is rounded up to
+#: (shared rules let points be evaluated in blocks).
+_ORDER_LADDER: Final[NDArray[np.int64]] = np.array(
+    [2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 14, 16, 18, 20, 22, 24, 28, 32, 36, 40, 44, 48, 56,
+     64, 72, 80, 88, 96, 112, 128, 144, 160, 176, 192, 224, 256, 288, 320, 352, 384, 448,
+     512, 576, 640, 704, 768, 896, 1024],
+    dtype=np.int64,
+)  # fmt: skip
+MAX_ORDER: Final[int] = int(_ORDER_LADDER[-1])
+
+#: Field-point x node pairs evaluated in one block (fits the L2 cache).
+BLOCK_PAIRS: Final[int] = 65536
+
+#: Largest total number of nodes kept in a radiator's cache of quadrature rules
+#: (about 40-80 bytes each).
+RULE_CACHE_NODES: Final[int] = 2**21
+
+#: Hard ceiling of every memory budget here [bytes].
+MAX_BUDGET_BYTES: Final[int] = 1024**3
+
+FieldFunction = Callable[[NDArray[np.float64], NDArray[np.float64]], tuple[NDArray, NDArray]]
+
+
+# ============================================================ parameter class
+@dataclass(frozen=True)
+class ApertureDistribution:
+    """Tangential field over a rectangular aperture in z = 0 (local frame).
+
+    Parameters
+    ----------
+    width_m : float
+        Extent along local x [m] (the H-plane / broad direction).
+    height_m : float
+        Extent along local y [m] (the E-plane / narrow direction).
+    field_function : callable
+        ``f(x, y) -> (e_t, h_t)`` for broadcastable coordinate arrays [m]
+        inside the rectangle; ``e_t`` and ``h_t`` have the broadcast shape
+        plus a last axis of 2 (x and y components), complex, in any
+        consistent amplitude ([V m^-1] and [A m^-1]; the radiator rescales).
+    bandwidth_x_rad_m : float
+        Largest spatial angular frequency of the distribution along x (its
+        phase slope plus its amplitude variation, e.g. pi/width for a
+        cosine) [rad m^-1]; it sets the quadrature order.
+    bandwidth_y_rad_m : float
+        The same along y [rad m^-1].
+    equivalence : {"huygens", "ground-plane"}
+        ``"huygens"``: J = n x H and M = -n x E radiating in free space;
+        ``"ground-plane"``: 2 M alone, the aperture sits in an infinite
+        conducting plane and nothing radiates behind it.
+    description : str
+        Short text for messages and reports.
+    """
+
+    width_m: float
+    height_m: float
+    field_function: FieldFunction
+    bandwidth_x_rad_m: float = 0.0
+    bandwidth_y_rad_m: float = 0.0
+    equivalence: str = HUYGENS
+    description: str = ""
+
+    def __post_init__(self) -> None:
+        for key in ("width_m", "height_m"):
+            value = getattr(self, key)
+            if not (np.isfinite(value) and value > 0):
+                raise ModelInputError(key, f"{key} must be a length > 0 [m], got {value!r}")
+        if self.equivalence not in EQUIVALENCES:
+            raise ModelInputError(
+                "equivalence",
+                f"equivalence must be one of {', '.join(EQUIVALENCES)}, got {self.equivalence!r}",
+            )
+        for key in ("bandwidth_x_rad_m", "bandwidth_y_rad_m"):
+            value = getattr(self, key)
+            if not (np.isfinite(value) and value >= 0):
+                raise ModelInputError(key, f"{key} must be >= 0 [rad m^-1], got {value!r}")
+
+    @property
+    def half_sizes_m(self) -> tuple[float, float]:
+        """Half-width and half-height (L_x, L_y) [m]."""
+        return 0.5 * self.width_m, 0.5 * self.height_m
+
+    @property
+    def diagonal_m(self) -> float:
+        """Largest dimension D of the rectangle (its diagonal) [m]."""
+        return float(np.hypot(self.width_m, self.height_m))
+
+
+def uniform_distribution(
+    width_m: float,
+    height_m: float,
+    wave_impedance_ohm: float = ETA0_OHM,
+    equivalence: str = HUYGENS,
+) -> ApertureDistribution:
+    """Uniform, in-phase aperture: E_y = 1, H_x = -1 / Z_w.
+
+    Parameters
+    ----------
+    width_m, height_m : float
+        Aperture size along x and y [m].
+    wave_impedance_ohm : float
+        Ratio E_y / (-H_x) on the aperture [ohm].
+    equivalence : str
+        See :class:`ApertureDistribution`.
+
+    Notes
+    -----
+    Balanis [1]_ sec. 12.5.1-12.5.2: directivity 4 pi A / lambda^2 in the
+    large-aperture limit (aperture efficiency 1, Table 12.1).
+    """
+
+    def fields(x: NDArray, y: NDArray) -> tuple[NDArray, NDArray]:
+        shape = np.broadcast(x, y).shape
+        e = np.zeros(shape + (2,), dtype=complex)
+        e[..., 1] = 1.0
+        h = np.zeros(shape + (2,), dtype=complex)
+        h[..., 0] = -1.0 / wave_impedance_ohm
+        return e, h
+
+    return ApertureDistribution(width_m, height_m, fields, 0.0, 0.0, equivalence, "uniform")
+
+
+def te10_distribution(
+    width_m: float,
+    height_m: float,
+    wave_impedance_ohm: float,
+    equivalence: str = HUYGENS,
+    phase_x: Callable[[NDArray], NDArray] | None = None,
+    phase_y: Callable[[NDArray], NDArray] | None = None,
+    phase_slope_x_rad_m: float = 0.0,
+    phase_slope_y_rad_m: float = 0.0,
+    description: str = "TE10 cosine",
+) -> ApertureDistribution:
+    """TE10-like aperture: E_y = cos(pi x / width) e^{-j(phi_x(x) + phi_y(y))}, H_x = -E_y / Z_w.
+
+    Parameters
+    ----------
+    width_m, height_m : float
+        Aperture size along x (cosine direction) and y [m].
+    wave_impedance_ohm : float
+        E_y / (-H_x): Z_TE10 for the open end of a guide, eta0 for a horn
+        aperture (Balanis [1]_ sec. 13.4) [ohm].
+    equivalence : str
+        See :class:`ApertureDistribution`.
+    phase_x, phase_y : callable, optional
+        Aperture phase lag along x and y [rad] (e.g. a horn's flare phase).
+    phase_slope_x_rad_m, phase_slope_y_rad_m : float
+        Largest |d phase / dx| and |d phase / dy| over the aperture [rad m^-1].
+    description : str
+        Short text for messages.
+
+    Notes
+    -----
+    With no phase this is Balanis [1]_ eq. (12-47) (TE10 distribution),
+    aperture efficiency 8/pi^2 in the large-aperture limit (Table 12.1).
+    """
+
+    def fields(x: NDArray, y: NDArray) -> tuple[NDArray, NDArray]:
+        amplitude = np.cos(np.pi * np.asarray(x) / width_m).astype(complex)
+        phase = np.zeros(np.broadcast(x, y).shape)
+        if phase_x is not None:
+            phase = phase + phase_x(np.asarray(x))
+        if phase_y is not None:
+            phase = phase + phase_y(np.asarray(y))
+        ey = amplitude * np.exp(-1j * phase)
+        shape = ey.shape
+        e = np.zeros(shape + (2,), dtype=complex)
+        e[..., 1] = ey
+        h = np.zeros(shape + (2,), dtype=complex)
+        h[..., 0] = -ey / wave_impedance_ohm
+        return e, h
+
+    return ApertureDistribution(
+        width_m,
+        height_m,
+        fields,
+        np.pi / width_m + phase_slope_x_rad_m,
+        phase_slope_y_rad_m,
+        equivalence,
+        description,
+    )
+
+
+# ============================================================ model functions
+def equivalent_currents(
+    e_t: NDArray, h_t: NDArray, equivalence: str
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+    """Equivalent surface currents of an aperture field in z = 0, normal +z.
+
+    Parameters
+    ----------
+    e_t, h_t : ndarray, shape (..., 2)
+        Tangential aperture E [V m^-1] and H [A m^-1] (x and y components).
+    equivalence : {"huygens", "ground-plane"}
+        Free-space Huygens sources, or 2 M over a conducting plane.
+
+    Returns
+    -------
+    j_s, m_s : ndarray, shape (..., 2)
+        Electric [A m^-1] and magnetic [V m^-1] surface currents (x, y).
+
+    Notes
+    -----
+    J_s = z x H_a = (-H_y, H_x); M_s = -z x E_a = (E_y, -E_x)
+    (Balanis [1]_ eqs. (12-3), (12-4)); ground plane: J_s = 0, M_s doubled
+    (image theory, Balanis sec. 12.5.1).
+    """
+    e_t = np.asarray(e_t, dtype=complex)
+    h_t = np.asarray(h_t, dtype=complex)
+    m_s = np.stack([e_t[..., 1], -e_t[..., 0]], axis=-1)
+    if equivalence == GROUND_PLANE:
+        return np.zeros_like(m_s), 2.0 * m_s
+    j_s = np.stack([-h_t[..., 1], h_t[..., 0]], axis=-1)
+    return j_s, m_s
+
+
+@lru_cache(maxsize=256)
+def gauss_legendre(n: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Gauss-Legendre nodes and weights on [-1, 1] (cached, read-only)."""
+    x, w = np.polynomial.legendre.leggauss(int(n))
+    x.setflags(write=False)
+    w.setflags(write=False)
+    return x, w
+
+
+_LOG_RHO_FRACTIONS: Final[NDArray[np.float64]] = np.linspace(0.02, 0.98, 49)
+_MAX_LOG_RHO: Final[float] = 12.0
+
+
+def bernstein_pole_parameter(
+    half_length_m: ArrayLike, offset_m: ArrayLike, distance_m: ArrayLike
+) -> NDArray[np.float64]:
+    """ln(rho_p) of the Bernstein ellipse of [-L, L] through the pole x_p + j d.
+
+    Parameters
+    ----------
+    half_length_m : array_like
+        Half-length L [m].
+    offset_m : array_like
+        Real part x_p of the pole [m].
+    distance_m : array_like
+        Imaginary part d >= 0 [m]; ``inf`` for no pole.
+
+    Returns
+    -------
+    ndarray
+        ln(rho_p) with rho_p = |w + sqrt(w^2 - 1)|, w = (x_p + j d)/L, capped
+        at 12 (no pole within reach).
+    """
+    half = np.asarray(half_length_m, dtype=float)
+    offset = np.asarray(offset_m, dtype=float)
+    distance = np.asarray(distance_m, dtype=float)
+    finite = np.isfinite(distance) & np.isfinite(offset)
+    w = (np.where(finite, offset, 0.0) + 1j * np.where(finite, distance, 1.0)) / half
+    root = np.sqrt(w - 1) * np.sqrt(w + 1)
+    rho_p = np.maximum(np.abs(w + root), np.abs(w - root))
+    log_rho_p = np.where(finite, np.log(np.maximum(rho_p, 1.0 + 1e-12)), _MAX_LOG_RHO)
+    return np.minimum(log_rho_p, _MAX_LOG_RHO)
+
+
+def gauss_legendre_order_from_pole(
+    log_rho_p: ArrayLike, bandwidth_rad: ArrayLike, tolerance: float
+) -> NDArray[np.float64]:
+    """Gauss-Legendre order from the pole's ellipse parameter and the oscillation.
+
+    See :func:`gauss_legendre_order`; ``log_rho_p`` from
+    :func:`bernstein_pole_parameter`.
+    """
+    f = _LOG_RHO_FRACTIONS
+    log_rho = np.asarray(log_rho_p, dtype=float)[..., None] * f
+    omega = np.asarray(bandwidth_rad, dtype=float)[..., None]
+    numerator = (
+        np.log(64.0 / 15.0)
+        + omega * np.sinh(log_rho)
+        - 3.0 * np.log1p(-f)
+        - np.log(np.expm1(2.0 * log_rho))
+        - np.log(tolerance)
+    )
+    return np.min(numerator / (2.0 * log_rho), axis=-1)
+
+
+def gauss_legendre_order(
+    half_length_m: ArrayLike,
+    offset_m: ArrayLike,
+    distance_m: ArrayLike,
+    bandwidth_rad: ArrayLike,
+    tolerance: float,
+) -> NDArray[np.float64]:
+    """Gauss-Legendre order for a near-singular oscillatory integral over [-L, L].
+
+    Parameters
+    ----------
+    half_length_m : array_like
+        Half-length L of the interval [m].
+    offset_m : array_like
+        Real part x_p of the integrand's pole (the field point's coordinate
+        along the interval) [m].
+    distance_m : array_like
+        Its imaginary part d >= 0 (the field point's distance from the line of
+        integration) [m]; ``inf`` for no pole.
+    bandwidth_rad : array_like
+        omega = L * (largest |phase slope| of the integrand) [rad]: the
+        integrand grows like e^{omega Im t} off the real axis.
+    tolerance : float
+        Wanted error relative to the integral of |integrand|.
+
+    Returns
+    -------
+    ndarray
+        Required number of nodes (real, not rounded).
+
+    Notes
+    -----
+    From the Bernstein-ellipse bound (Trefethen [3]_ Thm 19.3),
+    error <= 64 M rho^{-2n} / (15 (rho^2 - 1)), with M(rho) modelled as
+    e^{omega (rho - 1/rho)/2} (1 - ln rho / ln rho_p)^{-3}: the exponential
+    growth of the oscillation and the cubic pole at rho_p, the ellipse
+    through x_p + j d.  The order is minimised over rho in (1, rho_p).
+    Calibrated on 1/R, 1/R^2 and 1/R^3 kernels with e^{-jkR} and a cosine
+    taper (0 failures in 250 random cases at 1e-4, 1.6 x the minimal order on
+    average).
+    """
+    log_rho_p = bernstein_pole_parameter(half_length_m, offset_m, distance_m)
+    return gauss_legendre_order_from_pole(log_rho_p, bandwidth_rad, tolerance)
+
+
+_TABLE_LOG_RHO: Final[NDArray[np.float64]] = np.geomspace(1e-4, 12.0, 97)
+_TABLE_OMEGA: Final[NDArray[np.float64]] = np.concatenate(
+    [np.linspace(0.0, 4.0, 17)[:-1], np.geomspace(4.0, 1e5, 180)]
+)
+
+
+@lru_cache(maxsize=8)
+def _order_table(tolerance: float) -> NDArray[np.float64]:
+    """Orders on the (ln rho_p, omega) grid, for conservative look-up."""
+    return gauss_legendre_order_from_pole(_TABLE_LOG_RHO[:, None], _TABLE_OMEGA[None, :], tolerance)
+
+
+def gauss_legendre_order_lookup(
+    log_rho_p: NDArray[np.float64], bandwidth_rad: NDArray[np.float64], tolerance: float
+) -> NDArray[np.float64]:
+    """Fast upper bound of :func:`gauss_legendre_order_from_pole` from a table.
+
+    The order falls with ln(rho_p) and grows with omega, so the table entry at
+    the grid point just below ln(rho_p) and just above omega bounds it from
+    above (the grids are 13 % steps in ln(rho_p), 6 % in omega).
+    """
+    table = _order_table(float(tolerance))
+    i = np.searchsorted(_TABLE_LOG_RHO, log_rho_p, side="right") - 1
+    j = np.searchsorted(_TABLE_OMEGA, bandwidth_rad, side="left")
+    exact_fallback = (i < 0) | (j >= _TABLE_OMEGA.size)
+    i = np.clip(i, 0, _TABLE_LOG_RHO.size - 1)
+    j = np.clip(j, 0, _TABLE_OMEGA.size - 1)
+    order = table[i, j]
+    if np.any(exact_fallback):
+        order = np.where(
+            exact_fallback,
+            gauss_legendre_order_from_pole(log_rho_p, bandwidth_rad, tolerance),
+            order,
+        )
+    return order
+
+
+def _round_to_ladder(order: NDArray[np.float64]) -> NDArray[np.int64]:
+    index = np.searchsorted(_ORDER_LADDER, np.ceil(np.clip(order, 2, MAX_ORDER)), side="left")
+    return _ORDER_LADDER[np.minimum(index, _ORDER_LADDER.size - 1)]
+
+
+def dyadic_kernel_sums(
+    points_m: NDArray[np.float64],
+    nodes_x_m: NDArray[np.float64],
+    nodes_y_m: NDArray[np.float64],
+    sources: NDArray[np.complex128],
+    wavenumber_rad_m: float,
+    dtype: type = np.float32,
+) -> NDArray[np.complex128]:
+    """Quadrature sums of the free-space dyadic kernels over the aperture nodes.
+
+    Parameters
+    ----------
+    points_m : ndarray, shape (P, 3)
+        Field points in the aperture frame [m].
+    nodes_x_m, nodes_y_m : ndarray, shape (Q,)
+        Aperture quadrature nodes (z' = 0) [m].
+    sources : ndarray, shape (Q, S), complex
+        Weighted source amplitudes at the nodes (columns of equivalent
+        currents times the quadrature weight) [A] or [V].
+    wavenumber_rad_m : float
+        k [rad m^-1].
+    dtype : numpy float type
+        Working precision of the kernel (float32 or float64).
+
+    Returns
+    -------
+    ndarray, shape (9, P, S), complex
+        sum_q K_m(p, q) s_q for the kernels, in order,
+        K_0 = g a, K_1..K_5 = g b (R_x^2, R_x R_y, R_y^2, R_x, R_y) / R^2,
+        K_6..K_8 = g c (1, R_x, R_y) / R, with
+        g = e^{-jk(R - r_p)} / R, r_p = |p| and a, b, c the dyadic
+        coefficients of the module docstring (R = p - q).
+
+    Notes
+    -----
+    The phase is taken relative to the distance r_p of the point from the
+    aperture centre, k(R - r_p) = k (|q|^2 - 2 p.q) / (R + r_p), evaluated
+    without cancellation; the caller multiplies by e^{-jk r_p}.
+    """
+    f = np.dtype(dtype).type
+    k = f(wavenumber_rad_m)
+    xp = points_m[:, 0].astype(f)[:, None]
+    yp = points_m[:, 1].astype(f)[:, None]
+    zp = points_m[:, 2].astype(f)[:, None]
+    rp = np.sqrt(xp * xp + yp * yp + zp * zp)
+    xq = nodes_x_m.astype(f)[None, :]
+    yq = nodes_y_m.astype(f)[None, :]
+    n_points, n_nodes = xp.shape[0], xq.shape[1]
+    rx = xp - xq
+    ry = yp - yq
+    r = rx * rx
+    r += ry * ry
+    r += zp * zp
+    np.sqrt(r, out=r)
+    inv_r = np.reciprocal(r)
+    # phase relative to the centre distance
+    arg = xp * xq
+    arg += yp * yq
+    arg *= f(-2)
+    arg += xq * xq + yq * yq
+    r += rp
+    arg /= r
+    arg *= k
+    g_re = np.cos(arg)
+    g_im = np.sin(arg)
+    np.negative(g_im, out=g_im)
+    g_re *= inv_r
+    g_im *= inv_r
+    t = inv_r * (f(1) / k)  # 1/(kR)
+    tt = t * t
+    kern = np.empty((18, n_points, n_nodes), dtype=f)
+    # a = (1 - t^2) - j t
+    a_re = f(1) - tt
+    np.multiply(g_re, a_re, out=kern[0])
+    kern[0] += g_im * t
+    np.multiply(g_im, a_re, out=kern[9])
+    kern[9] -= g_re * t
+    # b / R^2 with b = (3 t^2 - 1) + 3 j t
+    inv_r2 = inv_r * inv_r
+    b_re = f(3) * tt
+    b_re -= f(1)
+    b_im = f(3) * t
+    gb_re = g_re * b_re
+    gb_re -= g_im * b_im
+    gb_re *= inv_r2
+    gb_im = g_im * b_re
+    gb_im += g_re * b_im
+    gb_im *= inv_r2
+    rxx = rx * rx
+    rxy = rx * ry
+    ryy = ry * ry
+    for m, factor in enumerate((rxx, rxy, ryy, rx, ry), start=1):
+        np.multiply(gb_re, factor, out=kern[m])
+        np.multiply(gb_im, factor, out=kern[9 + m])
+    # c / R with c = 1 - j t
+    np.multiply(g_im, t, out=kern[6])
+    kern[6] += g_re
+    kern[6] *= inv_r
+    np.multiply(g_re, t, out=kern[15])
+    np.subtract(g_im, kern[15], out=kern[15])
+    kern[15] *= inv_r
+    np.multiply(kern[6], rx, out=kern[7])
+    np.multiply(kern[6], ry, out=kern[8])
+    np.multiply(kern[15], rx, out=kern[16])
+    np.multiply(kern[15], ry, out=kern[17])
+    n_src = sources.shape[1]
+    src = np.concatenate([sources.real, sources.imag], axis=1).astype(f)
+    prod = np.matmul(kern, src)  # (18, P, 2S), batched: no multi-threaded BLAS on small blocks
+    re_re = prod[:9, :, :n_src]
+    re_im = prod[:9, :, n_src:]
+    im_re = prod[9:, :, :n_src]
+    im_im = prod[9:, :, n_src:]
+    out = np.empty((9, n_points, n_src), dtype=complex)
+    out.real = re_re - im_im
+    out.imag = re_im + im_re
+    return out
+
+
+def fields_from_kernel_sums(
+    sums: NDArray[np.complex128],
+    z_m: NDArray[np.float64],
+    wavenumber_rad_m: float,
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+    """Assemble E and H from :func:`dyadic_kernel_sums` of the four current columns.
+
+    Parameters
+    ----------
+    sums : ndarray, shape (9, P, 4), complex
+        Kernel sums for the source columns (J_x, J_y, M_x, M_y).
+    z_m : ndarray, shape (P,)
+        Height of the points above the aperture plane [m].
+    wavenumber_rad_m : float
+        k [rad m^-1].
+
+    Returns
+    -------
+    e_v_m, h_a_m : ndarray, shape (P, 3), complex
+        Fields, without the centre phase e^{-jk r_p} (the caller applies it).
+    """
+    t = sums
+    z = z_m.astype(float)
+    eta = ETA0_OHM
+    jx, jy, mx, my = 0, 1, 2, 3
+    e = np.empty((z.size, 3), dtype=complex)
+    h = np.empty((z.size, 3), dtype=complex)
+    e[:, 0] = eta * (t[0, :, jx] + t[1, :, jx] + t[2, :, jy]) + z * t[6, :, my]
+    e[:, 1] = eta * (t[0, :, jy] + t[2, :, jx] + t[3, :, jy]) - z * t[6, :, mx]
+    e[:, 2] = eta * z * (t[4, :, jx] + t[5, :, jy]) - (t[7, :, my] - t[8, :, mx])
+    h[:, 0] = (t[0, :, mx] + t[1, :, mx] + t[2, :, my]) / eta - z * t[6, :, jy]
+    h[:, 1] = (t[0, :, my] + t[2, :, mx] + t[3, :, my]) / eta + z * t[6, :, jx]
+    h[:, 2] = z * (t[4, :, mx] + t[5, :, my]) / eta + (t[7, :, jy] - t[8, :, jx])
+    factor = -1j * wavenumber_rad_m / (4.0 * np.pi)
+    return e * factor, h * factor
+
+
+def radiation_integral_far_field(
+    directions: NDArray[np.float64],
+    nodes_x_m: NDArray[np.float64],
+    nodes_y_m: NDArray[np.float64],
+    j_grid: NDArray[np.complex128],
+    m_grid: NDArray[np.complex128],
+    wavenumber_rad_m: float,
+) -> NDArray[np.complex128]:
+    """Far-field vector amplitude F [V] of tensor-grid equivalent currents.
+
+    Parameters
+    ----------
+    directions : ndarray, shape (D, 3)
+        Unit directions (aperture frame).
+    nodes_x_m : ndarray, shape (nx,)
+        x nodes [m].
+    nodes_y_m : ndarray, shape (ny,)
+        y nodes [m].
+    j_grid, m_grid : ndarray, shape (nx, ny, 2), complex
+        Weighted currents at the nodes (J_x, J_y), (M_x, M_y) [A], [V].
+    wavenumber_rad_m : float
+        k [rad m^-1].
+
+    Returns
+    -------
+    ndarray, shape (D, 3), complex
+        F with E -> F e^{-jkr}/r.
+
+    Notes
+    -----
+    F = -jk/(4 pi) [eta0 (N - (u.N) u) - u x L] with N, L the radiation
+    integrals (Balanis [1]_ eqs. (12-10)-(12-12)); the double sum is done as
+    (D, nx) @ (nx, ny) products.
+    """
+    k = wavenumber_rad_m
+    px = np.exp(1j * k * np.outer(directions[:, 0], nodes_x_m))
+    py = np.exp(1j * k * np.outer(directions[:, 1], nodes_y_m))
+    n_vec = np.zeros((directions.shape[0], 3), dtype=complex)
+    l_vec = np.zeros((directions.shape[0], 3), dtype=complex)
+    for c in range(2):
+        n_vec[:, c] = np.einsum("dj,dj->d", px @ j_grid[:, :, c], py)
+        l_vec[:, c] = np.einsum("dj,dj->d", px @ m_grid[:, :, c], py)
+    u = directions
+    n_perp = n_vec - np.sum(u * n_vec, axis=1, keepdims=True) * u
+    return (-1j * k / (4 * np.pi)) * (ETA0_OHM * n_perp - np.cross(u, l_vec))
+
+
+def hemisphere_rule(order: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Directions and solid-angle weights covering the front hemisphere u_z > 0.
+
+    Gauss-Legendre in cos(theta) on [0, 1] (``order`` nodes) times the
+    trapezoid rule in phi (``2 order`` nodes, spectrally accurate for periodic
+    integrands); the weights sum to 2 pi.
+    """
+    x, w = gauss_legendre(order)
+    cos_t = 0.5 * (x + 1.0)
+    w_t = 0.5 * w
+    n_phi = 2 * order
+    phi = (np.arange(n_phi) + 0.5) * (2 * np.pi / n_phi)
+    sin_t = np.sqrt(1.0 - cos_t**2)
+    dirs = np.stack(
+        [
+            (sin_t[:, None] * np.cos(phi)[None, :]).ravel(),
+            (sin_t[:, None] * np.sin(phi)[None, :]).ravel(),
+            np.repeat(cos_t, n_phi),
+        ],
+        axis=1,
+    )
+    weights = np.repeat(w_t, n_phi) * (2 * np.pi / n_phi)
+    return dirs, weights
+
+
+def _available_cores() -> int:
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # pragma: no cover - non-Linux
+        return max(1, os.cpu_count() or 1)
+
+
+# ============================================================ orchestrator
+class ApertureRadiator(Radiator):
+    """A radiator whose fields are those of a planar aperture distribution.
+
+    Parameters
+    ----------
+    frequency_hz : float
+        Frequency [Hz].
+    power_w : float
+        Power radiated into the half-space in front (z > 0) [W].
+    distribution : ApertureDistribution
+        Aperture field (any amplitude; it is rescaled to ``power_w``).
+    placement : Placement, optional
+        Position and orientation; local +z is the boresight, +y the E-field.
+    method : {"adaptive", "direct"}
+        Default quadrature of :meth:`fields` (see the module docstring).
+    tolerance : float
+        Relative quadrature tolerance of the adaptive rule.
+    threads : int, optional
+        Worker threads (default: the cores available, at most 8).
+
+    Notes
+    -----
+    See the module docstring for the model, its accuracy and its limits.
+    """
+
+    kind = "aperture"
+    #: Memory one field point costs outside the kernel blocks (outputs, indices) [bytes].
+    bytes_per_point = 1024
+
+    def __init__(
+        self,
+        frequency_hz: float,
+        power_w: float,
+        distribution: ApertureDistribution,
+        placement: Placement | None = None,
+        *,
+        method: str = "adaptive",
+        tolerance: float = DEFAULT_TOLERANCE,
+        threads: int | None = None,
+    ) -> None:
+        super().__init__(frequency_hz, power_w, placement)
+        if method not in METHODS:
+            raise ModelInputError("method", f"method must be one of {METHODS}, got {method!r}")
+        if not (np.isfinite(tolerance) and 1e-10 <= tolerance <= 1e-2):
+            raise ModelInputError(
+                "tolerance", f"tolerance must lie in 1e-10..1e-2, got {tolerance!r}"
+            )
+        self.distribution = distribution
+        self.method = method
+        self.tolerance = float(tolerance)
+        self.threads = int(threads) if threads else min(_available_cores(), 8)
+        self._rule_cache: dict[tuple[int, int], tuple] = {}
+        self._rule_nodes = 0
+        self._rule_lock = threading.Lock()
+        self._far_rule_cache: tuple | None = None
+        lx, ly = distribution.half_sizes_m
+        k = self.wavenumber_rad_m
+        # far-field rule: fine enough for the whole visible region (omega = L (k + b))
+        self._far_orders = tuple(
+            int(_round_to_ladder(gauss_legendre_order(half, 0.0, np.inf, half * (k + bw), 1e-10)))
+            for half, bw in ((lx, distribution.bandwidth_x_rad_m),
+                             (ly, distribution.bandwidth_y_rad_m))
+        )  # fmt: skip
+        self._scale = 1.0
+        unit_front, unit_back = self._radiated_power_unit()
+        if unit_front <= 0:
+            raise ModelInputError("aperture", "the aperture distribution radiates no power")
+        #: Power radiated into z < 0 relative to the front half-space (extra, not budgeted).
+        self.back_fraction = float(unit_back / unit_front)
+        self._unit_front_power = float(unit_front)
+        self._scale = float(np.sqrt(self.power_w / unit_front))
+
+    # ----------------------------------------------------------- geometry
+    @property
+    def largest_dimension_m(self) -> float:
+        """Diagonal of the aperture rectangle [m]."""
+        return self.distribution.diagonal_m
+
+    @property
+    def min_standoff_m(self) -> float:
+        """Closest distance to the aperture rectangle at which fields are evaluated [m]."""
+        return self.wavelength_m / 20.0
+
+    @property
+    def far_zone_distance_m(self) -> float:
+        """Distance beyond which the adaptive method uses the far-field pattern [m]."""
+        d = self.largest_dimension_m
+        return max(10.0 * 2.0 * d * d / self.wavelength_m, 20.0 * self.wavelength_m)
+
+    # ------------------------------------------------------------ rules
+    def _far_rule(self) -> tuple:
+        """Nodes and weighted current grids of the far-field rule."""
+        if self._far_rule_cache is None:
+            x, y, weights, j_s, m_s = self._sample_currents(*self._far_orders)
+            self._far_rule_cache = (x, y, j_s * weights[..., None], m_s * weights[..., None])
+        return self._far_rule_cache
+
+    def _sample_currents(self, nx: int, ny: int) -> tuple:
+        lx, ly = self.distribution.half_sizes_m
+        gx, wx = gauss_legendre(nx)
+        gy, wy = gauss_legendre(ny)
+        x = gx * lx
+        y = gy * ly
+        weights = np.outer(wx * lx, wy * ly)
+        e_t, h_t = self.distribution.field_function(x[:, None], y[None, :])
+        j_s, m_s = equivalent_currents(e_t, h_t, self.distribution.equivalence)
+        return x, y, weights, j_s, m_s
+
+    def _rule(self, nx: int, ny: int) -> tuple:
+        """Flattened nodes and low-rank source basis of the (nx, ny) near-field rule."""
+        key = (int(nx), int(ny))
+        with self._rule_lock:
+            cached = self._rule_cache.pop(key, None)
+            if cached is not None:
+                self._rule_cache[key] = cached  # most recently used goes last
+                return cached
+        x, y, weights, j_s, m_s = self._sample_currents(*key)
+        cols = (np.concatenate([j_s, m_s], axis=-1) * weights[..., None]).reshape(-1, 4)
+        # cols = basis @ mixing with the smallest rank (1 for a linearly polarised
+        # aperture): eigenvectors of the 4 x 4 Gram matrix
+        gram = cols.conj().T @ cols
+        values, vectors = np.linalg.eigh(gram)
+        keep = values > max(values[-1], 1e-300) * 1e-18
+        vectors = vectors[:, keep]
+        basis = cols @ vectors
+        mixing = vectors.conj().T
+        rule = (np.repeat(x, key[1]), np.tile(y, key[0]), basis, mixing)
+        with self._rule_lock:
+            self._rule_cache[key] = rule
+            self._rule_nodes += key[0] * key[1]
+            while self._rule_nodes > RULE_CACHE_NODES and len(self._rule_cache) > 1:
+                old_key = next(iter(self._rule_cache))
+                del self._rule_cache[old_key]
+                self._rule_nodes -= old_key[0] * old_key[1]
+        return rule
+
+    def direct_orders(self) -> tuple[int, int]:
+        """(nx, ny) of the fixed fine rule of ``method="direct"``."""
+        lx, ly = self.distribution.half_sizes_m
+        k = self.wavenumber_rad_m
+        d = self.wavelength_m / 10.0
+        nx = gauss_legendre_order(
+            lx, 0.0, d, lx * (k + self.distribution.bandwidth_x_rad_m), DIRECT_TOLERANCE
+        )
+        ny = gauss_legendre_order(
+            ly, 0.0, d, ly * (k + self.distribution.bandwidth_y_rad_m), DIRECT_TOLERANCE
+        )
+        return int(_round_to_ladder(nx)), int(_round_to_ladder(ny))
+
+    def adaptive_orders(self, points_local_m: NDArray[np.float64]) -> NDArray[np.int64]:
+        """Per-point (nx, ny) of the adaptive rule, shape (N, 2)."""
+        lx, ly = self.distribution.half_sizes_m
+        k = self.wavenumber_rad_m
+        x, y, z = points_local_m[:, 0], points_local_m[:, 1], points_local_m[:, 2]
+        over_x = np.maximum(np.abs(x) - lx, 0.0)
+        over_y = np.maximum(np.abs(y) - ly, 0.0)
+        dist_x = np.hypot(over_y, z)  # distance from the lines y' = const ... for the x-rule
+        dist_y = np.hypot(over_x, z)
+        far_x = np.abs(x) + lx
+        far_y = np.abs(y) + ly
+        slope_x = far_x / np.hypot(far_x, dist_x)
+        slope_y = far_y / np.hypot(far_y, dist_y)
+        omega_x = lx * (k * slope_x + self.distribution.bandwidth_x_rad_m)
+        omega_y = ly * (k * slope_y + self.distribution.bandwidth_y_rad_m)
+        nx = gauss_legendre_order_lookup(
+            bernstein_pole_parameter(lx, x, dist_x), omega_x, self.tolerance
+        )
+        ny = gauss_legendre_order_lookup(
+            bernstein_pole_parameter(ly, y, dist_y), omega_y, self.tolerance
+        )
+        return np.stack([_round_to_ladder(nx), _round_to_ladder(ny)], axis=1)
+
+    # --------------------------------------------------------- far field
+    def _unit_far_field(self, directions: NDArray[np.float64]) -> NDArray[np.complex128]:
+        """F [V] of the unscaled distribution for local unit directions."""
+        x, y, j_grid, m_grid = self._far_rule()
+        f = radiation_integral_far_field(directions, x, y, j_grid, m_grid, self.wavenumber_rad_m)
+        if self.distribution.equivalence == GROUND_PLANE:
+            f[directions[:, 2] < 0] = 0.0
+        return f
+
+    def _radiated_power_unit(self) -> tuple[float, float]:
+        """Power radiated into the front and back half-spaces by the unscaled distribution [W]."""
+        k = self.wavenumber_rad_m
+        order = int(np.clip(np.ceil(0.5 * k * self.largest_dimension_m) + 24, 24, 400))
+        dirs, weights = hemisphere_rule(order)
+        front = np.sum(np.abs(self._unit_far_field(dirs)) ** 2, axis=1) @ weights / ETA0_OHM
+        if self.distribution.equivalence == GROUND_PLANE:
+            return float(front), 0.0
+        back_dirs = dirs * np.array([1.0, 1.0, -1.0])
+        back = np.sum(np.abs(self._unit_far_field(back_dirs)) ** 2, axis=1) @ weights / ETA0_OHM
+        return float(front), float(back)
+
+    def _local_far_field(self, directions_local: NDArray[np.float64]) -> NDArray[np.complex128]:
+        return self._scale * self._unit_far_field(directions_local)
+
+    def gain(self, directions: ArrayLike) -> NDArray[np.float64]:
+        """Gain towards scenario directions (N, 3), independent of ``power_w`` (linear).
+
+        Notes
+        -----
+        G = 4 pi |F|^2 / (eta0 P_front): the power in the front half-space is
+        the reference, so a Huygens aperture's back radiation does not lower it.
+        """
+        d = as_points(directions)
+        d = d / np.linalg.norm(d, axis=1, keepdims=True)
+        local = self.placement.directions_to_local(d)
+        f = self._unit_far_field(local)
+        return 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / (ETA0_OHM * self._unit_front_power)
+
+    def boresight_gain(self) -> float:
+        """Gain along the local +z axis (linear)."""
+        f = self._unit_far_field(np.array([[0.0, 0.0, 1.0]]))
+        return float(4 * np.pi * np.sum(np.abs(f) ** 2) / (ETA0_OHM * self._unit_front_power))
+
+    def max_gain(self, samples: int = 20000) -> float:
+        """Largest gain (linear): the boresight value unless the beam is split.
+
+        Notes
+        -----
+        The boresight gain, checked against fine scans of both principal
+        planes and a quasi-uniform set of front directions; an aperture with
+        a large phase error (an over-long horn flare) can have its peak off
+        the axis, and then that peak is returned.
+        """
+        theta = np.linspace(0.0, np.pi / 2, 721)
+        s, c = np.sin(theta), np.cos(theta)
+        zeros = np.zeros_like(theta)
+        planes = np.concatenate(
+            [np.stack([s, zeros, c], axis=1), np.stack([zeros, s, c], axis=1)], axis=0
+        )
+        sphere = fibonacci_sphere(2 * samples)
+        front = sphere[sphere[:, 2] > 0]
+        dirs = np.concatenate([planes, front], axis=0)
+        f = self._unit_far_field(dirs)
+        g = 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / (ETA0_OHM * self._unit_front_power)
+        return float(max(self.boresight_gain(), float(np.max(g))))
+
+    # --------------------------------------------------------- near field
+    def fields(
+        self,
+        points_m: ArrayLike,
+        chunk_bytes: int = DEFAULT_CHUNK_BYTES,
+        *,
+        method: str | None = None,
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        """Complex RMS E [V/m] and H [A/m] at scenario points.
+
+        Parameters
+        ----------
+        points_m : array_like, shape (N, 3)
+            Field points in scenario coordinates [m].
+        chunk_bytes : int
+            Memory budget for one chunk of points [bytes] (at most 1 GiB).
+        method : {"adaptive", "direct"}, optional
+            Quadrature; default the radiator's :attr:`method`.
+
+        Returns
+        -------
+        e_v_m, h_a_m : ndarray, shape (N, 3), complex
+        """
+        method = self.method if method is None else method
+        if method not in METHODS:
+            raise ModelInputError("method", f"method must be one of {METHODS}, got {method!r}")
+        chunk_bytes = int(min(max(chunk_bytes, self.bytes_per_point), MAX_BUDGET_BYTES))
+        pts = as_points(points_m)
+        n = pts.shape[0]
+        e = np.empty((n, 3), dtype=complex)
+        h = np.empty((n, 3), dtype=complex)
+        step = max(1, chunk_bytes // self.bytes_per_point)
+        for start in range(0, n, step):
+            stop = min(n, start + step)
+            local = self.placement.to_local(pts[start:stop])
+            el, hl = self._evaluate_local(local, method)
+            e[start:stop] = self.placement.vectors_to_global(el)
+            h[start:stop] = self.placement.vectors_to_global(hl)
+        return e, h
+
+    def _local_fields(
+        self, points_local_m: NDArray[np.float64]
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        return self._evaluate_local(points_local_m, self.method)
+
+    def apply_standoff(self, points_local_m: NDArray[np.float64]) -> NDArray[np.float64]:
+        """Move points closer than :attr:`min_standoff_m` to the aperture out to it, along z."""
+        lx, ly = self.distribution.half_sizes_m
+        p = np.array(points_local_m, dtype=float, copy=True)
+        lateral = np.hypot(
+            np.maximum(np.abs(p[:, 0]) - lx, 0.0), np.maximum(np.abs(p[:, 1]) - ly, 0.0)
+        )
+        h_min = self.min_standoff_m
+        close = np.hypot(lateral, p[:, 2]) < h_min
+        if np.any(close):
+            side = np.where(p[close, 2] < 0, -1.0, 1.0)
+            p[close, 2] = side * np.sqrt(np.maximum(h_min**2 - lateral[close] ** 2, 0.0))
+        return p
+
+    def _evaluate_local(
+        self, points_local_m: NDArray[np.float64], method: str
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        pts = self.apply_standoff(points_local_m)
+        n = pts.shape[0]
+        e = np.zeros((n, 3), dtype=complex)
+        h = np.zeros((n, 3), dtype=complex)
+        if n == 0 or self._scale == 0.0:
+            return e, h
+        active = np.ones(n, dtype=bool)
+        if self.distribution.equivalence == GROUND_PLANE:
+            active &= pts[:, 2] >= 0
+        r = np.linalg.norm(pts, axis=1)
+        if method == "adaptive":
+            far = active & (r >= self.far_zone_distance_m)
+            if np.any(far):
+                ef, hf = self._far_zone_fields(pts[far], r[far])
+                e[far], h[far] = ef, hf
+            active &= ~far
+        index = np.nonzero(active)[0]
+        if index.size == 0:
+            return e, h
+        if method == "direct":
+            orders = np.tile(np.array(self.direct_orders()), (index.size, 1))
+            dtype: type = np.float64
+        else:
+            orders = self.adaptive_orders(pts[index])
+            dtype = np.float32
+        tasks = []
+        codes = orders[:, 0] * (MAX_ORDER + 1) + orders[:, 1]
+        order = np.argsort(codes, kind="stable")
+        sorted_codes = codes[order]
+        bounds = np.flatnonzero(np.diff(sorted_codes)) + 1
+        for group in np.split(order, bounds):
+            nx, ny = (int(v) for v in orders[group[0]])
+            members = index[group]
+            rule = self._rule(nx, ny)
+            block = max(1, BLOCK_PAIRS // (nx * ny))
+            for start in range(0, members.size, block):
+                tasks.append((members[start : start + block], rule))
+        k = self.wavenumber_rad_m
+
+        def run(task: tuple) -> None:
+            members, rule = task
+            xx, yy, basis, mixing = rule
+            p = pts[members]
+            sums = dyadic_kernel_sums(p, xx, yy, basis, k, dtype) @ mixing
+            el, hl = fields_from_kernel_sums(sums, p[:, 2], k)
+            phase = (self._scale * np.exp(-1j * k * r[members]))[:, None]
+            e[members] = el * phase
+            h[members] = hl * phase
+
+        if self.threads > 1 and len(tasks) > 1:
+            with ThreadPoolExecutor(max_workers=self.threads) as pool:
+                list(pool.map(run, tasks))
+        else:
+            for task in tasks:
+                run(task)
+        return e, h
+
+    def _far_zone_fields(
+        self, points_local_m: NDArray[np.float64], r_m: NDArray[np.float64]
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        u = points_local_m / r_m[:, None]
+        f = self._local_far_field(u)
+        e = f * (np.exp(-1j * self.wavenumber_rad_m * r_m) / r_m)[:, None]
+        return e, np.cross(u, e) / ETA0_OHM
