@@ -18,7 +18,7 @@ Run longer with ``KEEPCLEAR_HYPOTHESIS_PROFILE=long`` (see tests/_hypothesis.py)
 from __future__ import annotations
 
 import datetime as dt
-import importlib.util
+import importlib
 import json
 import math
 import warnings
@@ -41,19 +41,22 @@ from ._hypothesis import examples
 FUNCTION_FIXTURE = [HealthCheck.function_scoped_fixture]
 
 
-def _available(module: str) -> bool:
+def _available(module: str, name: str) -> bool:
+    """Whether ``module`` defines ``name`` (a model still being written counts as absent)."""
     try:
-        return importlib.util.find_spec(module) is not None
+        return hasattr(importlib.import_module(module), name)
     except ImportError:
         return False
 
 
 KINDS = ["isotropic", "dipole", "monopole"]
-if _available("keepclear.antennas.aperture"):
+if _available("keepclear.antennas.aperture", "OpenWaveguide"):
     KINDS.append("open-waveguide")
-if _available("keepclear.antennas.horn"):
+if _available("keepclear.antennas.horn", "PyramidalHorn"):
     KINDS.append("horn")
-HAS_REFLECTION = _available("keepclear.fields.reflection")
+HAS_REFLECTION = _available("keepclear.fields.reflection", "reflector_from_table")
+HAS_SHIELD = _available("keepclear.fields.shield", "shield_from_table")
+HAS_ENCLOSURE = _available("keepclear.fields.enclosure", "enclosure_from_table")
 MATERIALS = ["concrete", "metal", "wet-ground", "glass", "wood", "plasterboard", "brick"]
 
 # ----------------------------------------------------------------- TOML writer
@@ -265,6 +268,42 @@ def valid_documents(draw) -> dict:
             doc["reflector"].append(
                 {"point_m": [east + 1.0, 0.0, 0.0], "normal": [-1.0, 0.0, 0.0], "material": "metal"}
             )
+    if HAS_SHIELD and draw(st.integers(0, 3)) == 0:
+        x, y, z = doc["source"][0]["position_m"]
+        sheet: dict = {
+            "center_m": [x + draw(st.floats(0.1, 1.0)), y, z],
+            "normal": [-1.0, 0.0, 0.0],
+            "width_m": draw(st.floats(0.1, 2.0)),
+            "height_m": draw(st.floats(0.1, 2.0)),
+        }
+        kind = draw(st.sampled_from(["rated", "sheet", "mesh"]))
+        if kind == "rated":
+            sheet["shielding_db"] = draw(st.floats(0.0, 60.0))
+        elif kind == "sheet":
+            sheet.update(type="sheet", metal=draw(st.sampled_from(["aluminium", "mild-steel"])))
+            sheet["thickness_m"] = draw(st.floats(1e-5, 0.003))
+        else:
+            sheet.update(type="mesh", pitch_m=0.001, wire_diameter_m=0.0002, metal="copper")
+        doc["shield"] = [sheet]
+    if HAS_ENCLOSURE and draw(st.integers(0, 4)) == 0:
+        face = draw(st.sampled_from(["+x", "-x", "+y", "-y", "+z", "-z"]))
+        doc["enclosure"] = {
+            "center_m": list(doc["source"][0]["position_m"]),
+            "size_m": [draw(st.floats(0.3, 1.5)) for _ in range(3)],
+            "metal": "mild-steel",
+            "thickness_m": 0.002,
+            "load_water_volume_m3": draw(st.floats(0.0, 0.01)),
+            "opening": [
+                {
+                    "face": face,
+                    "type": "slot",
+                    "length_m": draw(st.floats(0.005, 0.1)),
+                    "width_m": 0.001,
+                    "along": "x" if face[1] == "z" else "z",
+                    "offset_m": [0.0, 0.0],
+                }
+            ],
+        }
     return doc
 
 
