@@ -141,12 +141,15 @@ def named_points_data(
     probed = scenario.with_limits(ids)
     pts = np.array([p.position_m for p in scenario.points])
     data, _ = probe_data(probed, pts)
+    from .maps import point_letter
+
     out = []
-    for p, entry in zip(scenario.points, data["points"], strict=True):
+    for i, (p, entry) in enumerate(zip(scenario.points, data["points"], strict=True)):
         worst = max(entry["quotients"].items(), key=lambda kv: kv[1])
         out.append(
             {
                 "name": p.name,
+                "map_letter": point_letter(i),
                 **entry,
                 "worst_limit": worst[0],
                 "worst_quotient": worst[1],
@@ -345,7 +348,8 @@ def run_assessment(
     def callback(label: str) -> Any:
         return progress(label) if progress is not None else None
 
-    keepouts = keepout_distances(scenario, ids)
+    with maps.busy(progress, "keep-out search"):
+        keepouts = keepout_distances(scenario, ids)
     centre = scenario.centre_m
     height = float(centre[2]) if height_m is None else float(height_m)
     grid_args: dict[str, Any] = {
@@ -377,7 +381,14 @@ def run_assessment(
     if scenario.options:
         from .compare import compare_options
 
-        comparison = compare_options(scenario, ids, height_m=height, progress=callback, **grid_args)
+        comparison = compare_options(
+            scenario,
+            ids,
+            height_m=height,
+            progress=callback,
+            base_keepouts=keepouts,
+            **grid_args,
+        )
         fig = comparison.figure()
         files["compare.png"] = plots.figure_bytes(fig, "png")
         files["compare.svg"] = plots.figure_bytes(fig, "svg")

@@ -241,6 +241,7 @@ def compare_options(
     step_m: float | None = None,
     pixels: int | None = None,
     progress: ProgressFactory | None = None,
+    base_keepouts: Sequence[KeepoutResult] | None = None,
 ) -> Comparison:
     """Assess the base and every option on a common floor grid and rank them.
 
@@ -256,6 +257,8 @@ def compare_options(
         Grid settings (default: wide enough for the largest variant).
     progress : callable, optional
         ``progress(label)`` returns a ``(done, total)`` callback or None.
+    base_keepouts : sequence of KeepoutResult, optional
+        The base's keep-out answers for ``limit_ids`` when already computed.
 
     Returns
     -------
@@ -270,7 +273,16 @@ def compare_options(
     variants = [("base", "the scenario as given", scenario)] + [
         (o.name, o.description, o.scenario) for o in scenario.options
     ]
-    keepouts = [tuple(keepout_distances(s, ids)) for _, _, s in variants]
+    known = tuple(base_keepouts) if base_keepouts is not None else None
+    if known is not None and [k.limit_id for k in known] != list(ids):
+        known = None
+    keepouts = []
+    for i, (name, _, s) in enumerate(variants):
+        if i == 0 and known is not None:
+            keepouts.append(known)
+            continue
+        with maps.busy(progress, f"keep-out search: {name}"):
+            keepouts.append(tuple(keepout_distances(s, ids)))
     centre = scenario.centre_m
     plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if half_extent_m is None:

@@ -85,6 +85,19 @@ PLANE_NAMES = ("xy", "xz", "yz")
 ProgressCallback = Callable[[int, int], None]
 
 
+def busy(progress: Callable[[str], Any] | None, label: str) -> Any:
+    """A context for a stage without steps: the progress factory's indeterminate bar.
+
+    ``progress(label)`` may return a callback with a ``busy()`` context manager (the
+    command line's progress bars); otherwise nothing is shown.
+    """
+    import contextlib
+
+    callback = progress(label) if progress is not None else None
+    context = getattr(callback, "busy", None)
+    return context() if context is not None else contextlib.nullcontext()
+
+
 # ------------------------------------------------------------------ planes
 @dataclass(frozen=True)
 class Plane:
@@ -252,6 +265,11 @@ def boresight_plane(scenario: Scenario) -> Plane:
     return Plane("boresight", ref, u, v, (0.0, float(c[2])), ("along boresight", "z"), where)
 
 
+def point_letter(index: int) -> str:
+    """The map letter of the i-th named place: A, B, ... Z, then P27, P28, ..."""
+    return chr(ord("A") + index) if index < 26 else f"P{index + 1}"
+
+
 # ------------------------------------------------------------------- grids
 @dataclass(frozen=True)
 class Grid:
@@ -342,18 +360,31 @@ def default_half_extent_m(
     return round_extent_m(max(base, reach))
 
 
-def default_centre_st_m(
-    scenario: Scenario, plane: Plane, half_extent_m: float
-) -> tuple[float, float]:
-    """The map centre: the plane's, raised on a vertical plane over a floor reflector [m].
+def default_window_m(
+    scenario: Scenario,
+    plane: Plane,
+    half_extent_m: float,
+    keepouts: Sequence[KeepoutResult] = (),
+) -> tuple[tuple[float, float], float]:
+    """The map centre and half-height: square, or cut down on a vertical plane over a floor.
 
     On a plane whose second axis is the vertical, a horizontal reflector below the
-    centre (a floor) would leave the lower part of a square map underground; the
-    window is moved up so the floor sits a tenth of the map above its lower edge.
+    centre (a floor) would leave much of a square map underground or in empty air
+    high above a horizontal beam.  The window then runs from a little below the floor
+    (a tenth of the height) to 1.25 times the largest keep-out radius above the
+    centre (at least 2 m, and above every named place), never beyond the square.
+
+    Returns
+    -------
+    centre_st_m : tuple of float
+        Map centre in plane coordinates [m].
+    half_height_m : float
+        Half the map's extent along the plane's second axis [m].
     """
     cs, ct = plane.centre_st_m
-    if abs(float(plane.v[2])) < 0.99 or float(plane.v[2]) < 0:
-        return cs, ct
+    square = ((cs, ct), half_extent_m)
+    if float(plane.v[2]) < 0.99:
+        return square
     base_t = float(plane.ref_m @ plane.v)
     floors = [
         float(r.point_m[2]) - base_t
@@ -361,9 +392,16 @@ def default_centre_st_m(
         if float(np.asarray(r.normal)[2]) > 0.99 and float(r.point_m[2]) - base_t < ct
     ]
     if not floors:
-        return cs, ct
-    bottom = max(ct - half_extent_m, max(floors) - 0.2 * half_extent_m)
-    return cs, bottom + half_extent_m
+        return square
+    floor = max(floors)
+    reach = max((k.recommended_distance_m for k in keepouts), default=0.0)
+    top = ct + max(MIN_HALF_EXTENT_M, 1.25 * reach)
+    if scenario.points:
+        top = max(top, max(float(p.position_m[2]) - base_t for p in scenario.points) + 0.5)
+    top = min(top, ct + half_extent_m)
+    bottom = max(ct - half_extent_m, floor - 0.1 * (top - floor))
+    half_height = min(half_extent_m, (top - bottom) / 2)
+    return (cs, bottom + half_height), half_height
 
 
 def make_grid(
@@ -373,22 +411,25 @@ def make_grid(
     step_m: float | None = None,
     pixels: int | None = None,
     centre_st_m: tuple[float, float] | None = None,
+    half_height_m: float | None = None,
     n_limits: int = 1,
     max_bytes: int = MAX_GRID_BYTES,
 ) -> Grid:
-    """A square grid centred on the plane's centre, checked against the memory bound.
+    """A regular grid centred on the plane's centre, checked against the memory bound.
 
     Parameters
     ----------
     plane : Plane
     half_extent_m : float
-        Half the side of the map [m].
+        Half the width of the map, along the first axis [m].
     step_m : float, optional
         Sample spacing [m]; the half-width is rounded up to a whole number of steps.
     pixels : int, optional
         Samples along a side (used when no step is given; default 241).
     centre_st_m : tuple, optional
         Map centre in plane coordinates (default: the plane's) [m].
+    half_height_m : float, optional
+        Half the height along the second axis (default: square) [m]; the same step.
     n_limits : int
         Limits whose quotients the map will hold (for the memory estimate).
     max_bytes : int
@@ -422,6 +463,8 @@ def make_grid(
             raise InputError(f"must be at least 3, got {n}", "argument", "--pixels")
         option = "--pixels" if pixels is not None else "--extent-m"
         step_m = 2 * half_extent_m / (n - 1)
+    half_t = half_extent_m if half_height_m is None else min(half_height_m, half_extent_m)
+    ny = min(n, 2 * math.ceil(half_t / step_m - 1e-9) + 1) if n > 1 else n
     if n > MAX_PIXELS_PER_SIDE:
         raise ResourceError(
             f"a map of more than {MAX_PIXELS_PER_SIDE} samples a side is refused "
@@ -429,17 +472,20 @@ def make_grid(
             "argument",
             option,
         )
-    need = grid_bytes(n * n, n_limits)
+    need = grid_bytes(n * ny, n_limits)
     if need > max_bytes:
         raise ResourceError(
-            f"a {n} x {n} map needs about {need / 2**20:.0f} MiB, more than the "
+            f"a {n} x {ny} map needs about {need / 2**20:.0f} MiB, more than the "
             f"{max_bytes / 2**20:.0f} MiB allowed; use a coarser {option} or a smaller --extent-m",
             "argument",
             option,
         )
     cs, ct = plane.centre_st_m if centre_st_m is None else centre_st_m
-    offsets = (np.arange(n) - (n - 1) / 2) * step_m
-    return Grid(plane, np.asarray(cs + offsets, dtype=float), np.asarray(ct + offsets, dtype=float))
+    s_offsets = (np.arange(n) - (n - 1) / 2) * step_m
+    t_offsets = (np.arange(ny) - (ny - 1) / 2) * step_m
+    return Grid(
+        plane, np.asarray(cs + s_offsets, dtype=float), np.asarray(ct + t_offsets, dtype=float)
+    )
 
 
 # -------------------------------------------------------------- evaluation
@@ -786,7 +832,7 @@ def keepout_cylinders(
     hits_by_limit: dict[str, NDArray[np.float64]] = {}
     if reach > 0:
         wavelength = scenario.wavelength_m
-        n_r = int(np.clip(math.ceil(1.25 * reach / (wavelength / 8)), 60, 375))
+        n_r = int(np.clip(math.ceil(1.25 * reach / (wavelength / 8)), 60, 250))
         dr = 1.25 * reach / n_r
         radii = (np.arange(n_r) + 1) * dr
         dirs = _scan_directions(scenario, keepouts)
@@ -1359,7 +1405,8 @@ def run_map(
     pixels : int, optional
         Samples a side (default 241 when no step is given).
     centre_st_m : tuple, optional
-        Map centre in plane coordinates (default :func:`default_centre_st_m`) [m].
+        Map centre in plane coordinates (default :func:`default_window_m`, which also
+        cuts a vertical map over a floor down to the height that matters) [m].
     progress : callable, optional
         ``progress(done, total)``.
     max_bytes : int
@@ -1373,14 +1420,16 @@ def run_map(
     limit_ids = [k.limit_id for k in keepouts]
     if half_extent_m is None:
         half_extent_m = default_half_extent_m(scenario, keepouts, plane)
+    half_height_m = None
     if centre_st_m is None:
-        centre_st_m = default_centre_st_m(scenario, plane, half_extent_m)
+        centre_st_m, half_height_m = default_window_m(scenario, plane, half_extent_m, keepouts)
     grid = make_grid(
         plane,
         half_extent_m,
         step_m=step_m,
         pixels=pixels,
         centre_st_m=centre_st_m,
+        half_height_m=half_height_m,
         n_limits=len(limit_ids),
         max_bytes=max_bytes,
     )

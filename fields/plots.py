@@ -470,6 +470,41 @@ def _draw_boresight(ax: Any, plane: maps.Plane, source: Any, start: NDArray, wid
     )
 
 
+@dataclass(frozen=True)
+class _ShownPoint:
+    letter: str
+    name: str
+    s: float
+    t: float
+    on_plane: bool
+    where: str
+
+
+def _shown_points(
+    plane: maps.Plane,
+    scenario: Scenario,
+    extent: tuple[float, float, float, float],
+    step: float,
+) -> list[_ShownPoint]:
+    """The named places a map shows, lettered A, B, ... by their order in the scenario."""
+    if not scenario.points:
+        return []
+    s0, s1, t0, t1 = extent
+    st, offset = plane.to_plane(np.array([p.position_m for p in scenario.points]))
+    out = []
+    for i, (p, (s, t), d) in enumerate(zip(scenario.points, st, offset, strict=True)):
+        if not (s0 <= s <= s1 and t0 <= t <= t1):
+            continue
+        # On a horizontal plane every place is shown at its foot point (where to stand);
+        # on other planes only places near the plane, so none appears where it is not.
+        if plane.kind != "xy" and abs(d) > max(OFF_PLANE_SHOWN_M, 3 * step):
+            continue
+        on = bool(abs(d) <= step)
+        where = "" if on else _off_plane(plane, p.position_m, float(d))
+        out.append(_ShownPoint(maps.point_letter(i), p.name, float(s), float(t), on, where))
+    return out
+
+
 def _draw_points(
     ax: Any,
     plane: maps.Plane,
@@ -478,62 +513,30 @@ def _draw_points(
     step: float,
     labels: bool,
 ) -> None:
-    if not scenario.points:
-        return
-    s0, s1, t0, t1 = extent
-    st, offset = plane.to_plane(np.array([p.position_m for p in scenario.points]))
-    metres_per_inch = (s1 - s0) / max(ax.get_position().width * ax.figure.get_figwidth(), 1e-6)
-    line_m = 12.0 / 72 * metres_per_inch  # one label line (12 pt) in metres
-    placed: list[tuple[float, float, float]] = []  # (t, s_lo, s_hi) of labels written
-    order = np.argsort(st[:, 1])
-    for i in order:
-        p, (s, t), d = scenario.points[i], st[i], offset[i]
-        if not (s0 <= s <= s1 and t0 <= t <= t1):
-            continue
-        # On a horizontal plane every place is shown at its foot point (where to stand);
-        # on other planes only places near the plane, so none appears where it is not.
-        if plane.kind != "xy" and abs(d) > max(OFF_PLANE_SHOWN_M, 3 * step):
-            continue
-        on = abs(d) <= step
+    """Named places: a dot and a letter; the legend gives each letter's name."""
+    for p in _shown_points(plane, scenario, extent, step):
         ax.plot(
-            s,
-            t,
+            p.s,
+            p.t,
             marker="o",
             ms=7,
-            mfc="white" if on else "#dddddd",
+            mfc="white" if p.on_plane else "#dddddd",
             mec="black",
             mew=1.2,
             ls="none",
             zorder=8,
         )
-        if not labels:
-            continue
-        text = p.name if on else f"{p.name} ({_off_plane(plane, p.position_m, d)})"
-        # Text width at 8.5 pt, about 0.56 em a character.
-        width_m = len(text) * 8.5 * 0.56 / 72 * metres_per_inch
-        right = s + width_m + 0.1 * metres_per_inch > s1
-        lo, hi = (s - width_m, s) if right else (s, s + width_m)
-        lift = 0
-        while (
-            any(
-                abs(t + lift * line_m - pt) < line_m and lo < phi and plo < hi
-                for pt, plo, phi in placed
+        if labels:
+            ax.annotate(
+                p.letter,
+                (p.s, p.t),
+                xytext=(5, 5),
+                textcoords="offset points",
+                fontsize=9,
+                fontweight="bold",
+                bbox=_LABEL_BOX,
+                zorder=9,
             )
-            and lift < 6
-        ):
-            lift += 1
-        placed.append((t + lift * line_m, lo, hi))
-        ax.annotate(
-            text,
-            (s, t),
-            xytext=(-7 if right else 7, 6 + 12 * lift),
-            textcoords="offset points",
-            ha="right" if right else "left",
-            fontsize=8.5,
-            bbox=_LABEL_BOX,
-            zorder=9,
-            arrowprops=None if lift == 0 else {"arrowstyle": "-", "lw": 0.6, "color": "#333333"},
-        )
 
 
 def _off_plane(plane: maps.Plane, position_m: NDArray, offset_m: float) -> str:
@@ -583,17 +586,19 @@ def _legend_handles(
             label="source (arrow: boresight; outline to scale)" if apertures else "source",
         )
     )
-    if scenario.points:
+    shown = _shown_points(result.grid.plane, scenario, result.grid.extent_m, result.grid.step_m)
+    for p in shown:
+        label = f"{p.letter}  {p.name}" + (f" ({p.where})" if p.where else "")
         handles.append(
             Line2D(
                 [],
                 [],
                 marker="o",
                 ms=7,
-                mfc="white",
+                mfc="white" if p.on_plane else "#dddddd",
                 mec="black",
                 ls="none",
-                label="named point (grey: off this plane)",
+                label=textwrap.shorten(label, 95),
             )
         )
     plane = result.grid.plane
@@ -613,7 +618,12 @@ def _legend_handles(
 def _colour_bar(fig: Figure, image: Any, cax: Any, style: MapStyle, limit_id: str | None) -> None:
     if style.quantity == "quotient":
         bar = fig.colorbar(image, cax=cax, extend="both")
-        bar.set_label(f"exposure quotient against {limit_id} [dB]  (0 dB = the limit)")
+        tall_in = cax.get_position().height * fig.get_figheight()
+        bar.set_label(
+            f"exposure quotient against {limit_id} [dB]  (0 dB = the limit)"
+            if tall_in > 4.2
+            else "quotient [dB], 0 dB = limit"
+        )
         ticks = [
             t
             for t in (-30, -20, -10, -6, -3, 0, 3, 6, 10, 20)
@@ -622,7 +632,10 @@ def _colour_bar(fig: Figure, image: Any, cax: Any, style: MapStyle, limit_id: st
         bar.set_ticks(ticks)
         return
     bar = fig.colorbar(image, cax=cax, extend="both")
-    bar.set_label("time-averaged power density [W/m²]  (right scale)")
+    tall_in = cax.get_position().height * fig.get_figheight()
+    bar.set_label(
+        "time-averaged power density [W/m²]  (right scale)" if tall_in > 4.2 else "power density"
+    )
     # Decade labels as plain text (mathtext costs more to lay out than the map to draw).
     bar.ax.yaxis.set_major_formatter(
         FuncFormatter(lambda x, _pos: power_of_ten(round(math.log10(x))) if x > 0 else "")
@@ -682,19 +695,24 @@ def map_figure(
     """
     style = style or MapStyle()
     handles = _legend_handles(result, keepouts, scenario)
+    heading = _title_lines(scenario, result, style)
     # Layout in inches: title block, square map with colour bar, legend, caution.
-    width, left, side, top = 8.4, 0.85, 5.6, 1.15
+    width, left, side = 8.4, 0.85, 5.6
+    s0, s1, t0, t1 = result.grid.extent_m
+    # A map wider than tall (a vertical plane over a floor) keeps its width.
+    tall = side * min(1.0, max((t1 - t0) / max(s1 - s0, 1e-9), 0.3))
+    top = 0.3 + 0.27 * len(heading[1]) + 0.19 * len(heading[2]) + 0.2
     legend_h = 0.2 * len(handles) + 0.2
-    height = top + side + 0.6 + legend_h + 0.55
+    height = top + tall + 0.6 + legend_h + 0.55
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
         fig = Figure(figsize=(width, height))
-        bottom = (height - top - side) / height
-        ax = fig.add_axes((left / width, bottom, side / width, side / height))
-        cax = fig.add_axes(((left + side + 0.95) / width, bottom, 0.22 / width, side / height))
+        bottom = (height - top - tall) / height
+        ax = fig.add_axes((left / width, bottom, side / width, tall / height))
+        cax = fig.add_axes(((left + side + 0.95) / width, bottom, 0.22 / width, tall / height))
         norm = _norm(style, [result])
         image = draw_map(ax, result, scenario, keepouts, style, norm, zones=zones)
         _colour_bar(fig, image, cax, style, style.quotient_limit or result.limit_ids[0])
-        _title(fig, scenario, result, style, height)
+        _title(fig, heading, height)
         fig.legend(
             handles=handles,
             loc="upper left",
@@ -707,39 +725,31 @@ def map_figure(
     return fig
 
 
-def _title(
-    fig: Figure, scenario: Scenario, result: maps.MapResult, style: MapStyle, height: float
-) -> None:
-    plane = result.grid.plane
+def _title_lines(
+    scenario: Scenario, result: maps.MapResult, style: MapStyle
+) -> tuple[str, list[str], list[str]]:
+    """Title, the what-and-where lines and the assumption lines of a map."""
     grid = result.grid
-    x = 0.5 / fig.get_figwidth()
-    fig.text(
-        x,
-        1 - 0.22 / height,
+    what = f"{quantity_title(style, result)} on the {grid.plane.description}"
+    assumptions = (
+        f"{assumptions_text(scenario)}; grid step {grid.step_m * 100:.1f}\u00a0cm; "
+        f"{scenario.frequency_hz / 1e9:g}\u00a0GHz"
+    )
+    return (
         textwrap.shorten(scenario.name, 90),
-        fontsize=12.5,
-        fontweight="bold",
-        va="top",
+        textwrap.wrap(what, 92),
+        textwrap.wrap(assumptions, 115),
     )
-    fig.text(
-        x,
-        1 - 0.52 / height,
-        f"{quantity_title(style, result)} on the {plane.description}",
-        fontsize=10.5,
-        va="top",
-    )
-    fig.text(
-        x,
-        1 - 0.76 / height,
-        textwrap.fill(
-            f"{assumptions_text(scenario)}; grid step {grid.step_m * 100:.1f}\u00a0cm; "
-            f"{scenario.frequency_hz / 1e9:g}\u00a0GHz",
-            115,
-        ),
-        fontsize=8.5,
-        va="top",
-        color="#333333",
-    )
+
+
+def _title(fig: Figure, heading: tuple[str, list[str], list[str]], height: float) -> None:
+    title, what, assumptions = heading
+    x = 0.5 / fig.get_figwidth()
+    fig.text(x, 1 - 0.22 / height, title, fontsize=12.5, fontweight="bold", va="top")
+    y = 0.52
+    fig.text(x, 1 - y / height, "\n".join(what), fontsize=10.5, va="top", linespacing=1.3)
+    y += 0.27 * len(what) - 0.03
+    fig.text(x, 1 - y / height, "\n".join(assumptions), fontsize=8.5, va="top", color="#333333")
 
 
 def _footer(fig: Figure, width: float) -> None:

@@ -273,12 +273,13 @@ def _points(data: dict[str, Any]) -> str:
     if not points:
         return "<p>The scenario names no places (<code>[[point]]</code>).</p>"
     limit_ids = [v["id"] for v in data["limits"]]
-    header = ["place", "position (x, y, z)", "S time-avg W/m²", "S while on W/m²"]
+    header = ["", "place", "position (x, y, z)", "S time-avg W/m²", "S while on W/m²"]
     header += [f"% of {_e(i)}" for i in limit_ids]
     rows = []
     for p in points:
         x, y, z = p["position_m"]
         cells = [
+            f"<strong>{_e(p.get('map_letter', ''))}</strong>",
             _e(p["name"]),
             f"({x:g}, {y:g}, {z:g})&nbsp;m",
             _num(p["power_density_w_m2"]),
@@ -289,7 +290,9 @@ def _points(data: dict[str, Any]) -> str:
             text = f"{100 * q:.3g}&nbsp;%"
             cells.append(f'<span class="exceed">{text}</span>' if q >= 1 else text)
         rows.append(cells)
-    return _table(header, rows, numeric=set(range(2, len(header))))
+    return _table(header, rows, numeric=set(range(3, len(header)))) + (
+        "<p>The letters are the places’ marks on the maps.</p>"
+    )
 
 
 def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
@@ -561,11 +564,12 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
     lines += _text_table(header, rows)
     lines += ["  Note: " + note for note in _reach_notes(data)]
     if data["points"]:
-        lines += ["", "Named places (largest % of a limit):"]
+        lines += ["", "Named places (letter on the maps; largest % of a limit):"]
         for p in data["points"]:
             verdict = "REACHES A LIMIT" if p["exceeds"] else "below every limit"
             lines.append(
-                f"  {p['name']}: {100 * p['worst_quotient']:.3g} % of {p['worst_limit']}  {verdict}"
+                f"  {p.get('map_letter', '-')}  {p['name']}: {100 * p['worst_quotient']:.3g} % "
+                f"of {p['worst_limit']}  {verdict}"
             )
     comp = data.get("comparison")
     if comp:

@@ -259,9 +259,16 @@ material = "concrete"
 """
         )
     )
+    keepouts = keepout_distances(scenario)
     plane = maps.principal_plane("xz", scenario.centre_m)
-    cs, ct = maps.default_centre_st_m(scenario, plane, 4.0)
-    assert ct - 4.0 == pytest.approx(-0.8)  # the floor sits a tenth of the map above the edge
+    (cs, ct), half_height = maps.default_window_m(scenario, plane, 4.0, keepouts)
+    bottom, top = ct - half_height, ct + half_height
+    # From a tenth of the height below the floor to 2 m (> 1.25 keep-out) above the source.
+    assert top == pytest.approx(1.0 + 2.0)
+    assert bottom == pytest.approx(-0.1 * 3.0)
+    run = maps.run_map(scenario, plane, keepouts, half_extent_m=4.0, pixels=81)
+    assert run.result.grid.shape[1] == 81 and run.result.grid.shape[0] < 81
+    assert run.result.grid.t_m[0] == pytest.approx(-0.3, abs=run.result.grid.step_m)
 
 
 def test_a_singular_sample_counts_as_exceeding(iso, monkeypatch):
