@@ -29,7 +29,7 @@ also the more accurate one (finite-range gain formulas that avoid the path
 length approximation agree with measurements to about 0.15 dB: IEEE Trans.
 Electromagn. Compat. 39(4), Nov. 1997).  The fields are radiated by the
 equivalent J and M of :mod:`keepclear.antennas.aperture` (both currents), the
-amplitude scaled so the power in front equals ``power_w``.
+amplitude scaled so the radiated power equals ``power_w``.
 
 References
 ----------
@@ -290,8 +290,8 @@ class PyramidalHorn(ApertureRadiator):
     frequency_hz : float
         Frequency [Hz].
     power_w : float
-        Power delivered to the horn while it radiates, all radiated into the
-        half-space in front [W].
+        Power delivered to the horn while it radiates; all of it is radiated
+        (about 1 % of it behind the aperture plane for a 16 dBi horn) [W].
     broad_m, narrow_m : float
         Feed guide inner dimensions a (along x) and b (along y, the E-field) [m].
     aperture_width_m : float

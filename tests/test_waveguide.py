@@ -188,15 +188,18 @@ def test_open_waveguide_gain_variants_and_the_chosen_model():
     # Large-aperture formula (Balanis 4th ed. Table 12.1, TE10: D = (8/pi^2) 4 pi a b /
     # lambda^2): 2.54 = 4.0 dBi for WR-340 (notes, DERIVED).
     assert g["large-aperture"] == pytest.approx(4.04, abs=0.01)
-    # The implemented model is the variant with the highest boresight gain (conservative).
-    assert g["huygens-front"] == max(g.values())
+    # The implemented model is the power-conserving variant with the highest boresight gain.
+    physical = {k: v for k, v in g.items() if k != "huygens-front-only"}
+    assert g["huygens"] == max(physical.values())
+    assert g["huygens-front-only"] > g["huygens"]  # normalising the front alone adds 0.6 dB
     guide = OpenWaveguide.from_name(F, 800.0, "WR-340")
-    assert 10 * np.log10(guide.max_gain()) == pytest.approx(g["huygens-front"], abs=1e-9)
-    # About 6-7 dBi is usually quoted for a real open WR-340 guide (from memory); the model
-    # is inside that range and above the Yaghjian-type estimate.
-    assert 6.0 <= g["huygens-front"] <= 7.0
-    assert g["huygens-front"] > g["yaghjian-1"]
-    assert guide.gain_uncertainty_db >= 0.5
+    assert 10 * np.log10(guide.max_gain()) == pytest.approx(g["huygens"], abs=1e-9)
+    # About 6-7 dBi is usually quoted for a real open WR-340 guide (from memory): the model
+    # is inside that range, above the Yaghjian-type estimate, and with its stated margin it
+    # reaches the top of the range.
+    assert 6.0 <= g["huygens"] <= 7.0
+    assert g["huygens"] > g["yaghjian-1"]
+    assert g["huygens"] + guide.gain_uncertainty_db >= 7.0
 
 
 def test_max_gain_is_exactly_boresight_and_bounds_the_pattern():
