@@ -17,7 +17,7 @@ from jsonschema import Draft202012Validator
 from ._cli import run, schema, strict_json, validate, validator
 from .conftest import ISOTROPIC
 
-SCHEMA_NAMES = ("limits", "probe", "keepout")
+SCHEMA_NAMES = ("limits", "probe", "keepout", "map", "compare", "assessment")
 SCHEMA_DIR = resources.files("keepclear.fields") / "schemas"
 
 # The example objects printed in the stable contract, "JSON shapes" (copied verbatim).
@@ -85,7 +85,7 @@ def test_schema_is_valid_draft_2020_12(filename):
     assert data["title"].startswith("keepclear ")
 
 
-@pytest.mark.parametrize("name", SCHEMA_NAMES)
+@pytest.mark.parametrize("name", sorted(CONTRACT_EXAMPLES))
 def test_contract_examples_validate(name):
     validate(name, CONTRACT_EXAMPLES[name])
 
@@ -154,6 +154,85 @@ def test_unreached_limit_has_null_direction_and_validates(write_scenario):
 
 
 # The bundled scenarios are validated against these schemas in test_scenarios_all.py.
+
+# A small scenario with everything the larger outputs describe: a reflector, a shield, a named
+# point, an option; and one with an enclosure (its leakage 5 cm from the walls).
+WITH_OPTIONS = """
+    name = "schema check: options"
+    [[source]]
+    id = "feed"
+    antenna = "dipole"
+    power_w = 30.0
+    duty_cycle = 0.5
+    position_m = [0.0, 0.0, 1.0]
+    [[reflector]]
+    point_m = [0.0, 0.0, 0.0]
+    normal = [0.0, 0.0, 1.0]
+    material = "concrete"
+    [[shield]]
+    center_m = [0.6, 0.0, 1.0]
+    normal = [-1.0, 0.0, 0.0]
+    width_m = 0.5
+    height_m = 0.5
+    shielding_db = 20.0
+    [[point]]
+    name = "desk"
+    position_m = [1.0, 0.5, 1.2]
+    [exposure]
+    limits = ["icnirp-2020/general-public", "sc6-2015/uncontrolled"]
+    [[option]]
+    name = "half power"
+    [[option.source]]
+    id = "feed"
+    power_w = 15.0
+"""
+WITH_ENCLOSURE = """
+    name = "schema check: enclosure"
+    [[source]]
+    antenna = "isotropic"
+    power_w = 500.0
+    position_m = [0.0, 0.0, 1.0]
+    [enclosure]
+    center_m = [0.0, 0.0, 1.0]
+    size_m = [0.5, 0.4, 0.3]
+    metal = "mild-steel"
+    thickness_m = 0.002
+    [[enclosure.opening]]
+    face = "+x"
+    type = "slot"
+    length_m = 0.03
+    width_m = 0.001
+    along = "z"
+    offset_m = [0.0, 0.0]
+"""
+TINY_MAP = ["--pixels", "11"]
+
+
+@pytest.mark.parametrize("text", [WITH_OPTIONS, WITH_ENCLOSURE], ids=["options", "enclosure"])
+def test_assessment_json_validates(write_scenario, tmp_path, text):
+    path = write_scenario(text)
+    out = tmp_path / "out"
+    result = run("assess", path, "--out", out, *TINY_MAP, "--json")
+    assert result.exit_code == 0, result.stderr
+    data = strict_json(result.stdout)
+    validate("assessment", data)
+    on_disk = strict_json((out / "assessment.json").read_text(encoding="utf-8"))
+    validate("assessment", on_disk)
+    if data["comparison"] is not None:
+        validate("compare", data["comparison"])
+    assert sorted(p.name for p in out.iterdir()) == sorted(data["files"])
+
+
+def test_compare_and_map_json_validate(write_scenario, tmp_path):
+    path = write_scenario(WITH_OPTIONS)
+    compare = run("compare", path, *TINY_MAP, "--json")
+    assert compare.exit_code == 0, compare.stderr
+    data = strict_json(compare.stdout)
+    validate("compare", data)
+    assert [o["rank"] for o in data["options"]] == [1, 2]
+    result = run("map", path, *TINY_MAP, "--out", tmp_path / "maps", "--json")
+    assert result.exit_code == 0, result.stderr
+    validate("map", strict_json(result.stdout))
 
 
 # ------------------------------------------------------- the schemas do reject
