@@ -516,3 +516,83 @@ def test_isotropic_polarization_is_its_e_direction(write_scenario, polarization)
     e, _ = radiator.fields(2.0 * ray[None, :])
     direction = np.abs(e[0]) / np.linalg.norm(np.abs(e[0]))
     np.testing.assert_allclose(direction, np.abs(pol), atol=1e-12)
+
+
+# ------------------------------------------------------------------ map and assess
+def _no_evaluation(monkeypatch):
+    """Make any field evaluation fail loudly: a refusal must come before the work."""
+    from keepclear.fields import field, maps
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("fields were evaluated before the grid size was checked")
+
+    monkeypatch.setattr(field, "evaluate", refuse)
+    if hasattr(maps, "evaluate"):
+        monkeypatch.setattr(maps, "evaluate", refuse)
+
+
+@pytest.mark.parametrize(
+    "args",
+    [["--pixels", "4001"], ["--pixels", "100000"], ["--step-m", "1e-9", "--extent-m", "100"]],
+    ids=["4001 a side", "over the side bound", "tiny step"],
+)
+@pytest.mark.parametrize("command", ["map", "assess"])
+def test_a_grid_too_large_is_refused_with_estimate_and_bound(
+    write_scenario, tmp_path, monkeypatch, command, args
+):
+    path = write_scenario(ISOTROPIC)
+    _no_evaluation(monkeypatch)
+    out = tmp_path / "out"
+    line = one_error_line(run(command, path, *args, "--out", out))
+    assert args[0] in line
+    assert "MiB" in line or "samples a side" in line  # the estimate ...
+    assert "allowed" in line or "refused" in line  # ... and the bound
+    assert not out.exists()
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="fields/cli.py / fields/maps.py: --extent-m, --height-m, --through and --origin are "
+    "not bounded like scenario vectors (1e6 m): at 1e300 m the map overflows, prints numpy "
+    "warnings and ends in exit 1 ('non-finite number inf in output')",
+)
+@pytest.mark.parametrize(
+    "args",
+    [["--extent-m", "1e300"], ["--height-m", "1e300"], ["--through", "1e300,0,0"]],
+    ids=["extent", "height", "through"],
+)
+def test_map_coordinates_beyond_the_bound_are_refused(write_scenario, tmp_path, args):
+    path = write_scenario(ISOTROPIC)
+    one_error_line(run("map", path, "--pixels", "5", *args, "--csv", tmp_path / "m.csv"))
+
+
+def test_assess_never_overwrites_its_scenario(tmp_path):
+    # An output folder that holds the scenario under an output's own name.
+    for name in ("scenario-input.toml", "report.html", "assessment.json"):
+        path = tmp_path / name
+        path.write_text(ISOTROPIC, encoding="utf-8")
+        line = one_error_line(run("assess", path, "--out", tmp_path, "--pixels", "5"))
+        assert "overwrite" in line and name in line
+        assert path.read_text(encoding="utf-8") == ISOTROPIC
+        path.unlink()
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_map_outputs_never_overwrite_the_scenario(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    for option in ("--png", "--svg", "--csv", "--npz", "--geojson"):
+        line = one_error_line(run("map", path, "--pixels", "5", option, path))
+        assert "overwrite" in line
+    assert path.read_text(encoding="utf-8").strip() == textwrap.dedent(ISOTROPIC).strip()
+
+
+@pytest.mark.parametrize("command", ["assess", "map"])
+def test_output_folder_under_a_regular_file(write_scenario, tmp_path, command):
+    path = write_scenario(ISOTROPIC)
+    blocker = tmp_path / "plain.txt"
+    blocker.write_text("not a folder\n")
+    before = sorted(p.name for p in tmp_path.iterdir())
+    line = one_error_line(run(command, path, "--pixels", "5", "--out", blocker / "out"))
+    assert "--out" in line or "plain.txt" in line
+    assert sorted(p.name for p in tmp_path.iterdir()) == before
+    assert blocker.read_text() == "not a folder\n"
