@@ -564,13 +564,15 @@ def dyadic_kernel_sums(
     """
     f = np.dtype(dtype).type
     k = f(wavenumber_rad_m)
-    xp = points_m[:, 0].astype(f)[:, None]
-    yp = points_m[:, 1].astype(f)[:, None]
-    zp = points_m[:, 2].astype(f)[:, None]
+    # Layout (Q, P): the points run along the fast axis, so that the broadcast
+    # operations have long inner loops even when a rule has few nodes.
+    xp = points_m[:, 0].astype(f)[None, :]
+    yp = points_m[:, 1].astype(f)[None, :]
+    zp = points_m[:, 2].astype(f)[None, :]
     rp = np.sqrt(xp * xp + yp * yp + zp * zp)
-    xq = nodes_x_m.astype(f)[None, :]
-    yq = nodes_y_m.astype(f)[None, :]
-    n_points, n_nodes = xp.shape[0], xq.shape[1]
+    xq = nodes_x_m.astype(f)[:, None]
+    yq = nodes_y_m.astype(f)[:, None]
+    n_points, n_nodes = xp.shape[1], xq.shape[0]
     rx = xp - xq
     ry = yp - yq
     r = rx * rx
@@ -579,8 +581,8 @@ def dyadic_kernel_sums(
     np.sqrt(r, out=r)
     inv_r = np.reciprocal(r)
     # phase relative to the centre distance
-    arg = xp * xq
-    arg += yp * yq
+    arg = xq * xp
+    arg += yq * yp
     arg *= f(-2)
     arg += xq * xq + yq * yq
     r += rp
@@ -596,7 +598,7 @@ def dyadic_kernel_sums(
     # The 18 real kernels are computed in the working precision and stored in
     # double precision, so that the sum over the nodes is accurate (and exactly
     # symmetric for mirror-image points) whatever the working precision.
-    kern = np.empty((18, n_points, n_nodes), dtype=np.float64)
+    kern = np.empty((18, n_nodes, n_points), dtype=np.float64)
     store = {"dtype": f, "casting": "unsafe"}
     # a = (1 - t^2) - j t
     a_re = f(1) - tt
@@ -631,15 +633,11 @@ def dyadic_kernel_sums(
             np.multiply(c_re, factor, out=kern[m], **store)
             np.multiply(c_im, factor, out=kern[9 + m], **store)
     n_src = sources.shape[1]
-    src = np.concatenate([sources.real, sources.imag], axis=1)
-    prod = np.matmul(kern, src)  # (18, P, 2S); batched, so no threaded BLAS on small blocks
-    re_re = prod[:9, :, :n_src]
-    re_im = prod[:9, :, n_src:]
-    im_re = prod[9:, :, :n_src]
-    im_im = prod[9:, :, n_src:]
+    src_t = np.ascontiguousarray(np.concatenate([sources.real, sources.imag], axis=1).T)
+    prod = np.matmul(src_t, kern)  # (18, 2S, P), one small product per kernel
     out = np.empty((9, n_points, n_src), dtype=complex)
-    out.real = re_re - im_im
-    out.imag = re_im + im_re
+    out.real = np.transpose(prod[:9, :n_src] - prod[9:, n_src:], (0, 2, 1))
+    out.imag = np.transpose(prod[:9, n_src:] + prod[9:, :n_src], (0, 2, 1))
     return out
 
 
@@ -882,11 +880,13 @@ class ApertureRadiator(Radiator):
         cols = (np.concatenate([j_s, m_s], axis=-1) * weights[..., None]).reshape(-1, 4)
         # cols = basis @ mixing with the smallest rank (1 for a linearly polarised
         # aperture): eigenvectors of the 4 x 4 Gram matrix
-        gram = cols.conj().T @ cols
+        # (small products written out: a complex BLAS call on a 4-wide matrix can
+        # cost more in thread start-up than in arithmetic)
+        gram = np.einsum("qi,qj->ij", cols.conj(), cols)
         values, vectors = np.linalg.eigh(gram)
         keep = values > max(values[-1], 1e-300) * 1e-18
         vectors = vectors[:, keep]
-        basis = cols @ vectors
+        basis = np.einsum("qi,ir->qr", cols, vectors)
         mixing = vectors.conj().T
         rule = (np.repeat(x, key[1]), np.tile(y, key[0]), basis, mixing)
         with self._rule_lock:
@@ -1036,9 +1036,19 @@ class ApertureRadiator(Radiator):
             stop = min(n, start + step)
             local = self.placement.to_local(pts[start:stop])
             el, hl = self._evaluate_local(local, method)
-            e[start:stop] = self.placement.vectors_to_global(el)
-            h[start:stop] = self.placement.vectors_to_global(hl)
+            e[start:stop] = self._to_global(el)
+            h[start:stop] = self._to_global(hl)
         return e, h
+
+    def _to_global(self, vectors: NDArray[np.complex128]) -> NDArray[np.complex128]:
+        """Rotate complex local vectors (N, 3) into scenario axes (real products)."""
+        rotation = self.placement.rotation
+        if np.array_equal(rotation, np.eye(3)):
+            return vectors
+        out = np.empty_like(vectors)
+        out.real = vectors.real @ rotation.T
+        out.imag = vectors.imag @ rotation.T
+        return out
 
     def _local_fields(
         self, points_local_m: NDArray[np.float64]
@@ -1105,7 +1115,7 @@ class ApertureRadiator(Radiator):
             members, rule = task
             xx, yy, basis, mixing = rule
             p = pts[members]
-            sums = dyadic_kernel_sums(p, xx, yy, basis, k, dtype) @ mixing
+            sums = np.einsum("mpr,rc->mpc", dyadic_kernel_sums(p, xx, yy, basis, k, dtype), mixing)
             el, hl = fields_from_kernel_sums(sums, p[:, 2], k)
             phase = (self._scale * np.exp(-1j * k * r[members]))[:, None]
             e[members] = el * phase
