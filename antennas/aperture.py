@@ -1,6 +1,7 @@
 """Radiation from a planar aperture by the equivalence principle, near field included.
 
-The engine behind the open-waveguide and horn models.  An aperture is a
+The engine behind the open-waveguide model (:class:`OpenWaveguide`, in this
+module) and the horn (:mod:`keepclear.antennas.horn`).  An aperture is a
 rectangle ``|x| <= width/2, |y| <= height/2`` in the plane z = 0 of the local
 frame, radiating towards +z, on which the tangential fields E_t and H_t are
 known (:class:`ApertureDistribution`).  They are replaced by equivalent surface
@@ -54,9 +55,13 @@ minimises the required n over the ellipse parameter between the two
 (:func:`gauss_legendre_order`).  Calibrated against brute-force integration
 it gives at least the requested accuracy with 1.6 times the minimal node
 count on average.  Points that need the same rule are grouped and evaluated
-together in cache-sized blocks, in single precision (the phase is taken
-relative to the aperture centre, so the float32 arguments stay small), on
-several threads.  ``method="direct"`` instead uses one fixed, fine rule (the
+together in cache-sized blocks of at most 32768 point-node pairs (about 8 MB
+of scratch per thread; larger rules are summed in slices of nodes), on
+several threads (numpy releases the GIL).  The kernels are computed in single
+precision (the phase is taken relative to the aperture centre, so the
+float32 arguments stay small) and summed in double precision.  Orders are
+capped at 1024 per coordinate, which an aperture of about 8 wavelengths
+reaches at the minimum standoff.  ``method="direct"`` instead uses one fixed, fine rule (the
 one a point lambda/10 above the aperture centre needs at 1e-7) in double
 precision for every point: the reference the adaptive result is tested and
 benchmarked against.
@@ -94,7 +99,10 @@ Validity
   the spill-over an aperture without a flange sends sideways and back); a
   "ground-plane" aperture returns zero.
 * Accuracy: within 0.1 dB of the converged integral from lambda/10 off the
-  aperture outward (tested).  Points closer than the minimum standoff
+  aperture outward (tested; typically 1e-3 dB).  Memory: the outer chunks of
+  :meth:`ApertureRadiator.fields` follow ``chunk_bytes`` (at most 1 GiB) with
+  :attr:`ApertureRadiator.bytes_per_point`; the rule cache holds at most
+  2^21 nodes.  Points closer than the minimum standoff
   :attr:`ApertureRadiator.min_standoff_m` = lambda/20 to the aperture
   rectangle are evaluated at that standoff, moved along z (front side for
   z = 0): finite values, of the order of the aperture field; a current sheet
@@ -750,6 +758,11 @@ def hemisphere_rule(order: int) -> tuple[NDArray[np.float64], NDArray[np.float64
     return dirs, weights
 
 
+def _slices(n: int, size: int) -> list[tuple[int, int]]:
+    """Consecutive (start, stop) ranges of at most ``size`` covering range(n)."""
+    return [(start, min(n, start + size)) for start in range(0, n, size)]
+
+
 def _available_cores() -> int:
     try:
         return max(1, len(os.sched_getaffinity(0)))
@@ -1115,7 +1128,12 @@ class ApertureRadiator(Radiator):
             members, rule = task
             xx, yy, basis, mixing = rule
             p = pts[members]
-            sums = np.einsum("mpr,rc->mpc", dyadic_kernel_sums(p, xx, yy, basis, k, dtype), mixing)
+            # a rule larger than a block is summed in slices of nodes (memory bound)
+            sums = sum(
+                dyadic_kernel_sums(p, xx[s:t], yy[s:t], basis[s:t], k, dtype)
+                for s, t in _slices(xx.size, BLOCK_PAIRS)
+            )
+            sums = np.einsum("mpr,rc->mpc", sums, mixing)
             el, hl = fields_from_kernel_sums(sums, p[:, 2], k)
             phase = (self._scale * np.exp(-1j * k * r[members]))[:, None]
             e[members] = el * phase
