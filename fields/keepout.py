@@ -12,6 +12,10 @@ values where the standard gives them.
 1. Rays leave the centre in a quasi-uniform set of directions (the golden-spiral
    lattice), plus the main axes of every radiator, both ways, and the directions
    to every other radiating term, so no lobe or far-off source falls between rays.
+   Along every reflector, rays also run in the plane itself, a millimetre on the
+   source side, from the foot of the centre: next to a floor the exceedance is a thin
+   layer (the reflection adds most at grazing incidence) that reaches farthest on the
+   floor, between any two rays from the centre.
 2. Along each ray the quotient is sampled outward on a grid that is fine near the
    source (a sixteenth of a wavelength) and grows geometrically (3 % a step)
    further out; in coherent-reflection mode the step stays at a sixteenth of a
@@ -20,11 +24,15 @@ values where the standard gives them.
    monotonically, so stopping at the first crossing would be wrong) and
    bisects the interval beyond it to 1e-4 relative.  The reported radius is the
    outer end of the final bracket, never the inner one.
-3. The rays whose crossing is farthest are refined with denser direction caps
-   around them, twice, so a narrow beam is not missed between lattice directions.
+3. Around the three farthest rays of every limit, three levels of denser rays follow
+   (direction caps for rays from the centre, finer azimuths for rays along a plane),
+   so a narrow beam is not missed between lattice directions.
 4. The outer end of the sampling is set from the far-field screening bound of
    every term (with the reflection envelope) and doubled until the quotient at
    the end of every ray is below one.
+5. Limits with equal values, the margin of the models' stated gain uncertainty and,
+   with an enclosure, the region outside it, are answered from the same field
+   evaluations (one row of quotients each).
 
 Every evaluation is vectorised: all rays of a pass are evaluated as one array of
 points.
@@ -151,12 +159,24 @@ def _radii(r_max: float, wavelength: float, coherent: bool) -> NDArray[np.float6
     return np.asarray(r)
 
 
-class _Search:
-    """Ray search shared by all limits of one scenario (fields computed once per pass)."""
+@dataclass(frozen=True)
+class _Row:
+    """One question the search answers: a limit, a margin on the quotient, a region."""
 
-    def __init__(self, scenario: Scenario, values: Sequence[limits_mod.LimitValue]) -> None:
+    limit: int
+    scale: float
+    outside_only: bool
+
+
+class _Search:
+    """Ray search shared by all rows (limits, margins, regions): one field evaluation per pass."""
+
+    def __init__(
+        self, scenario: Scenario, values: Sequence[limits_mod.LimitValue], rows: Sequence[_Row]
+    ) -> None:
         self.scenario = scenario
         self.values = list(values)
+        self.rows = list(rows)
         self.centre = scenario.centre_m
         self.terms = radiating_terms(scenario)
         self.coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
@@ -164,15 +184,12 @@ class _Search:
             (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in self.terms),
             default=0.0,
         )
-        thresholds = [_effective_threshold_w_m2(v) for v in self.values]
-        floor = min(thresholds) * 10 ** (-self.uncertainty_db / 10)
+        floor = min(_effective_threshold_w_m2(self.values[r.limit]) / r.scale for r in self.rows)
         self.r_max = self._initial_r_max(floor)
 
     def _initial_r_max(self, threshold_w_m2: float) -> float:
-        envelope = _reflection_envelope(self.scenario) if self.scenario.reflectors else 1.0
-        if len(self.scenario.reflectors) > 1:
-            n = len(self.scenario.reflectors)
-            envelope = (1.0 + n + n * (n - 1)) ** 2
+        n = len(self.scenario.reflectors)
+        envelope = (1.0 + n + n * (n - 1)) ** 2 if n > 1 else _reflection_envelope(self.scenario)
         r = 0.5
         for t in self.terms:
             rad = t.radiator
@@ -187,60 +204,83 @@ class _Search:
             r = max(r, offset + max(bound, 2 * rad.far_field_distance_m) + rad.largest_dimension_m)
         return 1.3 * r
 
-    #: When set, points inside the enclosure or its walls do not count.
-    outside_only: bool = False
-
     def quotients(self, points: NDArray[np.float64]) -> NDArray[np.float64]:
-        """Exposure quotient per limit, shape (L, N), for the time-averaged fields."""
+        """Exposure quotient times the row's margin, shape (rows, N), time-averaged fields."""
         res = evaluate(self.scenario, points)
-        q = np.empty((len(self.values), points.shape[0]))
-        for i, v in enumerate(self.values):
-            q[i] = limits_mod.quotient(v, res.power_density_w_m2, res.e_v_m, res.h_a_m)
+        per_limit = [
+            limits_mod.quotient(v, res.power_density_w_m2, res.e_v_m, res.h_a_m)
+            for v in self.values
+        ]
+        q = np.empty((len(self.rows), points.shape[0]))
         enclosure = self.scenario.enclosure
-        if self.outside_only and enclosure is not None:
-            q[:, enclosure.contains(points) | enclosure.in_wall(points)] = 0.0
+        boxed = None
+        for k, row in enumerate(self.rows):
+            q[k] = per_limit[row.limit] * row.scale
+            if row.outside_only and enclosure is not None:
+                if boxed is None:
+                    boxed = enclosure.contains(points) | enclosure.in_wall(points)
+                q[k, boxed] = 0.0
         return q
 
-    def crossings(self, directions: NDArray[np.float64], scale: NDArray[np.float64]) -> NDArray:
-        """Outermost radius along each ray where q * scale >= 1, shape (L, D); 0 if none."""
+    def rays(self, origins: NDArray[np.float64], directions: NDArray[np.float64]) -> NDArray:
+        """Outermost radius from each ray's origin where the quotient reaches one, (rows, D).
+
+        Zero where the ray never reaches the limit.  The grid is sampled outward, the
+        outermost sample at or above the limit kept, and the interval beyond it bisected;
+        the outer end of the final bracket is returned.
+        """
         wavelength = self.scenario.wavelength_m
+        reach = self.r_max + float(np.max(np.linalg.norm(origins - self.centre, axis=1)))
         for _ in range(8):
-            radii = _radii(self.r_max, wavelength, self.coherent)
-            pts = self.centre + directions[:, None, :] * radii[None, :, None]
+            radii = _radii(reach, wavelength, self.coherent)
+            pts = origins[:, None, :] + directions[:, None, :] * radii[None, :, None]
             q = self.quotients(pts.reshape(-1, 3)).reshape(
-                len(self.values), len(directions), len(radii)
+                len(self.rows), len(directions), len(radii)
             )
-            above = q * scale[:, None, None] >= 1.0
+            above = q >= 1.0
             if not above[:, :, -1].any():
                 break
+            reach *= 2.0
             self.r_max *= 2.0
-        else:  # pragma: no cover - the bound doubles 8 times: a model fault, not input
+        else:  # pragma: no cover - the bound doubled 8 times: a model fault, not input
             raise RuntimeError("keep-out search did not close: the field does not decay")
         any_above = above.any(axis=2)
         last = len(radii) - 1 - np.argmax(above[:, :, ::-1], axis=2)
         lo = np.where(any_above, radii[last], 0.0)
         hi = np.where(any_above, radii[np.minimum(last + 1, len(radii) - 1)], 0.0)
-        return self._bisect(directions, lo, hi, any_above, scale)
-
-    def _bisect(self, directions, lo, hi, active, scale):  # noqa: ANN001, ANN202
-        lo = lo.copy()
-        hi = hi.copy()
-        n_limits = len(self.values)
         while True:
-            todo = active & (hi - lo > RADIUS_TOLERANCE * np.maximum(hi, 1e-3))
+            todo = any_above & (hi - lo > RADIUS_TOLERANCE * np.maximum(hi, 1e-3))
             if not todo.any():
                 break
-            li, di = np.nonzero(todo)
-            mid = 0.5 * (lo[li, di] + hi[li, di])
-            pts = self.centre + directions[di] * mid[:, None]
-            q_all = self.quotients(pts)
-            q = q_all[li, np.arange(len(li))] * scale[li]
-            up = q >= 1.0
-            lo[li[up], di[up]] = mid[up]
-            hi[li[~up], di[~up]] = mid[~up]
-            if n_limits == 0:  # pragma: no cover
-                break
-        return np.where(active, hi, 0.0)
+            ri, di = np.nonzero(todo)
+            mid = 0.5 * (lo[ri, di] + hi[ri, di])
+            q_all = self.quotients(origins[di] + directions[di] * mid[:, None])
+            up = q_all[ri, np.arange(len(ri))] >= 1.0
+            lo[ri[up], di[up]] = mid[up]
+            hi[ri[~up], di[~up]] = mid[~up]
+        return np.where(any_above, hi, 0.0)
+
+
+class _Best:
+    """The farthest exceedance found so far for each row, and every ray's end point."""
+
+    def __init__(self, centre: NDArray[np.float64], n_rows: int) -> None:
+        self.centre = centre
+        self.distance = np.zeros(n_rows)
+        self.point = np.tile(centre, (n_rows, 1))
+        self.ends: list[list[NDArray[np.float64]]] = [[] for _ in range(n_rows)]
+
+    def add(self, origins: NDArray, directions: NDArray, radius: NDArray) -> NDArray:
+        """Record one batch of rays; return the distance of each ray's end from the centre."""
+        ends = origins[None, :, :] + directions[None, :, :] * radius[:, :, None]
+        dist = np.where(radius > 0, np.linalg.norm(ends - self.centre, axis=2), 0.0)
+        for k in range(dist.shape[0]):
+            j = int(np.argmax(dist[k]))
+            if dist[k, j] > self.distance[k]:
+                self.distance[k] = dist[k, j]
+                self.point[k] = ends[k, j]
+            self.ends[k].append(ends[k][radius[k] > 0])
+        return dist
 
 
 def _special_directions(search: _Search) -> NDArray[np.float64]:
@@ -256,21 +296,94 @@ def _special_directions(search: _Search) -> NDArray[np.float64]:
     return np.asarray(dirs)
 
 
-def _cap(direction: NDArray[np.float64], half_angle: float, n: int) -> NDArray[np.float64]:
-    """Quasi-uniform directions within ``half_angle`` of ``direction``."""
-    base = fibonacci_sphere(4 * n)
-    cos_max = np.cos(half_angle)
-    # Map the lattice's polar cap z >= cos_max by taking the points in it.
-    cap = base[base[:, 2] >= cos_max]
-    if cap.shape[0] == 0:
-        cap = np.array([[0.0, 0.0, 1.0]])
-    # Rotate +z onto ``direction``.
+def _basis(direction: NDArray[np.float64]) -> tuple[NDArray, NDArray, NDArray]:
     z = direction / np.linalg.norm(direction)
     trial = np.array([1.0, 0.0, 0.0]) if abs(z[0]) < 0.9 else np.array([0.0, 1.0, 0.0])
     x = np.cross(trial, z)
     x /= np.linalg.norm(x)
-    y = np.cross(z, x)
-    return cap @ np.vstack([x, y, z])
+    return x, np.cross(z, x), z
+
+
+def _cap(direction: NDArray[np.float64], half_angle: float, n: int) -> NDArray[np.float64]:
+    """``n`` quasi-uniform directions within ``half_angle`` of ``direction`` (a spiral cap)."""
+    i = np.arange(n) + 0.5
+    z = 1.0 - (1.0 - np.cos(half_angle)) * i / n
+    phi = np.pi * (1.0 + np.sqrt(5.0)) * i
+    rho = np.sqrt(np.clip(1.0 - z * z, 0.0, None))
+    cap = np.column_stack([rho * np.cos(phi), rho * np.sin(phi), z])
+    x, y, zz = _basis(direction)
+    return np.vstack([direction / np.linalg.norm(direction), cap @ np.vstack([x, y, zz])])
+
+
+def _plane_rays(search: _Search, reflector, azimuths: NDArray) -> tuple[NDArray, NDArray]:  # noqa: ANN001
+    """Rays along a reflector, just on the source side, from the foot of the centre."""
+    n = np.asarray(reflector.normal, dtype=float)
+    n = n / np.linalg.norm(n)
+    height = float(np.dot(search.centre - np.asarray(reflector.point_m, dtype=float), n))
+    origin = search.centre - (height - PLANE_STANDOFF_M) * n
+    u, v, _ = _basis(n)
+    directions = np.cos(azimuths)[:, None] * u + np.sin(azimuths)[:, None] * v
+    return np.tile(origin, (len(azimuths), 1)), directions
+
+
+#: Height above a reflector at which the in-plane rays run [m].
+PLANE_STANDOFF_M = 1e-3
+#: Rays of the first pass along each reflector.
+PLANE_AZIMUTHS = 120
+
+
+def _search_all(search: _Search, n_directions: int) -> _Best:
+    """Lattice rays from the centre and rays along every reflector, then multi-start caps.
+
+    The first pass shoots rays from the centre (golden-spiral lattice plus the radiators'
+    axes) and along each reflector plane (the exceedance next to a floor is thin and
+    reaches farthest on the floor itself, between the lattice rays).  Three levels of
+    refinement follow around the three farthest rays of every row.
+    """
+    best = _Best(search.centre, len(search.rows))
+    centre_dirs = np.vstack([fibonacci_sphere(n_directions), _special_directions(search)])
+    origins = [np.tile(search.centre, (len(centre_dirs), 1))]
+    directions = [centre_dirs]
+    kinds = [np.full(len(centre_dirs), -1)]
+    azimuths = np.linspace(0.0, 2 * np.pi, PLANE_AZIMUTHS, endpoint=False)
+    for j, reflector in enumerate(search.scenario.reflectors):
+        o, d = _plane_rays(search, reflector, azimuths)
+        origins.append(o)
+        directions.append(d)
+        kinds.append(np.full(len(d), j))
+    o, d, kind = np.vstack(origins), np.vstack(directions), np.concatenate(kinds)
+    dist = best.add(o, d, search.rays(o, d))
+
+    spacing = np.sqrt(4 * np.pi / n_directions)
+    az_step = 2 * np.pi / PLANE_AZIMUTHS
+    for level in range(3):
+        shrink = 3.0**-level
+        new_o, new_d, new_kind = [], [], []
+        starts: list[int] = []
+        for k in range(len(search.rows)):
+            for j in np.argsort(dist[k])[::-1][:3]:
+                if dist[k, j] > 0 and int(j) not in starts:
+                    starts.append(int(j))
+        for j in starts:
+            if kind[j] < 0:
+                cap = _cap(d[j], 1.5 * spacing * shrink, 24)
+                new_o.append(np.tile(search.centre, (len(cap), 1)))
+                new_d.append(cap)
+                new_kind.append(np.full(len(cap), -1))
+            else:
+                reflector = search.scenario.reflectors[int(kind[j])]
+                u, v, _ = _basis(np.asarray(reflector.normal, dtype=float))
+                a0 = float(np.arctan2(np.dot(d[j], v), np.dot(d[j], u)))
+                az = a0 + np.linspace(-1.5, 1.5, 13) * az_step * shrink
+                oo, dd = _plane_rays(search, reflector, az)
+                new_o.append(oo)
+                new_d.append(dd)
+                new_kind.append(np.full(len(dd), int(kind[j])))
+        if not new_o:
+            break
+        o, d, kind = np.vstack(new_o), np.vstack(new_d), np.concatenate(new_kind)
+        dist = best.add(o, d, search.rays(o, d))
+    return best
 
 
 def keepout_distances(
@@ -286,7 +399,7 @@ def keepout_distances(
     limit_ids : sequence of str, optional
         Defaults to the scenario's limits.
     n_directions : int
-        Rays of the first pass (refined afterwards around the farthest ones).
+        Rays of the first pass from the centre (refined afterwards around the farthest).
 
     Returns
     -------
@@ -295,76 +408,67 @@ def keepout_distances(
     """
     ids = list(limit_ids) if limit_ids is not None else list(scenario.limit_ids)
     values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
-    search = _Search(scenario, values)
-    ones = np.ones(len(values))
-    margin = 10 ** (search.uncertainty_db / 10)
-    model = _pass(search, ones, n_directions)
-    widened = _pass(search, ones * margin, n_directions) if search.uncertainty_db > 0 else model
-    outside = None
-    if scenario.enclosure is not None:
-        search.outside_only = True
-        outside = _pass(search, ones, n_directions)
-        search.outside_only = False
+    terms = radiating_terms(scenario)
+    uncertainty_db = max(
+        (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in terms), default=0.0
+    )
+    margin = 10 ** (uncertainty_db / 10)
+    # Limits with the same values give the same answer: search each once.
+    keys = [(v.power_density_w_m2, v.e_v_m, v.h_a_m) for v in values]
+    first = [keys.index(key) for key in keys]
+    unique = sorted(set(first))
+    scales = [1.0] + ([margin] if uncertainty_db > 0 else [])
+    regions = [False] + ([True] if scenario.enclosure is not None else [])
+    rows = [
+        _Row(i, sc, out) for out in regions for sc in scales for i in unique if sc == 1.0 or not out
+    ]
+    search = _Search(scenario, values, rows)
+    best = _search_all(search, n_directions)
+
+    def row_of(i: int, scale: float, outside: bool) -> int:
+        return rows.index(_Row(first[i], scale, outside))
 
     results = []
     for i, v in enumerate(values):
-        r, d = model[0][i], model[1][i]
-        r_u = widened[0][i]
+        k = row_of(i, 1.0, False)
+        r = float(best.distance[k])
+        direction = best.point[k] - search.centre
+        k_u = row_of(i, margin, False) if uncertainty_db > 0 else k
+        outside = None
+        if scenario.enclosure is not None:
+            outside = _outside(scenario, best, row_of(i, 1.0, True))
         results.append(
             KeepoutResult(
                 limit_id=v.id,
                 limit_w_m2=v.power_density_w_m2,
-                distance_m=float(r),
-                direction=d / np.linalg.norm(d) if r > 0 else None,
+                distance_m=r,
+                direction=direction / np.linalg.norm(direction) if r > 0 else None,
                 screening_distance_m=screening_distance_m(scenario, _effective_threshold_w_m2(v)),
-                distance_with_uncertainty_m=float(max(r_u, r)),
-                uncertainty_db=search.uncertainty_db,
+                distance_with_uncertainty_m=float(max(best.distance[k_u], r)),
+                uncertainty_db=uncertainty_db,
                 averaging_time_s=v.averaging_time_s,
-                outside_enclosure=None if outside is None else _outside(scenario, outside, i),
+                outside_enclosure=outside,
             )
         )
     return results
 
 
-def _pass(search: _Search, scale: NDArray[np.float64], n_directions: int):  # noqa: ANN202
-    """One full search: lattice rays, then two levels of caps about the farthest ray."""
-    directions = np.vstack([fibonacci_sphere(n_directions), _special_directions(search)])
-    radius = search.crossings(directions, scale)  # (L, D)
-    best_r = radius.max(axis=1)
-    best_d = directions[radius.argmax(axis=1)]
-    spacing = np.sqrt(4 * np.pi / n_directions)
-    for level in range(2):
-        half_angle = spacing * (1.5 if level == 0 else 0.5)
-        todo = [i for i in range(len(scale)) if best_r[i] > 0]
-        if not todo:
-            break
-        caps = [_cap(best_d[i], half_angle, 60) for i in todo]
-        cap_dirs = np.vstack(caps)
-        r_cap = search.crossings(cap_dirs, scale)
-        better = r_cap.max(axis=1) > best_r
-        best_d = np.where(better[:, None], cap_dirs[r_cap.argmax(axis=1)], best_d)
-        best_r = np.maximum(best_r, r_cap.max(axis=1))
-        directions = np.vstack([directions, cap_dirs])
-        radius = np.hstack([radius, r_cap])
-    return best_r, best_d, directions, radius
-
-
-def _outside(scenario: Scenario, found, i: int) -> dict[str, object]:  # noqa: ANN001
+def _outside(scenario: Scenario, best: _Best, k: int) -> dict[str, object]:
     """The keep-out outside the enclosure: radius about the centre and clearance from the box.
 
     The clearance is the largest distance from the enclosure's outer surface among the
     outermost exceedances of all rays of the search.
     """
-    r, d, directions, radius = found
-    if r[i] <= 0:
+    r = float(best.distance[k])
+    if r <= 0:
         return {"distance_m": 0.0, "direction": None, "clearance_from_enclosure_m": 0.0}
     corners = scenario.enclosure.outline()
     lo, hi = corners.min(axis=0), corners.max(axis=0)
-    hits = radius[i] > 0
-    pts = scenario.centre_m + directions[hits] * radius[i][hits][:, None]
+    pts = np.vstack(best.ends[k])
     gap = np.linalg.norm(np.maximum(np.maximum(lo - pts, pts - hi), 0.0), axis=1)
+    d = best.point[k] - best.centre
     return {
-        "distance_m": float(r[i]),
-        "direction": d[i] / np.linalg.norm(d[i]),
+        "distance_m": r,
+        "direction": d / np.linalg.norm(d),
         "clearance_from_enclosure_m": float(gap.max()) if gap.size else 0.0,
     }
