@@ -25,6 +25,8 @@ from .cautions import caution_block
 from .errors import InputError
 
 PANEL_OUTPUT = "Output"
+#: Largest coordinate accepted on the command line, as in scenario files and point files [m].
+COORDINATE_BOUND_M = 1e6
 PANEL_POINTS = "Points"
 
 
@@ -37,7 +39,7 @@ class _Group(TyperGroup):
             with warnings.catch_warnings():
                 warnings.simplefilter("always", ModelRangeWarning)
                 warnings.showwarning = _show_warning
-                return super().main(args, prog_name or "keepclear", standalone_mode=False, **extra)
+                rv = super().main(args, prog_name or "keepclear", standalone_mode=False, **extra)
         except InputError as exc:
             _fail(str(exc))
         except typer.Exit as exc:
@@ -61,6 +63,12 @@ class _Group(TyperGroup):
                 err=True,
             )
             sys.exit(1)
+        # Without standalone mode the click layer *returns* the code of an Exit it caught
+        # (130 for an interrupt): never let that pass as success.
+        if isinstance(rv, int) and not isinstance(rv, bool) and rv != 0:
+            if rv == 130:
+                typer.echo("keepclear: interrupted", err=True)
+            sys.exit(rv)
         sys.exit(0)
 
 
@@ -181,6 +189,12 @@ def _parse_at(values: list[str]) -> np.ndarray:
         if len(xyz) != 3 or not all(np.isfinite(xyz)):
             raise InputError(
                 f"expects three finite numbers X,Y,Z in metres, got '{text}'", "argument", "--at"
+            )
+        if max(abs(c) for c in xyz) > COORDINATE_BOUND_M:
+            raise InputError(
+                f"coordinates must lie within +-{COORDINATE_BOUND_M:g} m, got '{text}'",
+                "argument",
+                "--at",
             )
         points.append(xyz)
     return np.asarray(points, dtype=float).reshape(-1, 3)
@@ -439,6 +453,12 @@ def _parse_vector(text: str | None, option: str) -> np.ndarray | None:
             "argument",
             option,
         )
+    if max(abs(c) for c in xyz) > COORDINATE_BOUND_M:
+        raise InputError(
+            f"coordinates must lie within +-{COORDINATE_BOUND_M:g} m, got '{text}'",
+            "argument",
+            option,
+        )
     return np.asarray(xyz, dtype=float)
 
 
@@ -462,9 +482,11 @@ def _check_limits(loaded: Any, limit: list[str] | None) -> tuple[str, ...]:
 
 def _check_grid_numbers(extent_m: float | None, step_m: float | None, pixels: int | None) -> None:
     for value, option in ((extent_m, "--extent-m"), (step_m, "--step-m")):
-        if value is not None and not (np.isfinite(value) and value > 0):
+        if value is not None and not (np.isfinite(value) and 0 < value <= COORDINATE_BOUND_M):
             raise InputError(
-                f"must be a positive number of metres, got {value}", "argument", option
+                f"must be a positive number of metres up to {COORDINATE_BOUND_M:g}, got {value}",
+                "argument",
+                option,
             )
     if pixels is not None and pixels < 3:
         raise InputError(f"must be at least 3, got {pixels}", "argument", "--pixels")
@@ -690,8 +712,10 @@ def map_command(
         raise InputError(
             "applies to the horizontal plane only (--plane xy)", "argument", "--height-m"
         )
-    if height_m is not None and not np.isfinite(height_m):
-        raise InputError("must be a finite height in metres", "argument", "--height-m")
+    if height_m is not None and not (np.isfinite(height_m) and abs(height_m) <= COORDINATE_BOUND_M):
+        raise InputError(
+            f"must be a finite height within +-{COORDINATE_BOUND_M:g} m", "argument", "--height-m"
+        )
     through_m = _parse_vector(through, "--through")
     _check_grid_numbers(extent_m, step_m, pixels)
     for path in [p for p in singles.values() if p is not None]:
@@ -822,8 +846,10 @@ def compare_command(
     from .outputs import atomic_write_bytes, json_text
     from .plots import figure_bytes
 
-    if height_m is not None and not np.isfinite(height_m):
-        raise InputError("must be a finite height in metres", "argument", "--height-m")
+    if height_m is not None and not (np.isfinite(height_m) and abs(height_m) <= COORDINATE_BOUND_M):
+        raise InputError(
+            f"must be a finite height within +-{COORDINATE_BOUND_M:g} m", "argument", "--height-m"
+        )
     _check_grid_numbers(extent_m, step_m, pixels)
     loaded = _load(scenario)
     ids = _check_limits(loaded, limit)
@@ -910,8 +936,10 @@ def assess_command(
     from .outputs import atomic_write_bytes, json_text, refuse_overwriting
     from .report import summary_text
 
-    if height_m is not None and not np.isfinite(height_m):
-        raise InputError("must be a finite height in metres", "argument", "--height-m")
+    if height_m is not None and not (np.isfinite(height_m) and abs(height_m) <= COORDINATE_BOUND_M):
+        raise InputError(
+            f"must be a finite height within +-{COORDINATE_BOUND_M:g} m", "argument", "--height-m"
+        )
     _check_grid_numbers(extent_m, step_m, pixels)
     loaded = _load(scenario)
     ids = _check_limits(loaded, limit)

@@ -181,12 +181,6 @@ def test_extreme_but_allowed_coordinates(write_scenario):
     assert points[1]["power_density_w_m2"] > 0
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="fields/cli.py _parse_at: --at accepts any finite float; at 1e200 m the squared "
-    "distance overflows and the run ends in exit 1 (RuntimeWarning: overflow) instead of a "
-    "refusal; scenario vectors and point files are bounded to 1e6 m",
-)
 @pytest.mark.parametrize("at", ["1e308,0,0", "1e200,0,0"])
 def test_probe_at_beyond_the_coordinate_bound_is_refused(write_scenario, at):
     path = write_scenario(DIPOLE)
@@ -443,12 +437,6 @@ def test_interrupt_mid_write_leaves_nothing(write_scenario, tmp_path, monkeypatc
     assert not out.exists() and _leftovers(tmp_path) == []
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="fields/cli.py _Group.main: typer's non-standalone main turns KeyboardInterrupt into "
-    "Exit(130) and *returns* 130; _Group.main returns it and the process exits 0 with no "
-    "message, so an interrupted run looks like a success",
-)
 def test_interrupt_is_not_reported_as_success(write_scenario, tmp_path, monkeypatch):
     def interrupted(fd):
         raise KeyboardInterrupt
@@ -550,12 +538,6 @@ def test_a_grid_too_large_is_refused_with_estimate_and_bound(
     assert not out.exists()
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="fields/cli.py / fields/maps.py: --extent-m, --height-m, --through and --origin are "
-    "not bounded like scenario vectors (1e6 m): at 1e300 m the map overflows, prints numpy "
-    "warnings and ends in exit 1 ('non-finite number inf in output')",
-)
 @pytest.mark.parametrize(
     "args",
     [["--extent-m", "1e300"], ["--height-m", "1e300"], ["--through", "1e300,0,0"]],
