@@ -931,7 +931,7 @@ class ApertureRadiator(Radiator):
         x, y, z = points_local_m[:, 0], points_local_m[:, 1], points_local_m[:, 2]
         over_x = np.maximum(np.abs(x) - lx, 0.0)
         over_y = np.maximum(np.abs(y) - ly, 0.0)
-        dist_x = np.hypot(over_y, z)  # distance from the lines y' = const ... for the x-rule
+        dist_x = np.hypot(over_y, z)  # pole offset of the x-integral: distance off the strip
         dist_y = np.hypot(over_x, z)
         far_x = np.abs(x) + lx
         far_y = np.abs(y) + ly
