@@ -131,7 +131,7 @@ from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from functools import cached_property, lru_cache
-from typing import Final
+from typing import Final, cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -374,7 +374,7 @@ def equivalent_currents(
     h_t = np.asarray(h_t, dtype=complex)
     m_s = np.stack([e_t[..., 1], -e_t[..., 0]], axis=-1)
     if equivalence == GROUND_PLANE:
-        return np.zeros_like(m_s), 2.0 * m_s
+        return np.zeros_like(m_s), np.asarray(2.0 * m_s, dtype=complex)
     j_s = np.stack([-h_t[..., 1], h_t[..., 0]], axis=-1)
     return j_s, m_s
 
@@ -607,11 +607,10 @@ def dyadic_kernel_sums(
     # double precision, so that the sum over the nodes is accurate (and exactly
     # symmetric for mirror-image points) whatever the working precision.
     kern = np.empty((18, n_nodes, n_points), dtype=np.float64)
-    store = {"dtype": f, "casting": "unsafe"}
     # a = (1 - t^2) - j t
     a_re = f(1) - tt
-    np.add(g_re * a_re, g_im * t, out=kern[0], **store)
-    np.subtract(g_im * a_re, g_re * t, out=kern[9], **store)
+    np.add(g_re * a_re, g_im * t, out=kern[0], dtype=f, casting="unsafe")
+    np.subtract(g_im * a_re, g_re * t, out=kern[9], dtype=f, casting="unsafe")
     # b / R^2 with b = (3 t^2 - 1) + 3 j t
     inv_r2 = inv_r * inv_r
     b_re = f(3) * tt
@@ -624,8 +623,8 @@ def dyadic_kernel_sums(
     gb_im += g_re * b_im
     gb_im *= inv_r2
     for m, factor in enumerate((rx * rx, rx * ry, ry * ry, rx, ry), start=1):
-        np.multiply(gb_re, factor, out=kern[m], **store)
-        np.multiply(gb_im, factor, out=kern[9 + m], **store)
+        np.multiply(gb_re, factor, out=kern[m], dtype=f, casting="unsafe")
+        np.multiply(gb_im, factor, out=kern[9 + m], dtype=f, casting="unsafe")
     # c / R with c = 1 - j t
     c_re = g_im * t
     c_re += g_re
@@ -633,13 +632,11 @@ def dyadic_kernel_sums(
     c_im = g_re * t
     np.subtract(g_im, c_im, out=c_im)
     c_im *= inv_r
-    for m, factor in enumerate((None, rx, ry), start=6):
-        if factor is None:
-            kern[m] = c_re
-            kern[9 + m] = c_im
-        else:
-            np.multiply(c_re, factor, out=kern[m], **store)
-            np.multiply(c_im, factor, out=kern[9 + m], **store)
+    kern[6] = c_re
+    kern[15] = c_im
+    for m, factor in ((7, rx), (8, ry)):
+        np.multiply(c_re, factor, out=kern[m], dtype=f, casting="unsafe")
+        np.multiply(c_im, factor, out=kern[9 + m], dtype=f, casting="unsafe")
     n_src = sources.shape[1]
     src_t = np.ascontiguousarray(np.concatenate([sources.real, sources.imag], axis=1).T)
     prod = np.matmul(src_t, kern)  # (18, 2S, P), one small product per kernel
@@ -1153,7 +1150,8 @@ class ApertureRadiator(Radiator):
         u = points_local_m / r_m[:, None]
         f = self._local_far_field(u)
         e = f * (np.exp(-1j * self.wavenumber_rad_m * r_m) / r_m)[:, None]
-        return e, np.cross(u, e) / ETA0_OHM
+        h = cast(NDArray[np.complex128], np.cross(u, e) / ETA0_OHM)
+        return e, h
 
 
 # ------------------------------------------------------------ open waveguide
