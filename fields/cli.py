@@ -35,12 +35,14 @@ class _Group(TyperGroup):
 
     def main(self, args: Any = None, prog_name: str | None = None, **extra: Any) -> Any:  # noqa: D102
         extra.pop("standalone_mode", None)
+        _PENDING_WARNINGS.clear()
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("always", ModelRangeWarning)
                 warnings.showwarning = _show_warning
                 rv = super().main(args, prog_name or "keepclear", standalone_mode=False, **extra)
         except InputError as exc:
+            # Bad input: the one line that says what is wrong, and nothing else.
             _fail(str(exc))
         except typer.Exit as exc:
             sys.exit(exc.exit_code)
@@ -57,12 +59,14 @@ class _Group(TyperGroup):
         except Exception as exc:  # noqa: BLE001 - the last line of defence
             if os.environ.get("KEEPCLEAR_DEBUG"):
                 raise
+            _flush_warnings()
             typer.echo(
                 f"keepclear: unexpected fault ({type(exc).__name__}: {exc}); this is a bug, "
                 "please report it with the scenario (set KEEPCLEAR_DEBUG=1 for the traceback)",
                 err=True,
             )
             sys.exit(1)
+        _flush_warnings()
         # Without standalone mode the click layer *returns* the code of an Exit it caught
         # (130 for an interrupt): never let that pass as success.
         if isinstance(rv, int) and not isinstance(rv, bool) and rv != 0:
@@ -84,8 +88,20 @@ def _fail(line: str) -> None:
     sys.exit(2)
 
 
+#: Warnings of the current run, printed on stderr once it has not failed on bad input.
+_PENDING_WARNINGS: list[str] = []
+
+
 def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:  # noqa: ANN001
-    typer.echo(f"keepclear: warning: {message}", err=True)
+    text = f"keepclear: warning: {message}"
+    if text not in _PENDING_WARNINGS:
+        _PENDING_WARNINGS.append(text)
+
+
+def _flush_warnings() -> None:
+    for text in _PENDING_WARNINGS:
+        typer.echo(text, err=True)
+    _PENDING_WARNINGS.clear()
 
 
 def _version(value: bool) -> None:
