@@ -231,13 +231,17 @@ def valid_documents(draw) -> dict:
     doc: dict = {}
     if draw(st.booleans()):
         doc["name"] = draw(st.text(max_size=30))
-    frequency = draw(st.sampled_from([2.45e9, 2.45e9, 9.15e8, 5.8e9]) | st.floats(1e8, 1e11))
+    kinds = draw(st.lists(st.sampled_from(KINDS), min_size=1, max_size=2))
+    # Aperture models cost seconds to build far above their feed's band (a WR-340 horn: 15 s
+    # at 71 GHz, 39 s at 100 GHz, where the TE10-only model warns anyway): keep them below
+    # 6 GHz; the wires and the point source take the whole accepted range.
+    top = 6e9 if {"open-waveguide", "horn"} & set(kinds) else 1e11
+    frequency = draw(st.sampled_from([2.45e9, 2.45e9, 9.15e8, 5.8e9]) | st.floats(1e8, top))
     if frequency != 2.45e9 or draw(st.booleans()):
         doc["frequency_hz"] = frequency
     if draw(st.booleans()):
         doc["reflections"] = draw(st.sampled_from(["envelope", "coherent"]))
     wavelength = C_M_S / frequency
-    kinds = draw(st.lists(st.sampled_from(KINDS), min_size=1, max_size=2))
     doc["source"] = [draw(sources(k, wavelength)) for k in kinds]
     for i, s in enumerate(doc["source"]):
         if draw(st.booleans()):
