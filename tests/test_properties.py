@@ -64,10 +64,14 @@ HAS_SHIELD = _available("keepclear.fields.shield", "shield_from_table")
 KINDS = ["isotropic", "dipole", "monopole"]
 KINDS += ["open-waveguide"] if HAS_APERTURE else []
 KINDS += ["horn"] if HAS_HORN else []
-#: Kinds for the keep-out properties: an aperture keep-out search costs seconds (the near
-#: field is an aperture integral at every sample), so CI draws the wires and the point
-#: source and the long profile draws every kind.
+#: Kinds and power for the keep-out properties: an aperture keep-out search costs seconds
+#: (its near field is an aperture integral at every sample) and a coherent-reflection search
+#: steps a sixteenth of a wavelength out to the keep-out radius, so CI draws the wires and
+#: the point source up to 100 W over envelope reflections; the long profile draws every kind up
+#: to 1 kW, coherent reflections too.
 KEEPOUT_KINDS = tuple(KINDS) if PROFILE == "long" else ("isotropic", "dipole", "monopole")
+KEEPOUT_POWER_W = 1000.0 if PROFILE == "long" else 100.0
+KEEPOUT_MODES = ("envelope", "coherent") if PROFILE == "long" else ("envelope",)
 
 F_HZ = 2.45e9
 WAVELENGTH_M = C_M_S / F_HZ
@@ -93,10 +97,10 @@ def _across(v: np.ndarray, angle: float) -> np.ndarray:
 
 
 @st.composite
-def source_tables(draw, kind: str, box_m: float = 1.0) -> dict:
+def source_tables(draw, kind: str, box_m: float = 1.0, max_power_w: float = 1000.0) -> dict:
     s: dict = {
         "antenna": kind,
-        "power_w": draw(st.floats(0.1, 1000.0)),
+        "power_w": draw(st.floats(0.1, max_power_w)),
         "duty_cycle": draw(st.floats(0.05, 1.0)),
         "position_m": [draw(st.floats(-box_m, box_m)) for _ in range(3)],
     }
@@ -136,14 +140,24 @@ def floors(draw, sources: list[dict]) -> dict:
 
 @st.composite
 def documents(
-    draw, kinds=tuple(KINDS), max_sources: int = 2, reflector: bool | None = None
+    draw,
+    kinds=tuple(KINDS),
+    max_sources: int = 2,
+    reflector: bool | None = None,
+    max_power_w: float = 1000.0,
+    modes: tuple[str, ...] = ("envelope", "coherent"),
 ) -> dict:
     n = draw(st.integers(1, max_sources))
-    doc: dict = {"source": [draw(source_tables(draw(st.sampled_from(kinds)))) for _ in range(n)]}
+    doc: dict = {
+        "source": [
+            draw(source_tables(draw(st.sampled_from(kinds)), max_power_w=max_power_w))
+            for _ in range(n)
+        ]
+    }
     with_floor = draw(st.booleans()) if reflector is None else reflector
     if with_floor and HAS_REFLECTION:
         doc["reflector"] = [draw(floors(doc["source"]))]
-        doc["reflections"] = draw(st.sampled_from(["envelope", "coherent"]))
+        doc["reflections"] = draw(st.sampled_from(modes))
     return doc
 
 
@@ -211,8 +225,11 @@ def _limits_at(frequency_hz: float) -> list[str]:
     return [i for i in LIMIT_IDS if get_limit(i).covers(frequency_hz)]
 
 
-@settings(max_examples=examples(12))
-@given(doc=documents(KEEPOUT_KINDS, max_sources=2), k=st.floats(1.05, 50.0))
+@settings(max_examples=examples(8))
+@given(
+    doc=documents(KEEPOUT_KINDS, 2, max_power_w=KEEPOUT_POWER_W, modes=KEEPOUT_MODES),
+    k=st.floats(1.05, 10.0),
+)
 def test_keepout_grows_with_power(doc, k):
     base = build(doc)
     assume(base is not None)
@@ -242,9 +259,9 @@ def _at_most(a, b) -> bool:
     )
 
 
-@settings(max_examples=examples(10))
+@settings(max_examples=examples(7))
 @given(
-    doc=documents(KEEPOUT_KINDS, max_sources=2),
+    doc=documents(KEEPOUT_KINDS, 2, max_power_w=KEEPOUT_POWER_W, modes=KEEPOUT_MODES),
     frequency_hz=st.sampled_from([9.15e8, 2.45e9, 5.8e9]),
 )
 def test_keepout_shrinks_as_the_limit_rises(doc, frequency_hz):
@@ -413,7 +430,7 @@ def test_near_field_carries_the_power_through_any_sphere(kind, data):
 # ------------------------------------------------------ screening in free space
 @settings(max_examples=examples(12))
 @given(
-    doc=documents(KEEPOUT_KINDS, max_sources=2, reflector=False),
+    doc=documents(KEEPOUT_KINDS, max_sources=2, reflector=False, max_power_w=KEEPOUT_POWER_W),
     gain_boost=st.floats(0.0, 20.0),
 )
 def test_screening_is_never_inside_the_far_field_keepout(doc, gain_boost):
@@ -441,14 +458,19 @@ def test_screening_is_never_inside_the_far_field_keepout(doc, gain_boost):
             # Two allowances, both named:
             # * the search reports the outer end of a bracket 1e-4 wide (RADIUS_TOLERANCE);
             #   for an isotropic source both answers describe the same sphere;
-            # * the contract's density max(|E|^2/eta0, eta0 |H|^2) keeps the induction term of
-            #   H: for a wire |H|^2 = far-field (1 + 1/(k r)^2) (Balanis, Antenna Theory, 4th
-            #   ed., eq. (4-10a) for the short dipole), 1 % above P G / (4 pi r^2) at the
-            #   conventional far-field distance 10 lambda / 2 pi, so the far-field screening
-            #   radius is short by up to sqrt(1 + 1/(k r)^2) there (reported to keepout.py).
+            # * the far field is a limit, not a bound: the contract's density
+            #   max(|E|^2/eta0, eta0 |H|^2) keeps the induction term of H, |H|^2 = far field
+            #   (1 + 1/(k r)^2) for a short dipole (Balanis, Antenna Theory, 4th ed., eq.
+            #   (4-10a)), 1 % above P G / (4 pi r^2) at 10 lambda / 2 pi; and at 2 D^2 /
+            #   lambda the pattern still differs from its far-field form (the pi/8 phase
+            #   criterion, Balanis sec. 2.2.4, from memory) by up to 0.1 dB for the wires
+            #   here (measured: 0.7 % in distance for a 0.75 lambda monopole).  Both are
+            #   allowed for; a larger excess fails.  The strict bound is
+            #   test_screening_of_a_quarter_wave_dipole_beyond_its_far_field_distance.
             nearest = max(r.distance_m - offset, 1e-9)
             induction = math.sqrt(1 + 1 / (k * nearest) ** 2)
-            bound = r.screening_distance_m * induction * (1 + 2 * RADIUS_TOLERANCE)
+            pattern = 10 ** (0.1 / 20)  # 0.1 dB in density is 0.05 dB in distance
+            bound = r.screening_distance_m * induction * pattern * (1 + 2 * RADIUS_TOLERANCE)
             assert bound >= r.distance_m
     assume(checked > 0)
 
