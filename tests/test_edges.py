@@ -591,3 +591,43 @@ def test_output_folder_under_a_regular_file(write_scenario, tmp_path, command):
     assert "--out" in line or "plain.txt" in line
     assert sorted(p.name for p in tmp_path.iterdir()) == before
     assert blocker.read_text() == "not a folder\n"
+
+
+# ------------------------------------------------------------------ enclosure
+ENCLOSED = """
+[[source]]
+antenna = "isotropic"
+power_w = 800.0
+position_m = [0.1, 0.0, 1.0]
+[enclosure]
+center_m = [0.0, 0.0, 1.0]
+size_m = [0.5, 0.4, 0.3]
+metal = "mild-steel"
+thickness_m = 0.002
+[[enclosure.opening]]
+face = "+x"
+type = "slot"
+length_m = 0.03
+width_m = 0.001
+along = "z"
+offset_m = [0.0, 0.0]
+"""
+
+
+def test_points_inside_on_and_in_the_walls_of_an_enclosure(write_scenario):
+    path = write_scenario(ENCLOSED)
+    points = probe(
+        path,
+        (0.1, 0.0, 1.0),  # on the source, inside the cavity
+        (0.0, 0.0, 1.0),  # cavity centre
+        (0.25, 0.0, 1.0),  # inner face of the +x wall, at the slot
+        (0.251, 0.0, 1.0),  # inside the wall
+        (0.252, 0.0, 1.0),  # outer face, at the slot
+        (0.302, 0.0, 1.0),  # 5 cm outside the slot
+        (0.0, 0.2011, 1.0),  # inside the -y/+y wall, no opening there
+        (1e5, 0.0, 1.0),  # far away
+    )
+    assert all(p["power_density_w_m2"] >= 0 for p in points)
+    cavity, outside_5cm = points[1], points[5]
+    # A nearly closed steel box holds far more than leaks out through a 3 cm slot.
+    assert cavity["power_density_w_m2"] > outside_5cm["power_density_w_m2"]
