@@ -27,6 +27,8 @@ from .errors import InputError
 PANEL_OUTPUT = "Output"
 #: Largest coordinate accepted on the command line, as in scenario files and point files [m].
 COORDINATE_BOUND_M = 1e6
+#: Smallest map extent or step accepted [m] (a tenth of a millimetre).
+SMALLEST_GRID_M = 1e-4
 PANEL_POINTS = "Points"
 
 
@@ -498,9 +500,12 @@ def _check_limits(loaded: Any, limit: list[str] | None) -> tuple[str, ...]:
 
 def _check_grid_numbers(extent_m: float | None, step_m: float | None, pixels: int | None) -> None:
     for value, option in ((extent_m, "--extent-m"), (step_m, "--step-m")):
-        if value is not None and not (np.isfinite(value) and 0 < value <= COORDINATE_BOUND_M):
+        if value is not None and not (
+            np.isfinite(value) and SMALLEST_GRID_M <= value <= COORDINATE_BOUND_M
+        ):
             raise InputError(
-                f"must be a positive number of metres up to {COORDINATE_BOUND_M:g}, got {value}",
+                f"must be a number of metres from {SMALLEST_GRID_M:g} to {COORDINATE_BOUND_M:g}, "
+                f"got {value}",
                 "argument",
                 option,
             )

@@ -548,11 +548,6 @@ def test_map_coordinates_beyond_the_bound_are_refused(write_scenario, tmp_path, 
     one_error_line(run("map", path, "--pixels", "5", *args, "--csv", tmp_path / "m.csv"))
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="fields/maps.py map grid: --extent-m=5e-324 (positive, within the bound) gives a "
-    "zero sample step and the run ends in ZeroDivisionError (exit 1) instead of a refusal",
-)
 def test_map_extent_too_small_for_a_step_is_refused(write_scenario, tmp_path):
     path = write_scenario(ISOTROPIC)
     line = one_error_line(
