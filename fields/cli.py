@@ -27,7 +27,7 @@ from .errors import InputError
 PANEL_OUTPUT = "Output"
 #: Largest coordinate accepted on the command line, as in scenario files and point files [m].
 COORDINATE_BOUND_M = 1e6
-#: Smallest map extent or step accepted [m] (a tenth of a millimetre).
+#: Smallest map extent accepted [m] (a tenth of a millimetre).
 SMALLEST_GRID_M = 1e-4
 PANEL_POINTS = "Points"
 
@@ -499,13 +499,16 @@ def _check_limits(loaded: Any, limit: list[str] | None) -> tuple[str, ...]:
 
 
 def _check_grid_numbers(extent_m: float | None, step_m: float | None, pixels: int | None) -> None:
-    for value, option in ((extent_m, "--extent-m"), (step_m, "--step-m")):
+    for value, option, smallest in (
+        (extent_m, "--extent-m", SMALLEST_GRID_M),
+        (step_m, "--step-m", 0.0),
+    ):
         if value is not None and not (
-            np.isfinite(value) and SMALLEST_GRID_M <= value <= COORDINATE_BOUND_M
+            np.isfinite(value) and value > 0 and smallest <= value <= COORDINATE_BOUND_M
         ):
             raise InputError(
-                f"must be a number of metres from {SMALLEST_GRID_M:g} to {COORDINATE_BOUND_M:g}, "
-                f"got {value}",
+                f"must be a positive number of metres from {smallest:g} to "
+                f"{COORDINATE_BOUND_M:g}, got {value}",
                 "argument",
                 option,
             )
