@@ -286,6 +286,10 @@ def dipole_pattern_maximum(half_length_rad: float) -> tuple[float, float]:
 
 
 # --------------------------------------------------------------------------- parameters
+#: Distance, in units of max(length, wavelength), beyond which the radiation field is used.
+FAR_ZONE_FACTOR = 1000.0
+
+
 @dataclass(frozen=True)
 class ThinWire:
     """Electrical description of a sinusoidal-current wire (immutable).
@@ -468,6 +472,17 @@ class _SinusoidalWireRadiator(Radiator):
         h[:, 0] = -h_phi * sin_phi
         h[:, 1] = h_phi * cos_phi
         h[:, 2] = 0.0
+        # Far out, the exact sums cancel catastrophically (worst on the axis, where the
+        # field is a tiny 1/r^2 remainder): use the radiation field there.  Beyond
+        # FAR_ZONE_FACTOR x max(length, wavelength) the induction terms are below 1e-3 of it.
+        r = np.linalg.norm(points_local_m, axis=1)
+        far = r > FAR_ZONE_FACTOR * max(2.0 * self.wire.half_length_m, self.wavelength_m)
+        if far.any():
+            u = points_local_m[far] / r[far, None]
+            phase = np.exp(-1j * self.wavenumber_rad_m * r[far]) / r[far]
+            e_far = self._local_far_field(u) * phase[:, None]
+            e[far] = e_far
+            h[far] = np.cross(u, e_far) / ETA0_OHM
         if self._upper_half_space_only:
             below = z < 0.0
             e[below] = 0.0

@@ -90,12 +90,6 @@ def test_dipole_on_its_wire_and_far_away(write_scenario):
     assert broadside["power_density_w_m2"] == pytest.approx(s_far, rel=2e-3)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="antennas/wire.py: exactly on the wire axis far away the exact-field sums cancel "
-    "catastrophically and are divided by a tiny clamped rho: |E| = 4.4e-5 V/m at z = 1e5 m "
-    "(it grows with distance; 2.1/z^2 = 2e-10 V/m expected) and H != 0 on the axis",
-)
 def test_dipole_far_along_its_axis(write_scenario):
     path = write_scenario(DIPOLE)
     broadside, end_fire, off_axis = probe(path, (1e5, 0.0, 1.0), (0.0, 0.0, 1e5), (0.1, 0.0, 1e5))
