@@ -124,11 +124,32 @@ def _radiating_terms(scenario: Scenario) -> list[RadiatingTerm]:
     return terms
 
 
-def _shield_factor(scenario: Scenario, origin_m: NDArray[np.float64], points_m: NDArray) -> NDArray:
+def _shield_factor(
+    scenario: Scenario, origin_m: NDArray[np.float64], points_m: NDArray, extent_m: float = 0.0
+) -> NDArray:
+    """Product of every shield's amplitude factor for rays from ``origin_m`` to points."""
     factor = np.ones(points_m.shape[0])
     for shield in scenario.shields:
-        factor *= shield.amplitude_factor(origin_m, points_m)
+        factor *= shield.amplitude_factor(origin_m, points_m, source_extent_m=extent_m)
     return factor
+
+
+def _reflected_path_factor(
+    scenario: Scenario, reflector: object, radiator: Radiator, points_m: NDArray[np.float64]
+) -> NDArray[np.float64]:
+    """Shield factor along both legs of the specular path via one plane."""
+    source = radiator.position_m
+    image = reflector.mirror_points(source[None, :])[0]  # type: ignore[attr-defined]
+    d_image = abs(float(reflector.signed_distance_m(image[None, :])[0]))  # type: ignore[attr-defined]
+    d_points = np.abs(reflector.signed_distance_m(points_m))  # type: ignore[attr-defined]
+    t = d_image / np.maximum(d_image + d_points, 1e-12)
+    bounce = image + t[:, None] * (points_m - image)
+    extent = 0.5 * radiator.largest_dimension_m
+    leg_out = _shield_factor(scenario, source, bounce, extent)
+    leg_back = np.ones(points_m.shape[0])
+    for shield in scenario.shields:
+        leg_back *= shield.amplitude_factor(bounce, points_m)
+    return leg_out * leg_back
 
 
 def _term_squares(
@@ -138,7 +159,9 @@ def _term_squares(
     radiator = term.radiator
     e, h = radiator.fields(points_m)
     if scenario.shields:
-        f = _shield_factor(scenario, radiator.position_m, points_m)
+        f = _shield_factor(
+            scenario, radiator.position_m, points_m, 0.5 * radiator.largest_dimension_m
+        )
         e = e * f[:, None]
         h = h * f[:, None]
     if not scenario.reflectors:
@@ -151,13 +174,13 @@ def _term_squares(
         radiator, scenario.reflectors, points_m, scenario.frequency_hz, order=order
     )
     if scenario.shields:
-        # First-order images: shield credit along the ray from the image point.  Higher
-        # orders get no credit (conservative: their path is not traced).
+        # First-order images: shield credit along the real path, source -> reflection
+        # point -> field point (a sheet behind the plane is not on it).  Higher orders get
+        # no credit (conservative: their path is not traced).
         shaded = []
         for k, (ei, hi) in enumerate(images):
             if k < len(scenario.reflectors):
-                origin = scenario.reflectors[k].mirror_points(radiator.position_m[None, :])[0]
-                f = _shield_factor(scenario, origin, points_m)
+                f = _reflected_path_factor(scenario, scenario.reflectors[k], radiator, points_m)
                 ei, hi = ei * f[:, None], hi * f[:, None]
             shaded.append((ei, hi))
         images = shaded

@@ -25,7 +25,7 @@ bug, not a tolerance question:
 * the reflection envelope is never below the coherent sum (|a| + |b| >= |a + b|);
 * adding a shield never raises a field (envelope mode; in coherent mode a sheet over one
   reflected ray may fill a null), and a shield on the far side of a reflector changes
-  nothing in front of it (xfail: the image ray is credited with it, see the reason).
+  nothing in front of it (the credit follows the real path via the reflection point).
 
 Run longer with ``KEEPCLEAR_HYPOTHESIS_PROFILE=long`` (see tests/_hypothesis.py).
 """
@@ -562,13 +562,6 @@ def test_a_shield_never_raises_a_field(doc, data, pts):
 
 
 @pytest.mark.skipif(not (HAS_SHIELD and HAS_REFLECTION), reason="shield or reflection missing")
-@pytest.mark.xfail(
-    strict=True,
-    reason="fields/field.py _term_squares: an image's shield credit is taken along the straight "
-    "line from the image point, so a sheet on the far side of a reflector (the room below a "
-    "floor) cuts the reflection on the source side: not conservative (isotropic 100 W at 1 m "
-    "over a metal floor: 33.3 -> 16.9 W/m^2 at (0.5, 0, 0.5), keep-out 1.78 -> 0.94 m)",
-)
 @pytest.mark.parametrize(("depth", "size"), [(0.5, 4.0), (0.8, 1.0)])
 @pytest.mark.parametrize("material", ["metal", "concrete"])
 def test_a_shield_behind_a_reflector_changes_nothing_in_front(depth, size, material):
