@@ -55,16 +55,29 @@ minimises the required n over the ellipse parameter between the two
 (:func:`gauss_legendre_order`).  Calibrated against brute-force integration
 it gives at least the requested accuracy with 1.6 times the minimal node
 count on average.  Points that need the same rule are grouped and evaluated
-together in cache-sized blocks of at most 32768 point-node pairs (about 8 MB
-of scratch per thread; larger rules are summed in slices of nodes), on
-several threads (numpy releases the GIL).  The kernels are computed in single
-precision (the phase is taken relative to the aperture centre, so the
-float32 arguments stay small) and summed in double precision.  Orders are
+together in cache-sized blocks of at most 32768 point-node pairs (about 2 MB
+of reused scratch per thread; larger rules are summed in slices of nodes).
+The kernels that carry R_x and R_y are polynomials in the node coordinates,
+so only three scalar kernels are computed per point-node pair and summed
+against coordinate moments of the sources (:func:`dyadic_moment_sums`); the
+kernels are computed in single precision (the phase is taken relative to the
+aperture centre, so the float32 arguments stay small) and summed and
+assembled in double precision.  The equivalent currents are written in their
+smallest basis (one column for a linearly polarised aperture).  Orders are
 capped at 1024 per coordinate, which an aperture of about 8 wavelengths
-reaches at the minimum standoff.  ``method="direct"`` instead uses one fixed, fine rule (the
-one a point lambda/10 above the aperture centre needs at 1e-7) in double
-precision for every point: the reference the adaptive result is tested and
-benchmarked against.
+reaches at the minimum standoff.
+
+Symmetry.  Where the currents have the mirror symmetries of the TE10 family
+(J_y, M_x even in x and in y, :attr:`ApertureRadiator.mirror_parities`), the
+field at a mirror point follows from the field at the point, E(Mp) = +-M E(p)
+and H(Mp) = -+M H(p); the adaptive method folds the points into one quadrant
+and evaluates each folded point once, so a map symmetric about the boresight
+costs half (sets with hardly any mirror pairs are evaluated as given).
+
+``method="direct"`` instead uses one fixed, fine rule (the one a point lambda/10
+above the aperture centre needs at 1e-7) with every kernel written out, in
+double precision, for every point as given (no far zone, no folding): the
+reference the adaptive result is tested and benchmarked against.
 
 Far field and normalisation
 ---------------------------
@@ -102,7 +115,7 @@ Validity
   aperture outward (tested; typically 1e-3 dB).  Memory: the outer chunks of
   :meth:`ApertureRadiator.fields` follow ``chunk_bytes`` (at most 1 GiB) with
   :attr:`ApertureRadiator.bytes_per_point`; the rule cache holds at most
-  2^21 nodes.  Points closer than the minimum standoff
+  128 MiB.  Points closer than the minimum standoff
   :attr:`ApertureRadiator.min_standoff_m` = lambda/20 to the aperture
   rectangle are evaluated at that standoff, moved along z (front side for
   z = 0): finite values, of the order of the aperture field; a current sheet
@@ -177,9 +190,12 @@ MAX_ORDER: Final[int] = int(_ORDER_LADDER[-1])
 #: Field-point x node pairs evaluated in one block (fits the L2 cache).
 BLOCK_PAIRS: Final[int] = 32768
 
-#: Largest total number of nodes kept in a radiator's cache of quadrature rules
-#: (about 40-80 bytes each).
-RULE_CACHE_NODES: Final[int] = 2**21
+#: Largest memory a radiator's cache of quadrature rules may hold [bytes]
+#: (a near-field rule costs about 60 bytes a node, a direct one about 40).
+RULE_CACHE_BYTES: Final[int] = 128 * 1024**2
+
+#: Field points whose folded coordinates agree to this are evaluated once [m].
+FOLD_QUANTUM_M: Final[float] = 1e-9
 
 #: Hard ceiling of every memory budget here [bytes].
 MAX_BUDGET_BYTES: Final[int] = 1024**3
@@ -416,9 +432,14 @@ def bernstein_pole_parameter(
     offset = np.asarray(offset_m, dtype=float)
     distance = np.asarray(distance_m, dtype=float)
     finite = np.isfinite(distance) & np.isfinite(offset)
-    w = (np.where(finite, offset, 0.0) + 1j * np.where(finite, distance, 1.0)) / half
-    root = np.sqrt(w - 1) * np.sqrt(w + 1)
-    rho_p = np.maximum(np.abs(w + root), np.abs(w - root))
+    x = np.where(finite, offset, 0.0)
+    d = np.where(finite, distance, 1.0)
+    # The ellipse with foci +-L through x + j d has semi-major axis a = (s1 + s2)/2, s1 and
+    # s2 the distances to the foci, and rho = (a + sqrt(a^2 - L^2))/L: the same value as
+    # |w + sqrt(w^2 - 1)| in real arithmetic.
+    semi = 0.5 * (np.hypot(x - half, d) + np.hypot(x + half, d))
+    excess = np.maximum(semi - half, 0.0)
+    rho_p = (semi + np.sqrt(excess * (semi + half))) / half
     log_rho_p = np.where(finite, np.log(np.maximum(rho_p, 1.0 + 1e-12)), _MAX_LOG_RHO)
     return np.minimum(log_rho_p, _MAX_LOG_RHO)
 
@@ -683,6 +704,282 @@ def fields_from_kernel_sums(
     return e * factor, h * factor
 
 
+#: Rows of float32 scratch each thread keeps for :func:`dyadic_moment_sums` (per pair).
+_SCRATCH_ROWS: Final[int] = 13
+_SCRATCH = threading.local()
+
+
+def _scratch(n_pairs: int) -> tuple[NDArray[np.float32], NDArray[np.float64]]:
+    """Reusable scratch of the calling thread: float32 (13, n) and float64 (2 n).
+
+    Fresh arrays of a few hundred kB are served by the operating system page by page;
+    reusing them is several times faster than allocating them for every block.
+    """
+    f32 = getattr(_SCRATCH, "f32", None)
+    if f32 is None or f32.shape[1] < n_pairs:
+        f32 = np.empty((_SCRATCH_ROWS, n_pairs), dtype=np.float32)
+        _SCRATCH.f32 = f32
+        _SCRATCH.f64 = np.empty(2 * n_pairs, dtype=np.float64)
+    return f32, _SCRATCH.f64
+
+
+#: Moments of the node coordinates each kernel family is summed against:
+#: a: 1; b: 1, x', y', x'^2, x'y', y'^2; c: 1, x', y'.
+_MOMENT_COUNTS: Final[tuple[int, int, int]] = (1, 6, 3)
+
+
+def moment_matrix(
+    nodes_x_m: NDArray[np.float64], nodes_y_m: NDArray[np.float64], sources: NDArray[np.complex128]
+) -> NDArray[np.float32]:
+    """Source-weighted coordinate moments of a rule, for :func:`dyadic_moment_sums`.
+
+    Parameters
+    ----------
+    nodes_x_m, nodes_y_m : ndarray, shape (Q,)
+        Node coordinates [m].
+    sources : ndarray, shape (Q, S), complex
+        Weighted source amplitudes at the nodes.
+
+    Returns
+    -------
+    ndarray, shape (12 S, Q), float32
+        Rows Re and Im of ``s_q * m(q)`` for the moments m = 1, x', y', x'^2, x'y', y'^2
+        (moment-major, then source column, then real and imaginary part), so that the
+        first 2 S rows serve the kernel family a, the first 6 S the family c and all the
+        family b.  Single precision perturbs each node's weight by about 1e-7 relative,
+        far below the quadrature tolerance.
+    """
+    x, y = nodes_x_m, nodes_y_m
+    weights = (np.ones_like(x), x, y, x * x, x * y, y * y)
+    n_src = sources.shape[1]
+    out = np.empty((6, n_src, 2, x.size), dtype=np.float32)
+    for i, w in enumerate(weights):
+        m = sources.T * w
+        out[i, :, 0] = m.real
+        out[i, :, 1] = m.imag
+    return out.reshape(12 * n_src, x.size)
+
+
+def dyadic_moment_sums(
+    points_m: NDArray[np.float64],
+    nodes: tuple[NDArray[np.float32], NDArray[np.float32], NDArray[np.float32]],
+    moments: NDArray[np.float32],
+    wavenumber_rad_m: float,
+    out: NDArray[np.complex128] | None = None,
+    accumulate: bool = False,
+) -> NDArray[np.complex128]:
+    """Moment sums of the dyadic kernels over a rule's nodes (the fast adaptive kernel).
+
+    Parameters
+    ----------
+    points_m : ndarray, shape (P, 3)
+        Field points in the aperture frame [m].
+    nodes : tuple of ndarray, each shape (Q, 1), float32
+        Node x' and y' [m] and k |q|^2 [rad m].
+    moments : ndarray, shape (12 S, Q), float32
+        From :func:`moment_matrix` for the same nodes.
+    wavenumber_rad_m : float
+        k [rad m^-1].
+    out : ndarray, shape (10, S, P), complex, optional
+        Where to write the sums (a new array if omitted).
+    accumulate : bool
+        Add to ``out`` instead of overwriting it (node slices of one large rule).
+
+    Returns
+    -------
+    ndarray, shape (10, S, P), complex
+        sum_q s_q m(q) K(p, q) for, in order, K = g a with m = 1; K = g b / R^2 with
+        m = 1, x', y', x'^2, x'y', y'^2; K = g c / R with m = 1, x', y' (g, a, b, c as in
+        :func:`dyadic_kernel_sums`, phase relative to r_p).
+
+    Notes
+    -----
+    The kernels of :func:`dyadic_kernel_sums` that carry R_x = x - x' and R_y = y - y'
+    are polynomials in the node coordinates, so sum_q s_q g b R_x^2 =
+    x^2 M_1 - 2 x M_x + M_xx with the moments M of g b; the caller assembles them in double
+    precision (:func:`kernel_sums_from_moments`).  Three scalar kernel families (6 real
+    arrays) are computed per point-node pair in single precision instead of 18, in
+    reusable per-thread scratch, and the node sums are double-precision matrix products.
+    """
+    f = np.float32
+    xq, yq, kqq = nodes
+    n_points, n_nodes = points_m.shape[0], xq.shape[0]
+    n = n_points * n_nodes
+    work, wide = _scratch(n)
+    k = float(wavenumber_rad_m)
+
+    def buf(i: int, rows: int = 1) -> NDArray[np.float32]:
+        return work[i : i + rows].reshape(-1)[: rows * n].reshape(rows, n_nodes, n_points)
+
+    xp = points_m[:, 0].astype(f)[None, :]
+    yp = points_m[:, 1].astype(f)[None, :]
+    zp = points_m[:, 2].astype(f)[None, :]
+    rp = np.sqrt(xp * xp + yp * yp + zp * zp)
+    zz = zp * zp
+    m2kx = f(-2.0 * k) * xp
+    m2ky = f(-2.0 * k) * yp
+    r, tmp, arg, gr, gst, grt, u = (buf(i)[0] for i in range(7))
+    np.subtract(xp, xq, out=r)
+    np.multiply(r, r, out=r)
+    np.subtract(yp, yq, out=tmp)
+    np.multiply(tmp, tmp, out=tmp)
+    r += tmp
+    r += zz
+    np.sqrt(r, out=r)
+    # k (R - r_p) = k (|q|^2 - 2 p.q) / (R + r_p), without cancellation
+    np.multiply(xq, m2kx, out=arg)
+    np.multiply(yq, m2ky, out=tmp)
+    arg += tmp
+    arg += kqq
+    np.add(r, rp, out=tmp)
+    arg /= tmp
+    t = r
+    np.reciprocal(r, out=t)
+    t *= f(1.0 / k)  # t = 1/(kR)
+    gs = arg
+    np.cos(arg, out=gr)
+    np.sin(arg, out=gs)
+    gr *= t  # g = k (gr - j gs)
+    gs *= t
+    np.multiply(gs, t, out=gst)
+    np.multiply(gr, t, out=grt)
+    tt = tmp
+    np.multiply(t, t, out=tt)
+    wa, wb, wc = buf(7, 2), buf(9, 2), buf(11, 2)
+    # a = (1 - t^2) - j t:  g a = k [(gr u - gs t) - j (gs u + gr t)],  u = 1 - t^2
+    np.subtract(f(1), tt, out=u)
+    np.multiply(gr, u, out=wa[0])
+    wa[0] -= gst
+    np.multiply(gs, u, out=wa[1])
+    wa[1] += grt
+    # c / R with c = 1 - j t:  k^2 t [(gr - gs t) - j (gs + gr t)]
+    np.subtract(gr, gst, out=wc[0])
+    wc[0] *= t
+    np.add(gs, grt, out=wc[1])
+    wc[1] *= t
+    # b / R^2 with b = (3 t^2 - 1) + 3 j t:  3 k^3 t^2 [(gr v + gs t) - j (gs v - gr t)],
+    # v = t^2 - 1/3
+    v = u
+    np.subtract(tt, f(1.0 / 3.0), out=v)
+    np.multiply(gr, v, out=wb[0])
+    wb[0] += gst
+    wb[0] *= tt
+    np.multiply(gs, v, out=wb[1])
+    wb[1] -= grt
+    wb[1] *= tt
+    n_src = moments.shape[0] // 12
+    if out is None:
+        out = np.empty((10, n_src, n_points), dtype=complex)
+        accumulate = False
+    moments64 = moments.astype(np.float64)
+    row = 0
+    w64 = wide[: 2 * n].reshape(2, n_nodes, n_points)
+    for w, scale, count in zip((wa, wb, wc), (k, 3.0 * k**3, k * k), _MOMENT_COUNTS, strict=True):
+        np.copyto(w64, w)
+        # (2, 2 count S, P): rows Re M, Im M (interleaved) times W_re and W_n
+        prod = np.matmul(moments64[: 2 * count * n_src], w64)
+        prod *= scale
+        # sum M (W_re - j W_n) with M = Mr + j Mi: re = Mr W_re + Mi W_n, im = Mi W_re - Mr W_n
+        shape = (count, n_src, n_points)
+        re = np.add(prod[0, 0::2], prod[1, 1::2]).reshape(shape)
+        im = np.subtract(prod[0, 1::2], prod[1, 0::2]).reshape(shape)
+        target = out[row : row + count]  # a view, possibly strided: written through
+        if accumulate:
+            target.real += re
+            target.imag += im
+        else:
+            target.real = re
+            target.imag = im
+        row += count
+    return out
+
+
+def kernel_sums_from_moments(
+    moments: NDArray[np.complex128], x_m: NDArray[np.float64], y_m: NDArray[np.float64]
+) -> NDArray[np.complex128]:
+    """The nine kernel sums of :func:`dyadic_kernel_sums` from :func:`dyadic_moment_sums`.
+
+    Parameters
+    ----------
+    moments : ndarray, shape (10, S, P), complex
+        Moment sums.
+    x_m, y_m : ndarray, shape (P,)
+        Field point coordinates in the aperture frame [m].
+
+    Returns
+    -------
+    ndarray, shape (9, S, P), complex
+        K_0..K_8 summed, in double precision, e.g.
+        sum g b R_x^2 = x^2 M_1 - 2 x M_x + M_xx.
+    """
+    x = x_m
+    y = y_m
+    a1, b1, bx, by, bxx, bxy, byy, c1, cx, cy = moments
+    out = np.empty((9, *a1.shape), dtype=complex)
+    out[0] = a1
+    out[4] = x * b1 - bx
+    out[5] = y * b1 - by
+    out[1] = x * (out[4] - bx) + bxx  # x^2 b1 - 2 x bx + bxx
+    out[2] = x * out[5] - y * bx + bxy  # x y b1 - x by - y bx + bxy
+    out[3] = y * (out[5] - by) + byy
+    out[6] = c1
+    out[7] = x * c1 - cx
+    out[8] = y * c1 - cy
+    return out
+
+
+def fields_from_mixed_sums(
+    sums: NDArray[np.complex128],
+    mixing: NDArray[np.complex128],
+    z_m: NDArray[np.float64],
+    wavenumber_rad_m: float,
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+    """:func:`fields_from_kernel_sums` for sums over a low-rank source basis.
+
+    Parameters
+    ----------
+    sums : ndarray, shape (9, S, P), complex
+        Kernel sums for the S basis columns.
+    mixing : ndarray, shape (S, 4), complex
+        Basis to current columns (J_x, J_y, M_x, M_y).
+    z_m : ndarray, shape (P,)
+        Height of the points above the aperture plane [m].
+    wavenumber_rad_m : float
+        k [rad m^-1].
+
+    Returns
+    -------
+    e_v_m, h_a_m : ndarray, shape (P, 3), complex
+        As :func:`fields_from_kernel_sums`; current columns that are zero are skipped.
+    """
+    n = sums.shape[2]
+    used = [bool(np.any(mixing[:, c] != 0)) for c in range(4)]
+
+    def col(m: int, c: int) -> NDArray[np.complex128] | float:
+        if not used[c]:
+            return 0.0
+        out = sums[m, 0] * mixing[0, c]
+        for r in range(1, sums.shape[1]):
+            out = out + sums[m, r] * mixing[r, c]
+        return out
+
+    eta = ETA0_OHM
+    z = z_m.astype(float)
+    jx, jy, mx, my = 0, 1, 2, 3
+    factor = -1j * wavenumber_rad_m / (4.0 * np.pi)
+    e = np.empty((n, 3), dtype=complex)
+    h = np.empty((n, 3), dtype=complex)
+    e[:, 0] = eta * (col(0, jx) + col(1, jx) + col(2, jy)) + z * col(6, my)
+    e[:, 1] = eta * (col(0, jy) + col(2, jx) + col(3, jy)) - z * col(6, mx)
+    e[:, 2] = eta * z * (col(4, jx) + col(5, jy)) - (col(7, my) - col(8, mx))
+    h[:, 0] = (col(0, mx) + col(1, mx) + col(2, my)) / eta - z * col(6, jy)
+    h[:, 1] = (col(0, my) + col(2, mx) + col(3, my)) / eta + z * col(6, jx)
+    h[:, 2] = z * (col(4, mx) + col(5, my)) / eta + (col(7, jy) - col(8, jx))
+    e *= factor
+    h *= factor
+    return e, h
+
+
 def radiation_integral_far_field(
     directions: NDArray[np.float64],
     nodes_x_m: NDArray[np.float64],
@@ -760,6 +1057,28 @@ def _slices(n: int, size: int) -> list[tuple[int, int]]:
     return [(start, min(n, start + size)) for start in range(0, n, size)]
 
 
+def _groups(orders: NDArray[np.int64]) -> list[tuple[tuple[int, int], NDArray[np.intp]]]:
+    """Indices of the points sharing each (nx, ny) rule, by rule."""
+    codes = orders[:, 0] * (MAX_ORDER + 1) + orders[:, 1]
+    order = np.argsort(codes, kind="stable")
+    bounds = np.flatnonzero(np.diff(codes[order])) + 1
+    return [((int(orders[g[0], 0]), int(orders[g[0], 1])), g) for g in np.split(order, bounds)]
+
+
+_POOLS: dict[int, ThreadPoolExecutor] = {}
+_POOLS_LOCK = threading.Lock()
+
+
+def _pool(workers: int) -> ThreadPoolExecutor:
+    """A process-wide pool of ``workers`` threads, started once (not per call)."""
+    with _POOLS_LOCK:
+        pool = _POOLS.get(workers)
+        if pool is None:
+            pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="keepclear-aperture")
+            _POOLS[workers] = pool
+        return pool
+
+
 def _available_cores() -> int:
     try:
         return max(1, len(os.sched_getaffinity(0)))
@@ -821,8 +1140,8 @@ class ApertureRadiator(Radiator):
         #: Tolerance of the fixed rule of ``method="direct"`` (see :meth:`direct_orders`).
         self.direct_tolerance = DIRECT_TOLERANCE
         self.threads = int(threads) if threads else min(_available_cores(), 8)
-        self._rule_cache: dict[tuple[int, int], tuple] = {}
-        self._rule_nodes = 0
+        self._rule_cache: dict[tuple, tuple] = {}
+        self._rule_bytes = 0
         self._rule_lock = threading.Lock()
         self._far_rule_cache: tuple | None = None
         lx, ly = distribution.half_sizes_m
@@ -841,6 +1160,13 @@ class ApertureRadiator(Radiator):
         self.back_fraction = float(unit_back / unit_front)
         self._unit_power = float(unit_front + unit_back)
         self._scale = float(np.sqrt(self.power_w / self._unit_power))
+        #: Orthonormal basis (4, S) of the current columns (J_x, J_y, M_x, M_y) at the nodes.
+        self._basis_vectors = self._current_basis()
+        self._mixing = np.ascontiguousarray(self._basis_vectors.conj().T)
+        #: Mirror parities (x, y) of the currents: +1 or -1, 0 where there is none.
+        self.mirror_parities = self._mirror_parities()
+        #: Memory one field point costs outside the kernel blocks (outputs, indices, sums).
+        self.bytes_per_point = 640 + 320 * int(self._basis_vectors.shape[1])
 
     # ----------------------------------------------------------- geometry
     @property
@@ -878,35 +1204,117 @@ class ApertureRadiator(Radiator):
         j_s, m_s = equivalent_currents(e_t, h_t, self.distribution.equivalence)
         return x, y, weights, j_s, m_s
 
-    def _rule(self, nx: int, ny: int) -> tuple:
-        """Flattened nodes and low-rank source basis of the (nx, ny) near-field rule."""
-        key = (int(nx), int(ny))
+    def _current_columns(self, nx: int, ny: int) -> NDArray[np.complex128]:
+        """Weighted current columns (J_x, J_y, M_x, M_y) at the (nx, ny) nodes, shape (Q, 4)."""
+        _, _, weights, j_s, m_s = self._sample_currents(nx, ny)
+        return (np.concatenate([j_s, m_s], axis=-1) * weights[..., None]).reshape(-1, 4)
+
+    def _rule_sources(
+        self, nx: int, ny: int
+    ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.complex128]]:
+        """Flattened nodes x', y' [m] and weighted sources in the current basis, (Q, S)."""
+        x, y, weights, j_s, m_s = self._sample_currents(nx, ny)
+        currents = (j_s[..., 0], j_s[..., 1], m_s[..., 0], m_s[..., 1])
+        basis = np.zeros((nx * ny, self._basis_vectors.shape[1]), dtype=complex)
+        for s in range(basis.shape[1]):
+            for c, current in enumerate(currents):
+                coefficient = self._basis_vectors[c, s]
+                if coefficient != 0:
+                    basis[:, s] += (current * weights).reshape(-1) * coefficient
+        return np.repeat(x, ny), np.tile(y, nx), basis
+
+    def _current_basis(self) -> NDArray[np.complex128]:
+        """Smallest orthonormal basis (4, S) of the current columns (S = 1: one polarisation).
+
+        From the eigenvectors of the 4 x 4 Gram matrix of the columns on the far-field rule,
+        checked on two coarser rules; the full basis (S = 4) where the check fails.
+        """
+        cols = self._current_columns(*self._far_orders)
+        gram = np.einsum("qi,qj->ij", cols.conj(), cols)
+        values, vectors = np.linalg.eigh(gram)
+        keep = values > max(values[-1], 1e-300) * 1e-18
+        basis = vectors[:, keep]
+        for nx, ny in ((3, 2), (17, 13)):
+            c = self._current_columns(nx, ny)
+            rest = c - (c @ basis) @ basis.conj().T
+            if np.linalg.norm(rest) > 1e-9 * max(float(np.linalg.norm(c)), 1e-300):
+                return np.eye(4, dtype=complex)
+        return np.asarray(basis, dtype=complex)
+
+    def _mirror_parities(self) -> tuple[int, int]:
+        """Parities of the currents under the mirrors x -> -x and y -> -y (0: not symmetric).
+
+        Notes
+        -----
+        Under x -> -x a source is mapped to itself times sigma (+1 or -1) when
+        J_x and M_y are odd times sigma and J_y and M_x even times sigma (J polar, M axial);
+        then E(x') = sigma M E(x) and H(x') = -sigma M H(x) at the mirror point x' = M x.
+        Under y -> -y the roles of the components swap.  Checked on the far-field rule,
+        whose nodes are symmetric.
+        """
+        cols = self._current_columns(*self._far_orders).reshape(*self._far_orders, 4)
+        scale = max(float(np.abs(cols).max()), 1e-300)
+        out = []
+        for axis, pattern in ((0, (-1, 1, 1, -1)), (1, (1, -1, -1, 1))):
+            mirrored = np.flip(cols, axis=axis)
+            found = 0
+            for sigma in (1, -1):
+                expected = sigma * np.asarray(pattern, dtype=float) * cols
+                if np.abs(mirrored - expected).max() <= 1e-9 * scale:
+                    found = sigma
+                    break
+            out.append(found)
+        return out[0], out[1]
+
+    def _cached_rule(self, key: tuple, build: Callable[[], tuple], node_bytes: int) -> tuple:
+        """A quadrature rule from the radiator's cache (least recently used out first)."""
         with self._rule_lock:
             cached = self._rule_cache.pop(key, None)
             if cached is not None:
                 self._rule_cache[key] = cached  # most recently used goes last
-                return cached
-        x, y, weights, j_s, m_s = self._sample_currents(*key)
-        cols = (np.concatenate([j_s, m_s], axis=-1) * weights[..., None]).reshape(-1, 4)
-        # cols = basis @ mixing with the smallest rank (1 for a linearly polarised
-        # aperture): eigenvectors of the 4 x 4 Gram matrix
-        # (small products written out: a complex BLAS call on a 4-wide matrix can
-        # cost more in thread start-up than in arithmetic)
-        gram = np.einsum("qi,qj->ij", cols.conj(), cols)
-        values, vectors = np.linalg.eigh(gram)
-        keep = values > max(values[-1], 1e-300) * 1e-18
-        vectors = vectors[:, keep]
-        basis = np.einsum("qi,ir->qr", cols, vectors)
-        mixing = vectors.conj().T
-        rule = (np.repeat(x, key[1]), np.tile(y, key[0]), basis, mixing)
+                return cached[0]
+        rule = build()
+        size = int(key[1]) * int(key[2]) * node_bytes
         with self._rule_lock:
-            self._rule_cache[key] = rule
-            self._rule_nodes += key[0] * key[1]
-            while self._rule_nodes > RULE_CACHE_NODES and len(self._rule_cache) > 1:
+            if key not in self._rule_cache:
+                self._rule_cache[key] = (rule, size)
+                self._rule_bytes += size
+            while self._rule_bytes > RULE_CACHE_BYTES and len(self._rule_cache) > 1:
                 old_key = next(iter(self._rule_cache))
-                del self._rule_cache[old_key]
-                self._rule_nodes -= old_key[0] * old_key[1]
+                self._rule_bytes -= self._rule_cache.pop(old_key)[1]
         return rule
+
+    def _rule(self, nx: int, ny: int) -> tuple:
+        """Flattened nodes and low-rank source basis of the (nx, ny) rule (direct method)."""
+
+        def build() -> tuple:
+            xq, yq, basis = self._rule_sources(nx, ny)
+            return (xq, yq, basis, self._mixing)
+
+        return self._cached_rule(("direct", int(nx), int(ny)), build, 40)
+
+    def _moment_rule(self, nx: int, ny: int) -> list[tuple]:
+        """Slices of at most :data:`BLOCK_PAIRS` nodes of the (nx, ny) rule for the moment kernel.
+
+        Each slice holds the float32 node coordinates and k |q|^2 (column vectors) and the
+        moment matrices of :func:`moment_matrices`.
+        """
+
+        def build() -> tuple:
+            xq, yq, basis = self._rule_sources(nx, ny)
+            kqq = self.wavenumber_rad_m * (xq * xq + yq * yq)
+            parts = []
+            for start, stop in _slices(xq.size, BLOCK_PAIRS):
+                nodes = tuple(
+                    np.ascontiguousarray(v[start:stop, None], dtype=np.float32)
+                    for v in (xq, yq, kqq)
+                )
+                parts.append(
+                    (nodes, moment_matrix(xq[start:stop], yq[start:stop], basis[start:stop]))
+                )
+            return tuple(parts)
+
+        return list(self._cached_rule(("moment", int(nx), int(ny)), build, 60))
 
     def direct_orders(self) -> tuple[int, int]:
         """(nx, ny) of the fixed fine rule of ``method="direct"``."""
@@ -1025,39 +1433,115 @@ class ApertureRadiator(Radiator):
         points_m : array_like, shape (N, 3)
             Field points in scenario coordinates [m].
         chunk_bytes : int
-            Memory budget for one chunk of points [bytes] (at most 1 GiB).
+            Memory budget for the scratch of one chunk of points [bytes] (at most 1 GiB);
+            the N x 3 inputs and outputs, and for the adaptive method an index of the
+            folded points (about 100 bytes a point), come on top.
         method : {"adaptive", "direct"}, optional
             Quadrature; default the radiator's :attr:`method`.
 
         Returns
         -------
         e_v_m, h_a_m : ndarray, shape (N, 3), complex
+
+        Notes
+        -----
+        The adaptive method folds the points into the quadrant x, y >= 0 of the aperture
+        frame where the currents have a mirror symmetry (:attr:`mirror_parities`), evaluates
+        each folded point once (points that agree to :data:`FOLD_QUANTUM_M` count as one)
+        and maps the fields back with the mirror relations: a map symmetric about the
+        boresight costs half.  The direct method evaluates every point as given.
         """
         method = self.method if method is None else method
         if method not in METHODS:
             raise ModelInputError("method", f"method must be one of {METHODS}, got {method!r}")
         chunk_bytes = int(min(max(chunk_bytes, self.bytes_per_point), MAX_BUDGET_BYTES))
         pts = as_points(points_m)
-        n = pts.shape[0]
+        local = self.placement.to_local(pts)
+        folded = self._fold(local) if method == "adaptive" else None
+        if folded is not None:
+            local = folded[0]
+        n = local.shape[0]
         e = np.empty((n, 3), dtype=complex)
         h = np.empty((n, 3), dtype=complex)
         step = max(1, chunk_bytes // self.bytes_per_point)
         for start in range(0, n, step):
             stop = min(n, start + step)
-            local = self.placement.to_local(pts[start:stop])
-            el, hl = self._evaluate_local(local, method)
-            e[start:stop] = self._to_global(el)
-            h[start:stop] = self._to_global(hl)
-        return e, h
+            e[start:stop], h[start:stop] = self._evaluate_local(local[start:stop], method)
+        if folded is not None:
+            _, inverse, code = folded
+            e_sign, h_sign = self._fold_signs()
+            e = e[inverse] * e_sign[code]
+            h = h[inverse] * h_sign[code]
+        return self._to_global(e), self._to_global(h)
+
+    def _fold(self, local: NDArray[np.float64]) -> tuple | None:
+        """Folded unique points, the index of each input point among them, its mirror code.
+
+        None where the currents have no mirror symmetry or folding cannot pay.
+        """
+        sx, sy = self.mirror_parities
+        n = local.shape[0]
+        if (sx == 0 and sy == 0) or n < 2:
+            return None
+        canon = local.copy()
+        code = np.zeros(n, dtype=np.int8)
+        if sx:
+            code += local[:, 0] < 0
+            np.abs(canon[:, 0], out=canon[:, 0])
+        if sy:
+            code += 2 * (local[:, 1] < 0)
+            np.abs(canon[:, 1], out=canon[:, 1])
+        if not np.all(np.abs(canon) < 1e8):  # keys must fit int64; such points are far anyway
+            return None
+        keys = np.rint(canon * (1.0 / FOLD_QUANTUM_M)).astype(np.int64)
+        mix = keys.view(np.uint64) * np.array(
+            [0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9], dtype=np.uint64
+        )
+        digest = mix[:, 0] ^ (mix[:, 1] >> np.uint64(1)) ^ (mix[:, 2] >> np.uint64(2))
+        order = np.argsort(digest)
+        starts = np.empty(n, dtype=bool)
+        starts[0] = True
+        np.not_equal(digest[order[1:]], digest[order[:-1]], out=starts[1:])
+        n_unique = int(np.count_nonzero(starts))
+        if n_unique > 0.9 * n:  # hardly any mirror pairs: folding would not pay
+            return None
+        inverse = np.empty(n, dtype=np.intp)
+        inverse[order] = np.cumsum(starts) - 1
+        first = order[starts]
+        clash = np.any(keys[first][inverse] != keys, axis=1)
+        if clash.any():  # equal digests of different points: evaluate those on their own
+            extra = np.flatnonzero(clash)
+            inverse[extra] = first.size + np.arange(extra.size)
+            first = np.concatenate([first, extra])
+        return canon[first], inverse.reshape(-1), code
+
+    def _fold_signs(self) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """Component signs of E and H at the mirror images, by mirror code (x: 1, y: 2)."""
+        sx, sy = self.mirror_parities
+        e_x = sx * np.array([-1.0, 1.0, 1.0])
+        h_x = sx * np.array([1.0, -1.0, -1.0])
+        e_y = sy * np.array([1.0, -1.0, 1.0])
+        h_y = sy * np.array([-1.0, 1.0, -1.0])
+        one = np.ones(3)
+        e_sign = np.stack([one, e_x, e_y, e_x * e_y])
+        h_sign = np.stack([one, h_x, h_y, h_x * h_y])
+        return e_sign, h_sign
 
     def _to_global(self, vectors: NDArray[np.complex128]) -> NDArray[np.complex128]:
-        """Rotate complex local vectors (N, 3) into scenario axes (real products)."""
+        """Rotate complex local vectors (N, 3) into scenario axes (column products)."""
         rotation = self.placement.rotation
         if np.array_equal(rotation, np.eye(3)):
             return vectors
         out = np.empty_like(vectors)
-        out.real = vectors.real @ rotation.T
-        out.imag = vectors.imag @ rotation.T
+        for i in range(3):
+            terms = [(j, rotation[i, j]) for j in range(3) if rotation[i, j] != 0.0]
+            if not terms:
+                out[:, i] = 0.0
+                continue
+            j0, c0 = terms[0]
+            np.multiply(vectors[:, j0], c0, out=out[:, i])
+            for j, c in terms[1:]:
+                out[:, i] += vectors[:, j] * c
         return out
 
     def _local_fields(
@@ -1079,6 +1563,14 @@ class ApertureRadiator(Radiator):
             p[close, 2] = side * np.sqrt(np.maximum(h_min**2 - lateral[close] ** 2, 0.0))
         return p
 
+    def _run(self, run: Callable[[tuple], None], tasks: list[tuple]) -> None:
+        """Run independent tasks, on :attr:`threads` worker threads where there are several."""
+        if self.threads > 1 and len(tasks) > 1:
+            list(_pool(self.threads).map(run, tasks))
+        else:
+            for task in tasks:
+                run(task)
+
     def _evaluate_local(
         self, points_local_m: NDArray[np.float64], method: str
     ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
@@ -1092,33 +1584,62 @@ class ApertureRadiator(Radiator):
         if self.distribution.equivalence == GROUND_PLANE:
             active &= pts[:, 2] >= 0
         r = np.linalg.norm(pts, axis=1)
-        if method == "adaptive":
-            far = active & (r >= self.far_zone_distance_m)
-            if np.any(far):
-                ef, hf = self._far_zone_fields(pts[far], r[far])
-                e[far], h[far] = ef, hf
-            active &= ~far
-        index = np.nonzero(active)[0]
+        if method == "direct":
+            index = np.nonzero(active)[0]
+            if index.size:
+                self._direct_fields(pts, r, index, e, h)
+            return e, h
+        far = active & (r >= self.far_zone_distance_m)
+        if np.any(far):
+            ef, hf = self._far_zone_fields(pts[far], r[far])
+            e[far], h[far] = ef, hf
+        index = np.nonzero(active & ~far)[0]
         if index.size == 0:
             return e, h
-        if method == "direct":
-            orders = np.tile(np.array(self.direct_orders()), (index.size, 1))
-            dtype: type = np.float64
-        else:
-            orders = self.adaptive_orders(pts[index])
-            dtype = np.float32
+        orders = self.adaptive_orders(pts[index])
+        groups = _groups(orders)
+        # points sorted by rule, so that every block is a contiguous slice
+        index = index[np.concatenate([g for _, g in groups])]
+        near = pts[index]
+        moments = np.empty((10, self._mixing.shape[0], index.size), dtype=complex)
         tasks = []
-        codes = orders[:, 0] * (MAX_ORDER + 1) + orders[:, 1]
-        order = np.argsort(codes, kind="stable")
-        sorted_codes = codes[order]
-        bounds = np.flatnonzero(np.diff(sorted_codes)) + 1
-        for group in np.split(order, bounds):
-            nx, ny = (int(v) for v in orders[group[0]])
-            members = index[group]
-            rule = self._rule(nx, ny)
+        offset = 0
+        for (nx, ny), group in groups:
+            rule = self._moment_rule(nx, ny)
             block = max(1, BLOCK_PAIRS // (nx * ny))
-            for start in range(0, members.size, block):
-                tasks.append((members[start : start + block], rule))
+            for start in range(offset, offset + group.size, block):
+                tasks.append((start, min(offset + group.size, start + block), rule))
+            offset += group.size
+        k = self.wavenumber_rad_m
+
+        def run(task: tuple) -> None:
+            start, stop, rule = task
+            p = near[start:stop]
+            target = moments[:, :, start:stop]
+            for i, (nodes, mom) in enumerate(rule):  # a large rule: slices of nodes
+                dyadic_moment_sums(p, nodes, mom, k, out=target, accumulate=i > 0)
+
+        self._run(run, tasks)
+        sums = kernel_sums_from_moments(moments, near[:, 0], near[:, 1])
+        el, hl = fields_from_mixed_sums(sums, self._mixing, near[:, 2], k)
+        phase = (self._scale * np.exp(-1j * k * r[index]))[:, None]
+        e[index] = el * phase
+        h[index] = hl * phase
+        return e, h
+
+    def _direct_fields(
+        self,
+        pts: NDArray[np.float64],
+        r: NDArray[np.float64],
+        index: NDArray[np.intp],
+        e: NDArray[np.complex128],
+        h: NDArray[np.complex128],
+    ) -> None:
+        """``method="direct"``: the fixed fine rule, every kernel explicit, double precision."""
+        nx, ny = self.direct_orders()
+        rule = self._rule(nx, ny)
+        block = max(1, BLOCK_PAIRS // (nx * ny))
+        tasks = [(index[s:t], rule) for s, t in _slices(index.size, block)]
         k = self.wavenumber_rad_m
 
         def run(task: tuple) -> None:
@@ -1127,7 +1648,7 @@ class ApertureRadiator(Radiator):
             p = pts[members]
             # a rule larger than a block is summed in slices of nodes (memory bound)
             sums = sum(
-                dyadic_kernel_sums(p, xx[s:t], yy[s:t], basis[s:t], k, dtype)
+                dyadic_kernel_sums(p, xx[s:t], yy[s:t], basis[s:t], k, np.float64)
                 for s, t in _slices(xx.size, BLOCK_PAIRS)
             )
             sums = np.einsum("mpr,rc->mpc", sums, mixing)
@@ -1136,13 +1657,7 @@ class ApertureRadiator(Radiator):
             e[members] = el * phase
             h[members] = hl * phase
 
-        if self.threads > 1 and len(tasks) > 1:
-            with ThreadPoolExecutor(max_workers=self.threads) as pool:
-                list(pool.map(run, tasks))
-        else:
-            for task in tasks:
-                run(task)
-        return e, h
+        self._run(run, tasks)
 
     def _far_zone_fields(
         self, points_local_m: NDArray[np.float64], r_m: NDArray[np.float64]
