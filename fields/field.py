@@ -33,6 +33,8 @@ References
 
 from __future__ import annotations
 
+import os
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -42,8 +44,72 @@ from keepclear.antennas.base import ETA0_OHM, Radiator, as_points
 
 from .scenario import Scenario
 
-#: Points per chunk of the orchestrator (each radiator chunks further inside).
-DEFAULT_CHUNK_POINTS = 131072
+#: Default and largest memory budget of one evaluation [bytes] (the scratch of the sums;
+#: the N x 3 points and the N results are the caller's).
+DEFAULT_MEMORY_BYTES = 1024**3
+MAX_MEMORY_BYTES = 1024**3
+#: Smallest budget accepted [bytes]: a radiator's own chunk (64 MiB) must fit beside a chunk.
+MIN_MEMORY_BYTES = 128 * 1024**2
+#: Environment variable that sets the budget for a whole run [bytes].
+MEMORY_ENV = "KEEPCLEAR_MEMORY_BYTES"
+#: Points per chunk of the orchestrator.  Small chunks keep the temporaries of the sums in
+#: the processor's cache: on the 2-core test machine 4096 points cost 3 to 4 times less a
+#: point than 8192 or more (tests/benchmarks).  Each radiator chunks further inside.
+DEFAULT_CHUNK_POINTS = 4096
+#: Scratch one point of a chunk costs in the orchestrator, per field (direct or image)
+#: summed: E and H and their temporaries [bytes].
+_FIELD_BYTES_PER_POINT = 480
+
+
+def memory_budget_bytes(requested: int | None = None) -> int:
+    """The memory budget of an evaluation [bytes]: the one setting every chunk follows.
+
+    Parameters
+    ----------
+    requested : int, optional
+        Budget asked for [bytes]; default the environment variable ``KEEPCLEAR_MEMORY_BYTES``
+        if set, else 1 GiB.
+
+    Returns
+    -------
+    int
+        The budget, clamped to 128 MiB .. 1 GiB (never more than 1 GiB); a value of the
+        environment variable that is not a number of bytes is ignored with a warning.
+    """
+    if requested is None:
+        requested = DEFAULT_MEMORY_BYTES
+        text = os.environ.get(MEMORY_ENV, "").strip()
+        if text:
+            try:
+                value = float(text)
+            except ValueError:
+                value = float("nan")
+            if np.isfinite(value):
+                requested = int(value)
+            else:
+                warnings.warn(
+                    f"{MEMORY_ENV}={text!r} is not a number of bytes; using 1 GiB",
+                    UserWarning,
+                    stacklevel=2,
+                )
+    return int(min(max(int(requested), MIN_MEMORY_BYTES), MAX_MEMORY_BYTES))
+
+
+def chunk_plan(scenario: Scenario, memory_bytes: int | None = None) -> tuple[int, int]:
+    """Points per chunk and the radiators' own chunk budget [bytes] under the memory budget.
+
+    The budget is split in half: one half bounds the radiators' scratch (each radiator
+    chunks its points by ``chunk_bytes`` and its ``bytes_per_point``; an image is the
+    radiator evaluated at mirrored points), the other the orchestrator's chunk, at
+    :data:`_FIELD_BYTES_PER_POINT` for the direct field and each image of every term, and
+    at most :data:`DEFAULT_CHUNK_POINTS` points.
+    """
+    budget = memory_budget_bytes(memory_bytes)
+    n_refl = len(scenario.reflectors)
+    images = n_refl + (n_refl * (n_refl - 1) if n_refl > 1 else 0)
+    per_point = 64 + _FIELD_BYTES_PER_POINT * (1 + images)
+    points = max(1, min(DEFAULT_CHUNK_POINTS, (budget // 2) // per_point))
+    return points, budget // 2
 
 
 @dataclass(frozen=True)
@@ -153,11 +219,14 @@ def _reflected_path_factor(
 
 
 def _term_squares(
-    term: RadiatingTerm, scenario: Scenario, points_m: NDArray[np.float64]
+    term: RadiatingTerm,
+    scenario: Scenario,
+    points_m: NDArray[np.float64],
+    chunk_bytes: int = 64 * 1024**2,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """|E|^2 and |H|^2 of one term at points, reflections and shields included."""
     radiator = term.radiator
-    e, h = radiator.fields(points_m)
+    e, h = radiator.fields(points_m, chunk_bytes)
     if scenario.shields:
         f = _shield_factor(
             scenario, radiator.position_m, points_m, 0.5 * radiator.largest_dimension_m
@@ -202,8 +271,10 @@ def _term_squares(
 def evaluate(
     scenario: Scenario,
     points_m: ArrayLike,
-    chunk_points: int = DEFAULT_CHUNK_POINTS,
+    chunk_points: int | None = None,
     progress: object | None = None,
+    *,
+    memory_bytes: int | None = None,
 ) -> FieldResult:
     """E, H and power density of a scenario at points.
 
@@ -213,10 +284,14 @@ def evaluate(
         The validated scenario.
     points_m : array_like, shape (N, 3)
         Field points in scenario coordinates [m].
-    chunk_points : int
-        Points per chunk (bounds the memory of the image sums).
+    chunk_points : int, optional
+        Points per chunk; default from :func:`chunk_plan` (never more than the memory
+        budget allows).
     progress : callable, optional
         Called as ``progress(done, total)`` after each chunk.
+    memory_bytes : int, optional
+        Memory budget of the evaluation's scratch [bytes]; see
+        :func:`memory_budget_bytes` (default 1 GiB, or ``KEEPCLEAR_MEMORY_BYTES``).
 
     Returns
     -------
@@ -229,29 +304,33 @@ def evaluate(
     e2_peak = np.zeros(n)
     h2_peak = np.zeros(n)
     terms = radiating_terms(scenario)
-    step = max(1, int(chunk_points))
-    cavity = _cavity_squares(scenario, pts)
+    plan_points, radiator_bytes = chunk_plan(scenario, memory_bytes)
+    step = plan_points if chunk_points is None else max(1, min(int(chunk_points), plan_points))
     for start in range(0, n, step):
         sl = slice(start, min(n, start + step))
         chunk = pts[sl]
         for term in terms:
-            e2, h2 = _term_squares(term, scenario, chunk)
+            e2, h2 = _term_squares(term, scenario, chunk, radiator_bytes)
             e2_avg[sl] += term.average_weight * e2
             h2_avg[sl] += term.average_weight * h2
             e2_peak[sl] += term.peak_weight * e2
             h2_peak[sl] += term.peak_weight * h2
+        cavity = _cavity_squares(scenario, chunk, radiator_bytes)
+        if cavity is not None:
+            mask, c2_avg, c2_peak, direct = cavity
+            inner = np.flatnonzero(mask) + start
+            e2_avg[inner] += c2_avg + direct[0]
+            h2_avg[inner] += c2_avg / ETA0_OHM**2 + direct[1]
+            e2_peak[inner] += c2_peak + direct[2]
+            h2_peak[inner] += c2_peak / ETA0_OHM**2 + direct[3]
         if progress is not None:
             progress(sl.stop, n)  # type: ignore[operator]
-    if cavity is not None:
-        mask, c2_avg, c2_peak, direct = cavity
-        e2_avg[mask] += c2_avg + direct[0]
-        h2_avg[mask] += c2_avg / ETA0_OHM**2 + direct[1]
-        e2_peak[mask] += c2_peak + direct[2]
-        h2_peak[mask] += c2_peak / ETA0_OHM**2 + direct[3]
     return _result(e2_avg, h2_avg, e2_peak, h2_peak)
 
 
-def _cavity_squares(scenario: Scenario, pts: NDArray[np.float64]):  # noqa: ANN202
+def _cavity_squares(  # noqa: ANN202
+    scenario: Scenario, pts: NDArray[np.float64], chunk_bytes: int = 64 * 1024**2
+):
     """Inside the enclosure: the stirred cavity field plus the sources' direct fields."""
     enclosure = scenario.enclosure
     if enclosure is None:
@@ -272,7 +351,7 @@ def _cavity_squares(scenario: Scenario, pts: NDArray[np.float64]):  # noqa: ANN2
     inner = pts[mask]
     direct = [np.zeros(inner.shape[0]) for _ in range(4)]
     for s in enclosed:
-        e, h = s.radiator.fields(inner)
+        e, h = s.radiator.fields(inner, chunk_bytes)
         e2, h2 = np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
         direct[0] += s.duty_cycle * e2
         direct[1] += s.duty_cycle * h2
