@@ -190,6 +190,9 @@ MAX_ORDER: Final[int] = int(_ORDER_LADDER[-1])
 #: Field-point x node pairs evaluated in one block (fits the L2 cache).
 BLOCK_PAIRS: Final[int] = 32768
 
+#: Point-node pairs of one call below which the blocks run on the calling thread only.
+THREAD_MIN_PAIRS: Final[int] = 2**21
+
 #: Largest memory a radiator's cache of quadrature rules may hold [bytes]
 #: (a near-field rule costs about 60 bytes a node, a direct one about 40).
 RULE_CACHE_BYTES: Final[int] = 128 * 1024**2
@@ -1563,9 +1566,13 @@ class ApertureRadiator(Radiator):
             p[close, 2] = side * np.sqrt(np.maximum(h_min**2 - lateral[close] ** 2, 0.0))
         return p
 
-    def _run(self, run: Callable[[tuple], None], tasks: list[tuple]) -> None:
-        """Run independent tasks, on :attr:`threads` worker threads where there are several."""
-        if self.threads > 1 and len(tasks) > 1:
+    def _run(self, run: Callable[[tuple], None], tasks: list[tuple], pairs: int) -> None:
+        """Run independent tasks, on :attr:`threads` worker threads when the work pays.
+
+        ``pairs`` is the number of point-node pairs of all tasks: below
+        :data:`THREAD_MIN_PAIRS` handing tasks to threads costs more than it saves.
+        """
+        if self.threads > 1 and len(tasks) > 1 and pairs >= THREAD_MIN_PAIRS:
             list(_pool(self.threads).map(run, tasks))
         else:
             for task in tasks:
@@ -1604,12 +1611,14 @@ class ApertureRadiator(Radiator):
         moments = np.empty((10, self._mixing.shape[0], index.size), dtype=complex)
         tasks = []
         offset = 0
+        pairs = 0
         for (nx, ny), group in groups:
             rule = self._moment_rule(nx, ny)
             block = max(1, BLOCK_PAIRS // (nx * ny))
             for start in range(offset, offset + group.size, block):
                 tasks.append((start, min(offset + group.size, start + block), rule))
             offset += group.size
+            pairs += group.size * nx * ny
         k = self.wavenumber_rad_m
 
         def run(task: tuple) -> None:
@@ -1619,7 +1628,7 @@ class ApertureRadiator(Radiator):
             for i, (nodes, mom) in enumerate(rule):  # a large rule: slices of nodes
                 dyadic_moment_sums(p, nodes, mom, k, out=target, accumulate=i > 0)
 
-        self._run(run, tasks)
+        self._run(run, tasks, pairs)
         sums = kernel_sums_from_moments(moments, near[:, 0], near[:, 1])
         el, hl = fields_from_mixed_sums(sums, self._mixing, near[:, 2], k)
         phase = (self._scale * np.exp(-1j * k * r[index]))[:, None]
@@ -1657,7 +1666,7 @@ class ApertureRadiator(Radiator):
             e[members] = el * phase
             h[members] = hl * phase
 
-        self._run(run, tasks)
+        self._run(run, tasks, index.size * nx * ny)
 
     def _far_zone_fields(
         self, points_local_m: NDArray[np.float64], r_m: NDArray[np.float64]

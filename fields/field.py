@@ -52,10 +52,11 @@ MAX_MEMORY_BYTES = 1024**3
 MIN_MEMORY_BYTES = 128 * 1024**2
 #: Environment variable that sets the budget for a whole run [bytes].
 MEMORY_ENV = "KEEPCLEAR_MEMORY_BYTES"
-#: Points per chunk of the orchestrator.  Small chunks keep the temporaries of the sums in
-#: the processor's cache: on the 2-core test machine 4096 points cost 3 to 4 times less a
-#: point than 8192 or more (tests/benchmarks).  Each radiator chunks further inside.
-DEFAULT_CHUNK_POINTS = 4096
+#: Largest number of points per chunk of the orchestrator; a call is cut into equal chunks
+#: of at most this size.  Small chunks keep the temporaries of the sums in the processor's
+#: cache: on the 2-core test machine chunks of 4096 to 6144 points cost 3 to 4 times less
+#: a point than 8192 or more.  Each radiator chunks further inside.
+DEFAULT_CHUNK_POINTS = 6144
 #: Scratch one point of a chunk costs in the orchestrator, per field (direct or image)
 #: summed: E and H and their temporaries [bytes].
 _FIELD_BYTES_PER_POINT = 480
@@ -200,22 +201,41 @@ def _shield_factor(
     return factor
 
 
-def _reflected_path_factor(
-    scenario: Scenario, reflector: object, radiator: Radiator, points_m: NDArray[np.float64]
+def _bounce_points(
+    reflector: object, source_m: NDArray[np.float64], points_m: NDArray[np.float64]
 ) -> NDArray[np.float64]:
-    """Shield factor along both legs of the specular path via one plane."""
-    source = radiator.position_m
-    image = reflector.mirror_points(source[None, :])[0]  # type: ignore[attr-defined]
+    """Specular reflection points on one plane for rays from ``source_m`` to points."""
+    image = reflector.mirror_points(source_m[None, :])[0]  # type: ignore[attr-defined]
     d_image = abs(float(reflector.signed_distance_m(image[None, :])[0]))  # type: ignore[attr-defined]
     d_points = np.abs(reflector.signed_distance_m(points_m))  # type: ignore[attr-defined]
     t = d_image / np.maximum(d_image + d_points, 1e-12)
-    bounce = image + t[:, None] * (points_m - image)
+    return image + t[:, None] * (points_m - image)
+
+
+def _path_factors(
+    scenario: Scenario, radiator: Radiator, points_m: NDArray[np.float64], n_images: int
+) -> tuple[NDArray[np.float64], list[NDArray[np.float64]]]:
+    """Shield factors of the direct ray and of the first ``n_images`` reflected paths.
+
+    A reflected path gets the product of its two legs, source -> reflection point ->
+    field point (a sheet behind the plane is not on it).  The legs from the source (with
+    the source's extent) are asked of each shield in one call, and so are the legs back,
+    so the fixed cost of a shield's evaluation is paid twice, not once per image and leg.
+    """
+    n = points_m.shape[0]
+    source = radiator.position_m
+    bounces = [_bounce_points(scenario.reflectors[k], source, points_m) for k in range(n_images)]
     extent = 0.5 * radiator.largest_dimension_m
-    leg_out = _shield_factor(scenario, source, bounce, extent)
-    leg_back = np.ones(points_m.shape[0])
-    for shield in scenario.shields:
-        leg_back *= shield.amplitude_factor(bounce, points_m)
-    return leg_out * leg_back
+    out = _shield_factor(scenario, source, np.vstack([points_m, *bounces]), extent)
+    direct = out[:n]
+    images = [out[(k + 1) * n : (k + 2) * n] for k in range(n_images)]
+    if n_images:
+        back = np.ones(n * n_images)
+        starts, ends = np.vstack(bounces), np.tile(points_m, (n_images, 1))
+        for shield in scenario.shields:
+            back *= shield.amplitude_factor(starts, ends)
+        images = [f * back[k * n : (k + 1) * n] for k, f in enumerate(images)]
+    return direct, images
 
 
 def _term_squares(
@@ -227,10 +247,9 @@ def _term_squares(
     """|E|^2 and |H|^2 of one term at points, reflections and shields included."""
     radiator = term.radiator
     e, h = radiator.fields(points_m, chunk_bytes)
+    image_factors: list[NDArray[np.float64]] = []
     if scenario.shields:
-        f = _shield_factor(
-            scenario, radiator.position_m, points_m, 0.5 * radiator.largest_dimension_m
-        )
+        f, image_factors = _path_factors(scenario, radiator, points_m, len(scenario.reflectors))
         e = e * f[:, None]
         h = h * f[:, None]
     if not scenario.reflectors:
@@ -248,8 +267,8 @@ def _term_squares(
         # no credit (conservative: their path is not traced).
         shaded = []
         for k, (ei, hi) in enumerate(images):
-            if k < len(scenario.reflectors):
-                f = _reflected_path_factor(scenario, scenario.reflectors[k], radiator, points_m)
+            if k < len(image_factors):
+                f = image_factors[k]
                 ei, hi = ei * f[:, None], hi * f[:, None]
             shaded.append((ei, hi))
         images = shaded
@@ -306,6 +325,7 @@ def evaluate(
     terms = radiating_terms(scenario)
     plan_points, radiator_bytes = chunk_plan(scenario, memory_bytes)
     step = plan_points if chunk_points is None else max(1, min(int(chunk_points), plan_points))
+    step = -(-n // max(1, -(-n // step)))  # equal chunks: no small remainder
     for start in range(0, n, step):
         sl = slice(start, min(n, start + step))
         chunk = pts[sl]

@@ -69,6 +69,8 @@ from .scenario import Scenario
 SCREENING_GROUND_FIELD_REFLECTION = 0.6
 #: Relative width of the final bracket of the bisection.
 RADIUS_TOLERANCE = 1e-4
+#: Radial samples evaluated per pass of the outside-in sweep along the rays.
+RADIAL_BLOCK = 8
 
 
 @dataclass(frozen=True)
@@ -233,19 +235,15 @@ class _Search:
         reach = self.r_max + float(np.max(np.linalg.norm(origins - self.centre, axis=1)))
         for _ in range(8):
             radii = _radii(reach, wavelength, self.coherent)
-            pts = origins[:, None, :] + directions[:, None, :] * radii[None, :, None]
-            q = self.quotients(pts.reshape(-1, 3)).reshape(
-                len(self.rows), len(directions), len(radii)
-            )
-            above = q >= 1.0
-            if not above[:, :, -1].any():
+            last = self._outermost(origins, directions, radii)
+            if last is not None:
                 break
             reach *= 2.0
             self.r_max *= 2.0
         else:  # pragma: no cover - the bound doubled 8 times: a model fault, not input
             raise RuntimeError("keep-out search did not close: the field does not decay")
-        any_above = above.any(axis=2)
-        last = len(radii) - 1 - np.argmax(above[:, :, ::-1], axis=2)
+        any_above = last >= 0
+        last = np.maximum(last, 0)
         lo = np.where(any_above, radii[last], 0.0)
         hi = np.where(any_above, radii[np.minimum(last + 1, len(radii) - 1)], 0.0)
         while True:
@@ -259,6 +257,37 @@ class _Search:
             lo[ri[up], di[up]] = mid[up]
             hi[ri[~up], di[~up]] = mid[~up]
         return np.where(any_above, hi, 0.0)
+
+    def _outermost(
+        self, origins: NDArray[np.float64], directions: NDArray[np.float64], radii: NDArray
+    ) -> NDArray[np.intp] | None:
+        """Index of the outermost radius at or above the limit, (rows, D); -1 where none.
+
+        None when the outermost sample of some ray is above (the grid must reach farther).
+        The samples are evaluated from the outside in, :data:`RADIAL_BLOCK` radii a pass,
+        and a ray is dropped once every row has found its outermost exceedance on it: the
+        samples inside it cannot change the answer, and they are the costly ones (close to
+        the sources).  The result is the one a full evaluation of every sample gives.
+        """
+        n_rows, n_dirs, n_radii = len(self.rows), len(directions), len(radii)
+        last = np.full((n_rows, n_dirs), -1, dtype=np.intp)
+        open_rays = np.arange(n_dirs)
+        stop = n_radii
+        while stop > 0 and open_rays.size:
+            start = max(0, stop - RADIAL_BLOCK)
+            rr = radii[start:stop]
+            pts = origins[open_rays, None, :] + directions[open_rays, None, :] * rr[None, :, None]
+            q = self.quotients(pts.reshape(-1, 3)).reshape(n_rows, open_rays.size, rr.size)
+            above = q >= 1.0
+            if stop == n_radii and above[:, :, -1].any():
+                return None
+            hit = above.any(axis=2)
+            index = start + rr.size - 1 - np.argmax(above[:, :, ::-1], axis=2)
+            current = last[:, open_rays]
+            last[:, open_rays] = np.where((current < 0) & hit, index, current)
+            open_rays = open_rays[(last[:, open_rays] < 0).any(axis=0)]
+            stop = start
+        return last
 
 
 class _Best:
