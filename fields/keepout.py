@@ -16,14 +16,18 @@ values where the standard gives them.
    source side, from the foot of the centre: next to a floor the exceedance is a thin
    layer (the reflection adds most at grazing incidence) that reaches farthest on the
    floor, between any two rays from the centre.
-2. Along each ray the quotient is sampled outward on a grid that is fine near the
+2. Along each ray the quotient is sampled on a grid that is fine near the
    source (a sixteenth of a wavelength) and grows geometrically (3 % a step)
    further out; in coherent-reflection mode the step stays at a sixteenth of a
    wavelength so no standing-wave crest is stepped over.  The search keeps the
    **outermost** sample at or above the limit (a near-field density need not fall
    monotonically, so stopping at the first crossing would be wrong) and
    bisects the interval beyond it to 1e-4 relative.  The reported radius is the
-   outer end of the final bracket, never the inner one.
+   outer end of the final bracket, never the inner one.  The samples are taken
+   from the outside in, a few radii a pass, and a ray is left once every
+   question asked of it has found its outermost exceedance: the samples inside
+   cannot change the answer (it is the one a full evaluation gives), and they are
+   the costly ones, close to the sources.
 3. Around the three farthest rays of every limit, three levels of denser rays follow
    (direction caps for rays from the centre, finer azimuths for rays along a plane),
    so a narrow beam is not missed between lattice directions.
