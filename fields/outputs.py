@@ -213,10 +213,194 @@ def _count_rows(path: Path, block_bytes: int = 1 << 20) -> int:
 
 
 def probe_csv_bytes(points_m: NDArray[np.float64], columns: Iterable[NDArray[np.float64]]) -> bytes:
-    """The probe CSV (contract header, rows in input order) as bytes."""
+    """The probe CSV (contract header, rows in input order) as bytes.
+
+    Every number is written as ``"%.9g" % value`` (the text ``np.savetxt`` with that
+    format gives, byte for byte), by :func:`csv_rows_g9`.
+    """
     table = np.column_stack([points_m, *columns])
-    buf = io.BytesIO()
-    buf.write((",".join(PROBE_CSV_COLUMNS) + "\n").encode())
-    if table.shape[0]:
-        np.savetxt(buf, table, delimiter=",", fmt="%.9g")
-    return buf.getvalue()
+    header = (",".join(PROBE_CSV_COLUMNS) + "\n").encode()
+    if not table.shape[0]:
+        return header
+    return header + csv_rows_g9(table)
+
+
+# ------------------------------------------------------------- "%.9g" in bulk
+_G9_WIDTH = 16  # longest "%.9g" text of a finite double: "-1.23456789e-300"
+with np.errstate(over="ignore"):
+    _POW10 = 10.0 ** np.arange(-330, 331, dtype=float)
+# Palette columns of one value: its nine digits, then these characters.
+_P_DOT, _P_ZERO, _P_E, _P_EXP_SIGN, _P_EXP0, _P_EXP1, _P_EXP2, _P_MINUS, _P_NUL = range(9, 18)
+_PALETTE = 18
+
+
+def _g9_templates() -> tuple[NDArray[np.int64], NDArray[np.int64]]:
+    """Palette indices (layouts, 16) and lengths (layouts,) of every "%.9g" layout.
+
+    Layouts without sign: fixed notation with decimal exponent X = 0..8 and t trailing
+    zeros (X * 9 + t); fixed notation with X = -1..-4 (81 + (-X - 1) * 9 + t); scientific
+    notation with two or three exponent digits (117 + 9 * three + t); then 135: zero.  The
+    same with a leading minus sign follow at +136.
+    """
+    layouts: list[list[int]] = []
+    for x in range(9):
+        for t in range(9):
+            kept = 8 - x - t
+            layouts.append(
+                list(range(x + 1)) + ([_P_DOT, *range(x + 1, x + 1 + kept)] if kept > 0 else [])
+            )
+    for z in range(4):
+        for t in range(9):
+            layouts.append([_P_ZERO, _P_DOT] + [_P_ZERO] * z + list(range(9 - t)))
+    for three in (0, 1):
+        for t in range(9):
+            kept = 8 - t
+            mantissa = [0] + ([_P_DOT, *range(1, 1 + kept)] if kept else [])
+            exponent = [_P_E, _P_EXP_SIGN, _P_EXP0, _P_EXP1] + ([_P_EXP2] if three else [])
+            layouts.append(mantissa + exponent)
+    layouts.append([_P_ZERO])
+    layouts += [[_P_MINUS, *layout] for layout in layouts]
+    table = np.full((len(layouts), _G9_WIDTH), _P_NUL, dtype=np.int64)
+    lengths = np.zeros(len(layouts), dtype=np.int64)
+    for i, layout in enumerate(layouts):
+        table[i, : len(layout)] = layout
+        lengths[i] = len(layout)
+    return table, lengths
+
+
+_G9_TEMPLATE, _G9_LENGTH = _g9_templates()
+_G9_TEMPLATE32 = _G9_TEMPLATE.astype(np.int32)
+_G9_SIGNED = _G9_TEMPLATE.shape[0] // 2
+_G9_ZERO_LAYOUT = _G9_SIGNED - 1  # "0" (layout 135)
+
+
+def _g9_exponent_tables() -> tuple[NDArray[np.uint8], NDArray[np.int64]]:
+    """Exponent characters and layout bases by decimal exponent X = -330..330.
+
+    The characters are sign, d0, d1, d2 of "e+XX" or "e-XXX" (palette columns); the base
+    is the layout without its trailing zeros and sign.
+    """
+    chars = np.zeros((661, 4), dtype=np.uint8)
+    base = np.zeros(661, dtype=np.int64)
+    for x in range(-330, 331):
+        digits = f"{abs(x):02d}"
+        chars[x + 330] = np.frombuffer(
+            ("-" if x < 0 else "+").encode() + (digits + "0" * (3 - len(digits))).encode(),
+            dtype=np.uint8,
+        )
+        if 0 <= x <= 8:
+            base[x + 330] = 9 * x
+        elif -4 <= x < 0:
+            base[x + 330] = 81 + 9 * (-x - 1)
+        else:
+            base[x + 330] = 117 + 9 * (abs(x) >= 100)
+    return chars, base
+
+
+_G9_EXPONENT_CHARS, _G9_LAYOUT_BASE = _g9_exponent_tables()
+
+
+def format_g9(values: NDArray[np.float64]) -> tuple[NDArray[np.uint8], NDArray[np.int64]]:
+    """``"%.9g" % v`` for every value, vectorised: ASCII (N, 16), NUL-padded, and lengths.
+
+    Parameters
+    ----------
+    values : ndarray
+        Numbers (flattened).
+
+    Returns
+    -------
+    chars : ndarray, shape (N, 16), uint8
+        The text of each value, left-aligned.
+    lengths : ndarray, shape (N,)
+        Characters used.
+
+    Notes
+    -----
+    printf rounds the exact binary value to nine significant digits.  Here the value is
+    scaled by a power of ten in double precision (error below 1e-6 of a unit in the ninth
+    digit) and rounded to the nearest integer; where the scaled value lies within 1e-6 of
+    a half (a tie could go either way), and for infinities, NaN and magnitudes outside
+    1e-300..1e300, the value is formatted one by one by Python instead.  The layout rules
+    are those of C's ``%g``: fixed notation for decimal exponents -4..8, scientific
+    otherwise, trailing zeros and a bare point removed, exponents of at least two digits.
+    """
+    v = np.asarray(values, dtype=float).ravel()
+    n = v.size
+    a = np.abs(v)
+    fast = np.isfinite(a) & (a >= 1e-300) & (a <= 1e300)
+    af = np.where(fast, a, 1.0)
+    e = np.floor(np.log10(af)).astype(np.int64)
+    m = af * _POW10[8 - e + 330]
+    low = m < 1e8  # log10 rounded up below a power of ten
+    e -= low
+    m[low] *= 10.0
+    high = m >= 1e9
+    e += high
+    m[high] /= 10.0
+    tie = np.abs(m - np.floor(m) - 0.5) <= 1e-6
+    d = np.rint(m).astype(np.int64)
+    up = d >= 1_000_000_000
+    if up.any():
+        d[up] //= 10
+        e += up
+    ok = fast & ~tie & (d >= 100_000_000) & (d < 1_000_000_000)
+    zero = a == 0
+    palette = np.empty((n, _PALETTE), dtype=np.uint8)
+    q = np.where(ok, d, 100_000_000).astype(np.uint32)
+    ten = np.uint32(10)
+    trailing = np.zeros(n, dtype=np.int64)
+    still = np.ones(n, dtype=bool)
+    for j in range(8, -1, -1):
+        r = q // ten
+        digit = q - r * ten
+        palette[:, j] = digit + ord("0")
+        if j:
+            still &= digit == 0
+            trailing += still
+        q = r
+    ex = np.clip(e, -330, 330) + 330
+    palette[:, _P_DOT] = ord(".")
+    palette[:, _P_ZERO] = ord("0")
+    palette[:, _P_E] = ord("e")
+    palette[:, _P_EXP_SIGN : _P_EXP2 + 1] = _G9_EXPONENT_CHARS[ex]
+    palette[:, _P_MINUS] = ord("-")
+    palette[:, _P_NUL] = 0
+    layout = _G9_LAYOUT_BASE[ex] + trailing
+    layout[zero] = _G9_ZERO_LAYOUT
+    layout += _G9_SIGNED * np.signbit(v)
+    slow = ~(ok | zero)
+    layout[slow] = _G9_ZERO_LAYOUT  # replaced below
+    index = _G9_TEMPLATE32[layout]
+    index += (np.arange(n, dtype=np.int32) * np.int32(_PALETTE))[:, None]
+    chars = np.take(palette.reshape(-1), index)
+    lengths = _G9_LENGTH[layout]
+    for i in np.flatnonzero(slow):
+        text = format(float(v[i]), ".9g").encode("ascii")
+        chars[i] = 0
+        chars[i, : len(text)] = np.frombuffer(text, dtype=np.uint8)
+        lengths[i] = len(text)
+    return chars, lengths
+
+
+def csv_rows_g9(table: NDArray[np.float64], rows_per_block: int = 16384) -> bytes:
+    """Rows of comma-separated ``"%.9g"`` numbers, each ended by a newline (bytes).
+
+    The same text as ``np.savetxt(..., delimiter=",", fmt="%.9g")``, built in blocks of
+    rows with :func:`format_g9` instead of one Python format call a row.
+    """
+    table = np.asarray(table, dtype=float)
+    n, c = table.shape
+    parts = []
+    for start in range(0, n, rows_per_block):
+        block = table[start : start + rows_per_block]
+        count = block.size
+        chars, lengths = format_g9(block.reshape(-1))
+        text = np.zeros((count, _G9_WIDTH + 1), dtype=np.uint8)
+        text[:, :_G9_WIDTH] = chars
+        ends = np.full(count, ord(","), dtype=np.uint8)
+        ends[c - 1 :: c] = ord("\n")
+        text[np.arange(count), lengths] = ends
+        flat = text.reshape(-1)
+        parts.append(flat[flat != 0].tobytes())  # NUL only pads
+    return b"".join(parts)
