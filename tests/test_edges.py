@@ -184,7 +184,7 @@ def test_probe_at_beyond_the_coordinate_bound_is_refused(write_scenario, at):
 # --------------------------------------------------------------- band edges
 # Outer edges of the published tables: ICNIRP 2020 guidelines, title "100 kHz to 300 GHz";
 # 47 CFR 1.1310 Table 1, 0.3-100,000 MHz; 21 CFR 1030.10(b), ovens 890-6000 MHz (as cited
-# in fields/limits.py and /work/shared/notes/standards.md, FOUND).
+# in fields/limits.py and the shared standards notes (shared/notes/standards.md), FOUND).
 OUTER_EDGES = {
     "icnirp-2020/general-public": (1e5, 3e11),
     "icnirp-2020/occupational-local": (1e5, 3e11),

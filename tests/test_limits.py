@@ -19,7 +19,7 @@ from keepclear.fields.errors import InputError, LimitError
 ETA0 = math.sqrt(constants.mu_0 / constants.epsilon_0)  # 376.73 ohm, scipy.constants
 MHZ, GHZ = 1e6, 1e9
 
-# The contract (/work/shared/contract.md, "Limit identifiers"), in its order.
+# The contract (shared/contract.md beside the repository, "Limit identifiers"), in its order.
 CONTRACT_IDS = (
     "icnirp-2020/general-public",
     "icnirp-2020/occupational",
