@@ -138,7 +138,6 @@ References
 
 from __future__ import annotations
 
-import os
 import threading
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
@@ -192,6 +191,11 @@ BLOCK_PAIRS: Final[int] = 32768
 
 #: Point-node pairs of one call below which the blocks run on the calling thread only.
 THREAD_MIN_PAIRS: Final[int] = 2**21
+
+#: Worker threads of a radiator by default.  One: on the 2-core test machine a second
+#: thread was never faster (the kernels are many short numpy calls that take turns at the
+#: interpreter lock; tests/benchmarks/bench_engine.py measures both).
+DEFAULT_THREADS: Final[int] = 1
 
 #: Largest memory a radiator's cache of quadrature rules may hold [bytes]
 #: (a near-field rule costs about 60 bytes a node, a direct one about 40).
@@ -811,9 +815,7 @@ def dyadic_moment_sums(
     work, wide = _scratch(n)
     k = float(wavenumber_rad_m)
 
-    def buf(i: int, rows: int = 1) -> NDArray[np.float32]:
-        return work[i : i + rows].reshape(-1)[: rows * n].reshape(rows, n_nodes, n_points)
-
+    w = work[:, :n].reshape(_SCRATCH_ROWS, n_nodes, n_points)  # views, no copy
     xp = points_m[:, 0].astype(f)[None, :]
     yp = points_m[:, 1].astype(f)[None, :]
     zp = points_m[:, 2].astype(f)[None, :]
@@ -821,7 +823,7 @@ def dyadic_moment_sums(
     zz = zp * zp
     m2kx = f(-2.0 * k) * xp
     m2ky = f(-2.0 * k) * yp
-    r, tmp, arg, gr, gst, grt, u = (buf(i)[0] for i in range(7))
+    r, tmp, arg, gr, gst, grt, u = w[0], w[1], w[2], w[3], w[4], w[5], w[6]
     np.subtract(xp, xq, out=r)
     np.multiply(r, r, out=r)
     np.subtract(yp, yq, out=tmp)
@@ -848,7 +850,7 @@ def dyadic_moment_sums(
     np.multiply(gr, t, out=grt)
     tt = tmp
     np.multiply(t, t, out=tt)
-    wa, wb, wc = buf(7, 2), buf(9, 2), buf(11, 2)
+    wa, wb, wc = w[7:9], w[9:11], w[11:13]
     # a = (1 - t^2) - j t:  g a = k [(gr u - gs t) - j (gs u + gr t)],  u = 1 - t^2
     np.subtract(f(1), tt, out=u)
     np.multiply(gr, u, out=wa[0])
@@ -1091,13 +1093,6 @@ def _pool(workers: int) -> ThreadPoolExecutor:
         return pool
 
 
-def _available_cores() -> int:
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except AttributeError:  # pragma: no cover - non-Linux
-        return max(1, os.cpu_count() or 1)
-
-
 # ============================================================ orchestrator
 class ApertureRadiator(Radiator):
     """A radiator whose fields are those of a planar aperture distribution.
@@ -1117,7 +1112,7 @@ class ApertureRadiator(Radiator):
     tolerance : float
         Relative quadrature tolerance of the adaptive rule.
     threads : int, optional
-        Worker threads (default: the cores available, at most 8).
+        Worker threads (default :data:`DEFAULT_THREADS`, one).
 
     Notes
     -----
@@ -1151,7 +1146,7 @@ class ApertureRadiator(Radiator):
         self.tolerance = float(tolerance)
         #: Tolerance of the fixed rule of ``method="direct"`` (see :meth:`direct_orders`).
         self.direct_tolerance = DIRECT_TOLERANCE
-        self.threads = int(threads) if threads else min(_available_cores(), 8)
+        self.threads = int(threads) if threads else DEFAULT_THREADS
         self._rule_cache: dict[tuple, tuple] = {}
         self._rule_bytes = 0
         self._rule_lock = threading.Lock()
@@ -1496,13 +1491,20 @@ class ApertureRadiator(Radiator):
         n = local.shape[0]
         if (sx == 0 and sy == 0) or n < 2:
             return None
-        canon = local.copy()
         code = np.zeros(n, dtype=np.int8)
+        pairs_possible = False
+        for axis, (sigma, bit) in enumerate(((sx, 1), (sy, 2))):
+            if sigma:
+                negative = local[:, axis] < 0
+                code += bit * negative
+                # mirror pairs need points on both sides of that plane
+                pairs_possible |= bool(negative.any() and (local[:, axis] > 0).any())
+        if not pairs_possible:
+            return None
+        canon = local.copy()
         if sx:
-            code += local[:, 0] < 0
             np.abs(canon[:, 0], out=canon[:, 0])
         if sy:
-            code += 2 * (local[:, 1] < 0)
             np.abs(canon[:, 1], out=canon[:, 1])
         if not np.all(np.abs(canon) < 1e8):  # keys must fit int64; such points are far anyway
             return None
@@ -1583,7 +1585,13 @@ class ApertureRadiator(Radiator):
         :data:`THREAD_MIN_PAIRS` handing tasks to threads costs more than it saves.
         """
         if self.threads > 1 and len(tasks) > 1 and pairs >= THREAD_MIN_PAIRS:
-            list(_pool(self.threads).map(run, tasks))
+            shares = [tasks[i :: self.threads] for i in range(self.threads)]
+
+            def run_share(share: list[tuple]) -> None:
+                for task in share:
+                    run(task)
+
+            list(_pool(self.threads).map(run_share, shares))
         else:
             for task in tasks:
                 run(task)
