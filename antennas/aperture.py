@@ -70,9 +70,13 @@ reaches at the minimum standoff.
 Symmetry.  Where the currents have the mirror symmetries of the TE10 family
 (J_y, M_x even in x and in y, :attr:`ApertureRadiator.mirror_parities`), the
 field at a mirror point follows from the field at the point, E(Mp) = +-M E(p)
-and H(Mp) = -+M H(p); the adaptive method folds the points into one quadrant
-and evaluates each folded point once, so a map symmetric about the boresight
-costs half (sets with hardly any mirror pairs are evaluated as given).
+and H(Mp) = -+M H(p); the adaptive method folds the points of one call into
+one quadrant and evaluates each folded point once (sets with hardly any mirror
+pairs are evaluated as given).  Measured: a symmetric 250 000-point H-plane map
+of a 3 x 2 wavelength horn in one call needs half the kernel work (the whole
+call about 25 % less); a scenario map, handed over in bands of rows, gains
+nothing.  The calls run on :data:`DEFAULT_THREADS` thread (one; a second never
+paid on the 2-core test machine).
 
 ``method="direct"`` instead uses one fixed, fine rule (the one a point lambda/10
 above the aperture centre needs at 1e-7) with every kernel written out, in
