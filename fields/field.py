@@ -23,6 +23,16 @@ its duty cycle; the peak assumes every source radiates at once (conservative).
 The power density is the contract's plane-wave equivalent
 :math:`S = \\max(|E|^2/\\eta_0, \\eta_0 |H|^2)`, from the RMS E and H of the sum.
 
+Memory and chunks
+-----------------
+One setting bounds the scratch memory of an evaluation: the budget of
+:func:`memory_budget_bytes`, 1 GiB by default and at most (``memory_bytes=`` of
+:func:`evaluate`, or the environment variable ``KEEPCLEAR_MEMORY_BYTES`` for a whole
+run).  :func:`chunk_plan` splits it: half bounds the orchestrator's chunk of points (the
+fields of the direct ray and of every image, at most 6144 points, cut into equal
+chunks), half is passed down to each radiator as its ``chunk_bytes``, which it divides
+by its ``bytes_per_point``.  The N x 3 points and the N results are the caller's.
+
 References
 ----------
 .. [1] C. A. Balanis, *Advanced Engineering Electromagnetics*, 2nd ed., Wiley,
