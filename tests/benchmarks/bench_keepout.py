@@ -1,0 +1,68 @@
+"""Speed of the keep-out search on every bundled scenario, and of ``assess`` end to end.
+
+Run with ``.venv/bin/python -m pytest tests/benchmarks --benchmark-only``.  The search is
+timed from a freshly loaded scenario (no quadrature rule or derived term cached); the
+assessment runs the installed ``keepclear`` in a process of its own (start-up, maps,
+plots and report included), with its peak resident memory.  Nothing is asserted about
+speed; the answers are checked to be positive and finite.
+"""
+
+from __future__ import annotations
+
+import math
+import tempfile
+from pathlib import Path
+
+import pytest
+from _common import DEMO_ASSESS, SCENARIOS, keepclear_executable, record, run_measured
+
+from keepclear.fields.keepout import keepout_distances
+from keepclear.fields.scenario import load_scenario
+
+pytest.importorskip("pytest_benchmark")
+
+SCENARIO_FILES = sorted(SCENARIOS.glob("*.toml"))
+
+
+@pytest.mark.parametrize("path", SCENARIO_FILES, ids=[p.stem for p in SCENARIO_FILES])
+def test_bench_keepout(benchmark, path: Path):
+    benchmark.group = "keep-out search per scenario"
+    load_scenario(path)  # warm-up of the process-wide tables (limits, Gauss rules)
+
+    def search():
+        return keepout_distances(load_scenario(path))
+
+    results = benchmark.pedantic(search, rounds=3, iterations=1)
+    seconds = benchmark.stats.stats.min
+    distances = {r.limit_id: round(r.recommended_distance_m, 4) for r in results}
+    record(
+        benchmark,
+        f"keepout {path.stem}",
+        seconds=seconds,
+        distances_m=distances,
+    )
+    assert all(math.isfinite(d) and d >= 0 for d in distances.values())
+
+
+def test_bench_assess_demo(benchmark):
+    exe = keepclear_executable()
+    if exe is None:
+        pytest.skip("the keepclear console script is not installed beside this interpreter")
+    benchmark.group = "assess end to end"
+    out: dict[str, float] = {}
+
+    def run():
+        with tempfile.TemporaryDirectory() as tmp:
+            folder = Path(tmp) / "out"
+            wall, rss, _, _ = run_measured([exe, "assess", DEMO_ASSESS, "--out", folder])
+            assert (folder / "report.html").exists()
+            out.update(wall=wall, rss=rss)
+
+    benchmark.pedantic(run, rounds=1, iterations=1)
+    record(
+        benchmark,
+        f"assess {DEMO_ASSESS.stem} (process)",
+        seconds=out["wall"],
+        peak_rss_mib=out["rss"] / 2**20,
+        note="keep-out, two maps, cylinders, plots, report, start-up included",
+    )
