@@ -31,7 +31,11 @@ One setting bounds the scratch memory of an evaluation: the budget of
 run).  :func:`chunk_plan` splits it: half bounds the orchestrator's chunk of points (the
 fields of the direct ray and of every image, at most 6144 points, cut into equal
 chunks), half is passed down to each radiator as its ``chunk_bytes``, which it divides
-by its ``bytes_per_point``.  The N x 3 points and the N results are the caller's.
+by its ``bytes_per_point`` (the images, evaluated by
+:func:`keepclear.fields.reflection.reflected_fields`, use the radiators' default chunk of
+64 MiB, inside that half).  Outside the budget: the N x 3 points and the N results,
+which are the caller's, and each aperture model's cache of quadrature rules (at most
+128 MiB, a few MiB in practice).
 
 References
 ----------
