@@ -275,6 +275,9 @@ class _Search:
         """
         n_rows, n_dirs, n_radii = len(self.rows), len(directions), len(radii)
         last = np.full((n_rows, n_dirs), -1, dtype=np.intp)
+        closed = np.zeros((n_rows, n_dirs), dtype=bool)
+        boxed_below = self._boxed_prefix(origins, directions, radii)
+        outside_rows = np.array([row.outside_only for row in self.rows], dtype=bool)
         open_rays = np.arange(n_dirs)
         stop = n_radii
         while stop > 0 and open_rays.size:
@@ -288,10 +291,34 @@ class _Search:
             hit = above.any(axis=2)
             index = start + rr.size - 1 - np.argmax(above[:, :, ::-1], axis=2)
             current = last[:, open_rays]
-            last[:, open_rays] = np.where((current < 0) & hit, index, current)
-            open_rays = open_rays[(last[:, open_rays] < 0).any(axis=0)]
+            found = (current < 0) & hit
+            last[:, open_rays] = np.where(found, index, current)
+            shut = closed[:, open_rays] | found
+            # a row that counts only points outside the enclosure cannot reach the limit
+            # on the samples still below when all of them lie in the box or its walls
+            shut |= outside_rows[:, None] & (start <= boxed_below[open_rays])[None, :]
+            closed[:, open_rays] = shut
+            open_rays = open_rays[~shut.all(axis=0)]
             stop = start
         return last
+
+    def _boxed_prefix(
+        self, origins: NDArray[np.float64], directions: NDArray[np.float64], radii: NDArray
+    ) -> NDArray[np.intp]:
+        """For each ray, how many of its innermost samples lie in the enclosure or its walls.
+
+        Zero without an enclosure, or when no row counts only the points outside it.
+        """
+        enclosure = self.scenario.enclosure
+        counts = np.zeros(len(directions), dtype=np.intp)
+        if enclosure is None or not any(row.outside_only for row in self.rows):
+            return counts
+        pts = origins[:, None, :] + directions[:, None, :] * radii[None, :, None]
+        flat = pts.reshape(-1, 3)
+        boxed = (enclosure.contains(flat) | enclosure.in_wall(flat)).reshape(len(directions), -1)
+        # length of the leading run of boxed samples along each ray
+        free = ~boxed
+        return np.where(free.any(axis=1), np.argmax(free, axis=1), len(radii))
 
 
 class _Best:
