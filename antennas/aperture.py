@@ -550,10 +550,12 @@ def gauss_legendre_order_lookup(
     j = np.clip(j, 0, _TABLE_OMEGA.size - 1)
     order = table[i, j]
     if np.any(exact_fallback):
-        order = np.where(
-            exact_fallback,
-            gauss_legendre_order_from_pole(log_rho_p, bandwidth_rad, tolerance),
-            order,
+        fallback = np.nonzero(exact_fallback)
+        order = np.array(order, dtype=float, copy=True)
+        order[fallback] = gauss_legendre_order_from_pole(
+            np.broadcast_to(log_rho_p, order.shape)[fallback],
+            np.broadcast_to(bandwidth_rad, order.shape)[fallback],
+            tolerance,
         )
     return order
 
@@ -1156,6 +1158,7 @@ class ApertureRadiator(Radiator):
         self._rule_lock = threading.Lock()
         self._far_rule_cache: tuple | None = None
         self._far_basis_cache: tuple | None = None
+        self._max_gain_cache: dict[int, float] = {}
         lx, ly = distribution.half_sizes_m
         k = self.wavenumber_rad_m
         # far-field rule: fine enough for the whole visible region (omega = L (k + b))
@@ -1410,6 +1413,8 @@ class ApertureRadiator(Radiator):
     def max_gain(self, samples: int = 20000) -> float:
         """Largest gain (linear): the boresight value unless the beam is split.
 
+        The pattern does not change: the value is computed once per ``samples``.
+
         Notes
         -----
         The boresight gain, checked against fine scans of both principal
@@ -1417,6 +1422,9 @@ class ApertureRadiator(Radiator):
         a large phase error (an over-long horn flare) can have its peak off
         the axis, and then that peak is returned.
         """
+        cached = self._max_gain_cache.get(int(samples))
+        if cached is not None:
+            return cached
         theta = np.linspace(0.0, np.pi / 2, 721)
         s, c = np.sin(theta), np.cos(theta)
         zeros = np.zeros_like(theta)
@@ -1428,7 +1436,9 @@ class ApertureRadiator(Radiator):
         dirs = np.concatenate([planes, front], axis=0)
         f = self._unit_far_field(dirs)
         g = 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / (ETA0_OHM * self._unit_power)
-        return float(max(self.boresight_gain(), float(np.max(g))))
+        value = float(max(self.boresight_gain(), float(np.max(g))))
+        self._max_gain_cache[int(samples)] = value
+        return value
 
     # --------------------------------------------------------- near field
     def fields(
