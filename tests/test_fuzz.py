@@ -541,7 +541,7 @@ def test_map_arguments(tmp_path, args):
     check_map(path, out, args)
 
 
-@settings(max_examples=examples(3), suppress_health_check=FUNCTION_FIXTURE)
+@settings(max_examples=examples(2), suppress_health_check=FUNCTION_FIXTURE)
 @given(doc=valid_documents())
 def test_assess_on_valid_scenarios(tmp_path, doc):
     """The whole assessment on a 5 x 5 grid: exit 0 or 2, schema-valid JSON, and on exit 2

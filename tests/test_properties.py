@@ -432,7 +432,7 @@ def test_near_field_carries_the_power_through_any_sphere(kind, data):
 
 
 # ------------------------------------------------------ screening in free space
-@settings(max_examples=examples(12))
+@settings(max_examples=examples(8))
 @given(
     doc=documents(KEEPOUT_KINDS, max_sources=2, reflector=False, max_power_w=KEEPOUT_POWER_W),
     gain_boost=st.floats(0.0, 20.0),
