@@ -20,7 +20,6 @@ whole scenario of its own.
 from __future__ import annotations
 
 import copy
-import math
 import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -596,7 +595,3 @@ def load_scenario(path: str | Path) -> Scenario:
     except RecursionError:
         raise ScenarioError("is nested too deeply to be a scenario", label) from None
 
-
-def is_finite_number(value: Any) -> bool:
-    """True for a real, finite int or float (not a bool)."""
-    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
