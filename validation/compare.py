@@ -1,0 +1,93 @@
+"""Print keepclear's errors against the stored full-wave data, per case and region.
+
+Run with the project's environment (no openEMS needed)::
+
+    python validation/compare.py                 # every stored case, the models as they are
+    python validation/compare.py --infinite-ground   # probe cases with the ground keys removed
+                                                    # (the infinite-ground monopole)
+
+Error = 10 log10(keepclear / full wave) of the power density per radiated watt [dB]:
+positive means keepclear is higher (conservative).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import tempfile
+import tomllib
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from keepclear.fields.field import evaluate  # noqa: E402
+from keepclear.fields.scenario import load_scenario  # noqa: E402
+from tests import validation_data as vd  # noqa: E402
+
+_GROUND_KEYS = ("ground", "ground_size_m", "ground_up", "ground_offset_m", "box_depth_m")
+
+
+def _toml_value(v: object) -> str:
+    if isinstance(v, str):
+        return f'"{v}"'
+    if isinstance(v, list):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    return repr(float(v))  # type: ignore[arg-type]
+
+
+def source_text(case: vd.FullWaveCase, infinite_ground: bool) -> str:
+    """The case's scenario, optionally with the finite-ground keys removed."""
+    if not infinite_ground:
+        return case.scenario_text()
+    table = tomllib.loads(case.source_toml)["source"][0]
+    rows = ["[[source]]"] + [f"{k} = {_toml_value(v)}" for k, v in table.items()
+                             if k not in _GROUND_KEYS]
+    return 'name = "validation"\nfrequency_hz = 2.45e9\n\n' + "\n".join(rows) + "\n"
+
+
+def errors(case: vd.FullWaveCase, infinite_ground: bool = False) -> tuple[np.ndarray, float]:
+    """Error per sample [dB] and the model's peak gain [dBi]."""
+    with tempfile.TemporaryDirectory() as d:
+        path = Path(d) / "case.toml"
+        path.write_text(source_text(case, infinite_ground), encoding="utf-8")
+        scenario = load_scenario(path)
+    model = evaluate(scenario, case.positions_m).power_density_w_m2
+    with np.errstate(divide="ignore"):
+        err = 10 * np.log10(model / case.power_density_w_m2)
+    return err, float(10 * np.log10(scenario.sources[0].radiator.max_gain()))
+
+
+def report(name: str, infinite_ground: bool, detail: bool) -> None:
+    case = vd.load(name)
+    try:
+        err, peak = errors(case, infinite_ground)
+    except Exception as exc:  # noqa: BLE001
+        print(f"{name}: model not available ({exc})")
+        return
+    front = case.front()
+    print(f"\n{name} ({case.engine}); peak directivity: full wave "
+          f"{case.peak_directivity_dbi:.2f} dBi, model {peak:.2f} dBi")
+    for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
+        e = err[m]
+        print(f"  {region:16s} n={m.sum():2d}  min {e.min():+7.2f} dB  max {e.max():+7.2f} dB  "
+              f"median {np.median(e):+6.2f} dB")
+    if detail:
+        for lab, e, pos in zip(case.labels, err, case.positions_m, strict=True):
+            print(f"    {lab:26s} {np.round(pos, 3)!s:28s} {e:+7.2f} dB")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--infinite-ground", action="store_true",
+                    help="drop the finite-ground keys (the infinite-ground monopole)")
+    ap.add_argument("--detail", action="store_true", help="one line per sample")
+    ap.add_argument("cases", nargs="*", default=None)
+    args = ap.parse_args()
+    for name in args.cases or vd.available():
+        report(name, args.infinite_ground, args.detail)
+
+
+if __name__ == "__main__":
+    main()
