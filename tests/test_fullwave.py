@@ -75,8 +75,9 @@ def _errors_db(case: vd.FullWaveCase, tmp_path) -> np.ndarray:  # noqa: ANN001
 
 
 def _table(case: vd.FullWaveCase, err: np.ndarray, mask: np.ndarray) -> str:
-    rows = [f"  {lab:28s} {e:+6.2f} dB" for lab, e, m in zip(case.labels, err, mask, strict=True)
-            if m]
+    rows = [
+        f"  {lab:28s} {e:+6.2f} dB" for lab, e, m in zip(case.labels, err, mask, strict=True) if m
+    ]
     return f"{case.name} ({case.engine}):\n" + "\n".join(rows)
 
 

@@ -91,7 +91,7 @@ def load(name: str) -> FullWaveCase:
         source_toml=doc["scenario_source_toml"],
         boresight=np.array([1.0, 0.0, 0.0]),
         positions_m=np.array([s["position_m"] for s in samples], dtype=float),
-        labels=[f'{s["plane"]} {s["angle_deg"]} deg {s["distance_m"]} m' for s in samples],
+        labels=[f"{s['plane']} {s['angle_deg']} deg {s['distance_m']} m" for s in samples],
         power_density_w_m2=np.array([s["power_density_w_m2"] for s in samples], dtype=float),
         peak_directivity_dbi=float(doc["directivity"]["peak_dbi"]),
         boresight_directivity_dbi=float(doc["directivity"]["boresight_dbi"]),

@@ -42,8 +42,9 @@ def source_text(case: vd.FullWaveCase, infinite_ground: bool) -> str:
     if not infinite_ground:
         return case.scenario_text()
     table = tomllib.loads(case.source_toml)["source"][0]
-    rows = ["[[source]]"] + [f"{k} = {_toml_value(v)}" for k, v in table.items()
-                             if k not in _GROUND_KEYS]
+    rows = ["[[source]]"] + [
+        f"{k} = {_toml_value(v)}" for k, v in table.items() if k not in _GROUND_KEYS
+    ]
     return 'name = "validation"\nfrequency_hz = 2.45e9\n\n' + "\n".join(rows) + "\n"
 
 
@@ -60,6 +61,7 @@ def errors(case: vd.FullWaveCase, infinite_ground: bool = False) -> tuple[np.nda
 
 
 def report(name: str, infinite_ground: bool, detail: bool) -> None:
+    """Print one case's errors per region."""
     case = vd.load(name)
     try:
         err, peak = errors(case, infinite_ground)
@@ -67,21 +69,29 @@ def report(name: str, infinite_ground: bool, detail: bool) -> None:
         print(f"{name}: model not available ({exc})")
         return
     front = case.front()
-    print(f"\n{name} ({case.engine}); peak directivity: full wave "
-          f"{case.peak_directivity_dbi:.2f} dBi, model {peak:.2f} dBi")
+    print(
+        f"\n{name} ({case.engine}); peak directivity: full wave "
+        f"{case.peak_directivity_dbi:.2f} dBi, model {peak:.2f} dBi"
+    )
     for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
         e = err[m]
-        print(f"  {region:16s} n={m.sum():2d}  min {e.min():+7.2f} dB  max {e.max():+7.2f} dB  "
-              f"median {np.median(e):+6.2f} dB")
+        print(
+            f"  {region:16s} n={m.sum():2d}  min {e.min():+7.2f} dB  max {e.max():+7.2f} dB  "
+            f"median {np.median(e):+6.2f} dB"
+        )
     if detail:
         for lab, e, pos in zip(case.labels, err, case.positions_m, strict=True):
             print(f"    {lab:26s} {np.round(pos, 3)!s:28s} {e:+7.2f} dB")
 
 
 def main() -> None:
+    """Command line."""
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    ap.add_argument("--infinite-ground", action="store_true",
-                    help="drop the finite-ground keys (the infinite-ground monopole)")
+    ap.add_argument(
+        "--infinite-ground",
+        action="store_true",
+        help="drop the finite-ground keys (the infinite-ground monopole)",
+    )
     ap.add_argument("--detail", action="store_true", help="one line per sample")
     ap.add_argument("cases", nargs="*", default=None)
     args = ap.parse_args()

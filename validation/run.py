@@ -48,10 +48,8 @@ from pathlib import Path
 import numpy as np
 
 # The packaged port classes still use the aliases that numpy 1.24 removed.
-if not hasattr(np, "float"):
-    np.float = float  # type: ignore[attr-defined]
-if not hasattr(np, "int"):
-    np.int = int  # type: ignore[attr-defined]
+np.__dict__.setdefault("float", float)
+np.__dict__.setdefault("int", int)
 
 import h5py  # noqa: E402
 from CSXCAD import ContinuousStructure  # noqa: E402
@@ -84,6 +82,7 @@ WALL_M = 0.002
 # cases
 # ---------------------------------------------------------------------------------------
 def guide_case(name: str, size: str, flange: tuple[float, float] | None = None) -> dict:
+    """An open guide of a standard size, closed by a short 0.30 m behind its aperture."""
     a, b = WR[size]
     beta = np.sqrt((2 * np.pi / LAM) ** 2 - (np.pi / a) ** 2)
     lam_g = 2 * np.pi / beta
@@ -123,6 +122,7 @@ def guide_case(name: str, size: str, flange: tuple[float, float] | None = None) 
 
 
 def horn_case() -> dict:
+    """The pyramidal horn on WR-340 (our own proportions)."""
     a, b = WR["WR-340"]
     beta = np.sqrt((2 * np.pi / LAM) ** 2 - (np.pi / a) ** 2)
     lam_g = 2 * np.pi / beta
@@ -160,8 +160,14 @@ def horn_case() -> dict:
     }
 
 
-def probe_case(name: str, ground: str, size: tuple[float, float], depth: float = 0.0,
-               offset: tuple[float, float] = (0.0, 0.0)) -> dict:
+def probe_case(
+    name: str,
+    ground: str,
+    size: tuple[float, float],
+    depth: float = 0.0,
+    offset: tuple[float, float] = (0.0, 0.0),
+) -> dict:
+    """A 30 mm monopole on a plate or through the front face of a closed box."""
     source = {
         "antenna": "monopole",
         "power_w": 1.0,
@@ -220,8 +226,10 @@ ANGLES_DEG = [0, 30, 45, 60, 90, 120, 135, 150, 180]
 
 
 def nominal_points(case: dict) -> list[dict]:
-    """Points in the E plane (xz) and the H plane (xy) at angles from boresight, and a few
-    off the planes; each carries a label, plane, angle and distance from the origin."""
+    """Sample points: E plane (xz) and H plane (xy) at angles from boresight, a few off them.
+
+    Each carries its plane, angle from boresight and distance from the origin.
+    """
     pts = []
     for r in case["radii"]:
         for plane, (u, v) in (("E", (0, 2)), ("H", (0, 1))):
@@ -234,14 +242,21 @@ def nominal_points(case: dict) -> list[dict]:
                 pl = plane if ang not in (0, 180) else "axis"
                 pts.append({"plane": pl, "angle_deg": ang, "distance_m": r, "nominal": p})
     for r in case.get("extra_behind", []):
-        pts.append({"plane": "axis", "angle_deg": 180, "distance_m": r,
-                    "nominal": np.array([-r, 0.0, 0.0])})
+        pts.append(
+            {
+                "plane": "axis",
+                "angle_deg": 180,
+                "distance_m": r,
+                "nominal": np.array([-r, 0.0, 0.0]),
+            }
+        )
     for d in ([1, 1, 1], [-1, 1, 1], [0, 1, 1]):
         r = 0.2
         v = np.array(d, float) / np.linalg.norm(d)
         ang = float(np.degrees(np.arccos(v[0])))
-        pts.append({"plane": "diagonal", "angle_deg": round(ang, 2), "distance_m": r,
-                    "nominal": r * v})
+        pts.append(
+            {"plane": "diagonal", "angle_deg": round(ang, 2), "distance_m": r, "nominal": r * v}
+        )
     return pts
 
 
@@ -250,8 +265,11 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     x, y, z = p
     if case["kind"] == "guide":
         a, b, L = case["a"], case["b"], case["length"]
-        return (-L - WALL_M - margin <= x <= margin and abs(y) <= a / 2 + WALL_M + margin
-                and abs(z) <= b / 2 + WALL_M + margin)
+        return (
+            -L - WALL_M - margin <= x <= margin
+            and abs(y) <= a / 2 + WALL_M + margin
+            and abs(z) <= b / 2 + WALL_M + margin
+        )
     if case["kind"] == "horn":
         a, b = case["a"], case["b"]
         A, B = case["aperture"]
@@ -269,7 +287,8 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     oy, oz = case["offset"]
     if case["ground"] == "box":
         d = case["depth"]
-        if -d - margin <= x <= margin and abs(y + oy) <= w / 2 + margin and abs(z - oz) <= h / 2 + margin:
+        inside_y = abs(y + oy) <= w / 2 + margin
+        if -d - margin <= x <= margin and inside_y and abs(z - oz) <= h / 2 + margin:
             return True
     else:
         if abs(x) <= margin and abs(y + oy) <= w / 2 + margin and abs(z - oz) <= h / 2 + margin:
@@ -281,6 +300,7 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
 # geometry and mesh
 # ---------------------------------------------------------------------------------------
 def domain_extent(case: dict) -> tuple[np.ndarray, np.ndarray]:
+    """Corners of the region that must be free of PML: the samples and the metal [m]."""
     rmax = max(case["radii"])
     lo = np.array([-max([rmax, *case.get("extra_behind", [])]), -rmax, -rmax])
     hi = np.array([rmax, rmax, rmax])
@@ -326,7 +346,23 @@ def fixed_lines(case: dict) -> list[list[float]]:
     return L
 
 
+MIN_GAP_M = 0.0012  # lines closer than this are merged (keeps the time step reasonable)
+
+
+def merge_close(lines: list[float], keep: set[float], gap: float) -> list[float]:
+    """Drop lines closer than ``gap`` to a neighbour, keeping geometry lines in ``keep``."""
+    out: list[float] = []
+    for v in sorted(lines):
+        if out and v - out[-1] < gap:
+            if v in keep and out[-1] not in keep:
+                out[-1] = v
+            continue
+        out.append(v)
+    return out
+
+
 def build_mesh(case: dict, n_per_lambda: int) -> tuple[list[np.ndarray], dict]:
+    """Graded rectilinear mesh with a maximum cell of lambda / n_per_lambda in air."""
     dmax = LAM / n_per_lambda
     lo, hi = domain_extent(case)
     margin = 2 * dmax
@@ -343,8 +379,15 @@ def build_mesh(case: dict, n_per_lambda: int) -> tuple[list[np.ndarray], dict]:
             big = case["aperture"][ax - 1]
             band = np.arange(a_or_b / 2, big / 2 + WALL_M + 0.0125, 0.0015)
             f = sorted(set(f) | {round(v, 6) for v in band})
+        if case["kind"] in ("guide", "horn") and ax > 0:
+            # the guide's cross-section resolved on every mesh: 20 cells across each
+            # dimension, so the TE10 power through it integrates accurately
+            half = (case["a"] if ax == 1 else case["b"]) / 2
+            inner = np.linspace(-half, half, 21)
+            f = sorted(set(f) | {round(v, 6) for v in inner if lo_b <= v <= hi_b})
         if case["kind"] == "probe" and ax == 0:
             f = sorted(set(f) | {round(v, 6) for v in np.arange(0.0, case["height"], 0.002)})
+        f = merge_close(f, set(round(v, 6) for v in fixed[ax]), MIN_GAP_M)
         ln = SmoothMeshLines(np.array(f), dmax, ratio=1.4)
         lines.append(np.unique(np.round(np.asarray(ln), 7)))
     info = {
@@ -391,8 +434,7 @@ def add_geometry(case: dict, CSX, FDTD, lines) -> dict:  # noqa: ANN001
         xm = -0.15 if case["kind"] == "guide" else -case["horn_length"] - 0.03
         xm = float(lines[0][np.argmin(np.abs(lines[0] - xm))])
         for kind, dt in (("E", 10), ("H", 11)):
-            d = CSX.AddDump(f"port_{kind}", dump_type=dt, dump_mode=1, file_type=1,
-                            frequency=[F0])
+            d = CSX.AddDump(f"port_{kind}", dump_type=dt, dump_mode=1, file_type=1, frequency=[F0])
             d.AddBox([xm, 0.0, 0.0], [xm, a / 2, b / 2])
         out.update(source_plane_m=xs, port_plane_m=xm)
         # Ez along the axis between the sheet and the aperture (or throat), for |S11|
@@ -415,20 +457,27 @@ def add_geometry(case: dict, CSX, FDTD, lines) -> dict:  # noqa: ANN001
         oy, oz = case["offset"]
         wh, g, H = case["wire_half"], case["gap"], case["height"]
         if case["ground"] == "box":
-            pec.AddBox([-case["depth"], -oy - w / 2, oz - h / 2], [0.0, -oy + w / 2, oz + h / 2],
-                       priority=10)
+            pec.AddBox(
+                [-case["depth"], -oy - w / 2, oz - h / 2],
+                [0.0, -oy + w / 2, oz + h / 2],
+                priority=10,
+            )
         else:
             pec.AddBox([0.0, -oy - w / 2, oz - h / 2], [0.0, -oy + w / 2, oz + h / 2], priority=10)
         pec.AddBox([g, -wh, -wh], [H, wh, wh], priority=10)
-        port = FDTD.AddLumpedPort(1, 50.0, [0.0, -wh, -wh], [g, wh, wh], "x", excite=1.0,
-                                  priority=20)
+        port = FDTD.AddLumpedPort(
+            1, 50.0, [0.0, -wh, -wh], [g, wh, wh], "x", excite=1.0, priority=20
+        )
         out["port"] = port
     return out
 
 
 def add_horn_walls(case: dict, pec, lines) -> None:  # noqa: ANN001
-    """The flare's walls, staircased on the mesh: for each x cell the inner surface is the
-    mesh line nearest the as-built inner surface and the wall is at least one cell thick."""
+    """Staircase the flare's walls on the mesh.
+
+    For each x cell the inner surface is the mesh line nearest the as-built inner surface and
+    the wall is at least one cell thick, so the staircase is closed.
+    """
     a, b = case["a"], case["b"]
     A, B = case["aperture"]
     L = case["horn_length"]
@@ -479,6 +528,7 @@ def snap_points(case: dict, lines, pts: list[dict]) -> list[dict]:
 # simulation
 # ---------------------------------------------------------------------------------------
 def simulate(case: dict, mesh_name: str, workdir: Path, reuse: bool = False) -> dict:
+    """Build, run and reduce one case on one mesh; return the reduced results."""
     n = MESHES[mesh_name]
     lines, mesh_info = build_mesh(case, n)
     sim_path = str((workdir / f"{case['name']}_{mesh_name}").resolve())
@@ -513,8 +563,9 @@ def simulate(case: dict, mesh_name: str, workdir: Path, reuse: bool = False) -> 
         else:
             lo[ax] = hi[ax]
         for kind, dt in (("E", 10), ("H", 11)):
-            d = CSX.AddDump(f"flux_{kind}_{ax}{side}", dump_type=dt, dump_mode=1, file_type=1,
-                            frequency=[F0])
+            d = CSX.AddDump(
+                f"flux_{kind}_{ax}{side}", dump_type=dt, dump_mode=1, file_type=1, frequency=[F0]
+            )
             d.AddBox(lo, hi)
     pts = snap_points(case, lines, nominal_points(case))
     for i, p in enumerate(pts):
@@ -537,10 +588,15 @@ def simulate(case: dict, mesh_name: str, workdir: Path, reuse: bool = False) -> 
                 repair_symmetry_rows(os.path.join(sim_path, fn))
     steps = int(re.findall(r"Time for (\d+) iterations", log)[-1])
     res = postprocess(case, sim_path, feed, nf, pts, lines, start, stop)
-    res.update(mesh=mesh_info, run_time_s=round(run_s, 1), timesteps=steps,
-               end_criterion=f"field energy decayed by {END_CRITERION:g} "
-               f"({10 * np.log10(END_CRITERION):.0f} dB) from its peak, at most {MAX_STEPS} "
-               "steps", excitation=f"Gaussian pulse, centre {F0:g} Hz, cut-off {case['fc']:g} Hz")
+    res.update(
+        mesh=mesh_info,
+        run_time_s=round(run_s, 1),
+        timesteps=steps,
+        end_criterion=f"field energy decayed by {END_CRITERION:g} "
+        f"({10 * np.log10(END_CRITERION):.0f} dB) from its peak, at most {MAX_STEPS} "
+        "steps",
+        excitation=f"Gaussian pulse, centre {F0:g} Hz, cut-off {case['fc']:g} Hz",
+    )
     return res
 
 
@@ -597,6 +653,7 @@ def repair_symmetry_rows(fn: str) -> None:
 
 
 def read_probe(sim_path: str, name: str) -> np.ndarray:
+    """Peak phasor (3 components) at 2.45 GHz of a time-domain field probe."""
     d = np.loadtxt(os.path.join(sim_path, name), comments="%")
     return np.array([DFT_time2freq(d[:, 0], d[:, k], [F0])[0] for k in (1, 2, 3)])
 
@@ -617,18 +674,30 @@ def read_fd(fn: str) -> tuple[list[np.ndarray], np.ndarray]:
 
 
 def plane_flux(fn_e: str, fn_h: str, normal_axis: int, sign: float) -> float:
-    """0.5 Re(E x H*) . n integrated over a node-interpolated dumped plane [W] (peak
-    phasors), by the trapezoidal rule over the mesh lines."""
+    """Integrate 0.5 Re(E x H*) . n over a node-interpolated dumped plane [W].
+
+    Peak phasors; trapezoidal rule over the mesh lines.
+    """
     mesh, e = read_fd(fn_e)
     _, h = read_fd(fn_h)
     s = 0.5 * np.real(np.cross(e, np.conj(h)))[..., normal_axis] * sign
     s = np.take(s, 0, axis=normal_axis)
     others = [ax for ax in range(3) if ax != normal_axis]
-    s = np.trapz(s, mesh[others[1]], axis=1)
-    return float(np.trapz(s, mesh[others[0]]))
+    s = trapezoid(s, mesh[others[1]], axis=1)
+    return float(trapezoid(s, mesh[others[0]], axis=0))
+
+
+def trapezoid(f: np.ndarray, x: np.ndarray, axis: int) -> np.ndarray:
+    """Trapezoidal rule along one axis (numpy 1.24 and 2.x alike)."""
+    f = np.moveaxis(f, axis, 0)
+    if f.shape[0] < 2:
+        return f[0] * 0.0
+    dx = np.diff(x).reshape((-1,) + (1,) * (f.ndim - 1))
+    return np.sum(0.5 * (f[1:] + f[:-1]) * dx, axis=0)
 
 
 def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # noqa: ANN001
+    """Powers, |S11|, far field and the near-field samples of a finished run."""
     sym = 4.0 if case["symmetric"] else 1.0
     # closed-surface Poynting flux through the nf2ff box
     flux = 0.0
@@ -639,8 +708,9 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
     p_box = sym * flux
     out: dict = {"power": {}}
     if case["kind"] in ("guide", "horn"):
-        p_port = sym * plane_flux(os.path.join(sim_path, "port_E.h5"),
-                                  os.path.join(sim_path, "port_H.h5"), 0, 1.0)
+        p_port = sym * plane_flux(
+            os.path.join(sim_path, "port_E.h5"), os.path.join(sim_path, "port_H.h5"), 0, 1.0
+        )
         s11 = fit_s11(case, sim_path, feed)
         out["power"]["port_definition"] = (
             "net TE10 power through the guide cross-section at x = "
@@ -656,9 +726,13 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
         g = port.uf_ref[0] / port.uf_inc[0]
         zin = port.uf_tot[0] / port.if_tot[0]
         out["power"]["port_definition"] = "power accepted by the 50 ohm lumped port, 0.5 Re(U I*)"
-        out["s11"] = {"magnitude": float(abs(g)), "db": float(20 * np.log10(abs(g))),
-                      "reference_ohm": 50.0, "plane": "the lumped port at the probe's base",
-                      "input_impedance_ohm": [float(zin.real), float(zin.imag)]}
+        out["s11"] = {
+            "magnitude": float(abs(g)),
+            "db": float(20 * np.log10(abs(g))),
+            "reference_ohm": 50.0,
+            "plane": "the lumped port at the probe's base",
+            "input_impedance_ohm": [float(zin.real), float(zin.imag)],
+        }
     # far field
     theta = np.arange(0.0, 180.1, 5.0)
     phi = np.arange(0.0, 360.0, 5.0)
@@ -672,8 +746,11 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
     for plane in ("E", "H"):
         vals = []
         for psi in np.radians(np.arange(0, 360, 5)):
-            d = np.array([np.cos(psi), 0.0, np.sin(psi)]) if plane == "E" else np.array(
-                [np.cos(psi), np.sin(psi), 0.0])
+            d = (
+                np.array([np.cos(psi), 0.0, np.sin(psi)])
+                if plane == "E"
+                else np.array([np.cos(psi), np.sin(psi), 0.0])
+            )
             th = np.degrees(np.arccos(np.clip(d[2], -1, 1)))
             ph = np.degrees(np.arctan2(d[1], d[0])) % 360.0
             i = int(np.argmin(np.abs(theta - th)))
@@ -681,12 +758,19 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
             vals.append(round(float(10 * np.log10(max(D[i, j], 1e-30))), 3))
         cuts[plane] = vals
     out["power"].update(
-        port_w=p_port, closed_surface_flux_w=p_box, nf2ff_w=p_nf,
-        flux_over_port=p_box / p_port, nf2ff_over_flux=p_nf / p_box,
-        closed_surface=("faces of the nf2ff box " + str([round(v, 4) for v in start]) + " to "
-                        + str([round(v, 4) for v in stop]) + " m"
-                        + (" and their mirror images (4 x the quarter)" if case["symmetric"]
-                           else "")),
+        port_w=p_port,
+        closed_surface_flux_w=p_box,
+        nf2ff_w=p_nf,
+        flux_over_port=p_box / p_port,
+        nf2ff_over_flux=p_nf / p_box,
+        closed_surface=(
+            "faces of the nf2ff box "
+            + str([round(v, 4) for v in start])
+            + " to "
+            + str([round(v, 4) for v in stop])
+            + " m"
+            + (" and their mirror images (4 x the quarter)" if case["symmetric"] else "")
+        ),
     )
     out["directivity"] = {
         "peak_dbi": round(10 * np.log10(dmax), 3),
@@ -695,7 +779,8 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
         "cut_angles_deg": list(range(0, 360, 5)),
         "cut_definition": (
             "angle psi from boresight +x: E plane towards +z (direction cos psi x + sin psi z), "
-            "H plane towards +y (cos psi x + sin psi y)"),
+            "H plane towards +y (cos psi x + sin psi y)"
+        ),
         "e_plane_dbi": cuts["E"],
         "h_plane_dbi": cuts["H"],
     }
@@ -706,23 +791,31 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
         h = read_probe(sim_path, f"ptH_{i:03d}")
         e_rms = float(np.sqrt(np.sum(np.abs(e) ** 2) / 2 / p_box))
         h_rms = float(np.sqrt(np.sum(np.abs(h) ** 2) / 2 / p_box))
-        samples.append({
-            "plane": p["plane"], "angle_deg": p["angle_deg"], "distance_m": p["distance_m"],
-            "position_m": [round(float(v), 6) for v in p["position"]],
-            "e_v_m": e_rms, "h_a_m": h_rms,
-            "power_density_w_m2": max(e_rms**2 / ETA0, ETA0 * h_rms**2),
-        })
+        samples.append(
+            {
+                "plane": p["plane"],
+                "angle_deg": p["angle_deg"],
+                "distance_m": p["distance_m"],
+                "position_m": [round(float(v), 6) for v in p["position"]],
+                "e_v_m": e_rms,
+                "h_a_m": h_rms,
+                "power_density_w_m2": max(e_rms**2 / ETA0, ETA0 * h_rms**2),
+            }
+        )
     out["samples"] = samples
     return out
 
 
 def fit_s11(case: dict, sim_path: str, feed: dict) -> dict:
-    """|Gamma| at the aperture (or throat) from Ez along the guide axis, fitted by a forward
-    and a backward TE10 wave; the propagation constant is fitted too (mesh dispersion)."""
+    """TE10 reflection at the aperture (or throat) from Ez along the guide's axis.
+
+    A forward and a backward TE10 wave are fitted by least squares; the propagation constant
+    is fitted too (the mesh's dispersion).
+    """
     xs = np.array([x for _, x in feed["axis_probes"]])
     ez = np.array([read_probe(sim_path, nm)[2] for nm, _ in feed["axis_probes"]])
     best = None
-    for beta in case["beta"] * np.linspace(0.95, 1.05, 201):
+    for beta in case["beta"] * np.linspace(0.85, 1.15, 601):
         M = np.stack([np.exp(-1j * beta * xs), np.exp(1j * beta * xs)], axis=1)
         coef, *_ = np.linalg.lstsq(M, ez, rcond=None)
         r = np.linalg.norm(M @ coef - ez) / np.linalg.norm(ez)
@@ -731,17 +824,23 @@ def fit_s11(case: dict, sim_path: str, feed: dict) -> dict:
     r, beta, (fwd, bwd) = best
     x0 = feed["s11_plane_m"]
     g = (bwd * np.exp(1j * beta * x0)) / (fwd * np.exp(-1j * beta * x0))
-    return {"magnitude": float(abs(g)), "db": float(20 * np.log10(abs(g))),
-            "phase_deg": float(np.degrees(np.angle(g))),
-            "plane": f"TE10 reflection referred to x = {x0} m",
-            "fitted_beta_over_analytic": float(beta / case["beta"]),
-            "fit_residual": float(r), "axis_points": int(len(xs))}
+    return {
+        "magnitude": float(abs(g)),
+        "db": float(20 * np.log10(abs(g))),
+        "phase_deg": float(np.degrees(np.angle(g))),
+        "plane": f"TE10 reflection referred to x = {x0} m",
+        "fitted_beta_over_analytic": float(beta / case["beta"]),
+        "fit_residual": float(r),
+        "axis_points": int(len(xs)),
+    }
 
 
 # ---------------------------------------------------------------------------------------
 # data files
 # ---------------------------------------------------------------------------------------
 def toml_table(source: dict) -> str:
+    """The ``[[source]]`` table of a case, as TOML text."""
+
     def fmt(v):  # noqa: ANN001, ANN202
         if isinstance(v, str):
             return json.dumps(v)
@@ -754,15 +853,21 @@ def toml_table(source: dict) -> str:
 
 
 def openems_version() -> str:
+    """The solver's name, version and Debian package version."""
     try:
-        out = subprocess.run(["dpkg-query", "-W", "-f=${Version}", "openems"],
-                             capture_output=True, text=True, check=False).stdout.strip()
+        out = subprocess.run(
+            ["dpkg-query", "-W", "-f=${Version}", "openems"],
+            capture_output=True,
+            text=True,
+            check=False,
+        ).stdout.strip()
     except OSError:
         out = ""
     return f"openEMS v0.0.35 (Debian package openems {out})" if out else "openEMS v0.0.35"
 
 
 def write_case(case: dict, runs: dict) -> Path:
+    """Write ``validation/data/<case>.json`` from the two convergence meshes' results."""
     ref = runs[CONVERGENCE[1]]
     other = runs[CONVERGENCE[0]]
     by_pos = {}
@@ -781,15 +886,15 @@ def write_case(case: dict, runs: dict) -> Path:
         "frequency_hz": F0,
         "conventions": {
             "frame": "keepclear scenario frame: the source's reference point at the origin, "
-                     "boresight (aperture normal or probe axis) +x, aperture E field / face "
-                     "height +z, broad wall / face width +y; metres",
+            "boresight (aperture normal or probe axis) +x, aperture E field / face "
+            "height +z, broad wall / face width +y; metres",
             "fields": "RMS |E| [V/m] and |H| [A/m] for 1 W radiated (closed-surface Poynting "
-                      "flux); power_density_w_m2 = max(|E|^2/eta0, eta0 |H|^2)",
+            "flux); power_density_w_m2 = max(|E|^2/eta0, eta0 |H|^2)",
             "time": "openEMS phasors, exp(+j w t) time convention, peak amplitudes before the "
-                    "RMS conversion (|E_rms|^2 = |E_peak|^2 / 2)",
+            "RMS conversion (|E_rms|^2 = |E_peak|^2 / 2)",
             "samples": "positions are the FDTD mesh nodes nearest the nominal points (plane, "
-                       "angle from boresight towards +z in the E plane and +y in the H plane, "
-                       "distance from the origin)",
+            "angle from boresight towards +z in the E plane and +y in the H plane, "
+            "distance from the origin)",
         },
         "scenario_source_toml": toml_table(case["source"]),
         "mesh": ref["mesh"],
@@ -802,15 +907,22 @@ def write_case(case: dict, runs: dict) -> Path:
         "directivity": ref["directivity"],
         "samples": ref["samples"],
         "convergence": {
-            "meshes": {m: {"mesh": runs[m]["mesh"], "timesteps": runs[m]["timesteps"],
-                           "run_time_s": runs[m]["run_time_s"],
-                           "peak_directivity_dbi": runs[m]["directivity"]["peak_dbi"],
-                           "power": runs[m]["power"], "s11": runs[m]["s11"]}
-                       for m in CONVERGENCE},
+            "meshes": {
+                m: {
+                    "mesh": runs[m]["mesh"],
+                    "timesteps": runs[m]["timesteps"],
+                    "run_time_s": runs[m]["run_time_s"],
+                    "peak_directivity_dbi": runs[m]["directivity"]["peak_dbi"],
+                    "power": runs[m]["power"],
+                    "s11": runs[m]["s11"],
+                }
+                for m in CONVERGENCE
+            },
             "max_sample_difference_db": round(float(max(diffs)), 3) if diffs else None,
             "median_sample_difference_db": round(float(np.median(diffs)), 3) if diffs else None,
-            "peak_directivity_difference_db": round(abs(
-                ref["directivity"]["peak_dbi"] - other["directivity"]["peak_dbi"]), 3),
+            "peak_directivity_difference_db": round(
+                abs(ref["directivity"]["peak_dbi"] - other["directivity"]["peak_dbi"]), 3
+            ),
             "samples_compared": len(diffs),
             "other_mesh_samples": other["samples"],
         },
@@ -822,23 +934,43 @@ def write_case(case: dict, runs: dict) -> Path:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Command line: run the cases asked for and write their data files."""
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--case", default="all", help="case name or 'all': " + ", ".join(CASES))
-    ap.add_argument("--mesh", default="both", choices=["both", *MESHES],
-                    help="'both' runs the two convergence meshes and writes the data file")
-    ap.add_argument("--workdir", default=os.environ.get("TMPDIR", "/tmp") + "/keepclear-fdtd",
-                    help="scratch folder for openEMS's raw output (large; not kept)")
+    ap.add_argument(
+        "--mesh",
+        default="both",
+        choices=["both", *MESHES],
+        help="'both' runs the two convergence meshes and writes the data file",
+    )
+    ap.add_argument(
+        "--workdir",
+        default=os.environ.get("TMPDIR", "/tmp") + "/keepclear-fdtd",
+        help="scratch folder for openEMS's raw output (large; not kept)",
+    )
     ap.add_argument("--keep", action="store_true", help="keep the raw openEMS output")
-    ap.add_argument("--reuse", action="store_true",
-                    help="post-process a kept raw output again instead of running openEMS")
+    ap.add_argument(
+        "--reuse",
+        action="store_true",
+        help="post-process a kept raw output again instead of running openEMS",
+    )
+    ap.add_argument(
+        "--summary",
+        action="store_true",
+        help="print the results table of the stored data files (markdown) and exit",
+    )
     args = ap.parse_args(argv)
+    if args.summary:
+        print_summary()
+        return 0
     names = list(CASES) if args.case == "all" else [args.case]
     work = Path(args.workdir)
     work.mkdir(parents=True, exist_ok=True)
     for name in names:
         if name not in CASES:
-            print(f"run.py: --case: unknown case {name!r}; one of {', '.join(CASES)}",
-                  file=sys.stderr)
+            print(
+                f"run.py: --case: unknown case {name!r}; one of {', '.join(CASES)}", file=sys.stderr
+            )
             return 2
         case = CASES[name]()
         meshes = CONVERGENCE if args.mesh == "both" else (args.mesh,)
@@ -860,13 +992,41 @@ def main(argv: list[str] | None = None) -> int:
     return 0
 
 
+def print_summary() -> None:
+    """Markdown table of the stored cases (for the README)."""
+    print(
+        "| case | cells (fine) | max / min cell [mm] | steps | run [s] | P_flux / P_port | "
+        "P_nf2ff / P_flux | abs S11 | D peak [dBi] | D +x [dBi] | mesh change: D peak / "
+        "samples max (median) [dB] |"
+    )
+    print("|" + " --- |" * 11)
+    for fn in sorted(DATA.glob("*.json")):
+        d = json.loads(fn.read_text())
+        m, p, c = d["mesh"], d["power"], d["convergence"]
+        runs = sum(v["run_time_s"] for v in c["meshes"].values())
+        print(
+            f"| {d['case']} | {m['cells']:,} | {m['max_cell_m'] * 1e3:.1f} / "
+            f"{m['smallest_cell_m'] * 1e3:.2f} | {d['timesteps']} | {runs:.0f} | "
+            f"{p['flux_over_port']:.3f} | {p['nf2ff_over_flux']:.3f} | "
+            f"{d['s11']['magnitude']:.3f} | {d['directivity']['peak_dbi']:.2f} | "
+            f"{d['directivity']['boresight_dbi']:.2f} | "
+            f"{c['peak_directivity_difference_db']:.2f} / {c['max_sample_difference_db']:.2f} "
+            f"({c['median_sample_difference_db']:.2f}) |"
+        )
+
+
 def summary(name: str, mesh: str, res: dict) -> None:
+    """One line per finished run on the console."""
     p = res["power"]
-    print(f"{name} {mesh}: cells {res['mesh']['cells']}, steps {res['timesteps']}, "
-          f"{res['run_time_s']} s; P_port {p['port_w']:.4g} W, flux {p['closed_surface_flux_w']:.4g}"
-          f" W (ratio {p['flux_over_port']:.4f}), nf2ff/flux {p['nf2ff_over_flux']:.4f}; "
-          f"|S11| {res['s11']['magnitude']:.3f}; Dmax {res['directivity']['peak_dbi']} dBi, "
-          f"boresight {res['directivity']['boresight_dbi']} dBi", flush=True)
+    print(
+        f"{name} {mesh}: cells {res['mesh']['cells']}, steps {res['timesteps']}, "
+        f"{res['run_time_s']} s; P_port {p['port_w']:.4g} W, "
+        f"flux {p['closed_surface_flux_w']:.4g} W (ratio {p['flux_over_port']:.4f}), "
+        f"nf2ff/flux {p['nf2ff_over_flux']:.4f}; "
+        f"|S11| {res['s11']['magnitude']:.3f}; Dmax {res['directivity']['peak_dbi']} dBi, "
+        f"boresight {res['directivity']['boresight_dbi']} dBi",
+        flush=True,
+    )
 
 
 if __name__ == "__main__":
