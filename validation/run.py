@@ -29,7 +29,9 @@ The open guide and the horn are fed by a TE10 current sheet and have two symmetr
 y = 0 is a magnetic wall (PMC: tangential H vanishes) and z = 0 an electric wall (PEC:
 tangential E vanishes). Only the quarter y >= 0, z >= 0 is computed; the near-field to
 far-field transform mirrors the surface currents, and closed-surface fluxes are four times
-the quarter's. The probes on a plate or box are fed by openEMS's lumped port and computed
+the quarter's. openEMS applies the magnetic wall half a cell inside the
+domain (it zeroes the tangential H on the first dual line), so the mesh's first cell is
+centred on y = 0. The probes on a plate or box are fed by openEMS's lumped port and computed
 in the full domain (no mirror plane crosses a port).
 """
 
@@ -361,6 +363,11 @@ def merge_close(lines: list[float], keep: set[float], gap: float) -> list[float]
     return out
 
 
+def symmetry_half_cell(case: dict) -> float:
+    """Half the first cell at the magnetic symmetry wall y = 0 [m]."""
+    return case["a"] / 2 / 21
+
+
 def build_mesh(case: dict, n_per_lambda: int) -> tuple[list[np.ndarray], dict]:
     """Graded rectilinear mesh with a maximum cell of lambda / n_per_lambda in air."""
     dmax = LAM / n_per_lambda
@@ -369,7 +376,13 @@ def build_mesh(case: dict, n_per_lambda: int) -> tuple[list[np.ndarray], dict]:
     lines = []
     fixed = fixed_lines(case)
     for ax in range(3):
-        lo_b = lo[ax] - margin - PML_CELLS * dmax if not (case["symmetric"] and ax > 0) else 0.0
+        lo_b = lo[ax] - margin - PML_CELLS * dmax
+        if case["symmetric"] and ax == 2:
+            lo_b = 0.0  # electric wall: openEMS zeroes tangential E on the first line
+        if case["symmetric"] and ax == 1:
+            # magnetic wall: openEMS zeroes tangential H on the first dual line, half a cell
+            # inside the domain; the first cell is centred on y = 0 so the wall lies at y = 0
+            lo_b = -symmetry_half_cell(case)
         hi_b = hi[ax] + margin + PML_CELLS * dmax
         f = sorted({round(v, 6) for v in fixed[ax] + [lo_b, hi_b] if lo_b <= v <= hi_b})
         if case["kind"] == "horn" and ax > 0:
@@ -383,10 +396,12 @@ def build_mesh(case: dict, n_per_lambda: int) -> tuple[list[np.ndarray], dict]:
             # the guide's cross-section resolved on every mesh: 20 cells across each
             # dimension, so the TE10 power through it integrates accurately
             half = (case["a"] if ax == 1 else case["b"]) / 2
-            inner = np.linspace(-half, half, 21)
+            inner = np.linspace(-half, half, 22)  # 21 cells: y = 0 is a cell centre
             f = sorted(set(f) | {round(v, 6) for v in inner if lo_b <= v <= hi_b})
         if case["kind"] == "probe" and ax == 0:
             f = sorted(set(f) | {round(v, 6) for v in np.arange(0.0, case["height"], 0.002)})
+        if case["symmetric"] and ax == 1:
+            f = [v for v in f if abs(v) > 1e-9]  # y = 0 is a cell centre, not a line
         f = merge_close(f, set(round(v, 6) for v in fixed[ax]), MIN_GAP_M)
         ln = SmoothMeshLines(np.array(f), dmax, ratio=1.4)
         lines.append(np.unique(np.round(np.asarray(ln), 7)))
@@ -435,7 +450,7 @@ def add_geometry(case: dict, CSX, FDTD, lines) -> dict:  # noqa: ANN001
         xm = float(lines[0][np.argmin(np.abs(lines[0] - xm))])
         for kind, dt in (("E", 10), ("H", 11)):
             d = CSX.AddDump(f"port_{kind}", dump_type=dt, dump_mode=1, file_type=1, frequency=[F0])
-            d.AddBox([xm, 0.0, 0.0], [xm, a / 2, b / 2])
+            d.AddBox([xm, symmetry_half_cell(case) / 2, 0.0], [xm, a / 2, b / 2])
         out.update(source_plane_m=xs, port_plane_m=xm)
         # Ez along the axis between the sheet and the aperture (or throat), for |S11|
         x_end = -0.04 if case["kind"] == "guide" else -case["horn_length"] - 0.01
@@ -550,8 +565,13 @@ def simulate(case: dict, mesh_name: str, workdir: Path, reuse: bool = False) -> 
     start = [lines[ax][PML_CELLS + 2] for ax in range(3)]
     stop = [lines[ax][-PML_CELLS - 3] for ax in range(3)]
     if case["symmetric"]:
-        start[1] = start[2] = 0.0
+        # dumps start on the first line above y = 0 (a quarter cell snaps to it), z = 0
+        start[1] = symmetry_half_cell(case) / 2
+        start[2] = 0.0
     nf = FDTD.CreateNF2FFBox("nf2ff", start, stop, frequency=[F0])
+    if case["symmetric"]:
+        nf.start = np.array(nf.start, dtype=float)
+        nf.start[1] = 0.0  # the mirror plane of the transform is the magnetic wall y = 0
     # the same closed surface, node-interpolated, for the Poynting flux
     for face in FACES:
         ax, side = face
@@ -619,8 +639,8 @@ def run_logged(FDTD, sim_path: str) -> str:  # noqa: ANN001
 def repair_symmetry_rows(fn: str) -> None:
     """Restore the row of a node-interpolated dump that lies on a symmetry plane.
 
-    openEMS's node interpolation returns zero on the first mesh line of the domain, which is
-    wrong on a symmetry plane (a magnetic wall keeps its tangential E, for instance). The
+    openEMS's node interpolation may return zero on the first mesh line of the domain, which
+    is wrong for the components that are even about the electric wall z = 0. The
     row is replaced by the even continuation of the next two rows, f(0) = f1 - (f2 - f1)
     y1^2 / (y2^2 - y1^2), where a component was returned as zero; a component that is odd
     about the plane is small there and stays small. The file is rewritten in place, before
@@ -632,7 +652,7 @@ def repair_symmetry_rows(fn: str) -> None:
         for key in list(fd.keys()):
             arr = np.array(fd[key])  # (component, z, y, x)
             changed = False
-            for ax, dim in ((1, 2), (2, 1)):  # y is array dim 2, z is array dim 1
+            for ax, dim in ((2, 1),):  # the electric wall z = 0 (array dim 1)
                 c = mesh[ax]
                 if c.size < 3 or abs(c[0]) > 1e-9:
                     continue
@@ -673,7 +693,9 @@ def read_fd(fn: str) -> tuple[list[np.ndarray], np.ndarray]:
     return mesh, field
 
 
-def plane_flux(fn_e: str, fn_h: str, normal_axis: int, sign: float) -> float:
+def plane_flux(
+    fn_e: str, fn_h: str, normal_axis: int, sign: float, symmetric: bool = False
+) -> float:
     """Integrate 0.5 Re(E x H*) . n over a node-interpolated dumped plane [W].
 
     Peak phasors; trapezoidal rule over the mesh lines.
@@ -683,6 +705,12 @@ def plane_flux(fn_e: str, fn_h: str, normal_axis: int, sign: float) -> float:
     s = 0.5 * np.real(np.cross(e, np.conj(h)))[..., normal_axis] * sign
     s = np.take(s, 0, axis=normal_axis)
     others = [ax for ax in range(3) if ax != normal_axis]
+    mesh = list(mesh)
+    if 1 in others and symmetric and mesh[1][0] > 0:
+        # from the magnetic wall y = 0 to the first dumped line: the even continuation
+        k = others.index(1)
+        s = np.concatenate([np.take(s, [0], axis=k), s], axis=k)
+        mesh[1] = np.concatenate([[0.0], mesh[1]])
     s = trapezoid(s, mesh[others[1]], axis=1)
     return float(trapezoid(s, mesh[others[0]], axis=0))
 
@@ -704,12 +732,18 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
     for ax, side in FACES:
         fe = os.path.join(sim_path, f"flux_E_{ax}{side}.h5")
         if os.path.exists(fe):
-            flux += plane_flux(fe, fe.replace("flux_E", "flux_H"), ax, 1.0 if side else -1.0)
+            flux += plane_flux(
+                fe, fe.replace("flux_E", "flux_H"), ax, 1.0 if side else -1.0, case["symmetric"]
+            )
     p_box = sym * flux
     out: dict = {"power": {}}
     if case["kind"] in ("guide", "horn"):
         p_port = sym * plane_flux(
-            os.path.join(sim_path, "port_E.h5"), os.path.join(sim_path, "port_H.h5"), 0, 1.0
+            os.path.join(sim_path, "port_E.h5"),
+            os.path.join(sim_path, "port_H.h5"),
+            0,
+            1.0,
+            case["symmetric"],
         )
         s11 = fit_s11(case, sim_path, feed)
         out["power"]["port_definition"] = (
