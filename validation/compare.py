@@ -75,9 +75,13 @@ def report(name: str, infinite_ground: bool, detail: bool) -> None:
     )
     for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
         e = err[m]
+        zeros = int(np.sum(~np.isfinite(e)))
+        f = e[np.isfinite(e)]
+        lo = f"{f.min():+7.2f}" if f.size else "    n/a"
+        hi = f"{f.max():+7.2f}" if f.size else "    n/a"
         print(
-            f"  {region:16s} n={m.sum():2d}  min {e.min():+7.2f} dB  max {e.max():+7.2f} dB  "
-            f"median {np.median(e):+6.2f} dB"
+            f"  {region:16s} n={m.sum():2d}  min {lo} dB  max {hi} dB"
+            + (f"  (and {zeros} points where the model gives zero)" if zeros else "")
         )
     if detail:
         for lab, e, pos in zip(case.labels, err, case.positions_m, strict=True):

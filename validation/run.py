@@ -1017,6 +1017,7 @@ def main(argv: list[str] | None = None) -> int:
                 continue
             print(f"{name} {m}: running", flush=True)
             res = simulate(case, m, work, reuse=args.reuse)
+            runs[m] = res
             cache.write_text(json.dumps(res, indent=1))
             summary(name, m, res)
             if not args.keep:
@@ -1024,6 +1025,10 @@ def main(argv: list[str] | None = None) -> int:
         if args.mesh == "both":
             print("wrote", write_case(case, runs), flush=True)
     return 0
+
+
+def _axis(dbi: float) -> str:
+    return f"{dbi:.2f}" if dbi > -60 else "null"
 
 
 def print_summary() -> None:
@@ -1043,7 +1048,7 @@ def print_summary() -> None:
             f"{m['smallest_cell_m'] * 1e3:.2f} | {d['timesteps']} | {runs:.0f} | "
             f"{p['flux_over_port']:.3f} | {p['nf2ff_over_flux']:.3f} | "
             f"{d['s11']['magnitude']:.3f} | {d['directivity']['peak_dbi']:.2f} | "
-            f"{d['directivity']['boresight_dbi']:.2f} | "
+            f"{_axis(d['directivity']['boresight_dbi'])} | "
             f"{c['peak_directivity_difference_db']:.2f} / {c['max_sample_difference_db']:.2f} "
             f"({c['median_sample_difference_db']:.2f}) |"
         )
