@@ -33,6 +33,10 @@ _NO_FINITE_GROUND = (
     "scenario loader refuses the key, and the infinite-ground model has no field behind "
     "the ground plane"
 )
+_FRONT_WITHOUT_WALLS = (
+    "aperture-only model: in front it is up to 2.6 dB high in the H plane at 45-60 deg and "
+    "0.3-0.4 m (open WR-340); the wall currents it leaves out reshape the near pattern"
+)
 _NO_WALL_CURRENTS = (
     "aperture-only model: the currents on the outer walls and the rim diffraction are not "
     "modelled yet, so beside and behind the source it is low"
@@ -46,6 +50,7 @@ KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("plate-probe", "front"): _NO_FINITE_GROUND,
     ("plate-probe", "elsewhere"): _NO_FINITE_GROUND,
     ("plate-probe", "peak"): _NO_FINITE_GROUND,
+    ("guide-wr340", "front"): _FRONT_WITHOUT_WALLS,
     ("guide-wr340", "elsewhere"): _NO_WALL_CURRENTS,
     ("guide-wr430", "elsewhere"): _NO_WALL_CURRENTS,
     ("horn-wr340", "elsewhere"): _NO_WALL_CURRENTS,
@@ -88,7 +93,8 @@ def test_front_within_1_db_of_openems(name: str, tmp_path) -> None:  # noqa: ANN
     front = case.front()
     assert front.sum() >= 5, "the case stores too few points in front"
     err = _errors_db(case, tmp_path)
-    assert np.all(np.abs(err[front]) <= 1.0), _table(case, err, front)
+    bad = front & ~(np.abs(err) <= 1.0)
+    assert not bad.any(), _table(case, err, bad)
 
 
 @pytest.mark.parametrize("name", _params("elsewhere"))
@@ -98,8 +104,8 @@ def test_elsewhere_between_3_db_under_and_6_db_over_openems(name: str, tmp_path)
     rest = ~case.front()
     assert rest.sum() >= 5, "the case stores too few points beside and behind"
     err = _errors_db(case, tmp_path)
-    ok = (err[rest] >= -3.0) & (err[rest] <= 6.0)
-    assert np.all(ok), _table(case, err, rest)
+    bad = rest & ~((err >= -3.0) & (err <= 6.0))
+    assert not bad.any(), _table(case, err, bad)
 
 
 @pytest.mark.parametrize("name", _params("peak"))
