@@ -88,6 +88,46 @@ def report(name: str, infinite_ground: bool, detail: bool) -> None:
             print(f"    {lab:26s} {np.round(pos, 3)!s:28s} {e:+7.2f} dB")
 
 
+def _db(v: float) -> str:
+    return f"{v:+.1f} dB" if np.isfinite(v) else "model zero"
+
+
+def markdown(names: list[str]) -> None:
+    """Print a markdown table: one row per case and region.
+
+    The models as they are; for the probes, the infinite-ground monopole (ground keys removed).
+    """
+    print(
+        "| case (openEMS v0.0.35) | model | peak D: full wave / model [dBi] | region | points "
+        "| error min / max [dB] | worst point |"
+    )
+    print("|" + " --- |" * 7)
+    for name in names:
+        case = vd.load(name)
+        probe = "ground" in case.source_toml
+        try:
+            err, peak = errors(case, infinite_ground=probe)
+        except Exception as exc:  # noqa: BLE001
+            print(f"| {name} | not available ({exc}) | | | | | |")
+            continue
+        label = "infinite-ground monopole (ground keys removed)" if probe else "as built"
+        front = case.front()
+        for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
+            e = err[m]
+            labs = [lab for lab, k in zip(case.labels, m, strict=True) if k]
+            zeros = int(np.sum(~np.isfinite(e)))
+            f = np.where(np.isfinite(e), e, -np.inf)
+            worst = int(np.argmax(np.abs(f)))
+            fin = e[np.isfinite(e)]
+            text = f"{fin.min():+.1f} / {fin.max():+.1f}" if fin.size else "n/a"
+            if zeros:
+                text += f"; zero at {zeros} points"
+            print(
+                f"| {name} | {label} | {case.peak_directivity_dbi:.2f} / {peak:.2f} | {region} "
+                f"| {m.sum()} | {text} | {labs[worst]}: {_db(f[worst])} |"
+            )
+
+
 def main() -> None:
     """Command line."""
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
@@ -97,8 +137,12 @@ def main() -> None:
         help="drop the finite-ground keys (the infinite-ground monopole)",
     )
     ap.add_argument("--detail", action="store_true", help="one line per sample")
+    ap.add_argument("--markdown", action="store_true", help="a table for the README")
     ap.add_argument("cases", nargs="*", default=None)
     args = ap.parse_args()
+    if args.markdown:
+        markdown(args.cases or vd.available())
+        return
     for name in args.cases or vd.available():
         report(name, args.infinite_ground, args.detail)
 

@@ -218,6 +218,9 @@ CASES = {
     "box-probe": lambda: probe_case("box-probe", "box", (0.20, 0.09), 0.15),
     "plate-probe": lambda: probe_case("plate-probe", "plate", (0.25, 0.25)),
     "guide-wr430": lambda: guide_case("guide-wr430", "WR-430"),
+    "box-probe-offset": lambda: probe_case(
+        "box-probe-offset", "box", (0.20, 0.09), 0.15, offset=(0.05, 0.0)
+    ),
 }
 
 
@@ -290,10 +293,10 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     if case["ground"] == "box":
         d = case["depth"]
         inside_y = abs(y + oy) <= w / 2 + margin
-        if -d - margin <= x <= margin and inside_y and abs(z - oz) <= h / 2 + margin:
+        if -d - margin <= x <= margin and inside_y and abs(z + oz) <= h / 2 + margin:
             return True
     else:
-        if abs(x) <= margin and abs(y + oy) <= w / 2 + margin and abs(z - oz) <= h / 2 + margin:
+        if abs(x) <= margin and abs(y + oy) <= w / 2 + margin and abs(z + oz) <= h / 2 + margin:
             return True
     return bool(-margin <= x <= case["height"] + margin and np.hypot(y, z) <= 0.001 + margin)
 
@@ -340,7 +343,7 @@ def fixed_lines(case: dict) -> list[list[float]]:
         wh = case["wire_half"]
         L[0] += [case["gap"], case["height"]]
         L[1] += [-wh, wh, -oy - w / 2, -oy + w / 2]
-        L[2] += [-wh, wh, oz - h / 2, oz + h / 2]
+        L[2] += [-wh, wh, -oz - h / 2, -oz + h / 2]
         if case["ground"] == "box":
             L[0] += [-case["depth"]]
         L[1].remove(0.0)
@@ -473,12 +476,14 @@ def add_geometry(case: dict, CSX, FDTD, lines) -> dict:  # noqa: ANN001
         wh, g, H = case["wire_half"], case["gap"], case["height"]
         if case["ground"] == "box":
             pec.AddBox(
-                [-case["depth"], -oy - w / 2, oz - h / 2],
-                [0.0, -oy + w / 2, oz + h / 2],
+                [-case["depth"], -oy - w / 2, -oz - h / 2],
+                [0.0, -oy + w / 2, -oz + h / 2],
                 priority=10,
             )
         else:
-            pec.AddBox([0.0, -oy - w / 2, oz - h / 2], [0.0, -oy + w / 2, oz + h / 2], priority=10)
+            pec.AddBox(
+                [0.0, -oy - w / 2, -oz - h / 2], [0.0, -oy + w / 2, -oz + h / 2], priority=10
+            )
         pec.AddBox([g, -wh, -wh], [H, wh, wh], priority=10)
         port = FDTD.AddLumpedPort(
             1, 50.0, [0.0, -wh, -wh], [g, wh, wh], "x", excite=1.0, priority=20
