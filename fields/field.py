@@ -47,6 +47,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import os
 import warnings
 import weakref
@@ -230,8 +231,15 @@ def prepare(scenario: Scenario | PreparedScenario) -> PreparedScenario:
     if known is not None and known[0]() is scenario:
         return known[1]
     prepared = PreparedScenario(scenario, tuple(_radiating_terms(scenario)), _cavity(scenario))
-    _PREPARED[key] = (weakref.ref(scenario, lambda _, key=key: _PREPARED.pop(key, None)), prepared)
+    _PREPARED[key] = (weakref.ref(scenario, functools.partial(_forget, key, _PREPARED)), prepared)
     return prepared
+
+
+def _forget(key: int, table: dict, ref: weakref.ref) -> None:
+    """Drop a prepared scenario once its scenario is gone (``table`` bound: safe at exit)."""
+    entry = table.get(key)
+    if entry is not None and entry[0] is ref:
+        del table[key]
 
 
 def _cavity(scenario: Scenario) -> CavityState | None:
