@@ -466,6 +466,10 @@ def scenario_from_document(
     )
     if allow_options and "option" in document:
         scenario = replace(scenario, options=_read_options(root, document, source))
+    if allow_options:
+        from .plausibility import warn_implausible
+
+        warn_implausible([scenario, *(o.scenario for o in scenario.options)])
     return scenario
 
 
