@@ -67,7 +67,7 @@ def probe_data(
     quotients = quotients_at(scenario, result)
     points = []
     for i, p in enumerate(points_m):
-        allowed, _ = allowed_seconds(scenario, quotients, i)
+        allowed, rules = allowed_seconds(scenario, quotients, i)
         points.append(
             {
                 "position_m": [float(x) for x in p],
@@ -79,6 +79,7 @@ def probe_data(
                 "peak_h_a_m": float(result.peak_h_a_m[i]),
                 "quotients": {k: float(q[i]) for k, q in quotients.items()},
                 "allowed_s": allowed,
+                "allowed_rule": {k: rules[k] for k, v in allowed.items() if v is not None},
             }
         )
     data = {
