@@ -204,39 +204,26 @@ class ProbeResult:
 
     Attributes
     ----------
-    scenario : str
-        The scenario's name.
-    frequency_hz : float
-        Operating frequency [Hz].
-    reflections : str
-        ``"envelope"`` or ``"coherent"``.
+    scenario : Scenario
+        The scenario probed (its limits are the quotients' limits).
     points_m : ndarray, shape (N, 3)
         The points, in scenario coordinates [m].
     fields : FieldResult
         Time-averaged RMS ``e_v_m`` [V m^-1] and ``h_a_m`` [A m^-1], time-averaged
         ``power_density_w_m2`` [W m^-2], and the same while radiating (``peak_*``).
-    limit_values : tuple of LimitValue
-        The limits of the quotients, at the scenario's frequency.
     names : tuple of str, optional
         The names of the scenario's ``[[point]]`` places, when those are what was probed.
     """
 
-    scenario: str
-    frequency_hz: float
-    reflections: str
+    scenario: Scenario
     points_m: NDArray[np.float64]
     fields: FieldResult
-    limit_values: tuple[limits_mod.LimitValue, ...]
     names: tuple[str, ...] | None = None
 
-    @functools.cached_property
-    def quotients(self) -> Mapping[str, NDArray[np.float64]]:
-        """Exposure quotient per limit id, shape (N,) each (time-averaged fields) [1]."""
-        r = self.fields
-        return {
-            v.id: limits_mod.quotient(v, r.power_density_w_m2, r.e_v_m, r.h_a_m)
-            for v in self.limit_values
-        }
+    @property
+    def frequency_hz(self) -> float:
+        """Operating frequency [Hz]."""
+        return self.scenario.frequency_hz
 
     @property
     def e_v_m(self) -> NDArray[np.float64]:
@@ -258,12 +245,21 @@ class ProbeResult:
         """Power density while radiating [W m^-2]."""
         return self.fields.peak_power_density_w_m2
 
+    @functools.cached_property
+    def quotients(self) -> dict[str, NDArray[np.float64]]:
+        """Exposure quotient per limit id, shape (N,) each (time-averaged fields) [1]."""
+        return quotients_at(self.scenario, self.fields)
+
     def point_dicts(self) -> list[dict[str, Any]]:
         """One JSON object a point (the ``points`` list of ``probe --json``)."""
+        from .places import add_spatial_averages, allowed_seconds
+
         r = self.fields
+        quotients = self.quotients
         out = []
         for i, p in enumerate(self.points_m):
-            entry = {
+            allowed, rules = allowed_seconds(self.scenario, quotients, i)
+            entry: dict[str, Any] = {
                 "position_m": [float(x) for x in p],
                 "e_v_m": float(r.e_v_m[i]),
                 "h_a_m": float(r.h_a_m[i]),
@@ -271,20 +267,25 @@ class ProbeResult:
                 "peak_power_density_w_m2": float(r.peak_power_density_w_m2[i]),
                 "peak_e_v_m": float(r.peak_e_v_m[i]),
                 "peak_h_a_m": float(r.peak_h_a_m[i]),
-                "quotients": {k: float(q[i]) for k, q in self.quotients.items()},
+                "quotients": {k: float(q[i]) for k, q in quotients.items()},
+                "allowed_s": allowed,
+                "allowed_rule": {k: rules[k] for k, v in allowed.items() if v is not None},
             }
-            if self.names is not None:
-                entry["name"] = self.names[i]
             out.append(entry)
+        if self.names is not None:
+            # The scenario's named places: say which is which (an added key, "name").
+            for entry, name in zip(out, self.names, strict=True):
+                entry["name"] = name
+            add_spatial_averages(self.scenario, out)
         return out
 
     def to_dict(self) -> dict[str, Any]:
         """The ``probe --json`` object."""
         return {
             "schema_version": SCHEMA_VERSION,
-            "frequency_hz": self.frequency_hz,
-            "scenario": self.scenario,
-            "reflections": self.reflections,
+            "frequency_hz": self.scenario.frequency_hz,
+            "scenario": self.scenario.name,
+            "reflections": self.scenario.reflections,
             "points": self.point_dicts(),
             "caution": CAUTION_TEXT,
         }
@@ -340,16 +341,7 @@ def probe(
         names = tuple(p.name for p in scenario.points)
     else:
         pts = np.asarray(points, dtype=float).reshape(-1, 3)
-    result = evaluate(scenario, pts)
-    return ProbeResult(
-        scenario.name,
-        scenario.frequency_hz,
-        scenario.reflections,
-        pts,
-        result,
-        tuple(limits_mod.get_limit(i).at(scenario.frequency_hz) for i in scenario.limit_ids),
-        names,
-    )
+    return ProbeResult(scenario, pts, evaluate(scenario, pts), names)
 
 
 def probe_data(
@@ -399,10 +391,14 @@ class KeepoutReport:
         ``centre_m`` holding every point at or above the limit), ``direction`` (unit
         vector to the farthest such point), ``limit_w_m2`` [W m^-2], and the screening
         and uncertainty figures.
+    spread : dict, optional
+        With ``[uncertainty]``: ``{"spec": ..., "per_limit": {id: (median_m, p95_m)}}``, the
+        Monte Carlo spread of each keep-out distance [m] (:func:`uncertainty_data`).
     """
 
     scenario: Scenario
     distances: tuple[KeepoutResult, ...]
+    spread: dict[str, Any] | None = None
 
     @property
     def average_power_w(self) -> float:
@@ -417,7 +413,7 @@ class KeepoutReport:
     def to_dict(self) -> dict[str, Any]:
         """The ``keepout --json`` object."""
         s = self.scenario
-        return {
+        data = {
             "schema_version": SCHEMA_VERSION,
             "frequency_hz": s.frequency_hz,
             "scenario": s.name,
@@ -427,6 +423,41 @@ class KeepoutReport:
             "keepout": [keepout_entry(r) for r in self.distances],
             "caution": CAUTION_TEXT,
         }
+        _add_spread(data["keepout"], self.spread)
+        if self.spread is not None:
+            data["uncertainty"] = self.spread["spec"]
+        return data
+
+
+def uncertainty_data(scenario: Scenario, results: list[KeepoutResult]) -> dict[str, Any] | None:
+    """The Monte Carlo spread of each keep-out (None without ``[uncertainty]``).
+
+    Returns ``{"spec": ..., "per_limit": {id: (median_m, p95_m)}}``.
+    """
+    spec = scenario.uncertainty
+    if spec is None:
+        return None
+    from .field import radiating_terms
+    from .uncertainty import gain_sigma_db, keepout_spread
+
+    spreads = keepout_spread(scenario, spec, results)
+    return {
+        "spec": {
+            **spec.as_dict(),
+            "gain_db_used": [gain_sigma_db(spec, t) for t in radiating_terms(scenario)],
+            "method": "seeded Monte Carlo (PCG64), fields re-weighted per sample",
+        },
+        "per_limit": {s.limit_id: (s.median_m, s.p95_m) for s in spreads},
+    }
+
+
+def _add_spread(entries: list[dict[str, Any]], spread: dict[str, Any] | None) -> None:
+    if spread is None:
+        return
+    for entry in entries:
+        median, p95 = spread["per_limit"][entry["limit"]]
+        entry["distance_median_m"] = median
+        entry["distance_p95_m"] = p95
 
 
 def keepout(
@@ -456,13 +487,43 @@ def keepout(
     ids = select_limits(scenario, limits)
     with maps.busy(progress, "keep-out search"):
         results = keepout_distances(scenario, ids)
-    return KeepoutReport(scenario, tuple(results))
+    scoped = scenario if ids == tuple(scenario.limit_ids) else scenario.with_limits(ids)
+    spread = uncertainty_data(scoped, results)
+    return KeepoutReport(scenario, tuple(results), spread)
 
 
 def keepout_data(scenario: Scenario) -> tuple[dict[str, Any], list[KeepoutResult]]:
     """Keep-out distance for each scenario limit (contract ``keepout`` JSON)."""
     report = keepout(scenario)
     return report.to_dict(), list(report.distances)
+
+
+def readings_data(scenario: Scenario, readings: list[Any]) -> dict[str, Any]:
+    """Survey readings against the time-averaged prediction (``readings --json``).
+
+    Each reading's power density is compared with every scenario limit: the reading
+    counts as over a limit where its quotient (the measured density against the
+    limit's density) reaches one.
+    """
+    from .readings import compare_readings
+
+    pts = np.array([r.position_m for r in readings])
+    result = evaluate(scenario, pts)
+    measured = np.array([r.power_density_w_m2 for r in readings])
+    quotients = {}
+    for limit_id in scenario.limit_ids:
+        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        quotients[limit_id] = limits_mod.quotient(value, measured)
+    body = compare_readings(readings, result.power_density_w_m2, quotients)
+    return {
+        "schema_version": SCHEMA_VERSION,
+        "frequency_hz": scenario.frequency_hz,
+        "scenario": scenario.name,
+        **body,
+        "compared_with": "time-averaged prediction (duty cycle applied): a survey meter "
+        "averages over at least a second, far longer than a mains cycle",
+        "caution": CAUTION_TEXT,
+    }
 
 
 # --------------------------------------------------------------------- map
@@ -602,7 +663,11 @@ def field_map(
 
 
 def map_files(
-    run: Any, stem: str, style: Any = None, formats: tuple[str, ...] = ("png", "svg")
+    run: Any,
+    stem: str,
+    style: Any = None,
+    formats: tuple[str, ...] = ("png", "svg"),
+    overlay: Any = None,
 ) -> dict[str, bytes]:
     """The files of one map run, by name, in the ``formats`` asked.
 
@@ -614,7 +679,9 @@ def map_files(
 
     files: dict[str, bytes] = {}
     if "png" in formats or "svg" in formats:
-        fig = plots.map_figure(run.result, run.scenario, run.keepouts, style, run.zones)
+        fig = plots.map_figure(
+            run.result, run.scenario, run.keepouts, style, run.zones, overlay=overlay
+        )
         for fmt in ("png", "svg"):
             if fmt in formats:
                 files[f"{stem}.{fmt}"] = plots.figure_bytes(fig, fmt)
@@ -835,6 +902,19 @@ def step_options(
     )
 
 
+def step_uncertainty(
+    scenario: Scenario,
+    limit_ids: Sequence[str],
+    keepouts: Sequence[KeepoutResult],
+    progress: ProgressFactory | None = None,
+) -> dict[str, Any] | None:
+    """With ``[uncertainty]``: the Monte Carlo spread of each keep-out (None without)."""
+    if scenario.uncertainty is None:
+        return None
+    with maps.busy(progress, "uncertainty samples"):
+        return uncertainty_data(scenario.with_limits(tuple(limit_ids)), list(keepouts))
+
+
 def place_entries(places: ProbeResult | None) -> list[dict[str, Any]]:
     """The ``points`` list of ``assessment.json``: each place probed, with its verdict."""
     if places is None:
@@ -884,6 +964,10 @@ class AssessmentResult:
         The named places probed.
     comparison : Comparison or None
         The options ranked, when the scenario has any.
+    spread : dict or None
+        With ``[uncertainty]``, the keep-out spread (:func:`uncertainty_data`).
+    readings : dict or None
+        The survey readings compared (:func:`readings_data`), when given.
     data : dict
         The ``assessment.json`` object.
     files : dict of str to bytes
@@ -900,6 +984,8 @@ class AssessmentResult:
     cylinders: tuple[maps.Cylinder, ...]
     places: ProbeResult | None
     comparison: Comparison | None
+    spread: dict[str, Any] | None
+    readings: dict[str, Any] | None
     data: dict[str, Any]
     files: Mapping[str, bytes]
     written: tuple[Path, ...] = field(default=())
@@ -907,6 +993,38 @@ class AssessmentResult:
     def to_dict(self) -> dict[str, Any]:
         """The ``assessment.json`` object (what ``assess --json`` prints)."""
         return self.data
+
+
+def _map_overlay(scenario: Scenario, run: Any, readings_block: dict[str, Any] | None) -> Any:
+    """The P95 contours (with ``[uncertainty]``) and the readings near a map's plane."""
+    from .plots import MapOverlay
+
+    p95: dict[str, NDArray[np.float64]] = {}
+    if scenario.uncertainty is not None:
+        from .uncertainty import quotient_percentile
+
+        grid = run.result.grid
+        q = quotient_percentile(
+            scenario, scenario.uncertainty, grid.points_m(), list(run.result.limit_ids)
+        )
+        p95 = {k: v.reshape(grid.shape) for k, v in q.items()}
+    marks = []
+    if readings_block is not None:
+        plane = run.result.grid.plane
+        near = max(0.5, 2 * run.result.grid.step_m)
+        for i, r in enumerate(readings_block["readings"]):
+            pos = np.asarray(r["position_m"], dtype=float)
+            st, off = plane.to_plane(pos)
+            if abs(float(off[0])) <= near:
+                marks.append(
+                    {
+                        "s": float(st[0, 0]),
+                        "t": float(st[0, 1]),
+                        "tag": r["label"] or f"R{i + 1}",
+                        "under": r["under_predicted"],
+                    }
+                )
+    return MapOverlay(p95=p95, readings=marks)
 
 
 def step_report(
@@ -918,6 +1036,8 @@ def step_report(
     places: ProbeResult | None,
     comparison: Comparison | None,
     scenario_text: str | None = None,
+    spread: dict[str, Any] | None = None,
+    readings_block: dict[str, Any] | None = None,
 ) -> tuple[dict[str, Any], dict[str, bytes]]:
     """Step 6, report: the ``assessment.json`` object and every output file's bytes."""
     from importlib import metadata
@@ -941,6 +1061,7 @@ def step_report(
         row["cylinder"] = by_cyl[k.limit_id].as_dict()
         row["floor_zone"] = floor.conservative_shapes(k.limit_id)
         keepout_rows.append(row)
+    _add_spread(keepout_rows, spread)
     try:
         version = metadata.version("keepclear")
     except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
@@ -974,6 +1095,8 @@ def step_report(
             "vertical": vertical.summary(),
         },
         "comparison": None if comparison is None else comparison.data(),
+        "uncertainty": None if spread is None else spread["spec"],
+        "readings": readings_block,
         "assumptions": {
             "time_averaging": plots.duty_text(scenario),
             "reflections": plots.reflection_text(scenario),
@@ -986,8 +1109,23 @@ def step_report(
     data["files"] = list(names)
 
     files: dict[str, bytes] = {}
-    files.update(map_files(floor, "map-floor", formats=("png", "svg", "npz", "geojson")))
-    files.update(map_files(vertical, "map-vertical", formats=("png", "svg", "npz")))
+    overlays = {
+        name: _map_overlay(scenario, run, readings_block)
+        for name, run in (("floor", floor), ("vertical", vertical))
+    }
+    files.update(
+        map_files(
+            floor,
+            "map-floor",
+            formats=("png", "svg", "npz", "geojson"),
+            overlay=overlays["floor"],
+        )
+    )
+    files.update(
+        map_files(
+            vertical, "map-vertical", formats=("png", "svg", "npz"), overlay=overlays["vertical"]
+        )
+    )
     figures = {"floor": files["map-floor.png"], "vertical": files["map-vertical.png"]}
     if comparison is not None:
         fig = comparison.figure()
@@ -1012,6 +1150,7 @@ def assess(
     height_m: float | None = None,
     grid: GridSettings | None = None,
     scenario_text: str | None = None,
+    readings: Sequence[Any] | None = None,
     progress: ProgressFactory | None = None,
 ) -> AssessmentResult:
     """The full assessment: keep-out -> maps -> zones -> places -> options -> report.
@@ -1031,6 +1170,9 @@ def assess(
     scenario_text : str, optional
         The scenario file as written, for the report (default: read from
         ``scenario.path`` when that is a file).
+    readings : sequence of Reading, optional
+        Survey readings to compare and mark on the maps
+        (:func:`keepclear.fields.readings.read_readings_csv`).
     progress : callable, optional
         ``progress(label)`` returns a stage callback.
 
@@ -1044,13 +1186,13 @@ def assess(
     if scenario_text is None and scenario.path and Path(scenario.path).is_file():
         scenario_text = Path(scenario.path).read_text(encoding="utf-8")
     if out is None:
-        return _assess(scenario, ids, height_m, grid, scenario_text, progress)
+        return _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
     protected = [Path(scenario.path)] if scenario.path else []
     refuse_assessment_overwrites(out, protected)
     from .outputs import staged_output_folder
 
     with staged_output_folder(out, protected) as staged:
-        result = _assess(scenario, ids, height_m, grid, scenario_text, progress)
+        result = _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
         for name, blob in result.files.items():
             staged.write(name, blob)
     return replace(result, written=tuple(staged.published))
@@ -1071,18 +1213,40 @@ def _assess(
     grid: GridSettings,
     scenario_text: str | None,
     progress: ProgressFactory | None,
+    readings: Sequence[Any] | None = None,
 ) -> AssessmentResult:
     scenario = prepare(scenario).scenario
     keepouts = step_keepout(scenario, ids, progress)
     runs = step_maps(scenario, keepouts, grid, height_m, progress)
     cylinders = step_zones(scenario, keepouts, runs, progress)
     places = step_places(scenario, ids)
+    spread = step_uncertainty(scenario, ids, keepouts, progress)
+    readings_block = readings_data(scenario.with_limits(ids), readings) if readings else None
     comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress)
     data, files = step_report(
-        scenario, ids, keepouts, runs, cylinders, places, comparison, scenario_text
+        scenario,
+        ids,
+        keepouts,
+        runs,
+        cylinders,
+        places,
+        comparison,
+        scenario_text,
+        spread,
+        readings_block,
     )
     return AssessmentResult(
-        scenario, ids, keepouts, runs, cylinders, places, comparison, data, files
+        scenario,
+        ids,
+        keepouts,
+        runs,
+        cylinders,
+        places,
+        comparison,
+        spread,
+        readings_block,
+        data,
+        files,
     )
 
 
@@ -1108,6 +1272,7 @@ def run_assessment(
     pixels: int | None = None,
     scenario_text: str | None = None,
     progress: Any = None,
+    readings: list[Any] | None = None,
 ) -> tuple[dict[str, Any], dict[str, bytes]]:
     """The whole assessment as ``(assessment.json object, files by name)``; nothing written.
 
@@ -1117,5 +1282,5 @@ def run_assessment(
         raise InputError("must be a finite height in metres", "argument", "--height-m")
     ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
     grid = GridSettings(half_extent_m, step_m, pixels)
-    result = _assess(scenario, ids, height_m, grid, scenario_text, progress)
+    result = _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
     return result.data, dict(result.files)

@@ -396,7 +396,45 @@ def keepout_command(
         return
     from .report_text import keepout_table
 
-    _print_with_caution(keepout_table(data, result.scenario, screening=screening))
+    text = keepout_table(data, result.scenario, screening=screening)
+    if "uncertainty" in data:
+        from .report_text import uncertainty_lines
+
+        text += "\n\n" + uncertainty_lines(data)
+    _print_with_caution(text)
+
+
+# ----------------------------------------------------------------- readings
+@app.command("readings")
+def readings_command(
+    scenario: ScenarioPath,
+    csv_in: Annotated[
+        Path,
+        typer.Option(
+            "--csv",
+            help="Survey readings: header x_m,y_m,z_m,value,unit[,label]; unit one of W/m2, "
+            "mW/cm2, V/m, A/m [m, and the unit given].",
+            show_default=False,
+        ),
+    ],
+    json_out: JsonFlag = False,
+) -> None:
+    """Survey-meter readings against the model: ratio, flags, limits, a suggested margin.
+
+    A meter averages over a second or more, far longer than a mains cycle, so each
+    reading is compared with the time-averaged prediction (duty cycle applied).  A
+    reading more than 3 dB above the prediction is flagged as under-predicted.
+    """
+    from .readings import read_readings_csv
+
+    readings = read_readings_csv(csv_in)
+    data = api.readings_data(_load(scenario), readings)
+    if json_out:
+        _emit_json(data)
+        return
+    from .report_text import readings_table
+
+    _print_with_caution(readings_table(data))
 
 
 # ------------------------------------------------------- maps, compare, assess
@@ -675,6 +713,16 @@ def assess_command(
             rich_help_panel=PANEL_OUTPUT,
         ),
     ] = False,
+    readings_csv: Annotated[
+        Path | None,
+        typer.Option(
+            "--readings",
+            help="Survey readings CSV (x_m,y_m,z_m,value,unit[,label]) to mark on the maps and "
+            "compare in the report [m, and the unit given].",
+            rich_help_panel=PANEL_OUTPUT,
+            show_default=False,
+        ),
+    ] = None,
 ) -> None:
     """The full assessment: summary, assessment.json, maps, zones, options and report.html.
 
@@ -689,6 +737,11 @@ def assess_command(
 
     api.check_height(height_m)
     grid = GridSettings(extent_m, step_m, pixels)
+    readings = None
+    if readings_csv is not None:
+        from .readings import read_readings_csv
+
+        readings = read_readings_csv(readings_csv, "--readings")
     loaded = _load(scenario)
     ids = api.select_limits(loaded, limit)
     api.refuse_assessment_overwrites(out, [scenario])
@@ -701,6 +754,7 @@ def assess_command(
             height_m=height_m,
             grid=grid,
             scenario_text=text,
+            readings=readings,
             progress=progress,
         )
     if json_out:

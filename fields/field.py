@@ -213,14 +213,17 @@ class PreparedScenario:
     cavity: CavityState | None
 
 
-#: Prepared scenarios by the identity of their scenario, while that scenario lives.
-_PREPARED: dict[int, tuple[weakref.ref[Scenario], PreparedScenario]] = {}
+#: What :func:`prepare` built, by the identity of its scenario, while that scenario lives
+#: (the radiating terms and the cavity state hold no reference to the scenario itself, so
+#: the entry goes when the scenario does).
+_PREPARED: dict[int, tuple[weakref.ref[Scenario], tuple[RadiatingTerm, ...], CavityState | None]]
+_PREPARED = {}
 
 
 def prepare(scenario: Scenario | PreparedScenario) -> PreparedScenario:
-    """The :class:`PreparedScenario` of a scenario, built on first use and then shared.
+    """The :class:`PreparedScenario` of a scenario; its parts are built on first use, then shared.
 
-    The prepared form is kept beside the scenario (keyed by its identity, dropped when
+    The prepared parts are kept beside the scenario (keyed by its identity, dropped when
     the scenario is), never written into the frozen :class:`Scenario` itself, so every
     search and map over one scenario solves its enclosure once.
     """
@@ -229,10 +232,11 @@ def prepare(scenario: Scenario | PreparedScenario) -> PreparedScenario:
     key = id(scenario)
     known = _PREPARED.get(key)
     if known is not None and known[0]() is scenario:
-        return known[1]
-    prepared = PreparedScenario(scenario, tuple(_radiating_terms(scenario)), _cavity(scenario))
-    _PREPARED[key] = (weakref.ref(scenario, functools.partial(_forget, key, _PREPARED)), prepared)
-    return prepared
+        return PreparedScenario(scenario, known[1], known[2])
+    terms, cavity = tuple(_radiating_terms(scenario)), _cavity(scenario)
+    ref = weakref.ref(scenario, functools.partial(_forget, key, _PREPARED))
+    _PREPARED[key] = (ref, terms, cavity)
+    return PreparedScenario(scenario, terms, cavity)
 
 
 def _forget(key: int, table: dict, ref: weakref.ref) -> None:
@@ -446,9 +450,12 @@ def evaluate(
 
 
 def _cavity_squares(  # noqa: ANN202
-    prepared: PreparedScenario, pts: NDArray[np.float64], chunk_bytes: int = 64 * 1024**2
+    scenario: Scenario | PreparedScenario,
+    pts: NDArray[np.float64],
+    chunk_bytes: int = 64 * 1024**2,
 ):
     """Inside the enclosure: the stirred cavity field plus the sources' direct fields."""
+    prepared = prepare(scenario)
     enclosure = prepared.scenario.enclosure
     cavity = prepared.cavity
     if enclosure is None or cavity is None:

@@ -191,8 +191,9 @@ def test_prepared_scenario_is_built_once_and_not_stored_on_the_scenario():
 
     scenario = kc.load_scenario(SCENARIOS / "drying-line-enclosure.toml")
     prepared = prepare(scenario)
-    assert isinstance(prepared, PreparedScenario) and prepare(scenario) is prepared
-    assert prepare(prepared) is prepared
+    assert isinstance(prepared, PreparedScenario) and prepare(prepared) is prepared
+    again = prepare(scenario)  # built once: the same terms and cavity state
+    assert again.terms is prepared.terms and again.cavity is prepared.cavity
     assert "_derived" not in vars(scenario)
     with pytest.raises(dataclasses.FrozenInstanceError):
         prepared.terms = ()  # type: ignore[misc]
@@ -200,6 +201,20 @@ def test_prepared_scenario_is_built_once_and_not_stored_on_the_scenario():
     a = evaluate(scenario, pts).power_density_w_m2
     b = evaluate(prepared, pts).power_density_w_m2
     assert np.allclose(a, b, rtol=1e-12, atol=0.0)
+
+
+def test_prepared_parts_go_with_their_scenario():
+    import gc
+
+    from keepclear.fields import field
+
+    scenario = kc.load_scenario(SCENARIOS / "drying-line-enclosure.toml")
+    field.prepare(scenario)
+    key = id(scenario)
+    assert key in field._PREPARED
+    del scenario
+    gc.collect()
+    assert key not in field._PREPARED
 
 
 def test_readme_example_runs():
