@@ -344,3 +344,45 @@ def test_bad_plate_keys_exit_2_naming_file_and_key(write_scenario, extra, key, w
     assert result.exit_code == 2
     line = result.stderr.strip()
     assert "\n" not in line and path.name in line and key in line and "Traceback" not in line
+
+
+# ----------------------------------------------------------------- keep-out search
+@pytest.mark.parametrize("material", ["metal", "wood"])
+def test_keepout_with_a_finite_bench_top_is_never_inside_the_brute_force_grid(
+    write_scenario, material
+):
+    # A vertical dipole 10 cm over a 1.2 m x 0.8 m bench top, 0.9 m over a concrete floor: the
+    # search must not report less than a dense grid of points finds (a lower bound of the
+    # contract's radius), and not much more.
+    from keepclear.fields.keepout import keepout_distances
+
+    from .test_keepout_search import grid_radius
+
+    path = write_scenario(
+        f"""
+        [[source]]
+        antenna = "dipole"
+        power_w = 200.0
+        position_m = [0.0, 0.0, 1.0]
+        axis = [0.0, 0.0, 1.0]
+        [[reflector]]
+        point_m = [0.0, 0.0, 0.0]
+        normal = [0.0, 0.0, 1.0]
+        material = "concrete"
+        [[reflector]]
+        point_m = [0.2, 0.0, 0.9]
+        normal = [0.0, 0.0, 1.0]
+        material = "{material}"
+        size_m = [1.2, 0.8]
+        """
+    )
+    scenario = load_scenario(path)
+    result = keepout_distances(scenario)[0]
+    half = 1.3 * result.distance_m
+    # the floor, under, on and over the plate, and the level of the search's own answer
+    far = scenario.centre_m + result.direction * result.distance_m
+    planes = [0.0005, 0.3, 0.9005, 1.0, 1.2, 1.6, float(far[2])]
+    brute = grid_radius(scenario, result.limit_id, planes, half, 121)
+    assert brute > 0
+    assert result.distance_m >= brute
+    assert result.distance_m <= brute + 2 * half / 120 + 0.05 * brute
