@@ -12,9 +12,13 @@ edge has the Fresnel-Kirchhoff parameter of ITU-R P.526 [1]_ sec. 4.1:
 
     \\nu = h\\,\\sqrt{\\frac{2 (d_1 + d_2)}{\\lambda d_1 d_2}},
 
-``h`` measured across the ray (the distance between the ray and the edge line: the
-in-plane distance times :math:`\\cos\\theta / \\sqrt{1 - (\\hat k\\cdot\\hat e)^2}`,
-:math:`\\hat e` the edge direction, :math:`\\theta` the incidence angle).  With the
+``h`` measured across the ray.  It is evaluated in the equivalent path-excess form
+:math:`|\\nu| = 2\\sqrt{\\Delta/\\lambda}` (P.526 [1]_ sec. 4.1, with
+:math:`\\Delta \\approx h^2 (d_1 + d_2)/(2 d_1 d_2)`), Delta the exact excess of the
+shortest path from S to P via the edge line over the straight path, and the sign
+positive where X lies on the rectangle's side of the edge: this keeps nu finite at wide
+angles (a point near the rectangle's plane far beyond an edge), where the paraxial form
+would crowd the whole transition into a thin layer over the plane.  With the
 complex Fresnel integral :math:`K(\\nu) = C(\\nu) - jS(\\nu)` (time :math:`e^{+j\\omega t}`,
 ``scipy.special.fresnel``), the field passed by a rectangular **aperture** spanning
 :math:`[\\nu_1, \\nu_2]` across and :math:`[\\mu_1, \\mu_2]` along, relative to the free
@@ -245,24 +249,45 @@ def rectangle_crossing(
     c = np.abs(ray @ normal)
     l1 = np.maximum(frac * length, _MIN_LEG_M)
     l2 = np.maximum((1 - frac) * length, _MIN_LEG_M)
-    scale = np.sqrt(2 * (l1 + l2) / (wavelength_m * l1 * l2))
-    # distance across the ray per unit in-plane distance from an edge along v (or u)
-    across_u = c / np.sqrt(np.clip(1 - (ray @ height_axis) ** 2, 1e-12, None))
-    across_v = c / np.sqrt(np.clip(1 - (ray @ width_axis) ** 2, 1e-12, None))
-    rows = np.array(
-        [
-            (half_width_m - xu) * across_u,
-            (half_width_m + xu) * across_u,
-            (half_height_m - xv) * across_v,
-            (half_height_m + xv) * across_v,
-        ]
+    edges = (
+        (half_width_m - xu, centre_m + half_width_m * width_axis, height_axis),
+        (half_width_m + xu, centre_m - half_width_m * width_axis, height_axis),
+        (half_height_m - xv, centre_m + half_height_m * height_axis, width_axis),
+        (half_height_m + xv, centre_m - half_height_m * height_axis, width_axis),
     )
-    nu[:, crossing] = np.clip(rows * scale, -NU_LIMIT, NU_LIMIT)
+    rows = np.empty((4, s.shape[0]))
+    for k, (inner, point, direction) in enumerate(edges):
+        excess = _edge_path_excess_m(s, e, length, point, direction)
+        rows[k] = np.where(inner >= 0, 1.0, -1.0) * 2.0 * np.sqrt(excess / wavelength_m)
+    nu[:, crossing] = np.clip(rows, -NU_LIMIT, NU_LIMIT)
     cos_inc[crossing] = c
     d1[crossing] = l1
     d2[crossing] = l2
     inside[crossing] = (np.abs(xu) < half_width_m) & (np.abs(xv) < half_height_m)
     return RectangleCrossing(crossing, nu, cos_inc, d1, d2, inside)
+
+
+def _edge_path_excess_m(
+    start_m: NDArray[np.float64],
+    end_m: NDArray[np.float64],
+    direct_m: NDArray[np.float64],
+    edge_point_m: NDArray[np.float64],
+    edge_direction: NDArray[np.float64],
+) -> NDArray[np.float64]:
+    """Path excess via an edge line, min over E of |SE| + |EP| - |SP| (>= 0) [m].
+
+    Unfolding P about the line into the half plane opposite S gives the shortest path
+    through the line, :math:`\\sqrt{(\\rho_S + \\rho_P)^2 + (t_S - t_P)^2}` with
+    :math:`\\rho` the distances from the line and t the positions along it.
+    """
+    rel_s = start_m - edge_point_m
+    rel_e = end_m - edge_point_m
+    ts = rel_s @ edge_direction
+    te = rel_e @ edge_direction
+    rho_s = np.linalg.norm(rel_s - ts[:, None] * edge_direction, axis=1)
+    rho_e = np.linalg.norm(rel_e - te[:, None] * edge_direction, axis=1)
+    via = np.sqrt((rho_s + rho_e) ** 2 + (ts - te) ** 2)
+    return np.maximum(via - direct_m, 0.0)
 
 
 def rectangle_aperture_factor(nu: NDArray[np.float64]) -> NDArray[np.complex128]:

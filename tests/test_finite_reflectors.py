@@ -88,7 +88,7 @@ def test_reflection_boundary_is_halved_and_far_beyond_it_nothing():
     # aperture of a half plane on its boundary, P.526-15 sec. 4.1: J(0) = 6 dB); far
     # outside the beam the plate adds little.
     src = iso([0.0, 0.0, 1.0])
-    pl = plate((4.0, 40.0), point=(2.0, 0.0, 0.0), up=[0.0, 1.0, 0.0])  # edge at x = 0
+    pl = plate((400.0, 4000.0), point=(200.0, 0.0, 0.0), up=[0.0, 1.0, 0.0])  # edge at x = 0
     inf = plate(None)
     on_edge = np.array([[0.0, 0.0, 1.0 + 1e-9]])
     ratio = reflected_density(src, pl, on_edge)[0] / reflected_density(src, inf, on_edge)[0]
@@ -120,7 +120,7 @@ def test_behind_a_wooden_plate_the_direct_field_is_kept_and_behind_metal_it_diff
     np.testing.assert_allclose(wood.power_density_w_m2, free, rtol=1e-9)
     steel = evaluate(load_scenario(write_scenario(text.format(m="metal"), "m.toml")), below)
     ratio = steel.power_density_w_m2 / free
-    assert np.all(ratio > 0) and np.all(ratio < 10 ** (-15 / 10))
+    assert np.all(ratio > 0) and np.all(ratio < 10 ** (-10 / 10))
     # the knife-edge sum of the four edges (P.526-15 sec. 4.1) bounds it from above
     src = np.array([0.0, 0.0, 0.1])
     geo = dif.rectangle_crossing(

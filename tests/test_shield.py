@@ -35,9 +35,9 @@ def wall(spec, size: float = 1.0, **kw) -> Shield:
 
 
 def test_ray_through_a_large_sheet_is_attenuated_by_its_se() -> None:
-    # A 20 dB panel, 200 m square: edge diffraction (four knife edges, ITU-R P.526) adds
-    # well under 0.3 dB, so the factor is the sheet's 10^(-20/20).
-    shield = wall(RatedSpec(20.0), size=200.0)
+    # A 20 dB panel, 5 km square: edge diffraction (four knife edges, ITU-R P.526, nu about
+    # 400) adds under 0.3 dB, so the factor is the sheet's 10^(-20/20).
+    shield = wall(RatedSpec(20.0), size=5000.0)
     factor = shield.amplitude_factor(SOURCE, np.array([[1.0, 0.0, 0.0]]))
     assert 20 * math.log10(1 / factor[0]) == pytest.approx(20.0, abs=0.3)
     assert factor[0] >= 0.1  # never more credit than the sheet's own
@@ -60,11 +60,16 @@ def test_beside_the_sheet_only_the_lit_side_ripple_remains() -> None:
 
 
 def test_on_the_shadow_boundary_of_one_edge_the_field_is_halved() -> None:
-    # A 200 dB sheet, 40 m tall, its edge at y = 0.5 m, crossed exactly there: P.526-15
+    # A 200 dB sheet, 4 km square, its edge at y = 0.5 m, crossed exactly there: P.526-15
     # sec. 4.1 gives J(0) = 6.02 dB (exact Fresnel form) / 6.03 dB (eq. (31)).  The
-    # far edges add a little (their nu is about 160).
+    # far edges add a little (their nu is about 360).
     shield = Shield(
-        np.array([0.0, -19.5, 0.0]), np.array([1.0, 0.0, 0.0]), 40.0, 40.0, RatedSpec(200.0), F
+        np.array([0.0, -1999.5, 0.0]),
+        np.array([1.0, 0.0, 0.0]),
+        4000.0,
+        4000.0,
+        RatedSpec(200.0),
+        F,
     )
     f = shield.amplitude_factor(SOURCE, np.array([[1.0, 1.0, 0.0]]))[0]
     assert -20 * math.log10(f) == pytest.approx(6.02, abs=0.15)
