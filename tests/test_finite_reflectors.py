@@ -386,3 +386,22 @@ def test_keepout_with_a_finite_bench_top_is_never_inside_the_brute_force_grid(
     assert brute > 0
     assert result.distance_m >= brute
     assert result.distance_m <= brute + 2 * half / 120 + 0.05 * brute
+
+
+def test_uncertainty_decomposition_reproduces_the_orchestrator_with_plates():
+    # The sampling of [uncertainty] re-weights the same paths the orchestrator sums: with
+    # neutral factors it must give the orchestrator's |E|^2 with finite plates present (a
+    # wooden table, a steel cabinet side, a concrete floor).
+    from keepclear.fields import uncertainty as unc
+
+    from .conftest import SCENARIOS
+
+    scenario = load_scenario(SCENARIOS / "tabletop-box-room.toml")
+    pts = np.random.default_rng(1).uniform(-2.0, 2.0, (200, 3))
+    pts[:, 2] = np.abs(pts[:, 2]) + 0.05
+    dec = unc.decompose(scenario, pts)
+    draws = unc.draw_samples(scenario, unc.UncertaintySpec(gain_db=0.0, samples=1))
+    ref = evaluate(scenario, pts)
+    e2, h2 = unc.sample_squares(dec, draws, slice(0, 1), peak=True)
+    np.testing.assert_allclose(e2[0], ref.peak_e_v_m**2, rtol=1e-9, atol=1e-20)
+    np.testing.assert_allclose(h2[0], ref.peak_h_a_m**2, rtol=1e-9, atol=1e-25)
