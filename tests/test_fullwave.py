@@ -187,9 +187,12 @@ def _yaghjian_method_1_dbi(broad_m: float, narrow_m: float, forward_only: bool) 
     return float(10 * np.log10(4 * np.pi * (1 + r) ** 2 / power))
 
 
-@pytest.mark.skipif("guide-wr340" not in CASES, reason="no stored open-guide case")
-def test_open_guide_boresight_against_yaghjian_1984() -> None:
-    """Open WR-340 guide, no flange: openEMS boresight directivity against Yaghjian (1984).
+_GUIDES = [n for n in CASES if n.startswith("guide-")]
+
+
+@pytest.mark.parametrize("name", _GUIDES)
+def test_open_guide_boresight_against_yaghjian_1984(name: str) -> None:
+    """Open guide, no flange: openEMS boresight directivity against Yaghjian (1984).
 
     Source: A. D. Yaghjian, "Approximate formulas for the far field and gain of open-ended
     rectangular waveguide", IEEE Trans. Antennas Propag. AP-32(4), 378-384 (1984); its
@@ -198,21 +201,25 @@ def test_open_guide_boresight_against_yaghjian_1984() -> None:
     hand: the method is reconstructed from the abstract (see the helper), which leaves open
     whether the power integral spans the forward half-space or the whole sphere. The
     full-wave value must lie between the two readings, widened by the 0.2 dB the abstract
-    claims. The stored case is an unflanged WR-340 guide with 2 mm walls at 2.45 GHz
-    (a / lambda = 0.71, inside the band the paper covers).
+    claims. The stored cases are unflanged guides with 2 mm walls at 2.45 GHz (WR-340:
+    a / lambda = 0.71; WR-430: 0.89), inside the band the paper covers.
     """
-    case = vd.load("guide-wr340")
-    a, b = 0.08636, 0.04318
+    import tomllib
+
+    from keepclear.antennas.waveguide import waveguide_dimensions
+
+    case = vd.load(name)
+    a, b = waveguide_dimensions(tomllib.loads(case.source_toml)["source"][0]["waveguide"])
     low = _yaghjian_method_1_dbi(a, b, forward_only=False)
     high = _yaghjian_method_1_dbi(a, b, forward_only=True)
     assert low < high
     assert low - 0.2 <= case.boresight_directivity_dbi <= high + 0.2, (
-        f"{case.engine}: full wave {case.boresight_directivity_dbi:.2f} dBi, "
+        f"{case.name} ({case.engine}): full wave {case.boresight_directivity_dbi:.2f} dBi, "
         f"Yaghjian method 1 {low:.2f} (whole sphere) to {high:.2f} dBi (forward half)"
     )
 
 
-@pytest.mark.parametrize("name", [n for n in CASES if n.startswith("guide-")])
+@pytest.mark.parametrize("name", _GUIDES)
 def test_open_guide_boresight_model_within_1_db_of_openems(name: str, tmp_path) -> None:  # noqa: ANN001
     """The model's boresight gain against the openEMS boresight directivity (lossless)."""
     case = vd.load(name)
