@@ -34,8 +34,9 @@ _NO_FINITE_GROUND = (
     "the ground plane"
 )
 _FRONT_WITHOUT_WALLS = (
-    "aperture-only model: in front it is up to 2.6 dB high in the H plane at 45-60 deg and "
-    "0.3-0.4 m (open WR-340); the wall currents it leaves out reshape the near pattern"
+    "aperture-only model: in front it is up to 2.6 dB (WR-340) and 2.2 dB (WR-430) high in "
+    "the H plane at 45-60 deg and 0.3-0.4 m; the wall currents it leaves out reshape the "
+    "near pattern"
 )
 _NO_WALL_CURRENTS = (
     "aperture-only model: the currents on the outer walls and the rim diffraction are not "
@@ -47,11 +48,15 @@ KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("box-probe", "front"): _NO_FINITE_GROUND,
     ("box-probe", "elsewhere"): _NO_FINITE_GROUND,
     ("box-probe", "peak"): _NO_FINITE_GROUND,
+    ("box-probe-offset", "front"): _NO_FINITE_GROUND,
+    ("box-probe-offset", "elsewhere"): _NO_FINITE_GROUND,
+    ("box-probe-offset", "peak"): _NO_FINITE_GROUND,
     ("plate-probe", "front"): _NO_FINITE_GROUND,
     ("plate-probe", "elsewhere"): _NO_FINITE_GROUND,
     ("plate-probe", "peak"): _NO_FINITE_GROUND,
     ("guide-wr340", "front"): _FRONT_WITHOUT_WALLS,
     ("guide-wr340", "elsewhere"): _NO_WALL_CURRENTS,
+    ("guide-wr430", "front"): _FRONT_WITHOUT_WALLS,
     ("guide-wr430", "elsewhere"): _NO_WALL_CURRENTS,
     ("horn-wr340", "elsewhere"): _NO_WALL_CURRENTS,
 }
