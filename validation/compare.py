@@ -128,6 +128,32 @@ def markdown(names: list[str]) -> None:
             )
 
 
+def grid(names: list[str]) -> None:
+    """Print each case's error per plane and angle (rows) and distance (columns) [dB]."""
+    order = {"axis": 0, "E": 1, "H": 2, "diagonal": 3}
+    for name in names:
+        case = vd.load(name)
+        probe = "ground" in case.source_toml
+        err, peak = errors(case, infinite_ground=probe)
+        rows: dict = {}
+        for s, e in zip(case.doc["samples"], err, strict=True):
+            rows.setdefault((s["plane"], s["angle_deg"]), {})[s["distance_m"]] = e
+        radii = sorted({s["distance_m"] for s in case.doc["samples"]})
+        model = "infinite-ground monopole" if probe else "as built"
+        print(
+            f"\n{name} ({case.engine}); keepclear {model}; peak directivity full wave "
+            f"{case.peak_directivity_dbi:.2f} dBi, model {peak:.2f} dBi"
+        )
+        print("  plane    angle  " + " ".join(f"{r:>6} m" for r in radii))
+        for key in sorted(rows, key=lambda k: (order[k[0]], k[1])):
+            v = rows[key]
+            cells = " ".join(
+                (f"{v[r]:+8.1f}" if np.isfinite(v[r]) else "    zero") if r in v else "       -"
+                for r in radii
+            )
+            print(f"  {key[0]:8s} {key[1]:6} {cells}")
+
+
 def main() -> None:
     """Command line."""
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
@@ -138,10 +164,14 @@ def main() -> None:
     )
     ap.add_argument("--detail", action="store_true", help="one line per sample")
     ap.add_argument("--markdown", action="store_true", help="a table for the README")
+    ap.add_argument("--grid", action="store_true", help="error per angle and distance")
     ap.add_argument("cases", nargs="*", default=None)
     args = ap.parse_args()
     if args.markdown:
         markdown(args.cases or vd.available())
+        return
+    if args.grid:
+        grid(args.cases or vd.available())
         return
     for name in args.cases or vd.available():
         report(name, args.infinite_ground, args.detail)
