@@ -8,10 +8,13 @@ import numpy as np
 
 
 def _fmt(x: float | None, digits: int = 3) -> str:
+    """A number to ``digits`` significant figures; thousands separators up to 1e9."""
     if x is None:
         return "-"
     if x == 0:
         return "0"
+    if 1e3 <= abs(x) < 1e9:
+        return f"{float(f'{x:.{digits}g}'):,.0f}"
     return f"{x:.{digits}g}"
 
 
