@@ -91,14 +91,15 @@ def check_grid(
         n, option = 2 * int(np.ceil(half_extent_m / step_m - 1e-9)) + 1, "--step-m"
     else:
         return
+    need = maps.grid_bytes(n * n, GRID_CHECK_LIMITS)
     if n > maps.MAX_PIXELS_PER_SIDE:
         raise ResourceError(
             f"a {n} x {n} map has more than the {maps.MAX_PIXELS_PER_SIDE} samples a side "
-            f"allowed; use a coarser {option} or a smaller --extent-m",
+            f"allowed (and would need about {need / 2**20:.0f} MiB); use a coarser {option} "
+            "or a smaller --extent-m",
             "argument",
             option,
         )
-    need = maps.grid_bytes(n * n, GRID_CHECK_LIMITS)
     if need > maps.MAX_GRID_BYTES:
         largest = largest_square_map(GRID_CHECK_LIMITS)
         raise ResourceError(
