@@ -39,7 +39,7 @@ from __future__ import annotations
 import functools
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -179,10 +179,17 @@ def tolerance_text() -> str:
     a_abs, a_rel = RANK_TOLERANCE["zone_area_m2"]
     d_rel = RANK_TOLERANCE["power_density_w_m2"][1]
     q_rel = RANK_TOLERANCE["quotient"][1]
+
+    def small(x: float) -> str:
+        # 1e-06 reads better as 1e-6.
+        mantissa, _, exponent = f"{x:g}".partition("e")
+        return f"{mantissa}e{int(exponent)}" if exponent else mantissa
+
     return (
         f" (ties: keep-out distances within {1000 * k_abs:g} mm, zone areas within "
-        f"{a_abs:g} m2 or {a_rel:g} relative, densities within {d_rel:g} and quotients within "
-        f"{q_rel:g} relative count as equal; full ties keep the scenario's order)"
+        f"{small(a_abs)} m2 or {small(a_rel)} relative, densities within {small(d_rel)} and "
+        f"quotients within {small(q_rel)} relative count as equal; full ties keep the "
+        "scenario's order)"
     )
 
 
@@ -475,6 +482,8 @@ def compare_options(
             keepouts.append(tuple(keepout_distances(s, ids)))
     centre = scenario.centre_m
     plane = maps.principal_plane("xy", [centre[0], centre[1], height])
+    if height_m is None:
+        plane = replace(plane, description=f"horizontal plane at source height z = {height:.2f} m")
     if half_extent_m is None:
         half_extent_m = max(
             maps.default_half_extent_m(s, k, plane)

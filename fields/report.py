@@ -729,7 +729,7 @@ def _limit_sources(data: dict[str, Any]) -> str:
     rows = []
     for v in data["limits"]:
         avg = v["averaging_time_s"]
-        fields = [f"S {_num(v['power_density_w_m2'], 4)}&nbsp;W/m²"]
+        fields = [f"S {_density(v['power_density_w_m2'], 4)}"]
         if v["e_v_m"] is not None:
             fields.append(f"E {_num(v['e_v_m'], 4)}&nbsp;V/m")
         if v["h_a_m"] is not None:
