@@ -594,6 +594,81 @@ def readings_data(scenario: Scenario, readings: list[Any]) -> dict[str, Any]:
     }
 
 
+@dataclass(frozen=True)
+class ReadingsResult:
+    """Survey-meter readings against the model (``keepclear readings``).
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario compared (its limits are the ones each reading is checked against).
+    readings : tuple of Reading
+        The readings as read: place [m], value and unit, and the power density they
+        stand for [W m^-2] (E and H through E^2/eta0 and eta0 H^2).
+    data : dict
+        The ``readings --json`` body: per reading ``measured_w_m2``, ``predicted_w_m2``
+        (time-averaged) [W m^-2], ``ratio_db`` [dB], ``under_predicted``,
+        ``over_limits``; ``largest_under_prediction_db`` and ``suggested_margin_db`` [dB].
+    """
+
+    scenario: Scenario
+    readings: tuple[Any, ...]
+    data: dict[str, Any]
+
+    @property
+    def suggested_margin_db(self) -> float:
+        """The largest measured-over-predicted ratio, 0 when none is positive [dB]."""
+        return float(self.data["suggested_margin_db"])
+
+    @property
+    def under_predicted(self) -> tuple[bool, ...]:
+        """Per reading: more than 3 dB above the prediction."""
+        return tuple(bool(r["under_predicted"]) for r in self.data["readings"])
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``keepclear readings --json`` object."""
+        return dict(self.data)
+
+
+def readings(
+    scenario: Scenario,
+    readings_in: str | Path | Sequence[Any],
+    *,
+    limits: Sequence[str] | None = None,
+    option: str | None = None,
+) -> ReadingsResult:
+    """Survey-meter readings against the time-averaged prediction.
+
+    A meter averages over a second or more, far longer than a mains cycle, so each
+    reading is compared with the time-averaged prediction (duty cycle applied).
+
+    Parameters
+    ----------
+    scenario : Scenario
+    readings_in : str, Path or sequence of Reading
+        A readings CSV (header ``x_m,y_m,z_m,value,unit[,label]``; units W/m2, mW/cm2,
+        V/m, A/m) or readings already read
+        (:func:`keepclear.fields.readings.read_readings_csv`).
+    limits : sequence of str, optional
+        Limit ids (default: the scenario's).
+    option : str, optional
+        Compare with this ``[[option]]`` of the scenario instead of the base.
+
+    Returns
+    -------
+    ReadingsResult
+    """
+    from .readings import read_readings_csv
+
+    scenario = select_option(scenario, option)
+    scenario = scenario.with_limits(select_limits(scenario, limits))
+    if isinstance(readings_in, (str, Path)):
+        taken = tuple(read_readings_csv(readings_in))
+    else:
+        taken = tuple(readings_in)
+    return ReadingsResult(scenario, taken, readings_data(scenario, list(taken)))
+
+
 # --------------------------------------------------------------------- map
 @dataclass(frozen=True)
 class GridSettings:

@@ -476,12 +476,7 @@ def readings_command(
     reading is compared with the time-averaged prediction (duty cycle applied).  A
     reading more than 3 dB above the prediction is flagged as under-predicted.
     """
-    from .readings import read_readings_csv
-
-    loaded = _load(scenario)
-    ids = api.select_limits(loaded, limit)
-    readings = read_readings_csv(csv_in)
-    data = api.readings_data(loaded.with_limits(ids), readings)
+    data = api.readings(_load(scenario), csv_in, limits=limit).to_dict()
     if json_out:
         _emit_json(data)
         return
