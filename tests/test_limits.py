@@ -448,3 +448,78 @@ def test_limits_are_immutable():
         lim.averaging_time_s = 1.0
     with pytest.raises(AttributeError):
         lim.at(2.45e9).power_density_w_m2 = 1.0
+
+
+# ------------------------------------------------------------ the data files
+_GOOD_FILE = """
+[document]
+document = "A document"
+edition = "2020"
+source = "A document"
+reference = "A document, 2020"
+
+[text]
+READ = "read in a copy"
+
+[[limit]]
+id = "x/one"
+title = "one"
+tier = "whole-body"
+population = "general-public"
+averaging_time_s = 360
+averaging_tag = "FOUND"
+averaging_reason = "6 min"
+rows = '''
+  start_MHz | end_MHz | printed range | table   | page | S  | S unit | S tag | E  | E tag | H  | H tag | avg min | avg tag | where | note
+  >2000     | 300000  | >2-300 GHz    | Table 1 | 12   | 10 | W/m^2  | FOUND | NA | FOUND | NA | FOUND | -       | -       | READ  | -
+'''
+"""
+
+
+def test_a_data_file_reads_into_the_dataclasses():
+    (lim,) = L.limits_from_toml(_GOOD_FILE, "x.toml")
+    (band,) = lim.bands
+    assert (band.low_hz, band.high_hz) == (2e9, 3e11)
+    assert (band.low_inclusive, band.high_inclusive) == (False, True)
+    assert band.page == "12" and band.where == "read in a copy"
+    assert lim.at(2.45e9).power_density_w_m2 == 10.0
+    assert not lim.covers(2e9)
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "fragment"),
+    [
+        ("| FOUND | NA | FOUND |", "| FOUND | NA | SEEN |", "'E tag' must be one of"),
+        ("start_MHz |", "start |", "header must be"),
+        ("| READ  |", "| NOPE  |", "names 'NOPE'"),
+        ("| 10 | W/m^2", "| 10+ | W/m^2", "column 'S'"),
+        ("| 10 | W/m^2", "| __import__('os') | W/m^2", "column 'S'"),
+        ("| 10 | W/m^2", "| NA | W/m^2", "all NA"),
+        ("  >2000     |", "  2 GHz     |", "band edge"),
+        ("W/m^2  |", "W/cm^2 |", "'S unit'"),
+        ("| -       | -       |", "| 6       | -       |", "go together"),
+        ('tier = "whole-body"', 'tier = "partial"', "tier must be one of"),
+        ("averaging_time_s = 360", "averaging_time_s = -1", "averaging_time_s"),
+        ('title = "one"', 'title = "one"\ncolour = "red"', "unknown key"),
+        ("| READ  | -\n", "| READ  | - | extra\n", "cells"),
+    ],
+)
+def test_a_bad_data_file_raises_naming_the_file_limit_and_problem(old, new, fragment):
+    # Problems in the shipped tables raise errors (not assert, which python -O strips).
+    assert old in _GOOD_FILE
+    with pytest.raises(L.LimitDataError, match="x.toml") as info:
+        L.limits_from_toml(_GOOD_FILE.replace(old, new), "x.toml")
+    assert fragment in str(info.value)
+    assert "x/one" in str(info.value) or fragment == "unknown key"
+
+
+def test_the_shipped_data_files_hold_every_limit_once():
+    ids = [lim.id for name in L.LIMIT_FILES for lim in _read_shipped(name)]
+    assert tuple(ids) == L.LIMIT_IDS
+
+
+def _read_shipped(name):
+    from importlib import resources
+
+    text = (resources.files("keepclear.fields") / "data" / "limits" / name).read_text("utf-8")
+    return L.limits_from_toml(text, name)
