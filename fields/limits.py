@@ -120,6 +120,7 @@ __all__ = [
     "get_limit",
     "quotient",
     "values_at",
+    "verification_text",
 ]
 
 FOUND = "FOUND"
@@ -787,6 +788,73 @@ _LIMITS: tuple[Limit, ...] = _load_tables()
 #: The contract's limit ids, in contract order.
 LIMIT_IDS: tuple[str, ...] = tuple(limit.id for limit in _LIMITS)
 _BY_ID = {limit.id: limit for limit in _LIMITS}
+
+
+# ------------------------------------------------------------ verification in words
+#: Plain names of the tagged quantities, for people.
+_TAG_NAMES = {"S": "power density", "E": "E field", "H": "H field", "averaging": "averaging time"}
+#: The sentence for values recalled from memory; every human-facing output uses it.
+RECALLED = "value recalled, not checked against the printed standard"
+#: The sentence for values read in the document or a faithful copy.
+CHECKED = "checked against the published table (or a faithful copy of it)"
+
+
+def _join(words: list[str]) -> str:
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+
+
+def verification_text(verification: str) -> str:
+    """The verification tags of a limit value, as a plain sentence for people.
+
+    Parameters
+    ----------
+    verification : str
+        Tags as in :attr:`LimitValue.verification` (and the ``"verification"`` of the
+        assessment JSON), e.g. ``"S MEMORY; E NA MEMORY; H NA MEMORY; averaging FOUND"``.
+
+    Returns
+    -------
+    str
+        E.g. ``"Power density and the absence of E and H values: value recalled, not
+        checked against the printed standard. Averaging time: checked against the
+        published table (or a faithful copy of it)."``  A cell the table prints as NA
+        is named only when its absence was recalled.  Empty input gives ``""``.
+
+    Raises
+    ------
+    ValueError
+        If a part is not ``"<S|E|H|averaging> [NA] <FOUND|MEMORY>"``.
+    """
+    if not verification.strip():
+        return ""
+    found: list[str] = []
+    recalled: list[str] = []
+    absent_recalled: list[str] = []
+    for part in (p.strip() for p in verification.split(";")):
+        words = part.split()
+        ok = len(words) in (2, 3) and words[0] in _TAG_NAMES and words[-1] in TAGS
+        if not ok or (len(words) == 3 and words[1] != "NA"):
+            raise ValueError(f"verification tag {part!r} is not '<quantity> [NA] FOUND|MEMORY'")
+        if len(words) == 3:
+            if words[-1] == MEMORY:
+                absent_recalled.append(words[0])
+            continue
+        (found if words[-1] == FOUND else recalled).append(_TAG_NAMES[words[0]])
+    if absent_recalled:
+        recalled.append(f"the absence of {_join(absent_recalled)} values")
+    sentences = []
+    if recalled:
+        text = _join(recalled)
+        sentences.append(f"{text[0].upper()}{text[1:]}: {RECALLED}.")
+    if found:
+        text = _join(found)
+        sentences.append(f"{text[0].upper()}{text[1:]}: {CHECKED}.")
+    return " ".join(sentences)
+
+
+def is_recalled(verification: str) -> bool:
+    """Whether any value behind a limit was recalled rather than read (a MEMORY tag)."""
+    return MEMORY in verification.replace(";", " ").split()
 
 
 # ------------------------------------------------------------------ public API

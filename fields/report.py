@@ -22,6 +22,7 @@ import datetime as _dt
 import html
 from typing import Any
 
+from . import limits as limits_mod
 from .cautions import CAUTION_LINES, caution_block
 
 #: What the estimate leaves out, as printed in the report.
@@ -415,7 +416,7 @@ def _limit_sources(data: dict[str, Any]) -> str:
                 "–" if avg is None else f"{avg / 60:g}&nbsp;min",
                 _e(v["source"]),
                 f"<code>{_e(v['expression'])}</code>",
-                _e(v.get("verification", "")),
+                _e(limits_mod.verification_text(v.get("verification", ""))),
             ]
         )
     return _table(

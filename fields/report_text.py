@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import textwrap
 from typing import Any
 
 import numpy as np
@@ -51,7 +52,42 @@ def limits_table(data: dict[str, Any]) -> str:
     )
     if data.get("not_covering_frequency"):
         text += "\n\nNot defined at this frequency: " + ", ".join(data["not_covering_frequency"])
-    return text
+    return text + "\n\n" + verification_block(data)
+
+
+def _wrap(text: str, width: int = 100) -> str:
+    return textwrap.fill(text, width, subsequent_indent="  ", break_on_hyphens=False)
+
+
+def verification_block(data: dict[str, Any]) -> str:
+    """Which limit values were checked against the printed standard, in plain words.
+
+    ``data`` is a ``limits``-shaped dict; a limit row without ``"verification"`` is
+    looked up in the limit library at ``data["frequency_hz"]``.
+    """
+    from . import limits as limits_mod
+
+    lines = ["Verification of the values:"]
+    checked = []
+    for v in data["limits"]:
+        tags = v.get("verification")
+        if tags is None and v["id"] in limits_mod.LIMIT_IDS:
+            tags = limits_mod.get_limit(v["id"]).at(data["frequency_hz"]).verification
+        if not tags:
+            continue
+        if limits_mod.is_recalled(tags):
+            lines.append(_wrap(f"- {v['id']}: {limits_mod.verification_text(tags)}"))
+        else:
+            checked.append(v["id"])
+    if checked:
+        lines.append(
+            _wrap(
+                f"- every value of {', '.join(checked)}: {limits_mod.CHECKED}."
+                if len(lines) > 1
+                else f"- every value above: {limits_mod.CHECKED}."
+            )
+        )
+    return "\n".join(lines) if len(lines) > 1 else ""
 
 
 def probe_table(data: dict[str, Any]) -> str:

@@ -523,3 +523,43 @@ def _read_shipped(name):
 
     text = (resources.files("keepclear.fields") / "data" / "limits" / name).read_text("utf-8")
     return L.limits_from_toml(text, name)
+
+
+# ------------------------------------------------- verification in plain words
+def test_verification_text_says_recalled_values_in_plain_words():
+    # IEEE C95.1-2019 Table 7 at 2.45 GHz: every value from memory (not found in a copy).
+    tags = L.get_limit("ieee-c95.1-2019/unrestricted").at(2.45 * GHZ).verification
+    text = L.verification_text(tags)
+    assert "value recalled, not checked against the printed standard" in text
+    assert "MEMORY" not in text and "FOUND" not in text
+    assert text.startswith("Power density, averaging time and the absence of E and H values")
+
+
+def test_verification_text_splits_checked_and_recalled():
+    # ICNIRP 2020 Table 5 public row: S FOUND (secondary), E/H "NA" from memory.
+    text = L.verification_text("S FOUND; E NA MEMORY; H NA MEMORY; averaging FOUND")
+    assert text == (
+        "The absence of E and H values: value recalled, not checked against the printed "
+        "standard. Power density and averaging time: checked against the published table "
+        "(or a faithful copy of it)."
+    )
+    assert L.verification_text("S FOUND; E NA FOUND; H NA FOUND; averaging FOUND") == (
+        "Power density and averaging time: checked against the published table "
+        "(or a faithful copy of it)."
+    )
+    assert L.verification_text("") == ""
+    for bad in ("S SEEN", "Q FOUND", "S XX FOUND", "S"):
+        with pytest.raises(ValueError, match="verification tag"):
+            L.verification_text(bad)
+
+
+def test_limits_text_never_shows_a_bare_tag():
+    from keepclear.fields.assessment import limits_data
+    from keepclear.fields.report_text import limits_table
+
+    text = limits_table(limits_data(2.45 * GHZ)).replace("\n  ", " ")  # unwrap
+    assert "MEMORY" not in text and "FOUND" not in text
+    for limit_id in ("ieee-c95.1-2019/restricted", "sc6-2015/uncontrolled"):
+        line = next(x for x in text.splitlines() if x.startswith(f"- {limit_id}:"))
+        assert "value recalled" in line
+    assert "checked against the published table" in text
