@@ -27,20 +27,7 @@ def limits_data(frequency_hz: float) -> dict[str, Any]:
     return {
         "schema_version": SCHEMA_VERSION,
         "frequency_hz": frequency_hz,
-        "limits": [
-            {
-                "id": v.id,
-                "power_density_w_m2": v.power_density_w_m2,
-                "e_v_m": v.e_v_m,
-                "h_a_m": v.h_a_m,
-                "averaging_time_s": v.averaging_time_s,
-                "source": v.source,
-                "tier": v.tier,
-                "population": v.population,
-                "expression": v.expression,
-            }
-            for v in covered
-        ],
+        "limits": [v.as_dict() for v in covered],
         "not_covering_frequency": list(uncovered),
         "caution": CAUTION_TEXT,
     }
@@ -50,10 +37,7 @@ def quotients_at(scenario: Scenario, result: FieldResult) -> dict[str, NDArray[n
     """Exposure quotient per scenario limit for time-averaged fields."""
     out = {}
     for limit_id in scenario.limit_ids:
-        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
-        out[limit_id] = limits_mod.quotient(
-            value, result.power_density_w_m2, result.e_v_m, result.h_a_m
-        )
+        out[limit_id] = limits_mod.field_quotient(scenario.limit_value(limit_id), result)
     return out
 
 
@@ -414,7 +398,7 @@ def run_assessment(
         version = metadata.version("keepclear")
     except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
         version = "unknown"
-    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
+    values = [scenario.limit_value(i) for i in ids]
     data: dict[str, Any] = {
         "schema_version": SCHEMA_VERSION,
         "tool_version": version,

@@ -288,7 +288,7 @@ def probe_command(
         typer.echo(f"wrote {all_points.shape[0]} points to {csv_out}", err=True)
         if at and points is None:
             data, _ = probe_data(loaded, all_points)
-            _print_probe(data)
+            _print_probe(data, loaded)
         return
     data, result = probe_data(loaded, all_points)
     if not at and points is None:
@@ -306,13 +306,13 @@ def probe_command(
     if json_out:
         _emit_json(data)
     else:
-        _print_probe(data)
+        _print_probe(data, loaded)
 
 
-def _print_probe(data: dict[str, Any]) -> None:
+def _print_probe(data: dict[str, Any], scenario: Any = None) -> None:
     from .report_text import probe_table
 
-    text = probe_table(data)
+    text = probe_table(data, scenario)
     for p in data["points"]:
         if "name" in p:
             x, y, z = p["position_m"]
@@ -482,7 +482,6 @@ def _parse_vector(text: str | None, option: str) -> np.ndarray | None:
 
 def _check_limits(loaded: Any, limit: list[str] | None) -> tuple[str, ...]:
     """The selected limit ids, each checked at the scenario frequency (names --limit)."""
-    from . import limits as limits_mod
     from .errors import LimitError
 
     if not limit:
@@ -490,7 +489,7 @@ def _check_limits(loaded: Any, limit: list[str] | None) -> tuple[str, ...]:
     seen: list[str] = []
     for limit_id in limit:
         try:
-            limits_mod.get_limit(limit_id).at(loaded.frequency_hz)
+            loaded.limit_value(limit_id)
         except LimitError as exc:
             raise InputError(exc.message, "argument", "--limit") from None
         if limit_id not in seen:

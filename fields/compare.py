@@ -133,8 +133,8 @@ def worst_point(scenario: Scenario, limit_ids: Sequence[str]) -> dict[str, Any] 
     res = evaluate(scenario, pts)
     best: dict[str, Any] | None = None
     for limit_id in limit_ids:
-        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
-        q = limits_mod.quotient(value, res.power_density_w_m2, res.e_v_m, res.h_a_m)
+        value = scenario.limit_value(limit_id)
+        q = limits_mod.field_quotient(value, res)
         i = int(np.argmax(q))
         if best is None or q[i] > best["quotient"]:
             best = {

@@ -99,7 +99,7 @@ import tomllib
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from importlib import resources
-from typing import Any
+from typing import Any, Protocol
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -117,8 +117,11 @@ __all__ = [
     "LimitError",
     "LimitValue",
     "all_limits",
+    "custom_threshold",
+    "field_quotient",
     "get_limit",
     "quotient",
+    "resolve_limit",
     "values_at",
     "verification_text",
 ]
@@ -126,12 +129,22 @@ __all__ = [
 FOUND = "FOUND"
 MEMORY = "MEMORY"
 TAGS = (FOUND, MEMORY)
+#: Tag of a value the user gave in the scenario file (a custom threshold).
+USER = "USER"
+
+#: What a limit protects: people (exposure limits) or equipment (device thresholds).
+KINDS = ("exposure", "device")
+#: What a limit is compared with: the time-averaged exposure (duty cycle applied) or the
+#: field while the sources radiate (every source on, no duty-cycle averaging).
+TIME_AVERAGED = "time-averaged"
+WHILE_ON = "while-on"
+BASES = (TIME_AVERAGED, WHILE_ON)
 
 #: Units a printed power density may be in, with the factor to W m^-2.
 POWER_DENSITY_UNITS = {"W/m^2": 1.0, "mW/cm^2": 10.0}
 
-TIERS = ("whole-body", "local", "product-emission")
-POPULATIONS = ("general-public", "occupational")
+TIERS = ("whole-body", "local", "product-emission", "device")
+POPULATIONS = ("general-public", "occupational", "equipment")
 
 _MHZ = 1e6
 _GHZ = 1e9
@@ -316,6 +329,11 @@ class LimitValue:
     power_density_derived : bool
         True when the table gives no power density and ``power_density_w_m2`` is the
         plane-wave equivalent of the stricter of E and H.
+    kind : str
+        ``"exposure"`` (a limit for people) or ``"device"`` (a threshold for equipment).
+    basis : str
+        ``"time-averaged"`` (compared with the duty-cycle-averaged exposure) or
+        ``"while-on"`` (compared with the fields while every source radiates).
     """
 
     id: str
@@ -330,9 +348,16 @@ class LimitValue:
     expression: str
     verification: str = ""
     power_density_derived: bool = False
+    kind: str = "exposure"
+    basis: str = TIME_AVERAGED
+
+    @property
+    def while_on(self) -> bool:
+        """Whether the limit is compared with the fields while the sources radiate."""
+        return self.basis == WHILE_ON
 
     def as_dict(self) -> dict[str, Any]:
-        """The contract's ``limits`` JSON entry (plus tier, population, expression)."""
+        """The contract's ``limits`` JSON entry (plus kind, basis, tier, population, expression)."""
         return {
             "id": self.id,
             "power_density_w_m2": self.power_density_w_m2,
@@ -340,6 +365,8 @@ class LimitValue:
             "h_a_m": self.h_a_m,
             "averaging_time_s": self.averaging_time_s,
             "source": self.source,
+            "kind": self.kind,
+            "basis": self.basis,
             "tier": self.tier,
             "population": self.population,
             "expression": self.expression,
@@ -395,6 +422,10 @@ class Limit:
         Short label used in :attr:`LimitValue.source` (table appended).
     reference : str
         Full citation with DOI where there is one.
+    kind : str
+        ``"exposure"`` (people) or ``"device"`` (equipment: an immunity threshold).
+    basis : str
+        ``"time-averaged"`` or ``"while-on"``; see :class:`LimitValue`.
     """
 
     id: str
@@ -410,6 +441,8 @@ class Limit:
     notes: tuple[str, ...]
     source: str
     reference: str
+    kind: str = "exposure"
+    basis: str = TIME_AVERAGED
 
     @property
     def band_hz(self) -> tuple[float, float]:
@@ -488,11 +521,21 @@ class Limit:
             averaging = self.averaging_time_s
         expression = band.expression
         if derived:
-            expression += "; S = min(E^2/eta0, eta0*H^2) (derived: the table gives no S)"
+            expression += (
+                "; S = E^2/eta0 (its plane-wave equivalent; the threshold is the E field)"
+                if self.kind == "device"
+                else "; S = min(E^2/eta0, eta0*H^2) (derived: the table gives no S)"
+            )
+        elif self.kind == "device" and e is not None and band.e_field is not None:
+            expression = (
+                f"S = {band.power_density} {band.power_density_unit} (E = {e:.4g} V/m, its "
+                "plane-wave equivalent; the threshold is the power density)"
+            )
         formulas = " ".join(
             x for x in (band.power_density, band.e_field, band.h_field) if x is not None
         )
-        legend = "; fM, f in MHz, fG in GHz" if any(c.isalpha() for c in formulas) else ""
+        variables = self.kind == "exposure" and any(c.isalpha() for c in formulas)
+        legend = "; fM, f in MHz, fG in GHz" if variables else ""
         expression += f" [{band.printed_range}{legend}]"
 
         def tag(name: str, value: Any, cell_tag: str) -> str:
@@ -519,6 +562,8 @@ class Limit:
             expression=expression,
             verification=verification,
             power_density_derived=derived,
+            kind=self.kind,
+            basis=self.basis,
         )
 
 
@@ -536,6 +581,8 @@ LIMIT_FILES: tuple[str, ...] = (
     "fcc-1.1310.toml",
     "sc6-2015.toml",
     "fda-1030.10.toml",
+    "iec-61000-4-3.toml",
+    "iec-60601-1-2.toml",
 )
 
 #: The columns of a ``rows`` table, in order.
@@ -571,6 +618,8 @@ _LIMIT_KEYS = {
     "averaging_reason",
     "notes",
     "rows",
+    "kind",
+    "basis",
 }
 _SHARED_KEYS = ("document", "edition", "source", "reference")
 _NONE = ("", "-")
@@ -749,6 +798,10 @@ def limits_from_toml(text: str, name: str) -> tuple[Limit, ...]:
         notes = entry.get("notes", [])
         if not isinstance(notes, list) or not all(isinstance(n, str) for n in notes):
             raise LimitDataError(f"{where}: 'notes' must be a list of strings")
+        kind = entry.get("kind", "exposure")
+        basis = entry.get("basis", TIME_AVERAGED)
+        if kind not in KINDS or basis not in BASES:
+            raise LimitDataError(f"{where}: kind must be one of {KINDS} and basis one of {BASES}")
         if not isinstance(entry.get("rows"), str):
             raise LimitDataError(f"{where}: 'rows' must be a multi-line string")
         limits.append(
@@ -766,6 +819,8 @@ def limits_from_toml(text: str, name: str) -> tuple[Limit, ...]:
                 notes=tuple(notes),
                 source=_text_field(entry, "source", where),
                 reference=_text_field(entry, "reference", where),
+                kind=kind,
+                basis=basis,
             )
         )
     return tuple(limits)
@@ -797,6 +852,15 @@ _TAG_NAMES = {"S": "power density", "E": "E field", "H": "H field", "averaging":
 RECALLED = "value recalled, not checked against the printed standard"
 #: The sentence for values read in the document or a faithful copy.
 CHECKED = "checked against the published table (or a faithful copy of it)"
+#: The sentence for a user threshold's values.
+GIVEN = "given in the scenario file (a user threshold, not a published value)"
+#: What every output says beside a device threshold.
+DEVICE_NOTE = (
+    "Device thresholds are about equipment, not people: they compare the RMS E field while "
+    "the sources radiate (every source on, no duty-cycle averaging) with an equipment "
+    "threshold (an immunity test level, or one of your own); they say nothing about human "
+    "exposure."
+)
 
 
 def _join(words: list[str]) -> str:
@@ -830,14 +894,18 @@ def verification_text(verification: str) -> str:
     found: list[str] = []
     recalled: list[str] = []
     absent_recalled: list[str] = []
+    given: list[str] = []
     for part in (p.strip() for p in verification.split(";")):
         words = part.split()
-        ok = len(words) in (2, 3) and words[0] in _TAG_NAMES and words[-1] in TAGS
+        ok = len(words) in (2, 3) and words[0] in _TAG_NAMES and words[-1] in (*TAGS, USER)
         if not ok or (len(words) == 3 and words[1] != "NA"):
             raise ValueError(f"verification tag {part!r} is not '<quantity> [NA] FOUND|MEMORY'")
         if len(words) == 3:
             if words[-1] == MEMORY:
                 absent_recalled.append(words[0])
+            continue
+        if words[-1] == USER:
+            given.append(_TAG_NAMES[words[0]])
             continue
         (found if words[-1] == FOUND else recalled).append(_TAG_NAMES[words[0]])
     if absent_recalled:
@@ -849,6 +917,9 @@ def verification_text(verification: str) -> str:
     if found:
         text = _join(found)
         sentences.append(f"{text[0].upper()}{text[1:]}: {CHECKED}.")
+    if given:
+        text = _join(given)
+        sentences.append(f"{text[0].upper()}{text[1:]}: {GIVEN}.")
     return " ".join(sentences)
 
 
@@ -965,13 +1036,175 @@ def quotient(
 
     Notes
     -----
+    A device threshold (``limit.kind == "device"``) compares one quantity: ``(E/E_lim)^2``
+    where the threshold is an E field (and ``e_v_m`` is passed), else ``S/S_lim``.  Which
+    fields to pass (time-averaged or while radiating) follows ``limit.basis``; see
+    :func:`field_quotient`.
+
     Fields enter squared so every ratio is a ratio of powers; with a plane wave
     (E = eta0 H, S = E^2/eta0) the three ratios coincide where the table is itself
     plane-wave consistent.
     """
-    q = _nonnegative("power_density_w_m2", power_density_w_m2) / limit.power_density_w_m2
+    s = _nonnegative("power_density_w_m2", power_density_w_m2)
+    if limit.kind == "device":
+        # A device threshold is one quantity: the E field where it is given as E (the
+        # immunity test level), else the power density.
+        if limit.power_density_derived and e_v_m is not None and limit.e_v_m is not None:
+            q = (_nonnegative("e_v_m", e_v_m) / limit.e_v_m) ** 2
+            return np.asarray(q * np.ones_like(s), dtype=float)
+        return np.asarray(s / limit.power_density_w_m2, dtype=float)
+    q = s / limit.power_density_w_m2
     if e_v_m is not None and limit.e_v_m is not None:
         q = np.maximum(q, (_nonnegative("e_v_m", e_v_m) / limit.e_v_m) ** 2)
     if h_a_m is not None and limit.h_a_m is not None:
         q = np.maximum(q, (_nonnegative("h_a_m", h_a_m) / limit.h_a_m) ** 2)
     return np.asarray(q, dtype=float)
+
+
+class FieldsOnBothBases(Protocol):
+    """Fields time-averaged and while radiating, as :class:`keepclear.fields.field.FieldResult`."""
+
+    power_density_w_m2: NDArray[np.float64]
+    e_v_m: NDArray[np.float64]
+    h_a_m: NDArray[np.float64]
+    peak_power_density_w_m2: NDArray[np.float64]
+    peak_e_v_m: NDArray[np.float64]
+    peak_h_a_m: NDArray[np.float64]
+
+
+def field_quotient(limit: LimitValue, fields: FieldsOnBothBases) -> NDArray[np.float64]:
+    """Exposure quotient of one limit on its own basis.
+
+    Parameters
+    ----------
+    limit : LimitValue
+    fields : FieldsOnBothBases
+        Fields at the points, time-averaged and while radiating (a ``FieldResult``).
+
+    Returns
+    -------
+    ndarray
+        :func:`quotient` of the time-averaged fields for a ``"time-averaged"`` limit, of
+        the fields while every source radiates (no duty-cycle averaging) for a
+        ``"while-on"`` limit (the device thresholds).
+    """
+    if limit.while_on:
+        return quotient(limit, fields.peak_power_density_w_m2, fields.peak_e_v_m, fields.peak_h_a_m)
+    return quotient(limit, fields.power_density_w_m2, fields.e_v_m, fields.h_a_m)
+
+
+# ------------------------------------------------------------------ user thresholds
+#: Prefix of the ids of user thresholds.
+CUSTOM_PREFIX = "custom/"
+
+
+def custom_threshold(
+    name: str,
+    *,
+    basis: str,
+    e_v_m: float | None = None,
+    power_density_w_m2: float | None = None,
+) -> Limit:
+    """A user threshold (``[[exposure.threshold]]``) as a device-kind limit.
+
+    Parameters
+    ----------
+    name : str
+        Its name; the id is ``"custom/" + name``.
+    basis : str
+        ``"while-on"`` or ``"time-averaged"``.
+    e_v_m : float, optional
+        RMS E field threshold [V m^-1] (give this or ``power_density_w_m2``).
+    power_density_w_m2 : float, optional
+        Plane-wave-equivalent power density threshold [W m^-2].
+
+    Returns
+    -------
+    Limit
+        Valid at every frequency.  ``e_v_m`` and ``power_density_w_m2`` of its value are
+        both filled, one from the other by ``S = E^2/eta0``; the quotient compares the
+        quantity given.
+
+    Raises
+    ------
+    ValueError
+        For an empty name, a basis not in :data:`BASES`, both or neither threshold
+        given, or a threshold that is not a finite number > 0.
+    """
+    if not isinstance(name, str) or not name:
+        raise ValueError("a threshold needs a non-empty name")
+    if basis not in BASES:
+        raise ValueError(f"basis must be one of {BASES}, got {basis!r}")
+    if (e_v_m is None) == (power_density_w_m2 is None):
+        raise ValueError("give exactly one of e_v_m and power_density_w_m2")
+    value = e_v_m if e_v_m is not None else power_density_w_m2
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ValueError(f"the threshold must be a number, got {value!r}")
+    if not math.isfinite(value) or value <= 0:
+        raise ValueError(f"the threshold must be a finite number > 0, got {value!r}")
+    if e_v_m is not None:
+        s_text, e_text = None, repr(float(e_v_m))
+    else:
+        s_text = repr(float(power_density_w_m2))  # type: ignore[arg-type]
+        e_text = repr(math.sqrt(float(power_density_w_m2) * ETA0_OHM))  # type: ignore[arg-type]
+    band = Band(
+        low_hz=0.0,
+        high_hz=math.inf,
+        low_inclusive=False,
+        high_inclusive=False,
+        printed_range="every frequency",
+        table="[[exposure.threshold]]",
+        power_density=s_text,
+        e_field=e_text,
+        h_field=None,
+        s_tag=USER,
+        e_tag=USER,
+        h_tag=USER,
+        where="given in the scenario file",
+    )
+    on = "while the sources radiate" if basis == WHILE_ON else "time-averaged"
+    return Limit(
+        id=CUSTOM_PREFIX + name,
+        title=f"User threshold '{name}' ({on})",
+        document="the scenario file",
+        edition="-",
+        tier="device",
+        population="equipment",
+        averaging_time_s=None,
+        averaging_tag=USER,
+        averaging_reason="a user threshold has no averaging time; basis: " + basis,
+        bands=(band,),
+        notes=(DEVICE_NOTE,) if basis == WHILE_ON else (),
+        source="user threshold",
+        reference="the scenario file, [[exposure.threshold]]",
+        kind="device",
+        basis=basis,
+    )
+
+
+def resolve_limit(limit_id: str, thresholds: Iterable[Limit] = ()) -> Limit:
+    """The limit with an id, among the user thresholds first, then the published ones.
+
+    Parameters
+    ----------
+    limit_id : str
+        A limit id (``"icnirp-2020/general-public"``, ``"custom/router"``).
+    thresholds : iterable of Limit
+        The scenario's user thresholds.
+
+    Raises
+    ------
+    LimitError
+        For an unknown id, naming it, the closest known id and all known ids.
+    """
+    own = {limit.id: limit for limit in thresholds}
+    if isinstance(limit_id, str) and limit_id in own:
+        return own[limit_id]
+    if isinstance(limit_id, str) and limit_id not in _BY_ID:
+        known = (*LIMIT_IDS, *own)
+        raise LimitError(
+            f"unknown limit id {limit_id!r}"
+            + suggest(limit_id, known)
+            + f"; known ids: {', '.join(known)}"
+        )
+    return get_limit(limit_id)

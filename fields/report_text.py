@@ -90,22 +90,60 @@ def verification_block(data: dict[str, Any]) -> str:
     return "\n".join(lines) if len(lines) > 1 else ""
 
 
-def probe_table(data: dict[str, Any]) -> str:
+def probe_table(data: dict[str, Any], scenario: Any = None) -> str:
     """The ``probe`` listing: one block per point."""
+    devices = device_ids(
+        {k for p in data["points"] for k in p["quotients"]},
+        scenario,
+    )
     lines = [f"Scenario: {data['scenario']}    reflections: {data['reflections']}", ""]
     for p in data["points"]:
         x, y, z = p["position_m"]
         lines.append(f"Point ({x:g}, {y:g}, {z:g}) m")
         lines.append(
-            f"  E {_fmt(p['e_v_m'])} V/m   H {_fmt(p['h_a_m'])} A/m   "
+            f"  E {_fmt(p['e_v_m'])} V/m time-averaged, "
+            f"{_fmt(p.get('peak_e_v_m'))} V/m while radiating   "
+            f"H {_fmt(p['h_a_m'])} A/m   "
             f"S {_fmt(p['power_density_w_m2'])} W/m2 time-averaged, "
             f"{_fmt(p['peak_power_density_w_m2'])} W/m2 while radiating"
         )
         for limit_id, q in p["quotients"].items():
             verdict = "EXCEEDS" if q >= 1 else "below"
-            lines.append(f"  {limit_id:36s} {100 * q:10.3g} % of limit  {verdict}")
+            device = " (equipment, while radiating)" if limit_id in devices else ""
+            lines.append(f"  {limit_id:36s} {100 * q:10.3g} % of limit  {verdict}{device}")
         lines.append("")
+    if devices:
+        lines.append(_wrap(device_note()))
     return "\n".join(lines).rstrip()
+
+
+def device_note() -> str:
+    """The plain sentence every output prints beside device thresholds."""
+    from . import limits as limits_mod
+
+    return limits_mod.DEVICE_NOTE
+
+
+def device_ids(limit_ids: Any, scenario: Any = None) -> set[str]:
+    """The ids among ``limit_ids`` that are device thresholds (equipment, not people)."""
+    from . import limits as limits_mod
+
+    out = set()
+    for limit_id in limit_ids:
+        if scenario is not None:
+            try:
+                limit = scenario.limit(limit_id)
+            except limits_mod.LimitError:
+                continue
+        elif limit_id in limits_mod.LIMIT_IDS:
+            limit = limits_mod.get_limit(limit_id)
+        else:  # a user threshold of a scenario not at hand: always a device kind
+            if limit_id.startswith(limits_mod.CUSTOM_PREFIX):
+                out.add(limit_id)
+            continue
+        if limit.kind == "device":
+            out.add(limit_id)
+    return out
 
 
 def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = False) -> str:
@@ -167,6 +205,16 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
             "every limit); 'outside enclosure' counts only points outside the box, and 'clear of "
             "enclosure' is how far from its outer surface the farthest of them lies.",
         ]
-    if scenario is not None and np.any([k["distance_m"] > 0 for k in data["keepout"]]):
+    devices = device_ids([k["limit"] for k in data["keepout"]], scenario)
+    if devices:
+        lines += [
+            "",
+            _wrap(
+                f"{', '.join(sorted(devices))}: keep sensitive equipment (not people) outside "
+                "that radius. " + device_note()
+            ),
+        ]
+    people = [k for k in data["keepout"] if k["limit"] not in devices]
+    if scenario is not None and np.any([k["distance_m"] > 0 for k in people]):
         lines += ["", "Keep people outside this radius while the source can radiate."]
     return "\n".join(lines)

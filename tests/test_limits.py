@@ -33,6 +33,12 @@ CONTRACT_IDS = (
     "sc6-2015/controlled",
     "fda-1030.10/before-purchase",
     "fda-1030.10/in-service",
+    # contract, "Additions": device thresholds (equipment, not people)
+    "iec-61000-4-3/level-1",
+    "iec-61000-4-3/level-2",
+    "iec-61000-4-3/level-3",
+    "iec-61000-4-3/level-4",
+    "iec-60601-1-2/wireless-2450",
 )
 
 
@@ -125,6 +131,28 @@ PUBLISHED = [
     ("fda-1030.10/in-service", 915 * MHZ, "S", 50.0, 0.5),
     ("fda-1030.10/in-service", 2.45 * GHZ, "S", 50.0, 0.5),
     ("fda-1030.10/in-service", 5.8 * GHZ, "S", 50.0, 0.5),
+    # --- IEC 61000-4-3:2020 (Ed. 4.0) Table 1 test levels, 80 MHz-6 GHz (band from memory):
+    # levels 1, 2, 3 = 1, 3, 10 V/m FOUND (secondary, IEEE EMC Society PSTC list,
+    # mail-archive.com msg21560); level 4 = 30 V/m from memory
+    ("iec-61000-4-3/level-1", 100 * MHZ, "E", 1.0, 0.005),
+    ("iec-61000-4-3/level-1", 2.45 * GHZ, "E", 1.0, 0.005),
+    ("iec-61000-4-3/level-1", 5.8 * GHZ, "E", 1.0, 0.005),
+    ("iec-61000-4-3/level-2", 100 * MHZ, "E", 3.0, 0.005),
+    ("iec-61000-4-3/level-2", 2.45 * GHZ, "E", 3.0, 0.005),
+    ("iec-61000-4-3/level-2", 5.8 * GHZ, "E", 3.0, 0.005),
+    ("iec-61000-4-3/level-3", 100 * MHZ, "E", 10.0, 0.05),
+    ("iec-61000-4-3/level-3", 2.45 * GHZ, "E", 10.0, 0.05),
+    ("iec-61000-4-3/level-3", 5.8 * GHZ, "E", 10.0, 0.05),
+    ("iec-61000-4-3/level-4", 100 * MHZ, "E", 30.0, 0.05),
+    ("iec-61000-4-3/level-4", 2.45 * GHZ, "E", 30.0, 0.05),
+    ("iec-61000-4-3/level-4", 5.8 * GHZ, "E", 30.0, 0.05),
+    # --- IEC 60601-1-2:2014 Table 9, 2 450 MHz (band 2 400-2 570 MHz): 28 V/m, FOUND
+    # (secondary: Table 9 reproduced in equipment manuals; see limits_provenance.md)
+    ("iec-60601-1-2/wireless-2450", 2.40 * GHZ, "E", 28.0, 0.5),
+    ("iec-60601-1-2/wireless-2450", 2.45 * GHZ, "E", 28.0, 0.5),
+    ("iec-60601-1-2/wireless-2450", 2.57 * GHZ, "E", 28.0, 0.5),
+    # Its plane-wave equivalent S = E^2/eta0 = 784/376.73 = 2.081 W/m2 (contract, Additions)
+    ("iec-60601-1-2/wireless-2450", 2.45 * GHZ, "S", 2.081, 0.0005),
 ]
 
 _QUANTITY = {"S": "power_density_w_m2", "E": "e_v_m", "H": "h_a_m"}
@@ -146,18 +174,25 @@ def test_every_id_is_checked_at_three_or_more_frequencies():
 def test_fields_are_null_where_the_table_gives_none_at_2_45_ghz(limit_id):
     # ICNIRP 2020 Tables 5/6 (>2 GHz: "NA"), FCC Table 1 (above 300 MHz: "-"), the
     # recalled IEEE ERLs and 1030.10 give S only; SC6 gives E, H and S (from memory).
+    # The device thresholds (IEC 61000-4-3 Table 1, IEC 60601-1-2 Table 9) are E fields.
     v = L.get_limit(limit_id).at(2.45 * GHZ)
     gives_fields = limit_id.startswith("sc6-2015/")
-    assert (v.e_v_m is not None) == gives_fields
+    device = limit_id.startswith("iec-")
+    assert (v.e_v_m is not None) == (gives_fields or device)
     assert (v.h_a_m is not None) == gives_fields
-    assert not v.power_density_derived
+    assert v.power_density_derived == device
 
 
 def test_every_entry_has_source_unit_tags_and_averaging_or_reason():
     for lim in L.all_limits():
         assert lim.source and lim.reference and lim.document and lim.edition, lim.id
-        assert lim.tier in ("whole-body", "local", "product-emission")
-        assert lim.population in ("general-public", "occupational")
+        if lim.kind == "exposure":
+            assert lim.tier in ("whole-body", "local", "product-emission")
+            assert lim.population in ("general-public", "occupational")
+            assert lim.basis == "time-averaged"
+        else:  # device thresholds: equipment, compared while the sources radiate
+            assert (lim.kind, lim.tier, lim.population) == ("device", "device", "equipment")
+            assert lim.basis == "while-on"
         assert lim.averaging_tag in ("FOUND", "MEMORY")
         # an averaging time, or a reason why there is none
         assert lim.averaging_time_s is not None or "none" in lim.averaging_reason
@@ -382,15 +417,22 @@ def test_unknown_id_raises_with_suggestion_and_known_ids():
 
 def test_values_at_partitions_the_ids():
     covered, missing = L.values_at(10 * GHZ)
-    assert missing == ["fda-1030.10/before-purchase", "fda-1030.10/in-service"]
-    assert [v.id for v in covered] == list(CONTRACT_IDS[:-2])
+    # 21 CFR 1030.10 ends at 6 GHz, IEC 61000-4-3 levels at 6 GHz (from memory), and
+    # IEC 60601-1-2 Table 9's 2 450 MHz row covers 2 400-2 570 MHz only.
+    assert missing == [
+        "fda-1030.10/before-purchase",
+        "fda-1030.10/in-service",
+        *CONTRACT_IDS[-5:],
+    ]
+    assert [v.id for v in covered] == list(CONTRACT_IDS[:-7])
     covered, missing = L.values_at(2.45e9, ["sc6-2015/controlled", "fcc-1.1310/occupational"])
     assert [v.id for v in covered] == ["sc6-2015/controlled", "fcc-1.1310/occupational"]
     assert missing == []
     # 2.45 GHz: every limit covers it; SC6 uncontrolled is the lowest (5.42 W/m2)
     covered, missing = L.values_at(2.45e9)
     assert missing == []
-    assert min(covered, key=lambda v: v.power_density_w_m2).id == "sc6-2015/uncontrolled"
+    people = [v for v in covered if v.kind == "exposure"]
+    assert min(people, key=lambda v: v.power_density_w_m2).id == "sc6-2015/uncontrolled"
 
 
 def test_contract_json_entry():
