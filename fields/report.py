@@ -469,7 +469,14 @@ def _limit_sources(data: dict[str, Any]) -> str:
                 _e(limits_mod.verification_text(v.get("verification", ""))),
             ]
         )
-    return _table(
+    devices = [v["id"] for v in data["limits"] if v.get("kind") == "device"]
+    note = (
+        f"<p><strong>Equipment, not people.</strong> {_e(', '.join(devices))}: "
+        f"{_e(limits_mod.DEVICE_NOTE)}</p>"
+        if devices
+        else ""
+    )
+    return note + _table(
         [
             "limit",
             f"value at {data['frequency_hz'] / 1e9:g} GHz",
@@ -483,6 +490,9 @@ def _limit_sources(data: dict[str, Any]) -> str:
 
 
 _REFERENCES = (
+    "IEC 61000-4-3:2020 (Ed. 4.0), Radiated, radio-frequency, electromagnetic field immunity "
+    "test, Table 1 (test levels); IEC 60601-1-2:2014, Table 9 (proximity fields from RF "
+    "wireless communications equipment, 2 450 MHz: 28 V/m).",
     "ICNIRP, Guidelines for limiting exposure to electromagnetic fields (100 kHz to 300 GHz), "
     "Health Physics 118(5):483–524, 2020, doi:10.1097/HP.0000000000001210 (Tables 5, 6).",
     "IEEE Std C95.1-2019, Safety Levels with Respect to Human Exposure to Electric, Magnetic, "

@@ -267,3 +267,29 @@ def test_custom_threshold_function_refuses_bad_input():
         L.custom_threshold("x", basis="while-on", e_v_m=1.0, power_density_w_m2=1.0)
     with pytest.raises(ValueError, match="> 0"):
         L.custom_threshold("x", basis="while-on", e_v_m=float("nan"))
+
+
+def test_map_quotient_and_zone_of_a_device_threshold_use_the_field_while_on(write_scenario):
+    # A duty-cycled isotropic source: the map's device quotient is (E_peak/E_lim)^2 with the
+    # field of every source on (contract, Additions), the people's one S_avg/S_lim.
+    from keepclear.fields import maps
+    from keepclear.fields.field import evaluate
+
+    path = write_scenario(
+        SOURCE.format(power_w=1.0, duty=0.2, gain_dbi=0.0)
+        + '[exposure]\nlimits = ["iec-61000-4-3/level-3", "icnirp-2020/general-public"]\n'
+    )
+    scenario = load_scenario(path)
+    grid = maps.make_grid(maps.principal_plane("xy", scenario.centre_m), 2.0, pixels=21)
+    result = maps.evaluate_map(scenario, grid)
+    fields = evaluate(scenario, grid.points_m())
+    device = result.quotient("iec-61000-4-3/level-3").ravel()
+    ok = np.isfinite(fields.peak_e_v_m)
+    assert np.allclose(device[ok], (fields.peak_e_v_m[ok] / 10.0) ** 2, rtol=1e-12)
+    people = result.quotient("icnirp-2020/general-public").ravel()
+    assert np.allclose(people[ok], fields.power_density_w_m2[ok] / 10.0, rtol=1e-12)
+    # 10 V/m is reached within R = sqrt(eta0 P / (4 pi E^2)) = 0.548 m (OET 65 eq. (3))
+    inside = np.linalg.norm(grid.points_m() - scenario.centre_m, axis=1) < 0.95 * device_radius_m(
+        1.0, 0.0, 10.0
+    )
+    assert np.all(device[inside] >= 1.0)
