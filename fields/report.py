@@ -377,6 +377,7 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
         "the least space; it does not make any option safe by itself.</p>",
         _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
         _legend(keys, data),
+        _comparison_places(data, comp),
     ]
     if figure is not None:
         parts.append(
@@ -385,6 +386,31 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
             + "<figcaption>The options on one colour scale, best first.</figcaption></figure>"
         )
     return "\n".join(parts)
+
+
+def _comparison_places(data: dict[str, Any], comp: dict[str, Any]) -> str:
+    """Each option's time-averaged density at every named place, with its change in dB."""
+    if not any(row.get("places") for row in comp["options"]):
+        return ""
+    letters = {p["name"]: p.get("map_letter", p["name"]) for p in data["points"]}
+    names = [p["name"] for p in comp["options"][0]["places"]]
+    header = ["#", "option"] + [f"at {_e(letters.get(n, n))}" for n in names]
+    rows = []
+    for row in comp["options"]:
+        cells = [str(row["rank"]), _free(row["name"])]
+        for place in row["places"]:
+            text = _density(place["power_density_w_m2"])
+            if not row["is_base"] and place["change_db"] is not None:
+                text += f"<br>{place['change_db']:+.1f}&nbsp;dB"
+            cells.append(text)
+        rows.append(cells)
+    legend = "; ".join(f"<strong>{_e(letters.get(n, n))}</strong> = {_free(n)}" for n in names)
+    return (
+        "<h3>The options at the named places</h3>"
+        + _table(header, rows, numeric={0, *range(2, len(header))})
+        + f'<p class="legend">Time-averaged power density; the change in dB is against the '
+        f"base. {legend}.</p>"
+    )
 
 
 def _method(data: dict[str, Any]) -> str:
