@@ -15,6 +15,10 @@ from scipy import constants
 
 from keepclear.fields import limits as L
 from keepclear.fields.errors import InputError, LimitError
+from keepclear.fields.limits import get_limit
+
+from ._cli import assert_clean_exit, one_error_line, run, strict_json, validate
+from ._edge_cases import OUTER_EDGES, _fda_scenario, probe
 
 ETA0 = math.sqrt(constants.mu_0 / constants.epsilon_0)  # 376.73 ohm, scipy.constants
 MHZ, GHZ = 1e6, 1e9
@@ -605,3 +609,55 @@ def test_limits_text_never_shows_a_bare_tag():
         line = next(x for x in text.splitlines() if x.startswith(f"- {limit_id}:"))
         assert "value recalled" in line
     assert "checked against the published table" in text
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+@pytest.mark.parametrize("limit_id", sorted(OUTER_EDGES))
+def test_outer_band_edges_are_inclusive(limit_id):
+    low, high = OUTER_EDGES[limit_id]
+    for f, inside in (
+        (low, True),
+        (high, True),
+        (math.nextafter(low, 0.0), False),
+        (math.nextafter(high, math.inf), False),
+    ):
+        result = run("limits", "--frequency-hz", repr(f), "--json")
+        assert result.exit_code == 0, result.stderr
+        data = strict_json(result.stdout)
+        validate("limits", data)
+        covered = {v["id"] for v in data["limits"]}
+        assert (limit_id in covered) is inside, (f, inside)
+        assert (limit_id in data["not_covering_frequency"]) is not inside
+
+
+@pytest.mark.parametrize(
+    ("frequency_hz", "ok"),
+    [(8.9e8, True), (6e9, True), (math.nextafter(8.9e8, 0), False), (6.000000001e9, False)],
+)
+def test_scenario_at_the_fda_band_edges(write_scenario, frequency_hz, ok):
+    # 21 CFR 1030.10(b): a microwave oven works in the ISM bands 890-6000 MHz (FOUND).
+    path = write_scenario(_fda_scenario(frequency_hz))
+    result = run("probe", path, "--at", "0.05,0,0", "--json")
+    if ok:
+        assert_clean_exit(result, allowed=(0,))
+    else:
+        line = one_error_line(result)
+        assert "exposure.limits[0]" in line and "890 MHz" in line
+
+
+def test_icnirp_local_row_change_at_6_ghz(write_scenario):
+    # ICNIRP 2020 Table 6 (local, general public): ">2-6 GHz" S = 40 W/m^2 (closed at 6 GHz);
+    # ">6 to <300 GHz" S = 55 / fG^0.177 (open at 6 GHz: 40.05 W/m^2 just above).
+    limit = "icnirp-2020/general-public-local"
+    for f, s_lim in ((6e9, 40.0), (6.000001e9, 55 / 6.000001**0.177)):
+        path = write_scenario(
+            f'frequency_hz = {f!r}\n[[source]]\nantenna = "isotropic"\npower_w = 10.0\n'
+            f'[exposure]\nlimits = ["{limit}"]\n'
+        )
+        (p,) = probe(path, (0.3, 0.0, 0.0))
+        assert p["quotients"][limit] == pytest.approx(p["power_density_w_m2"] / s_lim, rel=1e-12)
+        assert get_limit(limit).at(f).power_density_w_m2 == pytest.approx(s_lim, rel=1e-12)
