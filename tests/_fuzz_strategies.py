@@ -26,6 +26,7 @@ import warnings
 from pathlib import Path
 
 import hypothesis.strategies as st
+import pytest
 from hypothesis import HealthCheck
 
 from keepclear.antennas.base import C_M_S
@@ -35,6 +36,12 @@ from keepclear.fields.scenario import load_scenario
 
 from ._cli import assert_clean_exit, run, strict_json, validate
 from ._hypothesis import PROFILE
+
+# Limit ids are drawn from every id, the oven-leakage product limits included, for scenarios
+# without an enclosure: the plausibility warning that this draws is expected in these tests.
+EXPECTED_PLAUSIBILITY_WARNING = pytest.mark.filterwarnings(
+    "ignore::keepclear.fields.plausibility.PlausibilityWarning"
+)
 
 # Hypothesis writes each example into the same temporary folder (function-scoped fixtures
 # are not reset between examples; the file is overwritten every time, which is what we want).

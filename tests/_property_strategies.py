@@ -41,6 +41,7 @@ import warnings
 
 import hypothesis.strategies as st
 import numpy as np
+import pytest
 from hypothesis import assume, note
 
 from keepclear.antennas.base import C_M_S
@@ -49,6 +50,12 @@ from keepclear.fields.limits import LIMIT_IDS, get_limit
 from keepclear.fields.scenario import scenario_from_document
 
 from ._hypothesis import PROFILE
+
+# Limit ids are drawn from every id, the oven-leakage product limits included, for scenarios
+# without an enclosure: the plausibility warning that this draws is expected in these tests.
+EXPECTED_PLAUSIBILITY_WARNING = pytest.mark.filterwarnings(
+    "ignore::keepclear.fields.plausibility.PlausibilityWarning"
+)
 
 
 def _available(module: str, name: str) -> bool:

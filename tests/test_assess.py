@@ -27,7 +27,13 @@ from keepclear.fields.cli import app
 from ._cli import assert_clean_exit, strict_json, validate
 from ._cli import one_error_line as cli_one_error_line
 from ._cli import run as cli_run
-from ._fuzz_strategies import FUNCTION_FIXTURE, _keepout_is_bounded, toml_document, valid_documents
+from ._fuzz_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
+    FUNCTION_FIXTURE,
+    _keepout_is_bounded,
+    toml_document,
+    valid_documents,
+)
 from ._hypothesis import examples
 from .conftest import ISOTROPIC
 
@@ -323,6 +329,7 @@ def test_installed_entry_point_maps(tmp_path, write_scenario):
 # what, is listed in tests/_fuzz_strategies.py.
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(2), suppress_health_check=FUNCTION_FIXTURE)
 @given(doc=valid_documents())
 def test_assess_on_valid_scenarios(tmp_path, doc):

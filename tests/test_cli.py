@@ -26,7 +26,7 @@ from ._cli import assert_clean_exit, strict_json
 from ._cli import one_error_line as cli_one_error_line
 from ._cli import run as cli_run
 from ._edge_cases import DIPOLE, probe
-from ._fuzz_strategies import FUNCTION_FIXTURE
+from ._fuzz_strategies import EXPECTED_PLAUSIBILITY_WARNING, FUNCTION_FIXTURE
 from ._hypothesis import examples
 from .conftest import ISOTROPIC, SCENARIOS
 
@@ -301,6 +301,7 @@ def test_installed_entry_point_subprocess(tmp_path):
 # what, is listed in tests/_fuzz_strategies.py.
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(40), suppress_health_check=FUNCTION_FIXTURE)
 @given(
     args=st.lists(st.text(max_size=20) | st.sampled_from(["--at", "--json", "--csv"]), max_size=5)

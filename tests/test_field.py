@@ -18,6 +18,7 @@ from ._cli import assert_clean_exit, run, strict_json, validate
 from ._edge_cases import DIPOLE, MONOPOLE, probe
 from ._hypothesis import examples
 from ._property_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
     KINDS,
     WAVELENGTH_M,
     _close,
@@ -37,6 +38,7 @@ from .conftest import ISOTROPIC
 
 
 # ------------------------------------------------------------ linear in power
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(30))
 @given(
     doc=documents(max_sources=3), k=st.floats(1e-3, 1e3), c=st.floats(0.05, 1.0), pts=field_points()
@@ -66,6 +68,7 @@ def test_density_is_linear_in_power_and_duty_cycle(doc, k, c, pts):
     assert _close(r0.power_density_w_m2, s_pw)
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(25))
 @given(
     doc=documents(max_sources=2),
@@ -103,6 +106,7 @@ def test_moving_the_scenario_moves_its_fields(doc, rotation, shift, pts):
             assert np.all(np.abs(v1 - expected) <= 1e-7 * scale + 1e-300)
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(16))
 @given(
     kind=st.sampled_from(KINDS),

@@ -24,7 +24,7 @@ from keepclear.fields.scenario import load_scenario
 
 from ._cli import one_error_line, run
 from ._edge_cases import _no_evaluation
-from ._fuzz_strategies import FUNCTION_FIXTURE, MAP_ARGS, check_map
+from ._fuzz_strategies import EXPECTED_PLAUSIBILITY_WARNING, FUNCTION_FIXTURE, MAP_ARGS, check_map
 from ._hypothesis import examples
 from .conftest import ISOTROPIC
 
@@ -303,6 +303,7 @@ def test_a_singular_sample_counts_as_exceeding(iso, monkeypatch):
 # what, is listed in tests/_fuzz_strategies.py.
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(12), suppress_health_check=FUNCTION_FIXTURE)
 @given(args=MAP_ARGS)
 def test_map_arguments(tmp_path, args):

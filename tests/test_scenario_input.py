@@ -12,6 +12,7 @@ from hypothesis import given, note, settings
 
 from ._cli import assert_clean_exit, one_error_line, run, strict_json
 from ._fuzz_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
     FUNCTION_FIXTURE,
     RAW_TEXTS,
     _keepout_is_bounded,
@@ -31,6 +32,7 @@ from ._hypothesis import examples
 
 
 # ---------------------------------------------------------------------- tests
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(35), suppress_health_check=FUNCTION_FIXTURE)
 @given(data=st.data())
 def test_mutated_scenarios(tmp_path, data):
@@ -53,6 +55,7 @@ def test_mutated_scenarios(tmp_path, data):
             check_map(path, out, [])
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(10), suppress_health_check=FUNCTION_FIXTURE)
 @given(doc=valid_documents())
 def test_valid_scenarios_run(tmp_path, doc):
@@ -70,6 +73,7 @@ def test_valid_scenarios_run(tmp_path, doc):
         check_keepout(path)
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @settings(max_examples=examples(60), suppress_health_check=FUNCTION_FIXTURE)
 @given(case=RAW_TEXTS)
 def test_raw_junk_files(tmp_path, case):
@@ -84,6 +88,7 @@ def test_raw_junk_files(tmp_path, case):
             strict_json(result.stdout)
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @pytest.mark.parametrize(
     "name",
     ["x" * 1_900_000, "\U0001f4a5" * 400_000, "line1\nline2\u2028line3\x85line4"],
@@ -99,6 +104,7 @@ def test_very_long_and_odd_strings(tmp_path, name):
         assert strict_json(result.stdout)["scenario"] == name
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 def test_file_over_2_mb_is_refused(tmp_path):
     path = tmp_path / "big.toml"
     path.write_text(toml_document({"name": "x" * 2_100_000, "source": []}), encoding="utf-8")
@@ -107,6 +113,7 @@ def test_file_over_2_mb_is_refused(tmp_path):
     assert "2 MB" in result.stderr
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 def test_toml_writer_round_trips():
     # The writer must produce TOML that tomllib reads back as the same document; otherwise the
     # fuzzer would only ever test the TOML parser.

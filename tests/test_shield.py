@@ -26,6 +26,7 @@ from keepclear.fields.validate import Table
 
 from ._hypothesis import examples
 from ._property_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
     HAS_REFLECTION,
     HAS_SHIELD,
     _close,
@@ -261,6 +262,7 @@ def test_unknown_metal_lists_known_ones() -> None:
 # are listed in tests/_property_strategies.py.
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @pytest.mark.skipif(not HAS_SHIELD, reason="shield model not present")
 @settings(max_examples=examples(25))
 @given(doc=documents(max_sources=2), data=st.data(), pts=field_points())
@@ -278,6 +280,7 @@ def test_a_shield_never_raises_a_field(doc, data, pts):
         assert np.all(getattr(r1, name) <= getattr(r0, name) * (1 + 1e-12)), name
 
 
+@EXPECTED_PLAUSIBILITY_WARNING
 @pytest.mark.skipif(not (HAS_SHIELD and HAS_REFLECTION), reason="shield or reflection missing")
 @pytest.mark.parametrize(("depth", "size"), [(0.5, 4.0), (0.8, 1.0)])
 @pytest.mark.parametrize("material", ["metal", "concrete"])
