@@ -292,7 +292,7 @@ def test_map_custom_plane(tmp_path, write_scenario):
 )
 def test_map_bad_arguments_exit_2(tmp_path, write_scenario, monkeypatch, args, fragment):
     scenario = write_scenario(SCENARIO)
-    monkeypatch.chdir(tmp_path)  # restored afterwards: later tests read scenarios/ by path
+    monkeypatch.chdir(tmp_path)  # restored after the test: later tests use relative paths
     before = listing(tmp_path)
     line = one_error_line(run("map", scenario, *args))
     assert fragment in line
