@@ -20,6 +20,7 @@ whole scenario of its own.
 from __future__ import annotations
 
 import copy
+import re
 import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -164,6 +165,8 @@ class Scenario:
     options : tuple of Option
     document : dict
         The parsed TOML as given.
+    thresholds : tuple of Limit
+        User thresholds (``[[exposure.threshold]]``), ids ``custom/NAME``.
     """
 
     name: str
@@ -179,6 +182,7 @@ class Scenario:
     options: tuple[Option, ...] = ()
     document: dict[str, Any] = field(default_factory=dict)
     uncertainty: Any = None
+    thresholds: tuple[limits_mod.Limit, ...] = ()
 
     @property
     def centre_m(self) -> NDArray[np.float64]:
@@ -194,6 +198,14 @@ class Scenario:
     def wavelength_m(self) -> float:
         """Free-space wavelength [m]."""
         return self.sources[0].radiator.wavelength_m
+
+    def limit(self, limit_id: str) -> limits_mod.Limit:
+        """A limit by id: the scenario's user thresholds, then the published limits."""
+        return limits_mod.resolve_limit(limit_id, self.thresholds)
+
+    def limit_value(self, limit_id: str) -> limits_mod.LimitValue:
+        """A limit by id, at the scenario frequency (LimitError outside its band)."""
+        return self.limit(limit_id).at(self.frequency_hz)
 
     def with_limits(self, limit_ids: tuple[str, ...]) -> Scenario:
         """A copy assessing other limits."""
@@ -333,13 +345,54 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
 
 
 # --------------------------------------------------------------- top level
-def _read_limits(root: Table, frequency_hz: float) -> tuple[str, ...]:
+def _read_thresholds(exposure: Table) -> tuple[limits_mod.Limit, ...]:
+    """``[[exposure.threshold]]``: user thresholds, ids ``custom/NAME``."""
+    out: list[limits_mod.Limit] = []
+    names: dict[str, int] = {}
+    for i, t in enumerate(exposure.tables("threshold")):
+        name = t.string("name")
+        if not re.fullmatch(r"[a-z0-9][a-z0-9.\-]*", name):
+            raise t.error(
+                "name",
+                f"must be lower-case letters, digits, '.' or '-' (not empty), got {name!r}",
+            )
+        if name in names:
+            raise t.error(
+                "name",
+                f"'{name}' is used by exposure.threshold[{names[name]}]; names must be unique",
+            )
+        names[name] = i
+        basis = t.string("basis", choices=limits_mod.BASES)
+        e_v_m = t.number("e_v_m", None, unit="V/m", minimum=0.0, exclusive_minimum=True)
+        s_w_m2 = t.number(
+            "power_density_w_m2", None, unit="W/m^2", minimum=0.0, exclusive_minimum=True
+        )
+        if e_v_m is not None and s_w_m2 is not None:
+            raise t.error("power_density_w_m2", "give either e_v_m or power_density_w_m2, not both")
+        if e_v_m is None and s_w_m2 is None:
+            raise ScenarioError(
+                "needs e_v_m [V/m] or power_density_w_m2 [W/m^2] (one of them)",
+                t.source,
+                t.path,
+            )
+        t.finish()
+        out.append(
+            limits_mod.custom_threshold(name, basis=basis, e_v_m=e_v_m, power_density_w_m2=s_w_m2)
+        )
+    return tuple(out)
+
+
+def _read_limits(
+    root: Table, frequency_hz: float
+) -> tuple[tuple[str, ...], tuple[limits_mod.Limit, ...]]:
     exposure = root.table("exposure", None)
+    thresholds: tuple[limits_mod.Limit, ...] = ()
     if exposure is None:
         ids = list(DEFAULT_LIMIT_IDS)
     else:
+        thresholds = _read_thresholds(exposure)
         ids = exposure.string_list("limits")
-        exposure.finish(["limits"])
+        exposure.finish(["limits", "threshold"])
         if not ids:
             raise exposure.error(
                 "limits", "must name at least one limit id; see `keepclear limits`"
@@ -351,11 +404,11 @@ def _read_limits(root: Table, frequency_hz: float) -> tuple[str, ...]:
             raise root.error(f"exposure.{key}", f"'{limit_id}' is listed twice")
         seen.add(limit_id)
         try:
-            limit = limits_mod.get_limit(limit_id)
+            limit = limits_mod.resolve_limit(limit_id, thresholds)
             limit.at(frequency_hz)
         except LimitError as exc:
             raise ScenarioError(exc.message, root.source, f"exposure.{key}") from None
-    return tuple(ids)
+    return tuple(ids), thresholds
 
 
 def _read_points(root: Table) -> tuple[PointOfInterest, ...]:
@@ -521,7 +574,7 @@ def scenario_from_document(
                 f"source[{i}].id",
                 f"'{sid}' is used by source[{ids.index(sid)}]; ids must be unique",
             )
-    limit_ids = _read_limits(root, frequency)
+    limit_ids, thresholds = _read_limits(root, frequency)
     reflectors = _read_reflectors(root, frequency)
     shields = _read_shields(root, frequency)
     enclosure = _read_enclosure(root, frequency, sources)
@@ -542,6 +595,7 @@ def scenario_from_document(
         points=points,
         document=document,
         uncertainty=uncertainty,
+        thresholds=thresholds,
     )
     if allow_options and "option" in document:
         scenario = replace(scenario, options=_read_options(root, document, source))
