@@ -96,6 +96,11 @@ def _pair(value: ArrayLike, name: str, positive: bool) -> tuple[float, float]:
     return float(arr[0]), float(arr[1])
 
 
+def _face_count(lines_u: NDArray[np.float64], lines_v: NDArray[np.float64]) -> int:
+    """Number of segments of a full rectangular grid on these lines."""
+    return int(lines_u.size * (lines_v.size - 1) + lines_v.size * (lines_u.size - 1))
+
+
 class FiniteGroundMonopole(Radiator):
     """Base-fed monopole on a finite plate or through the face of a closed box.
 
@@ -215,25 +220,30 @@ class FiniteGroundMonopole(Radiator):
         fine = min(moment.FEED_SPACING_WAVELENGTHS * lam, max_step_m)
         xs = moment.graded_lines(x0, x1, 0.0, max_step_m, fine)
         ys = moment.graded_lines(y0, y1, 0.0, max_step_m, fine)
+        n_probe = max(4, math.ceil(self.length_m / (PROBE_SEGMENT_WAVELENGTHS * lam) - 1e-9))
+        n_grid = _face_count(xs, ys)
+        if self.ground == "box":
+            assert self.box_depth_m is not None
+            xt, yt = moment.thinned_lines(xs, max_step_m), moment.thinned_lines(ys, max_step_m)
+            zs = moment.uniform_lines(-self.box_depth_m, 0.0, max_step_m)
+            n_grid += _face_count(xt, yt) + 2 * _face_count(xt, zs) + 2 * _face_count(yt, zs)
+        if n_grid + n_probe > moment.MAX_SEGMENTS:
+            raise ModelInputError(
+                "ground_size_m",
+                f"the {self.ground} is too large for the wire-grid model at "
+                f"{self.frequency_hz:g} Hz (about {n_grid + n_probe} segments, at most "
+                f'{moment.MAX_SEGMENTS}); for metal this large use ground = "infinite"',
+            )
         if self.ground == "plate":
             ex, ey = np.eye(3)[0], np.eye(3)[1]
             starts, ends, radii = moment.face_grid(np.zeros(3), ex, ey, xs, ys)
         else:
             assert self.box_depth_m is not None
             starts, ends, radii = moment.box_grid(xs, ys, self.box_depth_m, max_step_m)
-        n_probe = max(4, math.ceil(self.length_m / (PROBE_SEGMENT_WAVELENGTHS * lam) - 1e-9))
         z = self.length_m * np.arange(n_probe + 1) / n_probe
         probe_a = np.column_stack([np.zeros(n_probe), np.zeros(n_probe), z[:-1]])
         probe_b = np.column_stack([np.zeros(n_probe), np.zeros(n_probe), z[1:]])
         feed = starts.shape[0]
-        n_total = feed + n_probe
-        if n_total > moment.MAX_SEGMENTS:
-            raise ModelInputError(
-                "ground_size_m",
-                f"the {self.ground} is too large for the wire-grid model at "
-                f"{self.frequency_hz:g} Hz ({n_total} segments, at most "
-                f'{moment.MAX_SEGMENTS}); for metal this large use ground = "infinite"',
-            )
         return moment.WireStructure.from_segments(
             np.vstack([starts, probe_a]),
             np.vstack([ends, probe_b]),
@@ -289,7 +299,7 @@ class FiniteGroundMonopole(Radiator):
         h = np.empty_like(e)
         near = ~far
         if near.any():
-            e[near], h[near] = self.elements.fields(points_local_m[near], 2**62)
+            e[near], h[near] = self.elements.fields(points_local_m[near])
         if far.any():
             # Far out the exact sums cancel: the radiation field (1/r^2 terms < 1e-3).
             u = points_local_m[far] / r[far, None]
