@@ -23,6 +23,7 @@ import html
 from typing import Any
 
 from .cautions import CAUTION_LINES, caution_block
+from .report_text import share_text
 
 #: What the estimate leaves out, as printed in the report.
 LEFT_OUT: tuple[tuple[str, str], ...] = (
@@ -80,9 +81,12 @@ h3 { font-size: 1.02rem; margin: 1.4rem 0 .4rem; }
 p.meta { color: var(--muted); margin: 0 0 1rem; font-size: .9rem; }
 table { border-collapse: collapse; width: 100%; margin: .5rem 0 1rem; font-size: .88rem; }
 th, td { border-bottom: 1px solid var(--rule); padding: .3rem .45rem; text-align: left;
-         vertical-align: top; }
+         vertical-align: top; overflow-wrap: break-word; }
+.free { overflow-wrap: anywhere; }
 th { background: var(--band); font-weight: 600; }
-td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+td .unit2 { color: var(--muted); font-size: .9em; }
+p.legend { font-size: .84rem; color: var(--muted); margin: -.6rem 0 1rem; }
 .summary { border: 2px solid var(--ink); padding: .8rem 1rem; margin: 1rem 0 1.4rem;
            background: #fffdf8; }
 .summary p { margin: .3rem 0; }
@@ -100,9 +104,11 @@ dl dt { font-weight: 600; margin-top: .5rem; }
 dl dd { margin: .1rem 0 .3rem 1.2rem; }
 footer { margin-top: 2.5rem; border-top: 1px solid var(--rule); padding-top: .6rem;
          font-size: .82rem; color: var(--muted); }
-@page { size: A4; margin: 16mm 14mm 18mm; }
+@page { margin: 15mm 13mm 17mm; }
 @media print {
-  body { max-width: none; margin: 0; padding: 0; font-size: 10.5pt; }
+  body { max-width: none; margin: 0; padding: 0; font-size: 10pt; }
+  table { font-size: 8.2pt; }
+  th, td { padding: .2rem .3rem; }
   h2 { break-after: avoid; page-break-after: avoid; }
   table, figure, .summary, .caution, pre, dl { break-inside: avoid; page-break-inside: avoid; }
   figure.map + figure.map { break-before: page; page-break-before: always; }
@@ -127,6 +133,48 @@ def _num(x: float | None, digits: int = 3) -> str:
 
 def _metres(x: float | None) -> str:
     return "–" if x is None else f"{x:.2f}&nbsp;m"
+
+
+def _id(limit_id: str) -> str:
+    """A limit id that may wrap after its "/" and "-" (never inside a word)."""
+    return _e(limit_id).replace("/", "/<wbr>").replace("-", "-<wbr>")
+
+
+def _free(text: Any) -> str:
+    """A cell of free text (a name or description) that may wrap anywhere if it must."""
+    return f'<span class="free">{_e(text)}</span>'
+
+
+def _density(x: float | None, digits: int = 3) -> str:
+    """A power density in W/m² with mW/cm² beside it (1 W/m² = 0.1 mW/cm²)."""
+    if x is None:
+        return "–"
+    return (
+        f"{_num(x, digits)}&nbsp;W/m² "
+        f'<span class="unit2">({_num(x / 10.0, digits)}&nbsp;mW/cm²)</span>'
+    )
+
+
+def _share(q: float) -> str:
+    """An exposure quotient as a share of the limit, marked where the limit is reached."""
+    text = _e(share_text(q)).replace(" ", "&nbsp;")
+    return f'<span class="exceed">{text}</span>' if q >= 1 else text
+
+
+def _limit_keys(limit_ids: list[str]) -> dict[str, str]:
+    """Short column keys L1, L2, ... for the limits, in the scenario's order."""
+    return {limit_id: f"L{i}" for i, limit_id in enumerate(limit_ids, start=1)}
+
+
+def _legend(keys: dict[str, str], data: dict[str, Any]) -> str:
+    """One line naming each column key's limit and its value."""
+    values = {v["id"]: v for v in data["limits"]}
+    parts = []
+    for limit_id, key in keys.items():
+        v = values.get(limit_id)
+        value = "" if v is None else f" ({_num(v['power_density_w_m2'])}&nbsp;W/m²)"
+        parts.append(f"<strong>{key}</strong> = {_id(limit_id)}{value}")
+    return '<p class="legend">' + "; ".join(parts) + ".</p>"
 
 
 def _img(png: bytes, alt: str) -> str:
@@ -159,12 +207,12 @@ def _summary(data: dict[str, Any]) -> str:
         cyl = k["cylinder"]
         zone = k["floor_zone"]
         if not k["reached"]:
-            rows.append([_e(k["limit"]), _num(k["limit_w_m2"]), "not reached", "–", "–", "–"])
+            rows.append([_id(k["limit"]), _density(k["limit_w_m2"]), "not reached", "–", "–", "–"])
             continue
         rows.append(
             [
-                _e(k["limit"]),
-                _num(k["limit_w_m2"]),
+                _id(k["limit"]),
+                _density(k["limit_w_m2"]),
                 _metres(k["distance_m"]),
                 f"<strong>{_metres(k['mark_out_m'])}</strong>",
                 _metres(zone["circle"]["radius_m"]) if zone["circle"]["radius_m"] else "–",
@@ -176,7 +224,7 @@ def _summary(data: dict[str, Any]) -> str:
     table = _table(
         [
             "limit",
-            "limit W/m²",
+            "limit value",
             "keep-out radius",
             "mark out",
             f"circle on floor plane (z = {floor_h:.2f} m)",
@@ -235,8 +283,8 @@ def _results(data: dict[str, Any]) -> str:
         rows.append(
             [
                 _e(k["limit"]),
-                _num(k["limit_w_m2"]),
-                "–" if avg is None else f"{avg / 60:g}&nbsp;min",
+                _density(k["limit_w_m2"])
+                + ("" if avg is None else f", averaged over {avg / 60:g}&nbsp;min"),
                 _metres(k["distance_m"]),
                 _metres(k["distance_with_uncertainty_m"])
                 + (
@@ -254,8 +302,7 @@ def _results(data: dict[str, Any]) -> str:
     return _table(
         [
             "limit",
-            "W/m²",
-            "averaging",
+            "limit value",
             "keep-out (model)",
             "with model uncertainty",
             "screening (far-field formula)",
@@ -264,7 +311,7 @@ def _results(data: dict[str, Any]) -> str:
             "zone area",
         ],
         rows,
-        numeric={1, 2, 3, 4, 5, 8},
+        numeric={2, 3, 4, 7},
     )
 
 
@@ -272,26 +319,170 @@ def _points(data: dict[str, Any]) -> str:
     points = data["points"]
     if not points:
         return "<p>The scenario names no places (<code>[[point]]</code>).</p>"
-    limit_ids = [v["id"] for v in data["limits"]]
-    header = ["", "place", "position (x, y, z)", "S time-avg W/m²", "S while on W/m²"]
-    header += [f"% of {_e(i)}" for i in limit_ids]
+    keys = _limit_keys([v["id"] for v in data["limits"]])
+    header = ["", "place", "position (x, y, z)", "S time-averaged", "S while on"]
+    header += [f"share of {key}" for key in keys.values()]
     rows = []
     for p in points:
         x, y, z = p["position_m"]
         cells = [
             f"<strong>{_e(p.get('map_letter', ''))}</strong>",
-            _e(p["name"]),
+            _free(p["name"]),
             f"({x:g}, {y:g}, {z:g})&nbsp;m",
-            _num(p["power_density_w_m2"]),
-            _num(p["peak_power_density_w_m2"]),
+            _density(p["power_density_w_m2"]),
+            _density(p["peak_power_density_w_m2"]),
         ]
-        for i in limit_ids:
-            q = p["quotients"][i]
-            text = f"{100 * q:.3g}&nbsp;%"
-            cells.append(f'<span class="exceed">{text}</span>' if q >= 1 else text)
+        cells += [_share(p["quotients"][i]) for i in keys]
         rows.append(cells)
-    return _table(header, rows, numeric=set(range(3, len(header)))) + (
-        "<p>The letters are the places’ marks on the maps.</p>"
+    return (
+        _table(header, rows, numeric=set(range(3, len(header))))
+        + _legend(keys, data)
+        + "<p>The letters are the places’ marks on the maps.</p>"
+    )
+
+
+def _uncertainty_section(data: dict[str, Any]) -> str:
+    """The Monte Carlo spread of the keep-out (with ``[uncertainty]``)."""
+    u = data.get("uncertainty")
+    if not u:
+        return ""
+    rows = [
+        [
+            _e(k["limit"]),
+            _metres(k["distance_m"]),
+            _metres(k["distance_median_m"]),
+            f"<strong>{_metres(k['distance_p95_m'])}</strong>",
+        ]
+        for k in data["keepout"]
+    ]
+    gains = ", ".join(f"{g:g}" for g in u["gain_db_used"])
+    return (
+        "<h3>How sure: the keep-out over the input uncertainty</h3>"
+        f"<p>{u['samples']} Monte Carlo samples (PCG64, seed {u['seed']}) of the inputs, each "
+        f"normal with one sigma: delivered power {u['power_db']:g}&nbsp;dB, gain {_e(gains)}"
+        f"&nbsp;dB (per source; the model's own figure where the table gives none), floor and "
+        f"wall |Γ| {u['reflection']:g}, shielding credit {u['shielding_db']:g}&nbsp;dB, source "
+        f"position {u['position_m']:g}&nbsp;m per axis. The fields are computed once and "
+        "re-weighted per sample. <strong>Mark out the 95th percentile</strong>: it is the "
+        "distance 19 set-ups in 20 stay within. On the maps the dashed contour of each limit is "
+        "where its 95th-percentile quotient reaches one (source position spread not included "
+        "there).</p>"
+        + _table(["limit", "nominal", "median", "95th percentile"], rows, numeric={1, 2, 3})
+    )
+
+
+def _places_extras(data: dict[str, Any]) -> str:
+    """Stay time per limit and spatial averages at the named places."""
+    parts = []
+    stay_rows = []
+    for p in data["points"]:
+        for limit_id, seconds in (p.get("allowed_s") or {}).items():
+            if seconds is not None:
+                stay_rows.append(
+                    [
+                        _e(p["name"]),
+                        _e(limit_id),
+                        f"{seconds:.3g}&nbsp;s ({seconds / 60:.2g}&nbsp;min)",
+                        _e(p.get("allowed_rule", {}).get(limit_id, "")),
+                    ]
+                )
+    if stay_rows:
+        parts.append(
+            "<h3>How long: the longest stay per averaging window</h3>"
+            "<p>Where a place is over a limit, a person may stay there for at most this long in "
+            "each averaging window of that limit (linear time averaging: window × limit ÷ "
+            "density, with nothing received the rest of the window). For the ICNIRP 2020 local "
+            "limits the brief-exposure energy rule (Table 7) is applied where it is stricter; "
+            "its formula was written from memory of the guidelines and is not yet checked "
+            "against the printed table.</p>"
+            + _table(["place", "limit", "longest stay", "rule"], stay_rows)
+        )
+    avg_rows = []
+    for p in data["points"]:
+        if "spatial_average_w_m2" not in p:
+            continue
+        z0, z1 = p["average_over_height_m"]
+        compared = "; ".join(
+            f"{_e(k)}: {c['compared_with']} ({100 * c['quotient']:.3g}&nbsp;%)"
+            for k, c in p.get("spatial_average_comparison", {}).items()
+        )
+        avg_rows.append(
+            [
+                _e(p["name"]),
+                f"{z0:g} to {z1:g}&nbsp;m",
+                _num(p["spatial_average_w_m2"]),
+                _num(p["power_density_w_m2"]),
+                compared,
+            ]
+        )
+    if avg_rows:
+        parts.append(
+            "<h3>The whole body: spatial average over a standing person</h3>"
+            "<p>The time-averaged power density averaged over a vertical line at the place, "
+            "by the composite midpoint rule with 20 equally spaced points (0.1&nbsp;m apart over "
+            "2&nbsp;m). Whole-body limits (ICNIRP 2020 Table 5, IEEE, FCC, Safety Code 6) are "
+            "compared with the spatial average; local limits, product emission limits and "
+            "device thresholds with the point value.</p>"
+            + _table(
+                ["place", "line", "spatial average W/m²", "point value W/m²", "compared with"],
+                avg_rows,
+                numeric={2, 3},
+            )
+        )
+    return "".join(parts)
+
+
+def _readings_section(data: dict[str, Any]) -> str:
+    """Survey readings against the prediction (``assess --readings``)."""
+    block = data.get("readings")
+    if not block:
+        return ""
+    rows = []
+    for i, r in enumerate(block["readings"]):
+        db = r["ratio_db"]
+        flag = '<span class="exceed">under-predicted</span>' if r["under_predicted"] else ""
+        rows.append(
+            [
+                _e(r["label"] or f"R{i + 1}"),
+                "(" + ", ".join(f"{x:g}" for x in r["position_m"]) + ")&nbsp;m",
+                f"{r['value']:g}&nbsp;{_e(r['unit'])}",
+                _num(r["measured_w_m2"]),
+                _num(r["predicted_w_m2"]),
+                "no prediction" if db is None else f"{db:+.1f}",
+                flag,
+                _e(", ".join(r["over_limits"]) or "-"),
+            ]
+        )
+    largest = block["largest_under_prediction_db"]
+    return (
+        "<h3>What the meter says: survey readings against the model</h3>"
+        "<p>A survey meter averages over a second or more, far longer than a mains cycle, so "
+        "each reading is compared with the time-averaged prediction (duty cycle applied); E "
+        "and H readings as E²/η0 and η0H². A reading more than 3&nbsp;dB above the model is "
+        "flagged. The readings are marked on the maps (diamonds; filled red when flagged) "
+        "where they lie within 0.5&nbsp;m of the plane.</p>"
+        + _table(
+            [
+                "reading",
+                "position",
+                "meter",
+                "measured W/m²",
+                "predicted W/m²",
+                "ratio dB",
+                "flag",
+                "over limits",
+            ],
+            rows,
+            numeric={3, 4, 5},
+        )
+        + "<p>"
+        + (
+            f"Largest measured-over-predicted ratio {largest:+.1f}&nbsp;dB. "
+            if largest is not None
+            else ""
+        )
+        + f"Suggested margin on the model: <strong>{block['suggested_margin_db']:.1f}&nbsp;dB"
+        "</strong>.</p>"
     )
 
 
@@ -299,33 +490,38 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
     comp = data.get("comparison")
     if not comp:
         return "<p>The scenario lists no alternatives (<code>[[option]]</code>).</p>"
-    limits = comp["limits"]
-    header = ["rank", "option", "description"] + [f"keep-out {_e(i)}" for i in limits]
-    header += ["floor zone m²", "leakage 5 cm W/m²", "worst named place"]
+    keys = _limit_keys(list(comp["limits"]))
+    header = ["#", "option", "description"] + [f"keep-out {key}" for key in keys.values()]
+    header += ["floor zone", "leakage at 5 cm", "worst named place"]
     rows = []
     for row in comp["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
-        cells = [str(row["rank"]), _e(row["name"]), _e(row["description"])]
-        for i in limits:
+        cells = [str(row["rank"]), _free(row["name"]), _free(row["description"])]
+        for i in keys:
             e = k[i]
             text = _metres(e["distance_m"])
             if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
                 text += f" ({_metres(e['distance_with_uncertainty_m'])})"
             cells.append(text)
-        cells.append(_num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)))
-        cells.append(_num(row["leakage_5cm_w_m2"]))
+        cells.append(
+            _num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)) + "&nbsp;m²"
+        )
+        cells.append(_density(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]
         cells.append(
             "–"
             if wp is None
-            else f"{_e(wp['name'])}: {100 * wp['quotient']:.3g}&nbsp;% of {_e(wp['limit'])}"
+            else f"{_free(wp['name'])}: {_share(wp['quotient'])} of "
+            f"{keys.get(wp['limit'], _e(wp['limit']))}"
         )
         rows.append(cells)
     parts = [
         f"<p>Ranked by {_e(comp['ranked_by'])}. Floor plane at z = "
         f"{comp['floor_plane']['height_m']:.2f}&nbsp;m. The ranking says which option needs "
         "the least space; it does not make any option safe by itself.</p>",
-        _table(header, rows, numeric={0, *range(3, 3 + len(limits) + 2)}),
+        _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
+        _legend(keys, data),
+        _comparison_places(data, comp),
     ]
     if figure is not None:
         parts.append(
@@ -334,6 +530,31 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
             + "<figcaption>The options on one colour scale, best first.</figcaption></figure>"
         )
     return "\n".join(parts)
+
+
+def _comparison_places(data: dict[str, Any], comp: dict[str, Any]) -> str:
+    """Each option's time-averaged density at every named place, with its change in dB."""
+    if not any(row.get("places") for row in comp["options"]):
+        return ""
+    letters = {p["name"]: p.get("map_letter", p["name"]) for p in data["points"]}
+    names = [p["name"] for p in comp["options"][0]["places"]]
+    header = ["#", "option"] + [f"at {_e(letters.get(n, n))}" for n in names]
+    rows = []
+    for row in comp["options"]:
+        cells = [str(row["rank"]), _free(row["name"])]
+        for place in row["places"]:
+            text = _density(place["power_density_w_m2"])
+            if not row["is_base"] and place["change_db"] is not None:
+                text += f"<br>{place['change_db']:+.1f}&nbsp;dB"
+            cells.append(text)
+        rows.append(cells)
+    legend = "; ".join(f"<strong>{_e(letters.get(n, n))}</strong> = {_free(n)}" for n in names)
+    return (
+        "<h3>The options at the named places</h3>"
+        + _table(header, rows, numeric={0, *range(2, len(header))})
+        + f'<p class="legend">Time-averaged power density; the change in dB is against the '
+        f"base. {legend}.</p>"
+    )
 
 
 def _method(data: dict[str, Any]) -> str:
@@ -410,7 +631,7 @@ def _limit_sources(data: dict[str, Any]) -> str:
             fields.append(f"H {_num(v['h_a_m'], 4)}&nbsp;A/m")
         rows.append(
             [
-                _e(v["id"]),
+                _id(v["id"]),
                 ", ".join(fields),
                 "–" if avg is None else f"{avg / 60:g}&nbsp;min",
                 _e(v["source"]),
@@ -505,8 +726,11 @@ def render_report(
         "how low the zones reach.</figcaption></figure>",
         "<h2>2. Results per limit</h2>",
         _results(data),
+        _uncertainty_section(data),
         "<h2>3. Named places</h2>",
         _points(data),
+        _places_extras(data),
+        _readings_section(data),
         "<h2>4. Options compared</h2>",
         _comparison(data, figures.get("compare")),
         "<h2>5. Method and assumptions</h2>",
