@@ -774,3 +774,128 @@ class CurrentElements:
         dirs, weights = _gauss_sphere(n_theta)
         f = self.far_field(dirs)
         return float(np.sum(weights * np.sum(np.abs(f) ** 2, axis=1)) / ETA0_OHM)
+
+
+# --------------------------------------------------------------------------- outer region
+class OutgoingExpansion:
+    """Fast, exact-to-1e-4 fields outside a sphere: the outgoing-wave expansion, tabulated.
+
+    Outside the smallest sphere (centre ``centre_m``, radius :math:`r_s`) that holds
+    every source, an outgoing field has the convergent expansion (Wilcox [1]_)
+
+    .. math:: \\mathbf E(r\\hat u) = \\frac{e^{-jkr}}{r}
+              \\sum_{n \\ge 0} \\frac{\\mathbf A_n(\\hat u)}{r^n},
+
+    so :math:`\\mathbf a(\\hat u, s) = r e^{jkr}\\mathbf E` is analytic in
+    :math:`s = 1/r` for :math:`s < 1/r_s`, and, as a function of direction, a field of
+    sources within :math:`r_s` is band-limited to spherical-harmonic degree about
+    :math:`k r_s`.  Here :math:`\\mathbf a` (and the same for H) is sampled exactly, with
+    the elements' kernel, on Chebyshev nodes in s on :math:`[0, 1/r_1]`,
+    :math:`r_1 = 2.5 r_s`, times a grid on the "double sphere" (theta over a whole
+    turn, phi over a whole turn, which makes both periodic), and represented by its
+    two-dimensional Fourier series times a Chebyshev series.  Evaluating a point costs
+    two small matrix products instead of a sum over every segment.
+
+    Band limit L = ceil(k r_s) + 6 (N = 2 L + 2 samples per turn), Q = 8 Chebyshev
+    nodes (the series converges like 7.9^-Q for r_1 = 2.5 r_s).  Checked against the
+    direct kernel in tests/test_finite_ground.py (within 1e-4 of the largest field at
+    the same distance).
+
+    Parameters
+    ----------
+    elements : CurrentElements
+        The sources, in the frame where ``centre_m`` is given.
+    centre_m : array_like, shape (3,)
+        Centre of the expansion [m].
+
+    References
+    ----------
+    .. [1] C. H. Wilcox, "An expansion theorem for electromagnetic fields",
+       *Comm. Pure Appl. Math.* 9(2), 115-134 (1956), doi:10.1002/cpa.3160090202.
+    """
+
+    #: Chebyshev nodes in s = 1/r.
+    NODES = 8
+    #: Extra degrees beyond k r_s.
+    EXTRA_DEGREES = 6
+    #: Inner radius of the region, in units of the sources' radius r_s.
+    INNER_FACTOR = 2.5
+
+    def __init__(self, elements: CurrentElements, centre_m: ArrayLike) -> None:
+        self.centre_m = np.asarray(centre_m, dtype=float)
+        ends = np.vstack([elements.starts_m, elements.ends_m]) - self.centre_m
+        r_s = float(np.max(np.linalg.norm(ends, axis=1)))
+        k = elements.wavenumber_rad_m
+        self.wavenumber_rad_m = k
+        self.source_radius_m = r_s
+        #: Points at least this far from the centre use the expansion [m].
+        self.inner_radius_m = self.INNER_FACTOR * r_s
+        degree = math.ceil(k * r_s) + self.EXTRA_DEGREES
+        n = 2 * degree + 2
+        q = self.NODES
+        self._n, self._q = n, q
+        s_max = 1.0 / self.inner_radius_m
+        self._s_max = s_max
+        x = np.cos(np.pi * (np.arange(q) + 0.5) / q)
+        s = 0.5 * (x + 1.0) * s_max
+        half = n // 2
+        theta = 2 * np.pi * np.arange(half + 1) / n  # 0..pi; the rest by symmetry
+        phi = 2 * np.pi * np.arange(n) / n
+        tt, pp = np.meshgrid(theta, phi, indexing="ij")
+        u = np.column_stack(
+            [
+                (np.sin(tt) * np.cos(pp)).ravel(),
+                (np.sin(tt) * np.sin(pp)).ravel(),
+                np.cos(tt).ravel(),
+            ]
+        )
+        values = np.empty((q, n, n, 6), dtype=complex)
+        for iq in range(q):
+            r = 1.0 / s[iq]
+            e, h = elements.fields(self.centre_m + r * u)
+            a = np.hstack([e, h]) * (r * np.exp(1j * k * r))
+            grid = a.reshape(half + 1, n, 6)
+            values[iq, : half + 1] = grid
+            # theta' = 2 pi - theta at phi is the point (theta, phi + pi).
+            for i in range(half + 1, n):
+                values[iq, i] = np.roll(grid[n - i], -half, axis=0)
+        coeff = np.fft.fft2(values, axes=(1, 2)) / (n * n)
+        coeff[:, half, :, :] = 0.0  # the Nyquist terms (beyond the band limit)
+        coeff[:, :, half, :] = 0.0
+        cheb = np.cos(np.outer(np.arange(q), np.pi * (np.arange(q) + 0.5) / q)) * (2.0 / q)
+        cheb[0] *= 0.5
+        coeff = np.einsum("lq,qnmc->lnmc", cheb, coeff)
+        # Layout for the first product: (m, l * n * c).
+        self._coeff_m = np.ascontiguousarray(np.transpose(coeff, (2, 0, 1, 3)).reshape(n, -1))
+        self._freq = np.fft.fftfreq(n, 1.0 / n)
+
+    def covers(self, points_m: NDArray[np.float64]) -> NDArray[np.bool_]:
+        """Which points lie in the expansion's region (r >= inner radius)."""
+        r = np.linalg.norm(points_m - self.centre_m, axis=1)
+        return np.asarray(r >= self.inner_radius_m)
+
+    def fields(
+        self, points_m: NDArray[np.float64]
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        """E [V/m] and H [A/m] at points in the region (N, 3), chunked."""
+        pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+        out = np.empty((pts.shape[0], 6), dtype=complex)
+        step = max(1, 2**21 // self._coeff_m.shape[1])
+        for a in range(0, pts.shape[0], step):
+            b = min(pts.shape[0], a + step)
+            out[a:b] = self._chunk(pts[a:b])
+        return out[:, :3], out[:, 3:]
+
+    def _chunk(self, pts: NDArray[np.float64]) -> NDArray[np.complex128]:
+        rel = pts - self.centre_m
+        r = np.linalg.norm(rel, axis=1)
+        theta = np.arccos(np.clip(rel[:, 2] / r, -1.0, 1.0))
+        phi = np.arctan2(rel[:, 1], rel[:, 0])
+        x = np.clip(2.0 * (1.0 / r) / self._s_max - 1.0, -1.0, 1.0)
+        e_phi = np.exp(1j * np.outer(phi, self._freq))
+        e_theta = np.exp(1j * np.outer(theta, self._freq))
+        cheb = np.cos(np.outer(np.arccos(x), np.arange(self._q)))
+        w = (e_phi @ self._coeff_m).reshape(pts.shape[0], self._q, self._n, 6)
+        w = np.einsum("plnc,pn->plc", w, e_theta)
+        a = np.einsum("plc,pl->pc", w, cheb)
+        return a * (np.exp(-1j * self.wavenumber_rad_m * r) / r)[:, None]
