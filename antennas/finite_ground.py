@@ -205,7 +205,9 @@ class FiniteGroundMonopole(Radiator):
         self.structure = self._structure(max_segment_wavelengths * lam)
         self.solution = moment.solve_structure(self.structure, self.frequency_hz)
         self.elements = self.solution.elements(self.power_w)
-        self.bytes_per_point = self.elements.bytes_per_point
+        # Both paths bound their own scratch (the kernel by pairs, the expansion by its
+        # table): a chunk of points costs about this much each.
+        self.bytes_per_point = 32 * 1024
         feed = self.elements.start_currents_a[self.structure.feed_segment]
         self.radiation_resistance_ohm = (
             self.power_w / abs(feed) ** 2 if self.power_w > 0 and abs(feed) > 0 else math.nan
