@@ -200,6 +200,31 @@ class WireStructure:
         )
 
 
+def node_index(points_m: NDArray[np.float64]) -> NDArray[np.intp]:
+    """Node number of each point: points within :data:`NODE_TOLERANCE_M` share one.
+
+    Numbered in order of first appearance (the same on every machine).  Points are
+    joined by distance, not by rounding, so two ends a rounding step apart are one node.
+    """
+    from scipy.spatial import cKDTree
+
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    pairs = cKDTree(pts).query_pairs(NODE_TOLERANCE_M, output_type="ndarray")
+    parent = np.arange(pts.shape[0])
+    for i, j in sorted(map(tuple, pairs)):  # union to the smallest index
+        ri, rj = i, j
+        while parent[ri] != ri:
+            ri = parent[ri]
+        while parent[rj] != rj:
+            rj = parent[rj]
+        if ri != rj:
+            parent[max(ri, rj)] = min(ri, rj)
+    for i in range(pts.shape[0]):
+        parent[i] = parent[parent[i]]
+    _, index = np.unique(parent, return_inverse=True)
+    return np.asarray(index.reshape(-1), dtype=np.intp)
+
+
 def graded_lines(
     low_m: float, high_m: float, through_m: float, max_step_m: float, min_step_m: float
 ) -> NDArray[np.float64]:
@@ -416,15 +441,12 @@ class MomentSolution:
         """
         s = self.structure
         n = s.segment_count
-        ends = np.vstack([s.starts_m, s.ends_m])
-        q = np.round(ends / NODE_TOLERANCE_M / 10.0).astype(np.int64)
-        _, node = np.unique(q, axis=0, return_inverse=True)
-        node = node.reshape(-1)
+        node = node_index(np.vstack([s.starts_m, s.ends_m]))
         c = self.centre_currents_a
         outward = np.concatenate([c, -c])  # away from the start, away from the end
         count = np.bincount(node)
         total = np.bincount(node, outward.real) + 1j * np.bincount(node, outward.imag)
-        corrected = outward - (total / count)[node]
+        corrected = np.asarray(outward - (total / count)[node], dtype=complex)
         return corrected[:n], -corrected[n:]
 
     def elements(self, power_w: float) -> CurrentElements:
@@ -654,9 +676,9 @@ class CurrentElements:
     def _nodes(self) -> tuple[NDArray, ...]:
         """Distinct end points, and each element's start and end among them."""
         ends = np.vstack([self.starts_m, self.ends_m])
-        q = np.round(ends / NODE_TOLERANCE_M).astype(np.int64)
-        _, first, inverse = np.unique(q, axis=0, return_index=True, return_inverse=True)
-        inverse = inverse.reshape(-1)
+        inverse = node_index(ends)
+        first = np.full(int(inverse.max()) + 1, -1)
+        first[inverse[::-1]] = np.arange(inverse.size)[::-1]  # first end of each node
         nodes = ends[first]
         m = self.count
         return nodes, np.sum(nodes * nodes, axis=1), inverse[:m], inverse[m:]
