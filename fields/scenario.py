@@ -42,12 +42,22 @@ DEFAULT_FREQUENCY_HZ = 2.45e9
 DEFAULT_LIMIT_IDS = ("icnirp-2020/general-public", "icnirp-2020/occupational")
 ANTENNA_KINDS = ("isotropic", "dipole", "monopole", "open-waveguide", "horn")
 REFLECTION_MODES = ("envelope", "coherent")
+#: Grounds a monopole may stand on (contract, Additions: "Finite ground for a monopole").
+GROUND_KINDS = ("infinite", "plate", "box")
 #: Keys a [[source]] table may hold, per antenna kind (besides the common ones).
 _COMMON_SOURCE_KEYS = ("id", "antenna", "power_w", "duty_cycle", "position_m")
 _KIND_KEYS: dict[str, tuple[str, ...]] = {
     "isotropic": ("gain_dbi", "polarization"),
     "dipole": ("axis", "length_m"),
-    "monopole": ("axis", "length_m"),
+    "monopole": (
+        "axis",
+        "length_m",
+        "ground",
+        "ground_size_m",
+        "ground_up",
+        "ground_offset_m",
+        "box_depth_m",
+    ),
     "open-waveguide": ("boresight", "polarization", "waveguide", "broad_m", "narrow_m"),
     "horn": (
         "boresight",
@@ -277,9 +287,82 @@ def _build_wire(t: Table, f: float, p: float, kind: str) -> Radiator:
     length = t.number(
         "length_m", None, unit="m", minimum=0.0, exclusive_minimum=True, maximum=100.0
     )
+    if kind == "monopole" and t.string("ground", "infinite", choices=GROUND_KINDS) != "infinite":
+        return _build_grounded_monopole(t, f, p, length)
+    for key in ("ground_size_m", "ground_up", "ground_offset_m", "box_depth_m"):
+        if kind == "monopole" and t.has(key):
+            raise t.error(key, 'applies to ground = "plate" or "box" only, not to "infinite"')
     placement = _placement(t, "axis", polarization=False)
     cls = wire.Dipole if kind == "dipole" else wire.Monopole
     return t.build(cls, f, p, length_m=length, placement=placement)
+
+
+def _pair(t: Table, key: str, default: Any, positive: bool) -> tuple[float, float]:
+    """Two finite numbers [a, b] in metres; ``positive`` asks both to be > 0."""
+    value = t.raw(key, default)
+    what = "two sizes > 0 [w, h] [m]" if positive else "two numbers [along width, along up] [m]"
+    if (
+        not isinstance(value, (list, tuple))
+        or len(value) != 2
+        or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
+    ):
+        raise t.error(key, f"must be {what}, got {value!r}")
+    try:
+        a, b = float(value[0]), float(value[1])
+    except OverflowError:
+        raise t.error(key, f"must be {what}, got {value!r}") from None
+    if not (np.isfinite(a) and np.isfinite(b)) or max(abs(a), abs(b)) > 1e3:
+        raise t.error(key, f"must be {what}, finite and within 1000 m, got {value!r}")
+    if positive and min(a, b) <= 0.0:
+        raise t.error(key, f"must be {what}, got {value!r}")
+    return a, b
+
+
+def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None) -> Radiator:
+    """A monopole on a finite plate or through the face of a box (contract: Additions)."""
+    from keepclear.antennas.finite_ground import FiniteGroundMonopole
+
+    ground = t.string("ground")
+    if not t.has("ground_size_m"):
+        raise t.error(
+            "ground_size_m", f'is required for ground = "{ground}": [width, height] in metres'
+        )
+    size = _pair(t, "ground_size_m", None, positive=True)
+    offset = _pair(t, "ground_offset_m", [0.0, 0.0], positive=False)
+    depth = None
+    if ground == "box":
+        if not t.has("box_depth_m"):
+            raise t.error("box_depth_m", 'is required for ground = "box": the depth in metres')
+        depth = t.number("box_depth_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=1e3)
+    elif t.has("box_depth_m"):
+        raise t.error("box_depth_m", 'applies to ground = "box" only, not to a plate')
+    position = t.vector("position_m", np.zeros(3), unit="m")
+    axis = t.vector("axis", np.array([0.0, 0.0, 1.0]), nonzero=True)
+    a = axis / np.linalg.norm(axis)
+    up = t.vector("ground_up", None, nonzero=True)
+    if up is None:
+        # +z, or +y when the probe is vertical; made perpendicular for a tilted probe.
+        up = np.array([0.0, 0.0, 1.0]) if abs(a[2]) < 0.99 else np.array([0.0, 1.0, 0.0])
+        up = up - np.dot(up, a) * a
+    elif abs(float(np.dot(up / np.linalg.norm(up), a))) > 1e-6:
+        raise t.error(
+            "ground_up",
+            f"must be perpendicular to axis (the direction of the face's height edges); "
+            f"the angle between them is "
+            f"{np.degrees(np.arccos(np.clip(np.dot(up / np.linalg.norm(up), a), -1, 1))):.4g} deg",
+        )
+    placement = t.build(Placement.from_axes, position, axis, up)
+    return t.build(
+        FiniteGroundMonopole,
+        f,
+        p,
+        length,
+        ground=ground,
+        ground_size_m=size,
+        ground_offset_m=offset,
+        box_depth_m=depth,
+        placement=placement,
+    )
 
 
 def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
