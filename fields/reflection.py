@@ -114,7 +114,6 @@ References
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Final
@@ -124,20 +123,16 @@ from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import (
     ModelInputError,
-    ModelRangeWarning,
     Radiator,
     as_points,
     unit_vector,
 )
 
 from .materials import (
-    MATERIAL_NAMES,
     canonical_material_name,
     complex_permittivity,
-    out_of_range_message,
     relative_permittivity_itu_p2040,
 )
-from .validate import Table
 
 #: Distance below which a point counts as on a plane [m].
 PLANE_TOLERANCE_M: Final[float] = 1e-9
@@ -516,83 +511,6 @@ class Reflector:
         return pts - 2.0 * d[:, None] * self.normal
 
 
-# ------------------------------------------------------------------- table reading
-def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
-    """Build a :class:`Reflector` from one ``[[reflector]]`` table.
-
-    Parameters
-    ----------
-    table : Table
-        The table, with keys ``point_m``, ``normal`` and exactly one of
-        ``material`` | (``relative_permittivity`` and ``conductivity_s_m``) |
-        ``reflection_coefficient``, plus an optional ``name``.
-    frequency_hz : float
-        The scenario frequency, for the material range check [Hz].
-
-    Returns
-    -------
-    Reflector
-
-    Raises
-    ------
-    ScenarioError
-        Located at the offending key: missing or conflicting forms, out-of-range
-        values, an unknown material (with the known names and a suggestion), a
-        zero normal, an unknown key.
-
-    Warns
-    -----
-    ModelRangeWarning
-        When the frequency is outside the material's ITU-R P.2040 range.
-    """
-    point = table.vector("point_m", unit="m")
-    normal = table.vector("normal", nonzero=True)
-    name = table.string("name", None)
-    has = {key: key in table.data for key in REFLECTOR_KEYS}
-    forms = []
-    if has["material"]:
-        forms.append("material")
-    if has["relative_permittivity"] or has["conductivity_s_m"]:
-        forms.append(
-            "relative_permittivity" if has["relative_permittivity"] else "conductivity_s_m"
-        )
-    if has["reflection_coefficient"]:
-        forms.append("reflection_coefficient")
-    if not forms:
-        table.finish(REFLECTOR_KEYS)  # a misspelt key gets its "did you mean" first
-        raise table.error(
-            "material",
-            "is required here: give material = an ITU-R P.2040 name or 'metal' ("
-            + ", ".join(MATERIAL_NAMES)
-            + "), or relative_permittivity and conductivity_s_m, or reflection_coefficient",
-        )
-    if len(forms) > 1:
-        raise table.error(
-            forms[1],
-            f"conflicts with {forms[0]}: give exactly one of material, "
-            "relative_permittivity + conductivity_s_m, or reflection_coefficient",
-        )
-    label = name if name else (table.path or "reflector")
-    kwargs: dict[str, object] = {}
-    if forms[0] == "material":
-        kwargs["material"] = table.string("material")
-    elif forms[0] in ("relative_permittivity", "conductivity_s_m"):
-        kwargs["relative_permittivity"] = table.number("relative_permittivity", minimum=1.0)
-        kwargs["conductivity_s_m"] = table.number("conductivity_s_m", minimum=0.0, unit="S/m")
-    else:
-        kwargs["reflection_coefficient"] = table.number(
-            "reflection_coefficient", minimum=-1.0, maximum=1.0
-        )
-    reflector = table.build(Reflector, point_m=point, normal=normal, label=label, **kwargs)
-    if reflector.material is not None:
-        message = out_of_range_message(reflector.material, frequency_hz)
-        if message is not None:
-            where = ": ".join(p for p in (table.source, table.key_path("material")) if p)
-            warnings.warn(f"{where}: {message}", ModelRangeWarning, stacklevel=2)
-    table.finish()
-    return reflector
-
-
 # ------------------------------------------------------------------ image method
 def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.float64]) -> None:
     for r in reflectors:
@@ -934,6 +852,5 @@ __all__ = [
     "image_labels",
     "normal_incidence_coefficient_from_permittivity",
     "reflected_fields",
-    "reflector_from_table",
     "transmission_power_factor",
 ]

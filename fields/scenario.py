@@ -365,7 +365,7 @@ def _read_reflectors(root: Table, frequency_hz: float) -> tuple[Any, ...]:
     tables = root.tables("reflector")
     if not tables:
         return ()
-    from .reflection import reflector_from_table
+    from .scenario_tables import reflector_from_table
 
     return tuple(reflector_from_table(t, frequency_hz) for t in tables)
 
@@ -374,7 +374,7 @@ def _read_shields(root: Table, frequency_hz: float) -> tuple[Any, ...]:
     tables = root.tables("shield")
     if not tables:
         return ()
-    from .shield import shield_from_table
+    from .scenario_tables import shield_from_table
 
     return tuple(shield_from_table(t, frequency_hz) for t in tables)
 
@@ -383,7 +383,7 @@ def _read_enclosure(root: Table, frequency_hz: float, sources: tuple[Source, ...
     t = root.table("enclosure", None)
     if t is None:
         return None
-    from .enclosure import enclosure_from_table
+    from .scenario_tables import enclosure_from_table
 
     enclosure = enclosure_from_table(t, frequency_hz)
     positions = np.array([s.position_m for s in sources])

@@ -62,8 +62,8 @@ def _available(module: str, name: str) -> bool:
 
 HAS_APERTURE = _available("keepclear.antennas.aperture", "OpenWaveguide")
 HAS_HORN = _available("keepclear.antennas.horn", "PyramidalHorn")
-HAS_REFLECTION = _available("keepclear.fields.reflection", "reflector_from_table")
-HAS_SHIELD = _available("keepclear.fields.shield", "shield_from_table")
+HAS_REFLECTION = _available("keepclear.fields.scenario_tables", "reflector_from_table")
+HAS_SHIELD = _available("keepclear.fields.scenario_tables", "shield_from_table")
 KINDS = ["isotropic", "dipole", "monopole"]
 KINDS += ["open-waveguide"] if HAS_APERTURE else []
 KINDS += ["horn"] if HAS_HORN else []
