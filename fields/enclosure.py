@@ -927,8 +927,9 @@ class Enclosure:
     def outline(self) -> NDArray[np.float64]:
         """The eight outer corners (8, 3) of the box, for drawing [m].
 
-        Corner i has its x, y, z at the maximum where bit 0, 1, 2 of i is set;
-        :data:`BOX_EDGES` lists the twelve edges as index pairs.
+        The same form as every drawable object (radiators, reflectors, shields): points
+        whose convex hull is the object.  Corner i has its x, y, z at the maximum where
+        bit 0, 1, 2 of i is set; :data:`BOX_EDGES` lists the twelve edges as index pairs.
         """
         lo = self.min_corner_m - self.thickness_m
         hi = self.max_corner_m + self.thickness_m

@@ -187,7 +187,7 @@ class _Search:
         self.terms = radiating_terms(scenario)
         self.coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
         self.uncertainty_db = max(
-            (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in self.terms),
+            (float(t.radiator.gain_uncertainty_db) for t in self.terms),
             default=0.0,
         )
         floor = min(_effective_threshold_w_m2(self.values[r.limit]) / r.scale for r in self.rows)
@@ -469,9 +469,7 @@ def keepout_distances(
     ids = list(limit_ids) if limit_ids is not None else list(scenario.limit_ids)
     values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
     terms = radiating_terms(scenario)
-    uncertainty_db = max(
-        (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in terms), default=0.0
-    )
+    uncertainty_db = max((float(t.radiator.gain_uncertainty_db) for t in terms), default=0.0)
     margin = 10 ** (uncertainty_db / 10)
     # Limits with the same values give the same answer: search each once.
     keys = [(v.power_density_w_m2, v.e_v_m, v.h_a_m) for v in values]
@@ -520,9 +518,10 @@ def _outside(scenario: Scenario, best: _Best, k: int) -> dict[str, object]:
     outermost exceedances of all rays of the search.
     """
     r = float(best.distance[k])
-    if r <= 0:
+    enclosure = scenario.enclosure
+    if r <= 0 or enclosure is None:
         return {"distance_m": 0.0, "direction": None, "clearance_from_enclosure_m": 0.0}
-    corners = scenario.enclosure.outline()
+    corners = enclosure.outline()
     lo, hi = corners.min(axis=0), corners.max(axis=0)
     pts = np.vstack(best.ends[k])
     gap = np.linalg.norm(np.maximum(np.maximum(lo - pts, pts - hi), 0.0), axis=1)

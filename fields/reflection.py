@@ -133,6 +133,7 @@ from .materials import (
     complex_permittivity,
     relative_permittivity_itu_p2040,
 )
+from .surroundings import ReflectorModel
 
 #: Distance below which a point counts as on a plane [m].
 PLANE_TOLERANCE_M: Final[float] = 1e-9
@@ -510,9 +511,19 @@ class Reflector:
         d = (pts - self.point_m) @ self.normal
         return pts - 2.0 * d[:, None] * self.normal
 
+    def outline(self) -> NDArray[np.float64]:
+        """Corners (n, 3) of the reflecting surface, for drawing [m].
+
+        An infinite plane has none (shape (0, 3)): it is drawn as its trace through
+        :attr:`point_m` with :attr:`normal`.
+        """
+        return np.zeros((0, 3))
+
 
 # ------------------------------------------------------------------ image method
-def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.float64]) -> None:
+def _check_source_side(
+    reflectors: Sequence[ReflectorModel], position_m: NDArray[np.float64]
+) -> None:
     for r in reflectors:
         d = float(r.signed_distance_m(position_m)[0])
         if d < -PLANE_TOLERANCE_M:
@@ -524,7 +535,7 @@ def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.f
 
 
 def _accessible(
-    reflectors: Sequence[Reflector], points_m: NDArray[np.float64], exclude: Sequence[int]
+    reflectors: Sequence[ReflectorModel], points_m: NDArray[np.float64], exclude: Sequence[int]
 ) -> NDArray[np.bool_]:
     """Points on the source side (or on) every plane not in ``exclude``."""
     ok = np.ones(points_m.shape[0], dtype=bool)
@@ -535,7 +546,7 @@ def _accessible(
 
 
 def _crossing(
-    reflector: Reflector, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+    reflector: ReflectorModel, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
     """Where segments from ``start`` (far side or on) to ``end`` (near side) meet the plane."""
     d0 = reflector.signed_distance_m(start_m)
@@ -554,7 +565,7 @@ def _crossing(
 def _image_operator(
     field: FieldFunction,
     reference_m: NDArray[np.float64],
-    reflector: Reflector,
+    reflector: ReflectorModel,
     frequency_hz: float,
 ) -> FieldFunction:
     """The reflected field of ``field`` (reference point ``reference_m``) in one plane.
@@ -597,7 +608,7 @@ def _image_operator(
     return reflected
 
 
-def image_labels(reflectors: Sequence[Reflector], order: int = 1) -> list[str]:
+def image_labels(reflectors: Sequence[ReflectorModel], order: int = 1) -> list[str]:
     """Labels of the images :func:`reflected_fields` returns, in the same order.
 
     Parameters
@@ -626,7 +637,7 @@ def image_labels(reflectors: Sequence[Reflector], order: int = 1) -> list[str]:
 
 def reflected_fields(
     radiator: Radiator,
-    reflectors: Sequence[Reflector],
+    reflectors: Sequence[ReflectorModel],
     points_m: ArrayLike,
     frequency_hz: float,
     order: int = 1,
@@ -720,7 +731,7 @@ def reflected_fields(
     return images
 
 
-def behind(reflectors: Sequence[Reflector], points_m: ArrayLike) -> NDArray[np.bool_]:
+def behind(reflectors: Sequence[ReflectorModel], points_m: ArrayLike) -> NDArray[np.bool_]:
     """Whether each point (N, 3) is on the far side of any reflector (N,) bool.
 
     Points on a plane (within :data:`PLANE_TOLERANCE_M`) are not behind it.
@@ -730,7 +741,7 @@ def behind(reflectors: Sequence[Reflector], points_m: ArrayLike) -> NDArray[np.b
 
 
 def transmission_power_factor(
-    reflectors: Sequence[Reflector],
+    reflectors: Sequence[ReflectorModel],
     radiator_position_m: ArrayLike,
     points_m: ArrayLike,
     frequency_hz: float,

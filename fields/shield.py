@@ -463,7 +463,11 @@ class Shield:
         )
 
     def outline(self) -> NDArray[np.float64]:
-        """Corners (4, 3) for drawing [m]."""
+        """Corners (4, 3) of the sheet, in order around it, for drawing [m].
+
+        The same form as every drawable object (radiators, reflectors, the enclosure):
+        points whose convex hull is the object.
+        """
         return self.corners()
 
     def normal_incidence_se_db(self) -> float:

@@ -12,12 +12,13 @@ from functools import cached_property
 from typing import Final
 
 import numpy as np
+from numpy.typing import NDArray
 
 from ..base import C_M_S, ModelInputError, Placement
 from ..waveguide import TE10Mode, open_end_reflection, te10_mode, waveguide_dimensions
 from .distribution import GROUND_PLANE, HUYGENS, ApertureDistribution, te10_distribution
 from .quadrature import gauss_legendre
-from .radiator import ApertureRadiator
+from .radiator import ApertureRadiator, inside_guide
 
 #: Equivalent-current models of the open end offered by :class:`OpenWaveguide`.
 OPEN_END_MODELS: Final[tuple[str, ...]] = ("huygens", "flange")
@@ -206,6 +207,25 @@ class OpenWaveguide(ApertureRadiator):
             method=method,
         )
         self.gain_uncertainty_db = 0.8
+
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Inside the guide or within ``tolerance_m`` of its walls, behind the open end.
+
+        The feed guide runs back from the aperture plane (local z <= 0) without an end
+        in this model, so every point behind the opening within its cross-section (a x b,
+        widened by the tolerance for the walls' metal) is inside it.  With the
+        ``"flange"`` model, points within the tolerance of the flange plane are on its
+        metal too.
+        """
+        p = points_local_m
+        inside = (p[:, 2] <= 0.0) & inside_guide(
+            p, 0.5 * self.broad_m, 0.5 * self.narrow_m, tolerance_m
+        )
+        if self.model == "flange":
+            inside |= np.abs(p[:, 2]) <= tolerance_m
+        return inside
 
     @classmethod
     def from_name(

@@ -126,6 +126,34 @@ FOLD_QUANTUM_M: Final[float] = 1e-9
 MAX_BUDGET_BYTES: Final[int] = 1024**3
 
 
+def rectangle_corners(half_x_m: float, half_y_m: float, z_m: float) -> NDArray[np.float64]:
+    """Corners (4, 3) of the rectangle |x| <= half_x, |y| <= half_y at height z, in order [m]."""
+    return np.array(
+        [
+            [-half_x_m, -half_y_m, z_m],
+            [half_x_m, -half_y_m, z_m],
+            [half_x_m, half_y_m, z_m],
+            [-half_x_m, half_y_m, z_m],
+        ]
+    )
+
+
+def inside_guide(
+    points_local_m: NDArray[np.float64],
+    half_x_m: ArrayLike,
+    half_y_m: ArrayLike,
+    tolerance_m: float,
+) -> NDArray[np.bool_]:
+    """Points within a rectangular cross-section widened by ``tolerance_m`` (walls' metal).
+
+    ``half_x_m`` and ``half_y_m`` may vary per point (a flare) [m].
+    """
+    p = points_local_m
+    return (np.abs(p[:, 0]) <= np.asarray(half_x_m) + tolerance_m) & (
+        np.abs(p[:, 1]) <= np.asarray(half_y_m) + tolerance_m
+    )
+
+
 def _groups(orders: NDArray[np.int64]) -> list[tuple[tuple[int, int], NDArray[np.intp]]]:
     """Indices of the points sharing each (nx, ny) rule, by rule."""
     codes = orders[:, 0] * (MAX_ORDER + 1) + orders[:, 1]
@@ -218,6 +246,11 @@ class ApertureRadiator(Radiator):
     def largest_dimension_m(self) -> float:
         """Diagonal of the aperture rectangle [m]."""
         return self.distribution.diagonal_m
+
+    def _local_outline(self) -> NDArray[np.float64]:
+        """The aperture rectangle's corners in z = 0, in order around it [m]."""
+        lx, ly = self.distribution.half_sizes_m
+        return rectangle_corners(lx, ly, 0.0)
 
     @property
     def min_standoff_m(self) -> float:
