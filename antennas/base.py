@@ -326,6 +326,23 @@ class Radiator(abc.ABC):
         return e, h
 
     # --------------------------------------------------------------- the body
+    @property
+    def main_axis(self) -> NDArray[np.float64] | None:
+        """The model's main axis (local +z) in scenario axes [1].
+
+        An aperture's boresight, a wire's direction; None for a point source.
+        """
+        return np.array(self.placement.rotation[:, 2], dtype=float)
+
+    @property
+    def boresight(self) -> NDArray[np.float64] | None:
+        """Direction of the main beam in scenario axes [1].
+
+        None where the pattern has no single beam (a wire is omnidirectional about its
+        axis; a point source).
+        """
+        return None
+
     def _local_outline(self) -> NDArray[np.float64]:
         """Corners (n, 3) of the body in the local frame [m]; none for a point source."""
         return np.zeros((0, 3))

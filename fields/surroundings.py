@@ -61,6 +61,11 @@ class ReflectorModel(Drawable, Protocol):
         ...
 
     @property
+    def reflection_coefficient(self) -> float | None:
+        """A given angle-independent coefficient, None for a material or constants [1]."""
+        ...
+
+    @property
     def kind(self) -> str:
         """Short description of the surface for reports."""
         ...

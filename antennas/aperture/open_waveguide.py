@@ -24,6 +24,18 @@ from .radiator import ApertureRadiator, inside_guide
 OPEN_END_MODELS: Final[tuple[str, ...]] = ("huygens", "flange")
 
 
+def feed_guide_length_m(mode: TE10Mode) -> float:
+    """Length of feed guide behind an open end or a horn's throat counted as the source [m].
+
+    One guide wavelength lambda_g (the free-space wavelength where the mode does not
+    propagate): about the length of a magnetron launcher section (common practice, no
+    source).  The scenario does not describe the feed, so this only bounds the region
+    marked as inside the source; the fields are not changed by it.
+    """
+    length = float(mode.guide_wavelength_m)
+    return length if np.isfinite(length) and length > 0 else float(C_M_S / mode.frequency_hz)
+
+
 def open_waveguide_distribution(mode: TE10Mode, model: str = "huygens") -> ApertureDistribution:
     """TE10 aperture distribution of an open guide end.
 
@@ -213,14 +225,15 @@ class OpenWaveguide(ApertureRadiator):
     ) -> NDArray[np.bool_]:
         """Inside the guide or within ``tolerance_m`` of its walls, behind the open end.
 
-        The feed guide runs back from the aperture plane (local z <= 0) without an end
-        in this model, so every point behind the opening within its cross-section (a x b,
-        widened by the tolerance for the walls' metal) is inside it.  With the
-        ``"flange"`` model, points within the tolerance of the flange plane are on its
-        metal too.
+        The guide is taken to run back :func:`feed_guide_length_m` from the aperture
+        plane (its length is not a scenario key): points within that length behind the
+        opening and within its cross-section (a x b, widened by the tolerance for the
+        walls' metal) are inside it.  With the ``"flange"`` model, points within the
+        tolerance of the flange plane are on its metal too.
         """
         p = points_local_m
-        inside = (p[:, 2] <= 0.0) & inside_guide(
+        back = feed_guide_length_m(self.mode)
+        inside = (p[:, 2] <= 0.0) & (p[:, 2] >= -back - tolerance_m) & inside_guide(
             p, 0.5 * self.broad_m, 0.5 * self.narrow_m, tolerance_m
         )
         if self.model == "flange":

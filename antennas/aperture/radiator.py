@@ -247,6 +247,11 @@ class ApertureRadiator(Radiator):
         """Diagonal of the aperture rectangle [m]."""
         return self.distribution.diagonal_m
 
+    @property
+    def boresight(self) -> NDArray[np.float64]:
+        """The aperture normal, local +z, in scenario axes [1]."""
+        return np.array(self.placement.rotation[:, 2], dtype=float)
+
     def _local_outline(self) -> NDArray[np.float64]:
         """The aperture rectangle's corners in z = 0, in order around it [m]."""
         lx, ly = self.distribution.half_sizes_m
