@@ -61,10 +61,13 @@ def probe_data(
     scenario: Scenario, points_m: NDArray[np.float64]
 ) -> tuple[dict[str, Any], FieldResult]:
     """Fields and exposure quotients at points (contract ``probe`` JSON)."""
+    from .places import allowed_seconds
+
     result = evaluate(scenario, points_m)
     quotients = quotients_at(scenario, result)
     points = []
     for i, p in enumerate(points_m):
+        allowed, rules = allowed_seconds(scenario, quotients, i)
         points.append(
             {
                 "position_m": [float(x) for x in p],
@@ -75,6 +78,8 @@ def probe_data(
                 "peak_e_v_m": float(result.peak_e_v_m[i]),
                 "peak_h_a_m": float(result.peak_h_a_m[i]),
                 "quotients": {k: float(q[i]) for k, q in quotients.items()},
+                "allowed_s": allowed,
+                "allowed_rule": {k: rules[k] for k, v in allowed.items() if v is not None},
             }
         )
     data = {
@@ -113,9 +118,41 @@ def keepout_entry(r: KeepoutResult) -> dict[str, Any]:
     }
 
 
+def uncertainty_data(scenario: Scenario, results: list[KeepoutResult]) -> dict[str, Any] | None:
+    """The Monte Carlo spread of each keep-out (None without ``[uncertainty]``).
+
+    Returns ``{"spec": ..., "per_limit": {id: (median_m, p95_m)}}``.
+    """
+    spec = scenario.uncertainty
+    if spec is None:
+        return None
+    from .field import radiating_terms
+    from .uncertainty import gain_sigma_db, keepout_spread
+
+    spreads = keepout_spread(scenario, spec, results)
+    return {
+        "spec": {
+            **spec.as_dict(),
+            "gain_db_used": [gain_sigma_db(spec, t) for t in radiating_terms(scenario)],
+            "method": "seeded Monte Carlo (PCG64), fields re-weighted per sample",
+        },
+        "per_limit": {s.limit_id: (s.median_m, s.p95_m) for s in spreads},
+    }
+
+
+def _add_spread(entries: list[dict[str, Any]], spread: dict[str, Any] | None) -> None:
+    if spread is None:
+        return
+    for entry in entries:
+        median, p95 = spread["per_limit"][entry["limit"]]
+        entry["distance_median_m"] = median
+        entry["distance_p95_m"] = p95
+
+
 def keepout_data(scenario: Scenario) -> tuple[dict[str, Any], list[KeepoutResult]]:
     """Keep-out distance for each scenario limit (contract ``keepout`` JSON)."""
     results = keepout_distances(scenario)
+    spread = uncertainty_data(scenario, results)
     data = {
         "schema_version": SCHEMA_VERSION,
         "frequency_hz": scenario.frequency_hz,
@@ -126,7 +163,38 @@ def keepout_data(scenario: Scenario) -> tuple[dict[str, Any], list[KeepoutResult
         "keepout": [keepout_entry(r) for r in results],
         "caution": CAUTION_TEXT,
     }
+    _add_spread(data["keepout"], spread)
+    if spread is not None:
+        data["uncertainty"] = spread["spec"]
     return data, results
+
+
+def readings_data(scenario: Scenario, readings: list[Any]) -> dict[str, Any]:
+    """Survey readings against the time-averaged prediction (``readings --json``).
+
+    Each reading's power density is compared with every scenario limit: the reading
+    counts as over a limit where its quotient (the measured density against the
+    limit's density) reaches one.
+    """
+    from .readings import compare_readings
+
+    pts = np.array([r.position_m for r in readings])
+    result = evaluate(scenario, pts)
+    measured = np.array([r.power_density_w_m2 for r in readings])
+    quotients = {}
+    for limit_id in scenario.limit_ids:
+        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        quotients[limit_id] = limits_mod.quotient(value, measured)
+    body = compare_readings(readings, result.power_density_w_m2, quotients)
+    return {
+        "schema_version": SCHEMA_VERSION,
+        "frequency_hz": scenario.frequency_hz,
+        "scenario": scenario.name,
+        **body,
+        "compared_with": "time-averaged prediction (duty cycle applied): a survey meter "
+        "averages over at least a second, far longer than a mains cycle",
+        "caution": CAUTION_TEXT,
+    }
 
 
 # ------------------------------------------------------------------------------------------
@@ -142,6 +210,9 @@ def named_points_data(
     pts = np.array([p.position_m for p in scenario.points])
     data, _ = probe_data(probed, pts)
     from .maps import point_letter
+    from .places import add_spatial_averages
+
+    add_spatial_averages(probed, data["points"])
 
     out = []
     for i, (p, entry) in enumerate(zip(scenario.points, data["points"], strict=True)):
@@ -160,7 +231,11 @@ def named_points_data(
 
 
 def map_files(
-    run: Any, stem: str, style: Any = None, formats: tuple[str, ...] = ("png", "svg")
+    run: Any,
+    stem: str,
+    style: Any = None,
+    formats: tuple[str, ...] = ("png", "svg"),
+    overlay: Any = None,
 ) -> dict[str, bytes]:
     """The files of one map run, by name, in the ``formats`` asked.
 
@@ -172,7 +247,9 @@ def map_files(
 
     files: dict[str, bytes] = {}
     if "png" in formats or "svg" in formats:
-        fig = plots.map_figure(run.result, run.scenario, run.keepouts, style, run.zones)
+        fig = plots.map_figure(
+            run.result, run.scenario, run.keepouts, style, run.zones, overlay=overlay
+        )
         for fmt in ("png", "svg"):
             if fmt in formats:
                 files[f"{stem}.{fmt}"] = plots.figure_bytes(fig, fmt)
@@ -308,6 +385,7 @@ def run_assessment(
     pixels: int | None = None,
     scenario_text: str | None = None,
     progress: Any = None,
+    readings: list[Any] | None = None,
 ) -> tuple[dict[str, Any], dict[str, bytes]]:
     """The whole assessment: keep-out, points, maps, zones, comparison and report.
 
@@ -324,6 +402,8 @@ def run_assessment(
         The scenario file as written, for the report.
     progress : callable, optional
         ``progress(label)`` returns a ``(done, total)`` callback or None.
+    readings : list of Reading, optional
+        Survey readings to compare and to mark on the maps.
 
     Returns
     -------
@@ -373,10 +453,32 @@ def run_assessment(
         scenario, keepouts, progress=callback("vertical extent"), extra_points_m=zone_points
     )
     points = named_points_data(scenario, ids)
+    spread = None
+    if scenario.uncertainty is not None:
+        with maps.busy(progress, "uncertainty samples"):
+            spread = uncertainty_data(scenario.with_limits(ids), keepouts)
+    readings_block = None
+    if readings:
+        readings_block = readings_data(scenario.with_limits(ids), readings)
+    overlays = {
+        name: _map_overlay(scenario, run, readings_block)
+        for name, run in (("floor", floor), ("vertical", vertical))
+    }
 
     files: dict[str, bytes] = {}
-    files.update(map_files(floor, "map-floor", formats=("png", "svg", "npz", "geojson")))
-    files.update(map_files(vertical, "map-vertical", formats=("png", "svg", "npz")))
+    files.update(
+        map_files(
+            floor,
+            "map-floor",
+            formats=("png", "svg", "npz", "geojson"),
+            overlay=overlays["floor"],
+        )
+    )
+    files.update(
+        map_files(
+            vertical, "map-vertical", formats=("png", "svg", "npz"), overlay=overlays["vertical"]
+        )
+    )
     comparison = None
     if scenario.options:
         from .compare import compare_options
@@ -410,6 +512,7 @@ def run_assessment(
         row["cylinder"] = by_cyl[k.limit_id].as_dict()
         row["floor_zone"] = floor.conservative_shapes(k.limit_id)
         keepout_rows.append(row)
+    _add_spread(keepout_rows, spread)
     try:
         version = metadata.version("keepclear")
     except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
@@ -443,6 +546,8 @@ def run_assessment(
             "vertical": vertical.summary(),
         },
         "comparison": None if comparison is None else comparison.data(),
+        "uncertainty": None if spread is None else spread["spec"],
+        "readings": readings_block,
         "assumptions": {
             "time_averaging": plots.duty_text(scenario),
             "reflections": plots.reflection_text(scenario),
@@ -462,6 +567,38 @@ def run_assessment(
     files["report.html"] = render_report(data, figures, scenario_text).encode("utf-8")
     files["assessment.json"] = json_text(data).encode("utf-8")
     return data, files
+
+
+def _map_overlay(scenario: Scenario, run: Any, readings_block: dict[str, Any] | None) -> Any:
+    """The P95 contours (with ``[uncertainty]``) and the readings near a map's plane."""
+    from .plots import MapOverlay
+
+    p95: dict[str, NDArray[np.float64]] = {}
+    if scenario.uncertainty is not None:
+        from .uncertainty import quotient_percentile
+
+        grid = run.result.grid
+        q = quotient_percentile(
+            scenario, scenario.uncertainty, grid.points_m(), list(run.result.limit_ids)
+        )
+        p95 = {k: v.reshape(grid.shape) for k, v in q.items()}
+    marks = []
+    if readings_block is not None:
+        plane = run.result.grid.plane
+        near = max(0.5, 2 * run.result.grid.step_m)
+        for i, r in enumerate(readings_block["readings"]):
+            pos = np.asarray(r["position_m"], dtype=float)
+            st, off = plane.to_plane(pos)
+            if abs(float(off[0])) <= near:
+                marks.append(
+                    {
+                        "s": float(st[0, 0]),
+                        "t": float(st[0, 1]),
+                        "tag": r["label"] or f"R{i + 1}",
+                        "under": r["under_predicted"],
+                    }
+                )
+    return MapOverlay(p95=p95, readings=marks)
 
 
 #: Every file ``assess`` may write (the comparison only with options).

@@ -295,6 +295,9 @@ def probe_command(
         # The scenario's named places: say which is which (an added key, "name").
         for entry, place in zip(data["points"], loaded.points, strict=True):
             entry["name"] = place.name
+        from .places import add_spatial_averages
+
+        add_spatial_averages(loaded, data["points"])
     if csv_out is not None:
         columns = (
             result.e_v_m,
@@ -349,6 +352,48 @@ def keepout_command(
     from .report_text import keepout_table
 
     typer.echo(keepout_table(data, loaded, screening=screening))
+    if "uncertainty" in data:
+        from .report_text import uncertainty_lines
+
+        typer.echo()
+        typer.echo(uncertainty_lines(data))
+    typer.echo()
+    typer.echo(caution_block(100))
+
+
+# ----------------------------------------------------------------- readings
+@app.command("readings")
+def readings_command(
+    scenario: ScenarioPath,
+    csv_in: Annotated[
+        Path,
+        typer.Option(
+            "--csv",
+            help="Survey readings: header x_m,y_m,z_m,value,unit[,label]; unit one of W/m2, "
+            "mW/cm2, V/m, A/m [m, and the unit given].",
+            show_default=False,
+        ),
+    ],
+    json_out: JsonFlag = False,
+) -> None:
+    """Survey-meter readings against the model: ratio, flags, limits, a suggested margin.
+
+    A meter averages over a second or more, far longer than a mains cycle, so each
+    reading is compared with the time-averaged prediction (duty cycle applied).  A
+    reading more than 3 dB above the prediction is flagged as under-predicted.
+    """
+    from .assessment import readings_data
+    from .readings import read_readings_csv
+
+    readings = read_readings_csv(csv_in)
+    loaded = _load(scenario)
+    data = readings_data(loaded, readings)
+    if json_out:
+        _emit_json(data)
+        return
+    from .report_text import readings_table
+
+    typer.echo(readings_table(data))
     typer.echo()
     typer.echo(caution_block(100))
 
@@ -941,6 +986,16 @@ def assess_command(
             rich_help_panel=PANEL_OUTPUT,
         ),
     ] = False,
+    readings_csv: Annotated[
+        Path | None,
+        typer.Option(
+            "--readings",
+            help="Survey readings CSV (x_m,y_m,z_m,value,unit[,label]) to mark on the maps and "
+            "compare in the report [m, and the unit given].",
+            rich_help_panel=PANEL_OUTPUT,
+            show_default=False,
+        ),
+    ] = None,
 ) -> None:
     """The full assessment: summary, assessment.json, maps, zones, options and report.html.
 
@@ -965,6 +1020,11 @@ def assess_command(
             f"must be a finite height within +-{COORDINATE_BOUND_M:g} m", "argument", "--height-m"
         )
     _check_grid_numbers(extent_m, step_m, pixels)
+    readings = None
+    if readings_csv is not None:
+        from .readings import read_readings_csv
+
+        readings = read_readings_csv(readings_csv, "--readings")
     loaded = _load(scenario)
     ids = _check_limits(loaded, limit)
     for name in ASSESS_FILE_NAMES:
@@ -982,6 +1042,7 @@ def assess_command(
                 pixels=pixels,
                 scenario_text=text,
                 progress=progress,
+                readings=readings,
             )
         for name, blob in files.items():
             atomic_write_bytes(staging / name, blob)

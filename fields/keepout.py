@@ -57,6 +57,7 @@ References
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -467,6 +468,11 @@ def keepout_distances(
         In the order of ``limit_ids``.
     """
     ids = list(limit_ids) if limit_ids is not None else list(scenario.limit_ids)
+    if limit_ids is not None:
+        from .plausibility import PlausibilityWarning, oven_leakage_messages
+
+        for message in oven_leakage_messages(ids, scenario.enclosure is not None):
+            warnings.warn(message, PlausibilityWarning, stacklevel=2)
     values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
     terms = radiating_terms(scenario)
     uncertainty_db = max((float(t.radiator.gain_uncertainty_db) for t in terms), default=0.0)

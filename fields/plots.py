@@ -25,7 +25,7 @@ import io
 import math
 import textwrap
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import matplotlib as mpl
@@ -230,6 +230,7 @@ def draw_map(
     *,
     zones: dict[str, list[maps.Zone]] | None = None,
     labels: bool = True,
+    overlay: MapOverlay | None = None,
 ) -> Any:
     """Draw one map into an axes: colour image, contours, objects, points.
 
@@ -248,6 +249,8 @@ def draw_map(
         same marching squares); accepted so callers can pass what they have.
     labels : bool
         Whether to write names beside sources and points.
+    overlay : MapOverlay, optional
+        The 95th-percentile contours of an ``[uncertainty]`` run and survey readings.
 
     Returns
     -------
@@ -304,6 +307,8 @@ def draw_map(
             _draw_object(ax, plane, corners, "opening", grid.step_m)
     _draw_sources(ax, plane, scenario, (s1 - s0), grid.step_m, labels)
     _draw_points(ax, plane, scenario, (s0, s1, t0, t1), grid.step_m, labels)
+    if overlay is not None:
+        _draw_overlay(ax, result, overlay)
     ax.set_xlim(s0 - ds / 2, s1 + ds / 2)
     ax.set_ylim(t0 - dt / 2, t1 + dt / 2)
     ax.set_xlabel(_axis_label(plane, 0))
@@ -671,12 +676,101 @@ def quantity_title(style: MapStyle, result: maps.MapResult) -> str:
     return "Time-averaged power density"
 
 
+@dataclass(frozen=True)
+class MapOverlay:
+    """What an assessment adds to a map beyond the nominal fields.
+
+    Parameters
+    ----------
+    p95 : dict
+        Limit id -> the 95th percentile over the Monte Carlo samples of the quotient on
+        the map's grid (ny, nx); its contour at one is drawn thin and dashed.
+    readings : list of dict
+        Survey readings near the plane: ``s``, ``t`` (plane coordinates [m]), ``tag``
+        (a short label) and ``under`` (more than 3 dB above the model).
+    """
+
+    p95: dict[str, NDArray[np.float64]] = field(default_factory=dict)
+    readings: list[dict[str, Any]] = field(default_factory=list)
+
+
+def _draw_overlay(ax: Any, result: maps.MapResult, overlay: MapOverlay) -> None:
+    grid = result.grid
+    for i, limit_id in enumerate(result.limit_ids):
+        q = overlay.p95.get(limit_id)
+        if q is None or not np.any(q >= 1.0) or q.shape != grid.shape or min(q.shape) < 2:
+            continue
+        st = limit_style(i)
+        ax.contour(
+            grid.s_m,
+            grid.t_m,
+            q,
+            levels=[1.0],
+            colors=[st["color"]],
+            linewidths=1.0,
+            linestyles=[(0, (4, 2))],
+            zorder=4,
+        )
+    for r in overlay.readings:
+        ax.plot(
+            r["s"],
+            r["t"],
+            marker="D",
+            ms=6,
+            ls="none",
+            zorder=9,
+            mfc="#d62728" if r["under"] else "#ffffff",
+            mec="black",
+            mew=1.0,
+        )
+        ax.annotate(
+            r["tag"],
+            (r["s"], r["t"]),
+            xytext=(5, -11),
+            textcoords="offset points",
+            fontsize=8,
+            bbox=_LABEL_BOX,
+            zorder=9,
+        )
+
+
+def _overlay_handles(overlay: MapOverlay | None) -> list[Any]:
+    if overlay is None:
+        return []
+    out: list[Any] = []
+    if overlay.p95:
+        out.append(
+            Line2D(
+                [],
+                [],
+                color="#444444",
+                lw=1.0,
+                ls=(0, (4, 2)),
+                label="dashed: 95th-percentile contour of the same limit ([uncertainty] samples)",
+            )
+        )
+    if overlay.readings:
+        out.append(
+            Line2D(
+                [],
+                [],
+                marker="D",
+                ls="none",
+                mfc="#ffffff",
+                mec="black",
+                label="survey reading (filled red: more than 3 dB above the model)",
+            )
+        )
+    return out
+
+
 def map_figure(
     result: maps.MapResult,
     scenario: Scenario,
     keepouts: Sequence[KeepoutResult],
     style: MapStyle | None = None,
     zones: dict[str, list[maps.Zone]] | None = None,
+    overlay: MapOverlay | None = None,
 ) -> Figure:
     """The complete figure of one map: title, map, colour bar, legend, caution.
 
@@ -693,7 +787,7 @@ def map_figure(
     matplotlib.figure.Figure
     """
     style = style or MapStyle()
-    handles = _legend_handles(result, keepouts, scenario)
+    handles = _legend_handles(result, keepouts, scenario) + _overlay_handles(overlay)
     heading = _title_lines(scenario, result, style)
     # Layout in inches: title block, square map with colour bar, legend, caution.
     width, left, side = 8.4, 0.85, 5.6
@@ -709,7 +803,7 @@ def map_figure(
         ax = fig.add_axes((left / width, bottom, side / width, tall / height))
         cax = fig.add_axes(((left + side + 0.95) / width, bottom, 0.22 / width, tall / height))
         norm = _norm(style, [result])
-        image = draw_map(ax, result, scenario, keepouts, style, norm, zones=zones)
+        image = draw_map(ax, result, scenario, keepouts, style, norm, zones=zones, overlay=overlay)
         _colour_bar(fig, image, cax, style, style.quotient_limit or result.limit_ids[0])
         _title(fig, heading, height)
         fig.legend(

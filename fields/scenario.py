@@ -72,6 +72,7 @@ _TOP_KEYS = (
     "enclosure",
     "point",
     "option",
+    "uncertainty",
 )
 #: Distance from a wire or a plate within which a point counts as on a source's metal [m].
 INSIDE_SOURCE_TOLERANCE_M = 1e-3
@@ -119,10 +120,15 @@ class Source:
 
 @dataclass(frozen=True)
 class PointOfInterest:
-    """A named place to report (``[[point]]``): the operator's seat, a doorway."""
+    """A named place to report (``[[point]]``): the operator's seat, a doorway.
+
+    ``average_over_height_m`` (optional) is ``(z0, z1)``: a vertical line at this x, y
+    over which the spatial average of the power density is also reported [m].
+    """
 
     name: str
     position_m: NDArray[np.float64]
+    average_over_height_m: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -175,6 +181,7 @@ class Scenario:
     points: tuple[PointOfInterest, ...] = ()
     options: tuple[Option, ...] = ()
     document: dict[str, Any] = field(default_factory=dict)
+    uncertainty: Any = None
 
     @property
     def centre_m(self) -> NDArray[np.float64]:
@@ -397,9 +404,73 @@ def _read_points(root: Table) -> tuple[PointOfInterest, ...]:
         if name in names:
             raise t.error("name", f"'{name}' is used by another [[point]]; names must be unique")
         names.add(name)
-        points.append(PointOfInterest(name, t.vector("position_m", unit="m")))
+        position = t.vector("position_m", unit="m")
+        span = None
+        if t.has("average_over_height_m"):
+            raw = t.raw("average_over_height_m")
+            if (
+                not isinstance(raw, list)
+                or len(raw) != 2
+                or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in raw)
+            ):
+                raise t.error(
+                    "average_over_height_m",
+                    f"must be two heights [z0, z1] in metres, got {raw!r}"[:160],
+                )
+            z0, z1 = (float(v) for v in raw)
+            if not (np.isfinite(z0) and np.isfinite(z1)) or max(abs(z0), abs(z1)) > 1e6:
+                raise t.error("average_over_height_m", "must be two finite heights [z0, z1] [m]")
+            if not z1 > z0:
+                raise t.error(
+                    "average_over_height_m",
+                    f"must be [z0, z1] with z1 > z0 (the line from z0 up to z1) [m], "
+                    f"got [{z0:g}, {z1:g}]",
+                )
+            span = (z0, z1)
+        points.append(PointOfInterest(name, position, span))
         t.finish()
     return tuple(points)
+
+
+def _read_uncertainty(root: Table) -> Any:
+    t = root.table("uncertainty", None)
+    if t is None:
+        return None
+    from .uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED, UNCERTAINTY_KEYS, UncertaintySpec
+
+    for key in t.data:
+        if key not in UNCERTAINTY_KEYS:
+            raise t.error(
+                key,
+                "is not a known uncertainty key"
+                + suggest(key, UNCERTAINTY_KEYS)
+                + f"; allowed: {', '.join(UNCERTAINTY_KEYS)}",
+            )
+    spec = UncertaintySpec(
+        power_db=t.number("power_db", 0.0, unit="dB", minimum=0.0, maximum=20.0),
+        gain_db=t.number("gain_db", None, unit="dB", minimum=0.0, maximum=20.0),
+        reflection=t.number("reflection", 0.0, minimum=0.0, maximum=1.0),
+        shielding_db=t.number("shielding_db", 0.0, unit="dB", minimum=0.0, maximum=100.0),
+        position_m=t.number("position_m", 0.0, unit="m", minimum=0.0, maximum=10.0),
+        samples=_integer(t, "samples", DEFAULT_SAMPLES, 1, 1_000_000),
+        seed=_integer(t, "seed", DEFAULT_SEED, 0, 2**63 - 1),
+    )
+    t.finish(UNCERTAINTY_KEYS)
+    return spec
+
+
+def _integer(t: Table, key: str, default: int, minimum: int, maximum: int) -> int:
+    if not t.has(key):
+        return default
+    value = t.raw(key)
+    if isinstance(value, bool) or not isinstance(value, int) or not minimum <= value <= maximum:
+        shown = (
+            repr(value)
+            if not isinstance(value, int) or value.bit_length() < 200
+            else "a huge integer"
+        )
+        raise t.error(key, f"must be a whole number from {minimum} to {maximum}, got {shown}")
+    return int(value)
 
 
 def _read_reflectors(root: Table, frequency_hz: float) -> tuple[Any, ...]:
@@ -491,6 +562,7 @@ def scenario_from_document(
     shields = _read_shields(root, frequency)
     enclosure = _read_enclosure(root, frequency, sources)
     points = _read_points(root)
+    uncertainty = _read_uncertainty(root)
     root.raw("option", None)
     scenario = Scenario(
         name=name,
@@ -504,9 +576,14 @@ def scenario_from_document(
         enclosure=enclosure,
         points=points,
         document=document,
+        uncertainty=uncertainty,
     )
     if allow_options and "option" in document:
         scenario = replace(scenario, options=_read_options(root, document, source))
+    if allow_options:
+        from .plausibility import warn_implausible
+
+        warn_implausible([scenario, *(o.scenario for o in scenario.options)])
     return scenario
 
 
