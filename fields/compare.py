@@ -48,6 +48,7 @@ from . import maps
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
+from .report_text import density_text, share_text
 from .scenario import Scenario
 
 SCHEMA_VERSION = 1
@@ -502,7 +503,7 @@ def comparison_table(data: dict[str, Any]) -> str:
         cells.append("-" if leak is None else f"{leak:.3g}")
         wp = row["worst_point"]
         cells.append(
-            "-" if wp is None else f"{wp['name']}: {100 * wp['quotient']:.3g} % of {wp['limit']}"
+            "-" if wp is None else f"{wp['name']}: {share_text(wp['quotient'])} of {wp['limit']}"
         )
         rows.append(cells)
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
@@ -516,4 +517,24 @@ def comparison_table(data: dict[str, Any]) -> str:
     ]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
     lines += ["", "Keep-out in brackets: widened by the source model's stated gain uncertainty."]
+    lines += _places_lines(data)
     return "\n".join(lines)
+
+
+def _places_lines(data: dict[str, Any]) -> list[str]:
+    """Each option's time-averaged density at every named place, with its change in dB."""
+    rows = [row for row in data["options"] if row.get("places")]
+    if not rows:
+        return []
+    lines = ["", "At the named places (time-averaged; change against the base):"]
+    for name in [p["name"] for p in rows[0]["places"]]:
+        lines.append(f"  {name}:")
+        for row in rows:
+            place = next(p for p in row["places"] if p["name"] == name)
+            change = place["change_db"]
+            db = "" if row["is_base"] or change is None else f"  {change:+.1f} dB"
+            label = row["name"] if row["is_base"] else f"option: {row['name']}"
+            lines.append(
+                f"    {row['rank']}. {label}: {density_text(place['power_density_w_m2'])}{db}"
+            )
+    return lines

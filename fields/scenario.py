@@ -72,10 +72,13 @@ _TOP_KEYS = (
     "enclosure",
     "point",
     "option",
+    "sweep",
     "uncertainty",
 )
 #: Distance from a wire or a plate within which a point counts as on a source's metal [m].
 INSIDE_SOURCE_TOLERANCE_M = 1e-3
+#: Top-level keys that make variants of the scenario: not allowed inside an option.
+_VARIANT_KEYS = ("option", "sweep")
 #: Frequencies the models accept at all [Hz]; limits narrow this further.
 FREQUENCY_RANGE_HZ = (1e8, 1e11)
 
@@ -527,7 +530,9 @@ def scenario_from_document(
     """
     root = Table(document, "", source)
     for key in root.data:
-        allowed = _TOP_KEYS if allow_options else tuple(k for k in _TOP_KEYS if k != "option")
+        allowed = (
+            _TOP_KEYS if allow_options else tuple(k for k in _TOP_KEYS if k not in _VARIANT_KEYS)
+        )
         if key not in allowed:
             raise root.error(
                 key,
@@ -564,6 +569,7 @@ def scenario_from_document(
     points = _read_points(root)
     uncertainty = _read_uncertainty(root)
     root.raw("option", None)
+    root.raw("sweep", None)
     scenario = Scenario(
         name=name,
         path=source,
@@ -580,6 +586,8 @@ def scenario_from_document(
     )
     if allow_options and "option" in document:
         scenario = replace(scenario, options=_read_options(root, document, source))
+    if allow_options and "sweep" in document:
+        scenario = replace(scenario, options=scenario.options + _read_sweeps(root, scenario))
     if allow_options:
         from .plausibility import warn_implausible
 
@@ -590,11 +598,12 @@ def scenario_from_document(
 def _merge_option(base: dict[str, Any], option: Table) -> dict[str, Any]:
     merged = copy.deepcopy(base)
     merged.pop("option", None)
+    merged.pop("sweep", None)
     for key, value in option.data.items():
         if key in ("name", "description"):
             continue
-        if key not in _TOP_KEYS or key == "option":
-            allowed = [k for k in _TOP_KEYS if k != "option"] + ["name", "description"]
+        if key not in _TOP_KEYS or key in _VARIANT_KEYS:
+            allowed = [k for k in _TOP_KEYS if k not in _VARIANT_KEYS] + ["name", "description"]
             raise option.error(
                 key,
                 "is not a key an option may override"
@@ -662,6 +671,62 @@ def _read_options(root: Table, document: dict[str, Any], source: str) -> tuple[O
             Option(name, description, replace(scenario, name=f"{scenario.name} — {name}"))
         )
     return tuple(options)
+
+
+def _read_sweeps(root: Table, scenario: Scenario) -> tuple[Option, ...]:
+    """The options of every ``[[sweep]]`` (see :mod:`keepclear.fields.sweep`)."""
+    out: list[Option] = []
+    names = {o.name for o in scenario.options}
+    for t in root.tables("sweep"):
+        key = t.string("key")
+        values = t.raw("values")
+        if not isinstance(values, list):
+            raise t.error("values", "must be a list of values, one option each")
+        label = t.string("name", None)
+        t.finish(("key", "values", "name"))
+        out += _sweep_options(scenario, key, values, label, (root.source, t.path), names)
+    return tuple(out)
+
+
+def _sweep_options(
+    scenario: Scenario,
+    key: str,
+    values: list[Any],
+    label: str | None,
+    where: tuple[str, str],
+    names: set[str],
+) -> list[Option]:
+    from .sweep import expand_sweep
+
+    def build(document: dict[str, Any]) -> Scenario:
+        return scenario_from_document(document, scenario.path, allow_options=False)
+
+    out = []
+    for name, description, variant in expand_sweep(
+        scenario.document, key, values, label, build, where
+    ):
+        if name in names:
+            raise ScenarioError(
+                f"makes an option named '{name}', which another option already has",
+                where[0],
+                where[1],
+            )
+        names.add(name)
+        out.append(Option(name, description, replace(variant, name=f"{scenario.name} — {name}")))
+    return out
+
+
+def with_sweep(scenario: Scenario, key: str, values: list[Any]) -> Scenario:
+    """The scenario with one more sweep's options (``compare --sweep KEY=V1,V2``).
+
+    Raises
+    ------
+    ScenarioError
+        As for a ``[[sweep]]`` in the file, located at the ``--sweep`` argument.
+    """
+    names = {o.name for o in scenario.options}
+    options = _sweep_options(scenario, key, values, None, ("argument", "--sweep"), names)
+    return replace(scenario, options=scenario.options + tuple(options))
 
 
 def load_scenario(path: str | Path) -> Scenario:
