@@ -128,6 +128,10 @@ class ShieldModel(Drawable, Protocol):
         """Field amplitude factor (N,) for rays from the source point(s) to the points [1]."""
         ...
 
+    def normal_incidence_se_db(self) -> float:
+        """Shielding effectiveness at normal incidence, far from the edges [dB]."""
+        ...
+
 
 class EnclosureModel(Drawable, Protocol):
     """A closed box around sources: what is inside, what leaks out."""
