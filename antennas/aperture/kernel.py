@@ -181,7 +181,8 @@ def dyadic_kernel_sums(
     return out
 
 
-#: Rows of float32 scratch each thread keeps for :func:`dyadic_moment_sums` (per pair).
+#: Rows of float32 scratch kept for :func:`dyadic_moment_sums` (per pair; one set per thread,
+#: so that a caller may evaluate radiators from several threads).
 _SCRATCH_ROWS: Final[int] = 13
 _SCRATCH = threading.local()
 

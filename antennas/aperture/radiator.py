@@ -380,7 +380,7 @@ class ApertureRadiator(Radiator):
         """Slices of at most :data:`BLOCK_PAIRS` nodes of the (nx, ny) rule for the moment kernel.
 
         Each slice holds the float32 node coordinates and k |q|^2 (column vectors) and the
-        moment matrices of :func:`moment_matrices`.
+        moment matrix of :func:`moment_matrix`.
         """
 
         def build() -> tuple:
