@@ -7,6 +7,8 @@ and the 2 cm clearance are the contract's ("Points inside a source or on its met
 
 from __future__ import annotations
 
+import io
+
 import numpy as np
 import pytest
 
@@ -167,6 +169,8 @@ def test_a_map_sample_inside_a_source_counts_over_every_limit(write_scenario):
     inside = scenario.inside_source(points.reshape(-1, 3)).reshape(grid.shape)
     assert inside.any() and not inside.all()
     np.testing.assert_array_equal(result.inside_source, inside)
+    with np.load(io.BytesIO(maps.grid_npz_bytes(result))) as npz:
+        np.testing.assert_array_equal(npz["inside_source"], inside)
     for q in result.quotients:
         assert np.all(q[inside] > 1.0)  # over every limit
         assert np.all(q[~inside] < 1.0)  # and nothing else is

@@ -118,7 +118,11 @@ def grid_csv_bytes(map_result: MapResult) -> bytes:
 
 
 def grid_npz_bytes(map_result: MapResult, metadata: dict[str, Any] | None = None) -> bytes:
-    """The grid as a NumPy .npz archive (arrays in SI units, metadata as JSON text)."""
+    """The grid as a NumPy .npz archive (arrays in SI units, metadata as JSON text).
+
+    ``inside_source`` marks the samples inside a source or on its metal (their quotients
+    are raised to :data:`~keepclear.fields.maps.evaluation.INSIDE_SOURCE_QUOTIENT`).
+    """
     grid = map_result.grid
     meta = {"plane": grid.plane.as_dict(), "limit_ids": list(map_result.limit_ids)}
     meta.update(metadata or {})
@@ -133,6 +137,11 @@ def grid_npz_bytes(map_result: MapResult, metadata: dict[str, Any] | None = None
         e_v_m=map_result.e_v_m,
         h_a_m=map_result.h_a_m,
         quotients=map_result.quotients,
+        inside_source=(
+            np.zeros(grid.shape, dtype=bool)
+            if map_result.inside_source is None
+            else map_result.inside_source
+        ),
         limit_ids=np.array(map_result.limit_ids),
         metadata_json=np.array(json.dumps(meta)),
     )
