@@ -49,6 +49,8 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import constants
 
+from .errors import InputError
+
 #: Characteristic impedance of free space [ohm] (from CODATA mu0 and eps0).
 ETA0_OHM: Final[float] = float(np.sqrt(constants.mu_0 / constants.epsilon_0))
 #: Speed of light in vacuum [m s^-1].
@@ -58,17 +60,29 @@ C_M_S: Final[float] = float(constants.c)
 DEFAULT_CHUNK_BYTES: Final[int] = 64 * 1024**2
 
 
-class ModelInputError(ValueError):
+class ModelInputError(InputError, ValueError):
     """A source model was given parameters it cannot represent.
 
-    The message names the parameter, the value and what is allowed; the
-    scenario loader prefixes the file and key path.
+    An :class:`~keepclear.antennas.errors.InputError` whose key is the model parameter:
+    the message names the parameter, the value and what is allowed; the scenario loader
+    relocates it to the file and key path, and raised at run time it is still bad input
+    (exit status 2 on the command line).
+
+    Parameters
+    ----------
+    parameter : str
+        The model parameter (the scenario key where they coincide).
+    message : str
+        What is wrong and what is allowed.
     """
 
     def __init__(self, parameter: str, message: str) -> None:
-        super().__init__(message)
+        super().__init__(message, None, parameter)
         self.parameter = parameter
-        self.message = message
+
+    def located(self, source: str | None = None, key: str | None = None) -> InputError:
+        """An :class:`InputError` with the file and/or key filled in where still missing."""
+        return InputError(self.message, self.source or source, self.key or key)
 
 
 class ModelRangeWarning(UserWarning):

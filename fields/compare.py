@@ -77,6 +77,9 @@ class Variant:
         scenario's order.
     order : int
         Position in the scenario (0 for the base): the last tie-break.
+    panel : MapRun or None
+        The floor map on the variant's own, smaller extent for the comparison figure
+        (None where the common grid already fits it).
     """
 
     name: str
@@ -88,6 +91,7 @@ class Variant:
     worst_point: dict[str, Any] | None
     places: tuple[dict[str, Any], ...] = field(default=())
     order: int = 0
+    panel: Any = None
 
     @property
     def is_base(self) -> bool:
@@ -120,6 +124,9 @@ RANK_TOLERANCE = {
     "power_density_w_m2": (0.0, 1e-6),
     "quotient": (0.0, 1e-6),
 }
+
+#: An option's figure panel gets its own extent below this fraction of the common one.
+OWN_PANEL_FRACTION = 0.6
 
 #: The ``--rank-by`` choices besides ``place:NAME``.
 RANK_CHOICES = ("keepout", "zone-area")
@@ -373,12 +380,22 @@ class Comparison:
 
         panels = []
         for rank, v in enumerate(self.variants, start=1):
+            letter = chr(ord("a") + rank - 1) if rank <= 26 else str(rank)
             caption = (
-                f"{rank}. {v.name}: keep-out {v.largest_keepout_m:.2f} m, "
+                f"({letter}) {rank}. {v.name}: keep-out {v.largest_keepout_m:.2f} m, "
                 f"zone {v.zone_area_m2:.2f} m²"
             )
-            panels.append((caption, v.floor.result, v.scenario, v.keepouts))
-        return comparison_figure(panels, f"Options compared: {self.base.name}")
+            run = v.panel if v.panel is not None else v.floor
+            panels.append((caption, run.result, v.scenario, v.keepouts))
+        own = [v.panel is not None for v in self.variants]
+        note = (
+            "panels "
+            + ", ".join(f"({chr(ord('a') + i)})" for i, o in enumerate(own) if o and i < 26)
+            + " on their own, smaller extent"
+            if any(own)
+            else ""
+        )
+        return comparison_figure(panels, f"Options compared: {self.base.name}", note=note)
 
 
 def compare_options(
@@ -392,6 +409,7 @@ def compare_options(
     progress: ProgressFactory | None = None,
     base_keepouts: Sequence[KeepoutResult] | None = None,
     rank_by: str = "keepout",
+    own_panels: bool = True,
 ) -> Comparison:
     """Assess the base and every option on a common floor grid and rank them.
 
@@ -412,6 +430,9 @@ def compare_options(
     rank_by : str
         ``"keepout"`` (default), ``"zone-area"`` or ``"place:NAME"`` with NAME a
         ``[[point]]`` of the scenario (see the module notes for the tie rule).
+    own_panels : bool
+        Give the figure's panel of an option whose own default extent is under
+        :data:`OWN_PANEL_FRACTION` of the common one a map of its own extent.
 
     Returns
     -------
@@ -458,7 +479,22 @@ def compare_options(
             progress=callback,
         )
         places, worst = place_values(s, ids)
-        out.append(Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst, places, order))
+        panel = None
+        own_m = maps.default_half_extent_m(s, k, plane)
+        if own_panels and own_m < OWN_PANEL_FRACTION * half_extent_m:
+            # A small option's zone is a few pixels of the common grid: its panel of the
+            # figure gets a map of its own extent (the data keep the common grid).
+            panel = maps.run_map(
+                s,
+                plane,
+                k,
+                half_extent_m=own_m,
+                pixels=run.result.grid.shape[1],
+                centre_st_m=plane.centre_st_m,
+            )
+        out.append(
+            Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst, places, order, panel)
+        )
     return Comparison(scenario, ids, height, tuple(rank_variants(out, rank_by)), rank_by)
 
 

@@ -517,8 +517,14 @@ def _draw_points(
     step: float,
     labels: bool,
 ) -> None:
-    """Named places: a dot and a letter; the legend gives each letter's name."""
-    for p in _shown_points(plane, scenario, extent, step):
+    """Named places: a dot and a letter; the legend gives each letter's name.
+
+    Letters of places close together are moved apart: each takes the first of eight
+    offsets around its dot whose box is clear of the letters placed before it.
+    """
+    shown = _shown_points(plane, scenario, extent, step)
+    offsets = _label_offsets(ax, extent, [(p.s, p.t) for p in shown]) if labels else []
+    for k, p in enumerate(shown):
         ax.plot(
             p.s,
             p.t,
@@ -534,13 +540,53 @@ def _draw_points(
             ax.annotate(
                 p.letter,
                 (p.s, p.t),
-                xytext=(5, 5),
+                xytext=offsets[k],
                 textcoords="offset points",
                 fontsize=9,
                 fontweight="bold",
                 bbox=_LABEL_BOX,
                 zorder=9,
+                ha="left",
+                va="bottom",
             )
+
+
+#: Offsets of a place's letter from its dot, in order of preference [points].
+_LABEL_OFFSETS = ((5, 5), (5, -16), (-15, 5), (-15, -16), (12, -5), (-22, -5), (-5, 12), (-5, -23))
+#: Size of a letter's box (a bold 9 pt capital with its padding) [points].
+_LABEL_SIZE = (11.0, 13.0)
+
+
+def _label_offsets(
+    ax: Any, extent: tuple[float, float, float, float], at: list[tuple[float, float]]
+) -> list[tuple[int, int]]:
+    """Greedy non-overlapping label offsets for letters at data positions ``at``."""
+    s0, s1, t0, t1 = extent
+    fig_w, fig_h = ax.figure.get_size_inches()
+    box = ax.get_position()
+    sx = box.width * fig_w * 72.0 / max(s1 - s0, 1e-12)
+    sy = box.height * fig_h * 72.0 / max(t1 - t0, 1e-12)
+    placed: list[tuple[float, float, float, float]] = []
+    dots = [((s - s0) * sx, (t - t0) * sy) for s, t in at]
+    out = []
+    for x, y in dots:
+        choice = _LABEL_OFFSETS[0]
+        for dx, dy in _LABEL_OFFSETS:
+            rect = (x + dx, y + dy, x + dx + _LABEL_SIZE[0], y + dy + _LABEL_SIZE[1])
+            clear = all(
+                rect[2] <= r[0] or r[2] <= rect[0] or rect[3] <= r[1] or r[3] <= rect[1]
+                for r in placed
+            ) and all(
+                not (rect[0] - 3 <= dx_ <= rect[2] + 3 and rect[1] - 3 <= dy_ <= rect[3] + 3)
+                for dx_, dy_ in dots
+            )
+            if clear:
+                choice = (dx, dy)
+                break
+        dx, dy = choice
+        placed.append((x + dx, y + dy, x + dx + _LABEL_SIZE[0], y + dy + _LABEL_SIZE[1]))
+        out.append(choice)
+    return out
 
 
 def _off_plane(plane: maps.Plane, position_m: NDArray, offset_m: float) -> str:
@@ -794,7 +840,8 @@ def map_figure(
     s0, s1, t0, t1 = result.grid.extent_m
     # A map wider than tall (a vertical plane over a floor) keeps its width.
     tall = side * min(1.0, max((t1 - t0) / max(s1 - s0, 1e-9), 0.3))
-    top = 0.3 + 0.27 * len(heading[1]) + 0.19 * len(heading[2]) + 0.2
+    top = 0.3 + 0.25 * (len(heading[0]) - 1) + 0.27 * len(heading[1]) + 0.19 * len(heading[2])
+    top += 0.2
     legend_h = 0.2 * len(handles) + 0.2
     height = top + tall + 0.6 + legend_h + 0.55
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
@@ -820,7 +867,7 @@ def map_figure(
 
 def _title_lines(
     scenario: Scenario, result: maps.MapResult, style: MapStyle
-) -> tuple[str, list[str], list[str]]:
+) -> tuple[list[str], list[str], list[str]]:
     """Title, the what-and-where lines and the assumption lines of a map."""
     grid = result.grid
     what = f"{quantity_title(style, result)} on the {grid.plane.description}"
@@ -829,17 +876,47 @@ def _title_lines(
         f"{scenario.frequency_hz / 1e9:g}\u00a0GHz"
     )
     return (
-        textwrap.shorten(scenario.name, 90),
+        wrap_title(scenario.name, TITLE_WIDTH),
         textwrap.wrap(what, 92),
         textwrap.wrap(assumptions, 115),
     )
 
 
-def _title(fig: Figure, heading: tuple[str, list[str], list[str]], height: float) -> None:
+#: Characters of a bold title line on a single map's figure.
+TITLE_WIDTH = 72
+#: A title is cut (with an ellipsis) after this many lines.
+TITLE_MAX_LINES = 3
+
+
+def wrap_title(text: str, width: int) -> list[str]:
+    """A title wrapped to lines of ``width`` characters, at most three lines.
+
+    The whole name shows unless it needs more than three lines; then the third line
+    ends with an ellipsis.  Control characters are shown as spaces (fonts have no
+    glyph for them).
+    """
+    printable = "".join(ch if ch.isprintable() else " " for ch in text)
+    lines = textwrap.wrap(printable, width, break_long_words=True) or [""]
+    if len(lines) > TITLE_MAX_LINES:
+        lines = lines[: TITLE_MAX_LINES - 1] + [
+            textwrap.shorten(" ".join(lines[TITLE_MAX_LINES - 1 :]), width, placeholder=" …")
+        ]
+    return lines
+
+
+def _title(fig: Figure, heading: tuple[list[str], list[str], list[str]], height: float) -> None:
     title, what, assumptions = heading
     x = 0.5 / fig.get_figwidth()
-    fig.text(x, 1 - 0.22 / height, title, fontsize=12.5, fontweight="bold", va="top")
-    y = 0.52
+    fig.text(
+        x,
+        1 - 0.22 / height,
+        "\n".join(title),
+        fontsize=12.5,
+        fontweight="bold",
+        va="top",
+        linespacing=1.15,
+    )
+    y = 0.52 + 0.25 * (len(title) - 1)
     fig.text(x, 1 - y / height, "\n".join(what), fontsize=10.5, va="top", linespacing=1.3)
     y += 0.27 * len(what) - 0.03
     fig.text(x, 1 - y / height, "\n".join(assumptions), fontsize=8.5, va="top", color="#333333")
@@ -862,6 +939,7 @@ def comparison_figure(
     panels: Sequence[tuple[str, maps.MapResult, Scenario, Sequence[KeepoutResult]]],
     title: str,
     style: MapStyle | None = None,
+    note: str = "",
 ) -> Figure:
     """Maps of several options side by side on one colour scale.
 
@@ -872,6 +950,8 @@ def comparison_figure(
     title : str
         Figure title.
     style : MapStyle, optional
+    note : str, optional
+        A clause added to the subtitle (for example about the panels' extents).
     """
     style = style or MapStyle()
     n = len(panels)
@@ -882,6 +962,8 @@ def comparison_figure(
     bar_gap, bar, right = 0.95, 0.22, 0.95
     legend_h = 0.75
     width = left + cols * side + (cols - 1) * gap + bar_gap + bar + right
+    title_lines = wrap_title(title, int(TITLE_WIDTH * width / 8.4))
+    top += 0.24 * (len(title_lines) - 1)
     row_h = row_head + side + row_foot
     height = top + rows * row_h + legend_h + 0.35
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
@@ -911,17 +993,18 @@ def comparison_figure(
         fig.text(
             left / width,
             1 - 0.2 / height,
-            textwrap.shorten(title, 110),
+            "\n".join(title_lines),
             fontsize=12,
             fontweight="bold",
             va="top",
+            linespacing=1.15,
         )
         first = panels[0][1]
         fig.text(
             left / width,
-            1 - 0.5 / height,
+            1 - (0.5 + 0.24 * (len(title_lines) - 1)) / height,
             f"{quantity_title(style, first)} on the {first.grid.plane.description}; "
-            "one colour scale for all panels; ranked best first",
+            "one colour scale for all panels; ranked best first" + (f"; {note}" if note else ""),
             fontsize=9.5,
             va="top",
         )

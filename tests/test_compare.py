@@ -292,3 +292,22 @@ def test_leakage_5cm_is_read_with_the_source_on(write_scenario):
     faces = scenario.enclosure.face_density_5cm(800.0, scenario.frequency_hz)
     assert leak == pytest.approx(max(f["power_density_w_m2"] for f in faces))
     assert leak > 0
+
+
+def test_small_option_gets_its_own_lettered_panel(write_scenario):
+    text = (
+        ISOTROPIC + '\n[[option]]\nname = "one watt"\n[[option.source]]\nid = "s"\npower_w = 1.0\n'
+    )
+    text = text.replace("power_w = 100.0", "power_w = 2000.0", 1)
+    comparison = compare_options(load_scenario(write_scenario(text)), pixels=21)
+    small, base = comparison.variants
+    assert small.name == "one watt" and base.is_base
+    # The data stay on the common grid; the figure's panel of the small option is its own.
+    assert small.floor.result.grid.extent_m == base.floor.result.grid.extent_m
+    assert small.panel is not None and base.panel is None
+    common = base.floor.result.grid.extent_m
+    own = small.panel.result.grid.extent_m
+    assert own[1] - own[0] < 0.6 * (common[1] - common[0])
+    fig = comparison.figure()
+    titles = [ax.get_title(loc="left") for ax in fig.axes if ax.get_title(loc="left")]
+    assert titles[0].startswith("(a) 1. one watt") and titles[1].startswith("(b) 2. base")

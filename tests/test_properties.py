@@ -53,9 +53,7 @@ from ._hypothesis import PROFILE, examples
 
 # Limit ids are drawn from every id, the oven-leakage product limits included, for scenarios
 # without an enclosure: the plausibility warning that this draws is expected here.
-pytestmark = pytest.mark.filterwarnings(
-    "ignore::keepclear.fields.plausibility.PlausibilityWarning"
-)
+pytestmark = pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
 
 
 def _available(module: str, name: str) -> bool:
