@@ -12,6 +12,7 @@ import io
 import numpy as np
 import pytest
 
+import keepclear as kc
 from keepclear.antennas.aperture import OpenWaveguide
 from keepclear.antennas.aperture.open_waveguide import feed_guide_length_m
 from keepclear.antennas.base import C_M_S, Placement
@@ -21,6 +22,8 @@ from keepclear.antennas.waveguide import waveguide_dimensions
 from keepclear.antennas.wire import Dipole, Monopole
 from keepclear.fields import maps
 from keepclear.fields.scenario import inside_source_mask, load_scenario
+
+from ._cli import run, strict_json, validate
 
 F = 2.45e9
 LAM = C_M_S / F
@@ -181,3 +184,44 @@ def test_a_map_sample_inside_a_source_counts_over_every_limit(write_scenario):
     for limit_id in result.limit_ids:
         zone = maps.zone_of(result, limit_id)
         assert abs(zone.area_m2 - A * length) < perimeter * grid.step_m
+
+
+HORN_BENCH = """
+name = "horn on a bench"
+[[source]]
+id = "horn"
+antenna = "horn"
+power_w = 900.0
+duty_cycle = 0.5
+waveguide = "WR-340"
+aperture_width_m = 0.367
+aperture_height_m = 0.245
+length_m = 0.25
+position_m = [0.0, 0.0, 1.0]
+boresight = [1.0, 0.0, 0.0]
+polarization = [0.0, 0.0, 1.0]
+"""
+
+
+def test_probe_json_marks_every_point_and_the_text_says_so(write_scenario):
+    path = write_scenario(HORN_BENCH)
+    # inside the flare, inside the feed guide, 2 cm in front of the mouth, 1 m away
+    points = ["-0.1,0,1", "-0.3,0,1", "0.02,0,1", "1,0.5,1"]
+    result = run("probe", path, *(f"--at={p}" for p in points), "--json")
+    assert result.exit_code == 0, result.stderr
+    data = strict_json(result.stdout)
+    validate("probe", data)
+    assert [p["inside_source"] for p in data["points"]] == [True, True, False, False]
+    # the fields of a point inside are reported as computed (finite, not replaced)
+    assert all(p["power_density_w_m2"] > 0 for p in data["points"])
+    text = run("probe", path, *(f"--at={p}" for p in points)).stdout
+    blocks = text.split("Point (")
+    assert "INSIDE A SOURCE" in blocks[1] and "INSIDE A SOURCE" in blocks[2]
+    assert "INSIDE A SOURCE" not in blocks[3] and "INSIDE A SOURCE" not in blocks[4]
+
+
+def test_python_api_probe_carries_the_mask(write_scenario):
+    scenario = kc.load_scenario(write_scenario(HORN_BENCH))
+    result = kc.probe(scenario, [[-0.1, 0.0, 1.0], [1.0, 0.5, 1.0]])
+    np.testing.assert_array_equal(result.inside_source, [True, False])
+    assert [p["inside_source"] for p in result.to_dict()["points"]] == [True, False]
