@@ -121,11 +121,11 @@ def _spec_from_table(table: Table, kind: str) -> ShieldSpec:
         return None if name is None else sh.metal_from_name(name)
 
     if kind == "sheet":
-        m = sh.metal_from_name(table.string("metal", choices=sh.METAL_CHOICES))
+        sheet_metal = sh.metal_from_name(table.string("metal", choices=sh.METAL_CHOICES))
         thickness = table.number(
             "thickness_m", unit="m", minimum=0, exclusive_minimum=True, maximum=1.0
         )
-        return table.build(SheetSpec, m, thickness)
+        return table.build(SheetSpec, sheet_metal, thickness)
     if kind == "perforated":
         return table.build(
             PerforatedSpec,

@@ -64,7 +64,10 @@ def _oblique_and_near(
 class ShieldSpec(Protocol):
     """What a shield is made of: its power transmission for a ray."""
 
-    kind: str
+    @property
+    def kind(self) -> str:
+        """The shield type (``"sheet"``, ``"perforated"``, ...)."""
+        ...
 
     def power_transmission(
         self,
