@@ -233,7 +233,7 @@ class Radiator(abc.ABC):
 
     * ``_local_outline() -> (n, 3)``: the corners of its body, whose convex hull is
       the shape to draw (two corners: a wire; four coplanar: an aperture or a plate;
-      eight: a horn's flare or a box); none for a point source (the default);
+      eight: a horn's flare or a box); None for a point source (the default);
       :meth:`outline` places them in the scenario;
     * ``_local_inside_or_on(points_local, tolerance_m) -> bool (N,)``: the points inside
       the body (a guide, a horn, a box) or within ``tolerance_m`` of its metal (a wire,
@@ -357,21 +357,24 @@ class Radiator(abc.ABC):
         """
         return None
 
-    def _local_outline(self) -> NDArray[np.float64]:
-        """Corners (n, 3) of the body in the local frame [m]; none for a point source."""
-        return np.zeros((0, 3))
+    def _local_outline(self) -> NDArray[np.float64] | None:
+        """Corners (n, 3) of the body in the local frame [m]; None for a point source."""
+        return None
 
-    def outline(self) -> NDArray[np.float64]:
+    def outline(self) -> NDArray[np.float64] | None:
         """Corners (n, 3) of the radiator's body in scenario coordinates, for drawing [m].
 
         Returns
         -------
-        ndarray, shape (n, 3)
+        ndarray, shape (n, 3), or None
             Points whose convex hull is the body: two for a wire (its ends), four for
             an aperture or a flat plate (in order around it), eight for a horn's flare
-            (mouth, then throat) or a box; ``n = 0`` for a point source.
+            (mouth, then throat) or a box; None for a point source (no body).
         """
-        local = np.asarray(self._local_outline(), dtype=float).reshape(-1, 3)
+        local = self._local_outline()
+        if local is None:
+            return None
+        local = np.asarray(local, dtype=float).reshape(-1, 3)
         return local @ self.placement.rotation.T + self.position_m
 
     def _local_inside_or_on(

@@ -104,6 +104,7 @@ def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
         kwargs["reflection_coefficient"] = table.number(
             "reflection_coefficient", minimum=-1.0, maximum=1.0
         )
+    kwargs.update(_finite_plate_keys(table))
     reflector = table.build(Reflector, point_m=point, normal=normal, label=label, **kwargs)
     if reflector.material is not None:
         message = out_of_range_message(reflector.material, frequency_hz)
@@ -112,6 +113,32 @@ def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
             warnings.warn(f"{where}: {message}", ModelRangeWarning, stacklevel=2)
     table.finish()
     return reflector
+
+
+def _finite_plate_keys(table: Table) -> dict[str, object]:
+    """The optional ``size_m = [w, h]`` and ``up`` of a finite reflector, checked."""
+    out: dict[str, object] = {}
+    value = table.raw("size_m", None)  # read even when absent: a misspelling gets its hint
+    if value is not None:
+        if (
+            not isinstance(value, list)
+            or len(value) != 2
+            or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
+            or not all(math.isfinite(float(v)) and 0 < float(v) <= 1e4 for v in value)
+        ):
+            raise table.error(
+                "size_m",
+                f"must be [width, height], two numbers > 0 and <= 10000 [m], got {value!r}",
+            )
+        out["size_m"] = (float(value[0]), float(value[1]))
+    up = table.vector("up", None, nonzero=True)
+    if up is not None:
+        if "size_m" not in out:
+            raise table.error(
+                "up", "is only for a finite reflector: give size_m = [width, height] too"
+            )
+        out["up"] = up
+    return out
 
 
 # --------------------------------------------------------------------- shields

@@ -9,9 +9,9 @@ models of this package are :class:`keepclear.fields.reflection.Reflector`,
 
 Every object that can be drawn has ``outline()``: an (n, 3) array of points in
 scenario coordinates [m] whose convex hull is the object (two points: a segment;
-four coplanar: a flat rectangle, in order around it; eight: a box).  An unbounded
-object (an infinite reflecting plane) returns none, shape (0, 3), and is drawn by its
-trace.  The radiators of :mod:`keepclear.antennas` offer the same
+four coplanar: a flat rectangle, in order around it; eight: a box), or None where
+there is no bounded shape (an infinite reflecting plane, drawn by its trace; a point
+source).  The radiators of :mod:`keepclear.antennas` offer the same
 (:meth:`keepclear.antennas.base.Radiator.outline`).
 """
 
@@ -29,8 +29,8 @@ from keepclear.antennas.base import Radiator
 class Drawable(Protocol):
     """Anything with drawing geometry."""
 
-    def outline(self) -> NDArray[np.float64]:
-        """Points (n, 3) whose convex hull is the object [m]; (0, 3) when unbounded."""
+    def outline(self) -> NDArray[np.float64] | None:
+        """Points (n, 3) whose convex hull is the object [m]; None when unbounded."""
         ...
 
 
@@ -100,6 +100,32 @@ class ReflectorModel(Drawable, Protocol):
     @property
     def mirror_matrix(self) -> NDArray[np.float64]:
         """The 3 x 3 reflection I - 2 n n^T [1]."""
+        ...
+
+    @property
+    def is_finite(self) -> bool:
+        """Whether the surface is a finite plate (else an infinite plane)."""
+        ...
+
+    @property
+    def is_obstacle(self) -> bool:
+        """Whether the surface blocks the rays that cross it (a finite metal plate)."""
+        ...
+
+    def aperture_factor(
+        self, start_m: ArrayLike, end_m: ArrayLike, frequency_hz: float
+    ) -> NDArray[np.complex128]:
+        """Factor of a finite plate on the image rays from start to end points (1 if infinite)."""
+        ...
+
+    def obstacle_factor(
+        self,
+        start_m: ArrayLike,
+        end_m: ArrayLike,
+        frequency_hz: float,
+        source_extent_m: float = 0.0,
+    ) -> NDArray[np.float64]:
+        """Amplitude factor of an opaque plate on the rays from start to end points [1]."""
         ...
 
     def signed_distance_m(self, points_m: ArrayLike) -> NDArray[np.float64]:

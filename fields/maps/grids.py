@@ -282,8 +282,8 @@ def default_half_extent_m(
     shift = float(np.max(np.abs(st_c[0] - centre)))
     base = max(MIN_HALF_EXTENT_M, KEEPOUT_EXTENT_FACTOR * r + shift)
     places = [p.position_m for p in scenario.points] + [s.position_m for s in scenario.sources]
-    for obj in (*scenario.shields, scenario.enclosure):
-        corners = object_corners(obj) if obj is not None else None
+    for obj in (*scenario.shields, *scenario.reflectors, scenario.enclosure):
+        corners = object_corners(obj) if obj is not None else None  # none: unbounded
         if corners is not None:
             places += list(corners)
     reach = 0.0
@@ -324,7 +324,9 @@ def default_window_m(
     floors = [
         float(r.point_m[2]) - base_t
         for r in scenario.reflectors
-        if float(np.asarray(r.normal)[2]) > 0.99 and float(r.point_m[2]) - base_t < ct
+        if object_corners(r) is None  # an unbounded plane: a table top is not a floor
+        and float(np.asarray(r.normal)[2]) > 0.99
+        and float(r.point_m[2]) - base_t < ct
     ]
     if not floors:
         return square
@@ -432,9 +434,10 @@ def object_corners(obj: Drawable) -> NDArray[np.float64] | None:
     (:mod:`keepclear.fields.surroundings`).
     """
     outline = getattr(obj, "outline", None)
-    if outline is None:
+    value = None if outline is None else outline()
+    if value is None:
         return None
-    corners = np.asarray(outline(), dtype=float).reshape(-1, 3)
+    corners = np.asarray(value, dtype=float).reshape(-1, 3)
     return corners if corners.shape[0] else None
 
 
