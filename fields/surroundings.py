@@ -140,6 +140,10 @@ class ReflectorModel(Drawable, Protocol):
 class ShieldModel(Drawable, Protocol):
     """A shield: a sheet that weakens the rays that cross it."""
 
+    def outline(self) -> NDArray[np.float64]:
+        """The four corners (4, 3) of the sheet, in order around it [m]."""
+        ...
+
     @property
     def label(self) -> str:
         """Name used in messages."""
@@ -161,6 +165,10 @@ class ShieldModel(Drawable, Protocol):
 
 class EnclosureModel(Drawable, Protocol):
     """A closed box around sources: what is inside, what leaks out."""
+
+    def outline(self) -> NDArray[np.float64]:
+        """The eight outer corners (8, 3) of the box [m]."""
+        ...
 
     @property
     def openings(self) -> Sequence[Any]:
