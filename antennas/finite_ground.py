@@ -268,27 +268,23 @@ class FiniteGroundMonopole(Radiator):
         pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
         return float(np.linalg.norm(pts.max(axis=0) - pts.min(axis=0)))
 
-    def inside_or_on(self, points_m: ArrayLike, tolerance_m: float = 1e-3) -> NDArray[np.bool_]:
-        """Whether scenario points lie inside the box, or within ``tolerance_m`` of the metal.
+    def _local_outline(self) -> NDArray[np.float64]:
+        """The plate's four corners, or the box's eight (front face, then back) [m]."""
+        x0, x1, y0, y1 = self._face_bounds()
+        face = np.array([[x0, y0, 0.0], [x1, y0, 0.0], [x1, y1, 0.0], [x0, y1, 0.0]])
+        if self.ground != "box" or self.box_depth_m is None:
+            return face
+        return np.vstack([face, face - np.array([0.0, 0.0, self.box_depth_m])])
 
-        Parameters
-        ----------
-        points_m : array_like, shape (N, 3)
-            Scenario points [m].
-        tolerance_m : float
-            Distance from a plate, a box face or the probe wire counted as "on" [m].
-
-        Returns
-        -------
-        ndarray of bool, shape (N,)
-        """
-        local = self.placement.to_local(np.asarray(points_m, dtype=float).reshape(-1, 3))
-        x, y, z = local[:, 0], local[:, 1], local[:, 2]
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Inside the box, or within ``tolerance_m`` of the plate, a box face or the probe."""
+        x, y, z = points_local_m[:, 0], points_local_m[:, 1], points_local_m[:, 2]
         x0, x1, y0, y1 = self._face_bounds()
         tol = float(tolerance_m)
         over_face = (x >= x0 - tol) & (x <= x1 + tol) & (y >= y0 - tol) & (y <= y1 + tol)
-        if self.ground == "box":
-            assert self.box_depth_m is not None
+        if self.ground == "box" and self.box_depth_m is not None:
             metal = over_face & (z >= -self.box_depth_m - tol) & (z <= tol)
         else:
             metal = over_face & (np.abs(z) <= tol)

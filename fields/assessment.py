@@ -293,6 +293,15 @@ class ProbeResult:
         """Exposure quotient per limit id, shape (N,) each (each on its basis) [1]."""
         return quotients_at(self.scenario, self.fields)
 
+    @functools.cached_property
+    def inside_source(self) -> NDArray[np.bool_]:
+        """Whether each point lies inside a source or on its metal, shape (N,).
+
+        Inside a guide, a horn or a box, or within 1 mm of a wire or a plate: not a place
+        where anyone stands.  Its fields are reported as computed.
+        """
+        return self.scenario.inside_source(self.points_m)
+
     def point_dicts(self) -> list[dict[str, Any]]:
         """One JSON object a point (the ``points`` list of ``probe --json``)."""
         from .places import add_spatial_averages, allowed_seconds
@@ -313,6 +322,7 @@ class ProbeResult:
                 "quotients": {k: float(q[i]) for k, q in quotients.items()},
                 "allowed_s": allowed,
                 "allowed_rule": {k: rules[k] for k, v in allowed.items() if v is not None},
+                "inside_source": bool(self.inside_source[i]),
             }
             out.append(entry)
         if self.names is not None:

@@ -195,7 +195,7 @@ class _Search:
         self.terms = radiating_terms(scenario)
         self.coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
         self.uncertainty_db = max(
-            (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in self.terms),
+            (float(t.radiator.gain_uncertainty_db) for t in self.terms),
             default=0.0,
         )
 
@@ -461,7 +461,7 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
         origins.append(o)
         directions.append(d)
         kinds.append(np.full(len(d), j))
-        if getattr(reflector, "is_finite", False):
+        if reflector.is_finite:
             o, d = _beam_rays(search, reflector)
             origins.append(o)
             directions.append(d)
@@ -529,9 +529,7 @@ def keepout_distances(
             warnings.warn(message, PlausibilityWarning, stacklevel=2)
     values = [scenario.limit_value(i) for i in ids]
     terms = radiating_terms(scenario)
-    uncertainty_db = max(
-        (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in terms), default=0.0
-    )
+    uncertainty_db = max((float(t.radiator.gain_uncertainty_db) for t in terms), default=0.0)
     margin = 10 ** (uncertainty_db / 10)
     # Limits with the same values give the same answer: search each once.
     keys = [
@@ -585,9 +583,10 @@ def _outside(scenario: Scenario, best: _Best, k: int) -> dict[str, object]:
     outermost exceedances of all rays of the search.
     """
     r = float(best.distance[k])
-    if r <= 0:
+    enclosure = scenario.enclosure
+    if r <= 0 or enclosure is None:
         return {"distance_m": 0.0, "direction": None, "clearance_from_enclosure_m": 0.0}
-    corners = scenario.enclosure.outline()
+    corners = enclosure.outline()
     lo, hi = corners.min(axis=0), corners.max(axis=0)
     pts = np.vstack(best.ends[k])
     gap = np.linalg.norm(np.maximum(np.maximum(lo - pts, pts - hi), 0.0), axis=1)

@@ -102,7 +102,14 @@ def probe_table(data: dict[str, Any], scenario: Any = None) -> str:
     lines = [f"Scenario: {data['scenario']}    reflections: {data['reflections']}", ""]
     for p in data["points"]:
         x, y, z = p["position_m"]
+        inside = bool(p.get("inside_source"))
         lines.append(f"Point ({x:g}, {y:g}, {z:g}) m")
+        if inside:
+            lines += [
+                "  INSIDE A SOURCE or on its metal (a guide, a horn, a box, or within 1 mm of a",
+                "  wire or a plate): nobody can stand here. The model's numbers follow; maps",
+                "  count this place as over every limit.",
+            ]
         lines.append(
             f"  E {_fmt(p['e_v_m'])} V/m time-averaged, "
             f"{_fmt(p.get('peak_e_v_m'))} V/m while radiating   "
@@ -111,7 +118,7 @@ def probe_table(data: dict[str, Any], scenario: Any = None) -> str:
             f"{density_text(p['peak_power_density_w_m2'])} while radiating"
         )
         for limit_id, q in p["quotients"].items():
-            verdict = "EXCEEDS" if q >= 1 else "below"
+            verdict = "EXCEEDS" if q >= 1 else ("inside a source" if inside else "below")
             device = " (equipment, while radiating)" if limit_id in devices else ""
             lines.append(f"  {limit_id:36s} {share_text(q):>14s} of limit  {verdict}{device}")
         lines += probe_extras(p)

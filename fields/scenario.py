@@ -28,12 +28,13 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import Placement, Radiator
 
 from . import limits as limits_mod
 from .errors import InputError, LimitError, ScenarioError
+from .surroundings import EnclosureModel, ReflectorModel, ShieldModel
 from .validate import Table, suggest
 
 #: Default operating frequency [Hz] (the 2.45 GHz ISM band centre).
@@ -85,6 +86,8 @@ _TOP_KEYS = (
     "sweep",
     "uncertainty",
 )
+#: Distance from a wire or a plate within which a point counts as on a source's metal [m].
+INSIDE_SOURCE_TOLERANCE_M = 1e-3
 #: Top-level keys that make variants of the scenario: not allowed inside an option.
 _VARIANT_KEYS = ("option", "sweep")
 #: Frequencies the models accept at all [Hz]; limits narrow this further.
@@ -167,10 +170,13 @@ class Scenario:
         ``"envelope"`` (worst case) or ``"coherent"``.
     sources : tuple of Source
     limit_ids : tuple of str
-    reflectors, shields : tuple
-        Objects from :mod:`keepclear.fields.reflection` and :mod:`keepclear.fields.shield`.
-    enclosure : object or None
-        An :class:`keepclear.fields.enclosure.Enclosure`.
+    reflectors : tuple of ReflectorModel
+        Reflecting planes (:mod:`keepclear.fields.surroundings` interfaces; the models
+        are in :mod:`keepclear.fields.reflection`).
+    shields : tuple of ShieldModel
+        Shields (models in :mod:`keepclear.fields.shield`).
+    enclosure : EnclosureModel or None
+        The enclosure (model in :mod:`keepclear.fields.enclosure`).
     points : tuple of PointOfInterest
     options : tuple of Option
     document : dict
@@ -185,9 +191,9 @@ class Scenario:
     reflections: str
     sources: tuple[Source, ...]
     limit_ids: tuple[str, ...]
-    reflectors: tuple[Any, ...] = ()
-    shields: tuple[Any, ...] = ()
-    enclosure: Any = None
+    reflectors: tuple[ReflectorModel, ...] = ()
+    shields: tuple[ShieldModel, ...] = ()
+    enclosure: EnclosureModel | None = None
     points: tuple[PointOfInterest, ...] = ()
     options: tuple[Option, ...] = ()
     document: dict[str, Any] = field(default_factory=dict)
@@ -217,9 +223,44 @@ class Scenario:
         """A limit by id, at the scenario frequency (LimitError outside its band)."""
         return self.limit(limit_id).at(self.frequency_hz)
 
+    def inside_source(
+        self, points_m: ArrayLike, tolerance_m: float = INSIDE_SOURCE_TOLERANCE_M
+    ) -> NDArray[np.bool_]:
+        """Which points lie inside a source or on its metal (:func:`inside_source_mask`)."""
+        return inside_source_mask(self, points_m, tolerance_m)
+
     def with_limits(self, limit_ids: tuple[str, ...]) -> Scenario:
         """A copy assessing other limits."""
         return replace(self, limit_ids=limit_ids)
+
+
+def inside_source_mask(
+    scenario: Scenario, points_m: ArrayLike, tolerance_m: float = INSIDE_SOURCE_TOLERANCE_M
+) -> NDArray[np.bool_]:
+    """Which points lie inside any source of a scenario, or on its metal.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    points_m : array_like, shape (N, 3)
+        Points in scenario coordinates [m].
+    tolerance_m : float
+        Distance from a wire or a plate within which a point counts as on it [m]
+        (default 1 mm).
+
+    Returns
+    -------
+    ndarray of bool, shape (N,)
+        True inside a guide, a horn, a box or within ``tolerance_m`` of a wire or a plate
+        of any source (:meth:`keepclear.antennas.base.Radiator.inside_or_on`): not a place
+        where anyone stands.  Its fields are computed as anywhere else, but the outputs
+        mark it and count it as over every limit.
+    """
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    mask = np.zeros(pts.shape[0], dtype=bool)
+    for source in scenario.sources:
+        mask |= source.radiator.inside_or_on(pts, tolerance_m)
+    return mask
 
 
 # ----------------------------------------------------------------- sources
@@ -575,7 +616,7 @@ def _read_reflectors(root: Table, frequency_hz: float) -> tuple[Any, ...]:
     tables = root.tables("reflector")
     if not tables:
         return ()
-    from .reflection import reflector_from_table
+    from .scenario_tables import reflector_from_table
 
     return tuple(reflector_from_table(t, frequency_hz) for t in tables)
 
@@ -584,7 +625,7 @@ def _read_shields(root: Table, frequency_hz: float) -> tuple[Any, ...]:
     tables = root.tables("shield")
     if not tables:
         return ()
-    from .shield import shield_from_table
+    from .scenario_tables import shield_from_table
 
     return tuple(shield_from_table(t, frequency_hz) for t in tables)
 
@@ -593,7 +634,7 @@ def _read_enclosure(root: Table, frequency_hz: float, sources: tuple[Source, ...
     t = root.table("enclosure", None)
     if t is None:
         return None
-    from .enclosure import enclosure_from_table
+    from .scenario_tables import enclosure_from_table
 
     enclosure = enclosure_from_table(t, frequency_hz)
     positions = np.array([s.position_m for s in sources])

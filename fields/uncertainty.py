@@ -151,7 +151,7 @@ def gain_sigma_db(spec: UncertaintySpec, term: RadiatingTerm) -> float:
     """One sigma of a term's gain [dB]: the table's, else the model's stated figure."""
     if spec.gain_db is not None:
         return float(spec.gain_db)
-    return float(getattr(term.radiator, "gain_uncertainty_db", 0.0))
+    return float(term.radiator.gain_uncertainty_db)
 
 
 @dataclass(frozen=True)

@@ -67,15 +67,9 @@ if _available("keepclear.antennas.horn", "PyramidalHorn"):
     KINDS.append("horn")
 
 
-HAS_REFLECTION = _available("keepclear.fields.reflection", "reflector_from_table")
-
-
-HAS_SHIELD = _available("keepclear.fields.shield", "shield_from_table")
-
-
-HAS_ENCLOSURE = _available("keepclear.fields.enclosure", "enclosure_from_table")
-
-
+HAS_REFLECTION = _available("keepclear.fields.scenario_tables", "reflector_from_table")
+HAS_SHIELD = _available("keepclear.fields.scenario_tables", "shield_from_table")
+HAS_ENCLOSURE = _available("keepclear.fields.scenario_tables", "enclosure_from_table")
 MATERIALS = ["concrete", "metal", "wet-ground", "glass", "wood", "plasterboard", "brick"]
 
 

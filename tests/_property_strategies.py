@@ -72,10 +72,10 @@ HAS_APERTURE = _available("keepclear.antennas.aperture", "OpenWaveguide")
 HAS_HORN = _available("keepclear.antennas.horn", "PyramidalHorn")
 
 
-HAS_REFLECTION = _available("keepclear.fields.reflection", "reflector_from_table")
+HAS_REFLECTION = _available("keepclear.fields.scenario_tables", "reflector_from_table")
 
 
-HAS_SHIELD = _available("keepclear.fields.shield", "shield_from_table")
+HAS_SHIELD = _available("keepclear.fields.scenario_tables", "shield_from_table")
 
 
 KINDS = ["isotropic", "dipole", "monopole"]

@@ -17,7 +17,6 @@ from keepclear.fields.enclosure import (
     Enclosure,
     Opening,
     aperture_transmission_cross_section_m2,
-    enclosure_from_table,
     hill_wall_cross_section_m2,
     matched_antenna_cross_section_m2,
     water_load_cross_section_m2,
@@ -25,6 +24,7 @@ from keepclear.fields.enclosure import (
     weyl_mode_count,
 )
 from keepclear.fields.errors import ScenarioError
+from keepclear.fields.scenario_tables import enclosure_from_table
 from keepclear.fields.validate import Table
 
 from ._edge_cases import ENCLOSED, probe

@@ -280,7 +280,7 @@ material = "concrete"
 def test_a_singular_sample_counts_as_exceeding(iso, monkeypatch):
     """A model that returns NaN on its own source point must not crash or hide an exceedance."""
     scenario, keepouts = iso
-    import keepclear.fields.maps as maps_mod
+    import keepclear.fields.maps.evaluation as maps_mod
 
     real = maps_mod.evaluate
 

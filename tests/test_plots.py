@@ -71,16 +71,28 @@ def test_quotient_map_says_what_it_is_against(iso_run):
 
 
 class _Sheet:
-    """A shield-like object that offers only centre, normal and size."""
+    """A shield-like object that offers only centre, normal, size and its outline()."""
 
     center_m = np.array([0.4, 0.0, 0.0])
     normal = np.array([1.0, 0.0, 0.0])
     width_m = 0.6
     height_m = 0.5
 
+    def outline(self):
+        across, up = np.array([0.0, 1.0, 0.0]), np.array([0.0, 0.0, 1.0])
+        w, h = self.width_m / 2, self.height_m / 2
+        return np.array(
+            [
+                self.center_m + a * w * across + b * h * up
+                for a, b in ((-1, -1), (1, -1), (1, 1), (-1, 1))
+            ]
+        )
+
 
 class _Box:
-    """An enclosure-like object with an outline() of corners."""
+    """An enclosure-like object with an outline() of corners and no openings."""
+
+    openings = ()
 
     def outline(self):
         return np.array(

@@ -28,9 +28,9 @@ from keepclear.fields.reflection import (
     fresnel_coefficients,
     image_labels,
     reflected_fields,
-    reflector_from_table,
     transmission_power_factor,
 )
+from keepclear.fields.scenario_tables import reflector_from_table
 from keepclear.fields.validate import Table
 
 from ._edge_cases import FLOOR, probe

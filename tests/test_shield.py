@@ -13,6 +13,7 @@ from keepclear.antennas.base import C_M_S, ModelInputError
 from keepclear.fields import shielding as sh
 from keepclear.fields.errors import ScenarioError
 from keepclear.fields.field import evaluate
+from keepclear.fields.scenario_tables import shield_from_table
 from keepclear.fields.shield import (
     MeshSpec,
     PerforatedSpec,
@@ -20,7 +21,6 @@ from keepclear.fields.shield import (
     SheetSpec,
     Shield,
     SlotSpec,
-    shield_from_table,
 )
 from keepclear.fields.validate import Table
 
