@@ -424,7 +424,8 @@ class WalledAperture(Radiator):
         self.aperture = aperture
         self.kind = aperture.kind
         width, height = aperture.distribution.width_m, aperture.distribution.height_m
-        flare = tuple(float(a) for a in flare_half_angles_deg)
+        flare = (float(flare_half_angles_deg[0]), float(flare_half_angles_deg[1]))
+        self.flare_half_angles_deg = flare
         thick = 0.0 if any(a > 0 for a in flare) else float(wall_m)
         self.flange_m = check_flange(flange_m, width + 2 * thick, height + 2 * thick)
         self.gain_uncertainty_db = float(getattr(aperture, "gain_uncertainty_db", 0.0))
