@@ -481,9 +481,7 @@ class WalledAperture(Radiator):
             at = self._aperture_e_y(nodes[:, 0], nodes[:, 1])
             slope = (inner - at) / eps
             d = np.array([sign * np.sin(alpha_h), 0.0, np.cos(alpha_h)])
-            edges.append(
-                RimEdge(nodes, w, ey, sign * ex, d, at, slope, self._delta(2 * ly, n))
-            )
+            edges.append(RimEdge(nodes, w, ey, sign * ex, d, at, slope, self._delta(2 * ly, n)))
         return edges
 
     def _flange_edges(self, w_m: float, h_m: float) -> list[RimEdge]:

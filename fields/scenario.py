@@ -263,7 +263,6 @@ def _build_wire(t: Table, f: float, p: float, kind: str) -> Radiator:
 
 def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
     from keepclear.antennas.aperture import OpenWaveguide
-
     from keepclear.antennas.walls import WalledAperture
 
     broad, narrow = _feed_dimensions(t)
@@ -300,9 +299,7 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
     from keepclear.antennas.walls import WalledAperture
 
     placement = _placement(t, "boresight", polarization=True)
-    horn = t.build(
-        PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement
-    )
+    horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
     flare = horn.geometry.flare_half_angles_deg
     return t.build(WalledAperture, horn, _flange(t), flare_half_angles_deg=flare)
 
@@ -618,4 +615,3 @@ def load_scenario(path: str | Path) -> Scenario:
         return scenario_from_document(document, label)
     except RecursionError:
         raise ScenarioError("is nested too deeply to be a scenario", label) from None
-
