@@ -23,6 +23,7 @@ import html
 from typing import Any
 
 from .cautions import CAUTION_LINES, caution_block
+from .report_text import share_text
 
 #: What the estimate leaves out, as printed in the report.
 LEFT_OUT: tuple[tuple[str, str], ...] = (
@@ -80,9 +81,12 @@ h3 { font-size: 1.02rem; margin: 1.4rem 0 .4rem; }
 p.meta { color: var(--muted); margin: 0 0 1rem; font-size: .9rem; }
 table { border-collapse: collapse; width: 100%; margin: .5rem 0 1rem; font-size: .88rem; }
 th, td { border-bottom: 1px solid var(--rule); padding: .3rem .45rem; text-align: left;
-         vertical-align: top; }
+         vertical-align: top; overflow-wrap: break-word; }
+.free { overflow-wrap: anywhere; }
 th { background: var(--band); font-weight: 600; }
-td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+td .unit2 { color: var(--muted); font-size: .9em; }
+p.legend { font-size: .84rem; color: var(--muted); margin: -.6rem 0 1rem; }
 .summary { border: 2px solid var(--ink); padding: .8rem 1rem; margin: 1rem 0 1.4rem;
            background: #fffdf8; }
 .summary p { margin: .3rem 0; }
@@ -100,9 +104,11 @@ dl dt { font-weight: 600; margin-top: .5rem; }
 dl dd { margin: .1rem 0 .3rem 1.2rem; }
 footer { margin-top: 2.5rem; border-top: 1px solid var(--rule); padding-top: .6rem;
          font-size: .82rem; color: var(--muted); }
-@page { size: A4; margin: 16mm 14mm 18mm; }
+@page { margin: 15mm 13mm 17mm; }
 @media print {
-  body { max-width: none; margin: 0; padding: 0; font-size: 10.5pt; }
+  body { max-width: none; margin: 0; padding: 0; font-size: 10pt; }
+  table { font-size: 8.2pt; }
+  th, td { padding: .2rem .3rem; }
   h2 { break-after: avoid; page-break-after: avoid; }
   table, figure, .summary, .caution, pre, dl { break-inside: avoid; page-break-inside: avoid; }
   figure.map + figure.map { break-before: page; page-break-before: always; }
@@ -127,6 +133,48 @@ def _num(x: float | None, digits: int = 3) -> str:
 
 def _metres(x: float | None) -> str:
     return "–" if x is None else f"{x:.2f}&nbsp;m"
+
+
+def _id(limit_id: str) -> str:
+    """A limit id that may wrap after its "/" and "-" (never inside a word)."""
+    return _e(limit_id).replace("/", "/<wbr>").replace("-", "-<wbr>")
+
+
+def _free(text: Any) -> str:
+    """A cell of free text (a name or description) that may wrap anywhere if it must."""
+    return f'<span class="free">{_e(text)}</span>'
+
+
+def _density(x: float | None, digits: int = 3) -> str:
+    """A power density in W/m² with mW/cm² beside it (1 W/m² = 0.1 mW/cm²)."""
+    if x is None:
+        return "–"
+    return (
+        f"{_num(x, digits)}&nbsp;W/m² "
+        f'<span class="unit2">({_num(x / 10.0, digits)}&nbsp;mW/cm²)</span>'
+    )
+
+
+def _share(q: float) -> str:
+    """An exposure quotient as a share of the limit, marked where the limit is reached."""
+    text = _e(share_text(q)).replace(" ", "&nbsp;")
+    return f'<span class="exceed">{text}</span>' if q >= 1 else text
+
+
+def _limit_keys(limit_ids: list[str]) -> dict[str, str]:
+    """Short column keys L1, L2, ... for the limits, in the scenario's order."""
+    return {limit_id: f"L{i}" for i, limit_id in enumerate(limit_ids, start=1)}
+
+
+def _legend(keys: dict[str, str], data: dict[str, Any]) -> str:
+    """One line naming each column key's limit and its value."""
+    values = {v["id"]: v for v in data["limits"]}
+    parts = []
+    for limit_id, key in keys.items():
+        v = values.get(limit_id)
+        value = "" if v is None else f" ({_num(v['power_density_w_m2'])}&nbsp;W/m²)"
+        parts.append(f"<strong>{key}</strong> = {_id(limit_id)}{value}")
+    return '<p class="legend">' + "; ".join(parts) + ".</p>"
 
 
 def _img(png: bytes, alt: str) -> str:
@@ -159,12 +207,12 @@ def _summary(data: dict[str, Any]) -> str:
         cyl = k["cylinder"]
         zone = k["floor_zone"]
         if not k["reached"]:
-            rows.append([_e(k["limit"]), _num(k["limit_w_m2"]), "not reached", "–", "–", "–"])
+            rows.append([_id(k["limit"]), _density(k["limit_w_m2"]), "not reached", "–", "–", "–"])
             continue
         rows.append(
             [
-                _e(k["limit"]),
-                _num(k["limit_w_m2"]),
+                _id(k["limit"]),
+                _density(k["limit_w_m2"]),
                 _metres(k["distance_m"]),
                 f"<strong>{_metres(k['mark_out_m'])}</strong>",
                 _metres(zone["circle"]["radius_m"]) if zone["circle"]["radius_m"] else "–",
@@ -176,7 +224,7 @@ def _summary(data: dict[str, Any]) -> str:
     table = _table(
         [
             "limit",
-            "limit W/m²",
+            "limit value",
             "keep-out radius",
             "mark out",
             f"circle on floor plane (z = {floor_h:.2f} m)",
@@ -235,8 +283,8 @@ def _results(data: dict[str, Any]) -> str:
         rows.append(
             [
                 _e(k["limit"]),
-                _num(k["limit_w_m2"]),
-                "–" if avg is None else f"{avg / 60:g}&nbsp;min",
+                _density(k["limit_w_m2"])
+                + ("" if avg is None else f", averaged over {avg / 60:g}&nbsp;min"),
                 _metres(k["distance_m"]),
                 _metres(k["distance_with_uncertainty_m"])
                 + (
@@ -254,8 +302,7 @@ def _results(data: dict[str, Any]) -> str:
     return _table(
         [
             "limit",
-            "W/m²",
-            "averaging",
+            "limit value",
             "keep-out (model)",
             "with model uncertainty",
             "screening (far-field formula)",
@@ -264,7 +311,7 @@ def _results(data: dict[str, Any]) -> str:
             "zone area",
         ],
         rows,
-        numeric={1, 2, 3, 4, 5, 8},
+        numeric={2, 3, 4, 7},
     )
 
 
@@ -272,26 +319,25 @@ def _points(data: dict[str, Any]) -> str:
     points = data["points"]
     if not points:
         return "<p>The scenario names no places (<code>[[point]]</code>).</p>"
-    limit_ids = [v["id"] for v in data["limits"]]
-    header = ["", "place", "position (x, y, z)", "S time-avg W/m²", "S while on W/m²"]
-    header += [f"% of {_e(i)}" for i in limit_ids]
+    keys = _limit_keys([v["id"] for v in data["limits"]])
+    header = ["", "place", "position (x, y, z)", "S time-averaged", "S while on"]
+    header += [f"share of {key}" for key in keys.values()]
     rows = []
     for p in points:
         x, y, z = p["position_m"]
         cells = [
             f"<strong>{_e(p.get('map_letter', ''))}</strong>",
-            _e(p["name"]),
+            _free(p["name"]),
             f"({x:g}, {y:g}, {z:g})&nbsp;m",
-            _num(p["power_density_w_m2"]),
-            _num(p["peak_power_density_w_m2"]),
+            _density(p["power_density_w_m2"]),
+            _density(p["peak_power_density_w_m2"]),
         ]
-        for i in limit_ids:
-            q = p["quotients"][i]
-            text = f"{100 * q:.3g}&nbsp;%"
-            cells.append(f'<span class="exceed">{text}</span>' if q >= 1 else text)
+        cells += [_share(p["quotients"][i]) for i in keys]
         rows.append(cells)
-    return _table(header, rows, numeric=set(range(3, len(header)))) + (
-        "<p>The letters are the places’ marks on the maps.</p>"
+    return (
+        _table(header, rows, numeric=set(range(3, len(header))))
+        + _legend(keys, data)
+        + "<p>The letters are the places’ marks on the maps.</p>"
     )
 
 
@@ -299,33 +345,37 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
     comp = data.get("comparison")
     if not comp:
         return "<p>The scenario lists no alternatives (<code>[[option]]</code>).</p>"
-    limits = comp["limits"]
-    header = ["rank", "option", "description"] + [f"keep-out {_e(i)}" for i in limits]
-    header += ["floor zone m²", "leakage 5 cm W/m²", "worst named place"]
+    keys = _limit_keys(list(comp["limits"]))
+    header = ["#", "option", "description"] + [f"keep-out {key}" for key in keys.values()]
+    header += ["floor zone", "leakage at 5 cm", "worst named place"]
     rows = []
     for row in comp["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
-        cells = [str(row["rank"]), _e(row["name"]), _e(row["description"])]
-        for i in limits:
+        cells = [str(row["rank"]), _free(row["name"]), _free(row["description"])]
+        for i in keys:
             e = k[i]
             text = _metres(e["distance_m"])
             if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
                 text += f" ({_metres(e['distance_with_uncertainty_m'])})"
             cells.append(text)
-        cells.append(_num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)))
-        cells.append(_num(row["leakage_5cm_w_m2"]))
+        cells.append(
+            _num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)) + "&nbsp;m²"
+        )
+        cells.append(_density(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]
         cells.append(
             "–"
             if wp is None
-            else f"{_e(wp['name'])}: {100 * wp['quotient']:.3g}&nbsp;% of {_e(wp['limit'])}"
+            else f"{_free(wp['name'])}: {_share(wp['quotient'])} of "
+            f"{keys.get(wp['limit'], _e(wp['limit']))}"
         )
         rows.append(cells)
     parts = [
         f"<p>Ranked by {_e(comp['ranked_by'])}. Floor plane at z = "
         f"{comp['floor_plane']['height_m']:.2f}&nbsp;m. The ranking says which option needs "
         "the least space; it does not make any option safe by itself.</p>",
-        _table(header, rows, numeric={0, *range(3, 3 + len(limits) + 2)}),
+        _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
+        _legend(keys, data),
     ]
     if figure is not None:
         parts.append(
@@ -410,7 +460,7 @@ def _limit_sources(data: dict[str, Any]) -> str:
             fields.append(f"H {_num(v['h_a_m'], 4)}&nbsp;A/m")
         rows.append(
             [
-                _e(v["id"]),
+                _id(v["id"]),
                 ", ".join(fields),
                 "–" if avg is None else f"{avg / 60:g}&nbsp;min",
                 _e(v["source"]),

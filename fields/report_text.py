@@ -62,12 +62,12 @@ def probe_table(data: dict[str, Any]) -> str:
         lines.append(f"Point ({x:g}, {y:g}, {z:g}) m")
         lines.append(
             f"  E {_fmt(p['e_v_m'])} V/m   H {_fmt(p['h_a_m'])} A/m   "
-            f"S {_fmt(p['power_density_w_m2'])} W/m2 time-averaged, "
-            f"{_fmt(p['peak_power_density_w_m2'])} W/m2 while radiating"
+            f"S {density_text(p['power_density_w_m2'])} time-averaged, "
+            f"{density_text(p['peak_power_density_w_m2'])} while radiating"
         )
         for limit_id, q in p["quotients"].items():
             verdict = "EXCEEDS" if q >= 1 else "below"
-            lines.append(f"  {limit_id:36s} {100 * q:10.3g} % of limit  {verdict}")
+            lines.append(f"  {limit_id:36s} {share_text(q):>14s} of limit  {verdict}")
         lines.append("")
     return "\n".join(lines).rstrip()
 
@@ -134,3 +134,45 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
     if scenario is not None and np.any([k["distance_m"] > 0 for k in data["keepout"]]):
         lines += ["", "Keep people outside this radius while the source can radiate."]
     return "\n".join(lines)
+
+
+def share_text(quotient: float) -> str:
+    """An exposure quotient as a reader-friendly share of the limit.
+
+    Up to ten times the limit the share is a percentage with three significant figures and
+    thousands separators ("0.0123 %", "45.6 %", "1,300 %"); above 1,000 % it is a multiple of
+    the limit ("x13", "x2,450", "x7.84 million"), which reads better than a long percentage.
+
+    Parameters
+    ----------
+    quotient : float
+        Exposure quotient (1 = at the limit) [1].
+
+    Returns
+    -------
+    str
+    """
+    q = float(quotient)
+    if not np.isfinite(q):
+        return "not finite"
+    if q <= 10.0:
+        percent = 100.0 * q
+        if percent == 0.0:
+            return "0 %"
+        if percent >= 100.0:
+            return f"{round(percent):,} %"
+        return f"{percent:.3g} %"
+    if q < 1e6:
+        return f"x{q:,.3g}" if q < 100 else f"x{round(q):,}"
+    for scale, word in ((1e12, "trillion"), (1e9, "billion"), (1e6, "million")):
+        if q >= scale:
+            return f"x{q / scale:.3g} {word}"
+    return f"x{q:.3g}"
+
+
+def density_text(power_density_w_m2: float | None, digits: int = 3) -> str:
+    """A power density in W/m2 with the same value in mW/cm2 beside it (1 W/m2 = 0.1 mW/cm2)."""
+    if power_density_w_m2 is None:
+        return "-"
+    w_m2 = _fmt(power_density_w_m2, digits)
+    return f"{w_m2} W/m2 ({_fmt(power_density_w_m2 / 10.0, digits)} mW/cm2)"
