@@ -378,7 +378,7 @@ class WalledAperture(Radiator):
     normalize : {"aperture", "total"}
         ``"aperture"`` (default): the aperture term keeps the scaling that gives it
         ``power_w`` alone and the rim term comes on top, so the model radiates
-        ``power_ratio * power_w`` (1.15 for an open WR-340 guide, 1.07 for the demo
+        ``power_ratio * power_w`` (1.33 for an open WR-340 guide, 1.05 for the demo
         horn): conservative everywhere, and the front stays what the aperture model
         gives (validated there within 0.5-0.65 dB, low).  ``"total"``: aperture plus
         rim scaled together to radiate exactly ``power_w``; this lowers the front by
