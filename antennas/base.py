@@ -49,6 +49,8 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import constants
 
+from .errors import InputError
+
 #: Characteristic impedance of free space [ohm] (from CODATA mu0 and eps0).
 ETA0_OHM: Final[float] = float(np.sqrt(constants.mu_0 / constants.epsilon_0))
 #: Speed of light in vacuum [m s^-1].
@@ -58,17 +60,29 @@ C_M_S: Final[float] = float(constants.c)
 DEFAULT_CHUNK_BYTES: Final[int] = 64 * 1024**2
 
 
-class ModelInputError(ValueError):
+class ModelInputError(InputError, ValueError):
     """A source model was given parameters it cannot represent.
 
-    The message names the parameter, the value and what is allowed; the
-    scenario loader prefixes the file and key path.
+    An :class:`~keepclear.antennas.errors.InputError` whose key is the model parameter:
+    the message names the parameter, the value and what is allowed; the scenario loader
+    relocates it to the file and key path, and raised at run time it is still bad input
+    (exit status 2 on the command line).
+
+    Parameters
+    ----------
+    parameter : str
+        The model parameter (the scenario key where they coincide).
+    message : str
+        What is wrong and what is allowed.
     """
 
     def __init__(self, parameter: str, message: str) -> None:
-        super().__init__(message)
+        super().__init__(message, None, parameter)
         self.parameter = parameter
-        self.message = message
+
+    def located(self, source: str | None = None, key: str | None = None) -> InputError:
+        """An :class:`InputError` with the file and/or key filled in where still missing."""
+        return InputError(self.message, self.source or source, self.key or key)
 
 
 class ModelRangeWarning(UserWarning):
@@ -332,6 +346,40 @@ class Radiator(abc.ABC):
         """
         return float(np.max(self.gain(fibonacci_sphere(samples))))
 
+    def peak_direction(self, samples: int = 4000) -> NDArray[np.float64]:
+        """Unit vector (scenario axes) towards the largest gain.
+
+        The model's local axes (+z, +x, +y, then their opposites) and a quasi-uniform set
+        of ``samples`` directions are searched, then a cap of 5 degrees about the best of
+        them with as many directions again.  Directions within 1e-9
+        (relative) of the largest gain count as equal and the first in the set's fixed
+        order is taken, so a pattern with a ring or a plane of maxima (a wire's broadside,
+        an isotropic source) gives the same answer on every machine.
+
+        Parameters
+        ----------
+        samples : int
+            Directions in each of the two passes.
+
+        Returns
+        -------
+        ndarray, shape (3,)
+        """
+        # The model's own axes first (boresight, broadside), so an exact axial peak wins.
+        axes = self.placement.rotation.T
+        sphere = np.concatenate([axes[[2, 0, 1]], -axes[[2, 0, 1]], fibonacci_sphere(samples)])
+        best = _first_peak(sphere, self.gain(sphere))
+        # A cap about the coarse peak: tangent offsets of up to 5 degrees.
+        helper = np.array([1.0, 0.0, 0.0]) if abs(best[0]) < 0.9 else np.array([0.0, 1.0, 0.0])
+        u = np.cross(best, helper)
+        u /= np.linalg.norm(u)
+        v = np.cross(best, u)
+        cap = fibonacci_sphere(samples)
+        cap = cap[cap[:, 2] > np.cos(np.radians(5.0))]
+        refined = best[None, :] * cap[:, 2:3] + u[None, :] * cap[:, 0:1] + v[None, :] * cap[:, 1:2]
+        candidates = np.concatenate([best[None, :], refined], axis=0)
+        return _first_peak(candidates, self.gain(candidates))
+
     def far_field_power_density(self, points_m: ArrayLike) -> NDArray[np.float64]:
         """Far-field (pattern-based) power density P G / (4 pi r^2) at points [W m^-2].
 
@@ -344,6 +392,14 @@ class Radiator(abc.ABC):
         with np.errstate(invalid="ignore", divide="ignore"):
             g = self.gain(np.where(r[:, None] > 0, rel, [[0.0, 0.0, 1.0]]))
             return np.where(r > 0, self.power_w * g / (4 * np.pi * r**2), np.inf)
+
+
+def _first_peak(directions: NDArray[np.float64], gain: NDArray[np.float64]) -> NDArray[np.float64]:
+    """The first direction whose gain is within 1e-9 (relative) of the largest."""
+    top = float(np.max(gain))
+    index = int(np.flatnonzero(gain >= top * (1.0 - 1e-9))[0])
+    d = directions[index]
+    return d / np.linalg.norm(d)
 
 
 def fibonacci_sphere(n: int) -> NDArray[np.float64]:

@@ -1,49 +1,294 @@
-"""The orchestrator: scenario -> fields -> limits -> keep-out, as plain data.
+"""The orchestrator: each job of the tool as named steps with typed results.
 
-Each function returns the JSON-ready dictionary of the stable contract
-(``schema_version`` 1); the command line prints it or renders it as text.
-Computation happens here and in the modules below; the CLI only formats.
+Every public job (``limits``, ``probe``, ``keepout``, ``map``, ``compare``, ``assess``)
+is a function here that takes a validated :class:`~keepclear.fields.scenario.Scenario`
+and returns a frozen result whose ``to_dict()`` is the contract's JSON object of the
+matching command (``schema_version`` 1).  The full assessment is a short sequence of
+steps, each a function with typed inputs and outputs::
+
+    keepout -> maps -> zones -> places -> options -> report
+
+and :func:`assess` composes them.  Writing files is a separate consumer of the typed
+result (:func:`write_assessment`); the command line (:mod:`keepclear.fields.cli`) only
+parses, calls these functions and prints.
 """
 
 from __future__ import annotations
 
+import functools
+import math
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field, replace
+from pathlib import Path
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from . import limits as limits_mod
+from . import maps
 from .cautions import CAUTION_TEXT
-from .field import FieldResult, evaluate
+from .compare import Comparison
+from .errors import InputError, LimitError, ResourceError
+from .field import FieldResult, evaluate, prepare
 from .keepout import KeepoutResult, keepout_distances
+from .outputs import (  # noqa: F401 - re-exported: the output folders' former home
+    discard_staging,
+    publish_output_folder,
+    stage_output_folder,
+)
 from .scenario import Scenario
 
 SCHEMA_VERSION = 1
+#: Largest coordinate accepted from arguments, as in scenario files and point files [m].
+COORDINATE_BOUND_M = 1e6
+#: Smallest map extent accepted [m] (a tenth of a millimetre).
+SMALLEST_GRID_M = 1e-4
+
+#: ``progress(label)`` gives a ``(done, total)`` callback for a stage, or None.
+ProgressFactory = Callable[[str], Any]
+
+
+# ------------------------------------------------------------------ argument checks
+def check_height(height_m: float | None) -> None:
+    """Refuse a floor-plane height that is not a finite number within bounds (``--height-m``)."""
+    if height_m is not None and not (np.isfinite(height_m) and abs(height_m) <= COORDINATE_BOUND_M):
+        raise InputError(
+            f"must be a finite height within +-{COORDINATE_BOUND_M:g} m", "argument", "--height-m"
+        )
+
+
+def check_grid(
+    half_extent_m: float | None = None, step_m: float | None = None, pixels: int | None = None
+) -> None:
+    """Refuse grid settings out of range, or a grid too large, before any computation.
+
+    Raises
+    ------
+    InputError
+        Naming ``--extent-m``, ``--step-m`` or ``--pixels``.
+    """
+    for value, option, smallest in (
+        (half_extent_m, "--extent-m", SMALLEST_GRID_M),
+        (step_m, "--step-m", 0.0),
+    ):
+        if value is not None and not (
+            np.isfinite(value) and value > 0 and smallest <= value <= COORDINATE_BOUND_M
+        ):
+            raise InputError(
+                f"must be a positive number of metres from {smallest:g} to "
+                f"{COORDINATE_BOUND_M:g}, got {value}",
+                "argument",
+                option,
+            )
+    if pixels is not None and pixels < 3:
+        raise InputError(f"must be at least 3, got {pixels}", "argument", "--pixels")
+    if step_m is not None and pixels is not None:
+        raise InputError("give --step-m or --pixels, not both", "argument", "--pixels")
+    if pixels is not None:
+        n, option = pixels, "--pixels"
+    elif step_m is not None and half_extent_m is not None:
+        n, option = 2 * int(np.ceil(half_extent_m / step_m - 1e-9)) + 1, "--step-m"
+    else:
+        return
+    if n > maps.MAX_PIXELS_PER_SIDE or maps.grid_bytes(n * n, 4) > maps.MAX_GRID_BYTES:
+        raise ResourceError(
+            f"a {n} x {n} map needs about {maps.grid_bytes(n * n, 4) / 2**20:.0f} MiB "
+            f"(at most {maps.MAX_PIXELS_PER_SIDE} samples a side and "
+            f"{maps.MAX_GRID_BYTES / 2**20:.0f} MiB allowed); use a coarser {option} or a "
+            "smaller --extent-m",
+            "argument",
+            option,
+        )
+
+
+def select_limits(scenario: Scenario, limit_ids: Sequence[str] | None) -> tuple[str, ...]:
+    """The limit ids to assess: the scenario's, or these, each checked at its frequency.
+
+    Raises
+    ------
+    InputError
+        Naming ``--limit`` for an unknown id or one that does not cover the frequency.
+    """
+    if not limit_ids:
+        return tuple(scenario.limit_ids)
+    seen: list[str] = []
+    for limit_id in limit_ids:
+        try:
+            limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        except LimitError as exc:
+            raise InputError(exc.message, "argument", "--limit") from None
+        if limit_id not in seen:
+            seen.append(limit_id)
+    return tuple(seen)
+
+
+def select_option(scenario: Scenario, option: str | None) -> Scenario:
+    """The scenario of the named ``[[option]]`` (or the scenario itself for None)."""
+    if option is None:
+        return scenario
+    for o in scenario.options:
+        if o.name == option:
+            return o.scenario
+    names = ", ".join(repr(o.name) for o in scenario.options) or "none (no [[option]])"
+    raise InputError(
+        f"no option named {option!r}; the scenario's options: {names}", "argument", "--option"
+    )
+
+
+def _callback(progress: ProgressFactory | None, label: str) -> Any:
+    return progress(label) if progress is not None else None
+
+
+# ------------------------------------------------------------------ limits
+@dataclass(frozen=True)
+class LimitsResult:
+    """Every known limit at one frequency (``keepclear limits``).
+
+    Attributes
+    ----------
+    frequency_hz : float
+        Frequency of evaluation [Hz].
+    limits : tuple of LimitValue
+        The limits that cover the frequency, in the contract's order (power density in
+        [W m^-2], field strengths in [V m^-1] and [A m^-1], averaging time in [s]).
+    not_covering_frequency : tuple of str
+        Ids of the limits whose published range does not include the frequency.
+    """
+
+    frequency_hz: float
+    limits: tuple[limits_mod.LimitValue, ...]
+    not_covering_frequency: tuple[str, ...]
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``limits --json`` object."""
+        return {
+            "schema_version": SCHEMA_VERSION,
+            "frequency_hz": self.frequency_hz,
+            "limits": [
+                {
+                    "id": v.id,
+                    "power_density_w_m2": v.power_density_w_m2,
+                    "e_v_m": v.e_v_m,
+                    "h_a_m": v.h_a_m,
+                    "averaging_time_s": v.averaging_time_s,
+                    "source": v.source,
+                    "tier": v.tier,
+                    "population": v.population,
+                    "expression": v.expression,
+                }
+                for v in self.limits
+            ],
+            "not_covering_frequency": list(self.not_covering_frequency),
+            "caution": CAUTION_TEXT,
+        }
+
+
+def limits(frequency_hz: float = 2.45e9) -> LimitsResult:
+    """Every known exposure limit at a frequency [Hz], with its source."""
+    if not (isinstance(frequency_hz, int | float) and math.isfinite(frequency_hz)):
+        raise InputError("must be a finite frequency in Hz", "argument", "--frequency-hz")
+    covered, uncovered = limits_mod.values_at(frequency_hz)
+    return LimitsResult(frequency_hz, tuple(covered), tuple(uncovered))
 
 
 def limits_data(frequency_hz: float) -> dict[str, Any]:
     """Every known limit at a frequency (contract ``limits`` JSON)."""
-    covered, uncovered = limits_mod.values_at(frequency_hz)
-    return {
-        "schema_version": SCHEMA_VERSION,
-        "frequency_hz": frequency_hz,
-        "limits": [
-            {
-                "id": v.id,
-                "power_density_w_m2": v.power_density_w_m2,
-                "e_v_m": v.e_v_m,
-                "h_a_m": v.h_a_m,
-                "averaging_time_s": v.averaging_time_s,
-                "source": v.source,
-                "tier": v.tier,
-                "population": v.population,
-                "expression": v.expression,
+    return limits(frequency_hz).to_dict()
+
+
+# ------------------------------------------------------------------- probe
+@dataclass(frozen=True, eq=False)
+class ProbeResult:
+    """Fields and exposure quotients at points (``keepclear probe``).
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario probed (its limits are the quotients' limits).
+    points_m : ndarray, shape (N, 3)
+        The points, in scenario coordinates [m].
+    fields : FieldResult
+        Time-averaged RMS ``e_v_m`` [V m^-1] and ``h_a_m`` [A m^-1], time-averaged
+        ``power_density_w_m2`` [W m^-2], and the same while radiating (``peak_*``).
+    names : tuple of str, optional
+        The names of the scenario's ``[[point]]`` places, when those are what was probed.
+    """
+
+    scenario: Scenario
+    points_m: NDArray[np.float64]
+    fields: FieldResult
+    names: tuple[str, ...] | None = None
+
+    @property
+    def frequency_hz(self) -> float:
+        """Operating frequency [Hz]."""
+        return self.scenario.frequency_hz
+
+    @property
+    def e_v_m(self) -> NDArray[np.float64]:
+        """Time-averaged RMS electric field strength [V m^-1]."""
+        return self.fields.e_v_m
+
+    @property
+    def h_a_m(self) -> NDArray[np.float64]:
+        """Time-averaged RMS magnetic field strength [A m^-1]."""
+        return self.fields.h_a_m
+
+    @property
+    def power_density_w_m2(self) -> NDArray[np.float64]:
+        """Time-averaged plane-wave-equivalent power density [W m^-2]."""
+        return self.fields.power_density_w_m2
+
+    @property
+    def peak_power_density_w_m2(self) -> NDArray[np.float64]:
+        """Power density while radiating [W m^-2]."""
+        return self.fields.peak_power_density_w_m2
+
+    @functools.cached_property
+    def quotients(self) -> dict[str, NDArray[np.float64]]:
+        """Exposure quotient per limit id, shape (N,) each (time-averaged fields) [1]."""
+        return quotients_at(self.scenario, self.fields)
+
+    def point_dicts(self) -> list[dict[str, Any]]:
+        """One JSON object a point (the ``points`` list of ``probe --json``)."""
+        from .places import add_spatial_averages, allowed_seconds
+
+        r = self.fields
+        quotients = self.quotients
+        out = []
+        for i, p in enumerate(self.points_m):
+            allowed, rules = allowed_seconds(self.scenario, quotients, i)
+            entry: dict[str, Any] = {
+                "position_m": [float(x) for x in p],
+                "e_v_m": float(r.e_v_m[i]),
+                "h_a_m": float(r.h_a_m[i]),
+                "power_density_w_m2": float(r.power_density_w_m2[i]),
+                "peak_power_density_w_m2": float(r.peak_power_density_w_m2[i]),
+                "peak_e_v_m": float(r.peak_e_v_m[i]),
+                "peak_h_a_m": float(r.peak_h_a_m[i]),
+                "quotients": {k: float(q[i]) for k, q in quotients.items()},
+                "allowed_s": allowed,
+                "allowed_rule": {k: rules[k] for k, v in allowed.items() if v is not None},
             }
-            for v in covered
-        ],
-        "not_covering_frequency": list(uncovered),
-        "caution": CAUTION_TEXT,
-    }
+            out.append(entry)
+        if self.names is not None:
+            # The scenario's named places: say which is which (an added key, "name").
+            for entry, name in zip(out, self.names, strict=True):
+                entry["name"] = name
+            add_spatial_averages(self.scenario, out)
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``probe --json`` object."""
+        return {
+            "schema_version": SCHEMA_VERSION,
+            "frequency_hz": self.scenario.frequency_hz,
+            "scenario": self.scenario.name,
+            "reflections": self.scenario.reflections,
+            "points": self.point_dicts(),
+            "caution": CAUTION_TEXT,
+        }
 
 
 def quotients_at(scenario: Scenario, result: FieldResult) -> dict[str, NDArray[np.float64]]:
@@ -57,37 +302,57 @@ def quotients_at(scenario: Scenario, result: FieldResult) -> dict[str, NDArray[n
     return out
 
 
+def probe(
+    scenario: Scenario,
+    points: ArrayLike | None = None,
+    *,
+    limits: Sequence[str] | None = None,
+    option: str | None = None,
+) -> ProbeResult:
+    """Fields, power density and exposure quotients at points.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    points : array_like, shape (N, 3) or (3,), optional
+        Points in scenario coordinates [m]; default the scenario's named ``[[point]]``
+        places (then each result carries its ``name``).
+    limits : sequence of str, optional
+        Limit ids for the quotients (default: the scenario's).
+    option : str, optional
+        Probe this ``[[option]]`` of the scenario instead of the base.
+
+    Returns
+    -------
+    ProbeResult
+    """
+    scenario = select_option(scenario, option)
+    if limits:
+        scenario = scenario.with_limits(select_limits(scenario, limits))
+    names = None
+    if points is None:
+        if not scenario.points:
+            raise InputError(
+                "give at least one --at X,Y,Z or a --points file (the scenario has no [[point]])",
+                "argument",
+                "--at",
+            )
+        pts = np.array([p.position_m for p in scenario.points], dtype=float)
+        names = tuple(p.name for p in scenario.points)
+    else:
+        pts = np.asarray(points, dtype=float).reshape(-1, 3)
+    return ProbeResult(scenario, pts, evaluate(scenario, pts), names)
+
+
 def probe_data(
     scenario: Scenario, points_m: NDArray[np.float64]
 ) -> tuple[dict[str, Any], FieldResult]:
     """Fields and exposure quotients at points (contract ``probe`` JSON)."""
-    result = evaluate(scenario, points_m)
-    quotients = quotients_at(scenario, result)
-    points = []
-    for i, p in enumerate(points_m):
-        points.append(
-            {
-                "position_m": [float(x) for x in p],
-                "e_v_m": float(result.e_v_m[i]),
-                "h_a_m": float(result.h_a_m[i]),
-                "power_density_w_m2": float(result.power_density_w_m2[i]),
-                "peak_power_density_w_m2": float(result.peak_power_density_w_m2[i]),
-                "peak_e_v_m": float(result.peak_e_v_m[i]),
-                "peak_h_a_m": float(result.peak_h_a_m[i]),
-                "quotients": {k: float(q[i]) for k, q in quotients.items()},
-            }
-        )
-    data = {
-        "schema_version": SCHEMA_VERSION,
-        "frequency_hz": scenario.frequency_hz,
-        "scenario": scenario.name,
-        "reflections": scenario.reflections,
-        "points": points,
-        "caution": CAUTION_TEXT,
-    }
-    return data, result
+    result = probe(scenario, points_m)
+    return result.to_dict(), result.fields
 
 
+# ----------------------------------------------------------------- keepout
 def keepout_entry(r: KeepoutResult) -> dict[str, Any]:
     """One ``keepout`` list entry (contract keys first)."""
     return {
@@ -113,66 +378,310 @@ def keepout_entry(r: KeepoutResult) -> dict[str, Any]:
     }
 
 
+@dataclass(frozen=True, eq=False)
+class KeepoutReport:
+    """Keep-out distance about the first source for each limit (``keepclear keepout``).
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario assessed (the option's, when one was chosen).
+    distances : tuple of KeepoutResult
+        One per limit, in order: ``distance_m`` [m] (radius of the smallest sphere about
+        ``centre_m`` holding every point at or above the limit), ``direction`` (unit
+        vector to the farthest such point), ``limit_w_m2`` [W m^-2], and the screening
+        and uncertainty figures.
+    spread : dict, optional
+        With ``[uncertainty]``: ``{"spec": ..., "per_limit": {id: (median_m, p95_m)}}``, the
+        Monte Carlo spread of each keep-out distance [m] (:func:`uncertainty_data`).
+    """
+
+    scenario: Scenario
+    distances: tuple[KeepoutResult, ...]
+    spread: dict[str, Any] | None = None
+
+    @property
+    def average_power_w(self) -> float:
+        """Sum of the sources' time-averaged powers [W]."""
+        return self.scenario.average_power_w
+
+    @property
+    def centre_m(self) -> NDArray[np.float64]:
+        """The keep-out centre, the first source's reference point [m]."""
+        return self.scenario.centre_m
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``keepout --json`` object."""
+        s = self.scenario
+        data = {
+            "schema_version": SCHEMA_VERSION,
+            "frequency_hz": s.frequency_hz,
+            "scenario": s.name,
+            "average_power_w": s.average_power_w,
+            "centre_m": [float(x) for x in s.centre_m],
+            "reflections": s.reflections,
+            "keepout": [keepout_entry(r) for r in self.distances],
+            "caution": CAUTION_TEXT,
+        }
+        _add_spread(data["keepout"], self.spread)
+        if self.spread is not None:
+            data["uncertainty"] = self.spread["spec"]
+        return data
+
+
+def uncertainty_data(scenario: Scenario, results: list[KeepoutResult]) -> dict[str, Any] | None:
+    """The Monte Carlo spread of each keep-out (None without ``[uncertainty]``).
+
+    Returns ``{"spec": ..., "per_limit": {id: (median_m, p95_m)}}``.
+    """
+    spec = scenario.uncertainty
+    if spec is None:
+        return None
+    from .field import radiating_terms
+    from .uncertainty import gain_sigma_db, keepout_spread
+
+    spreads = keepout_spread(scenario, spec, results)
+    return {
+        "spec": {
+            **spec.as_dict(),
+            "gain_db_used": [gain_sigma_db(spec, t) for t in radiating_terms(scenario)],
+            "method": "seeded Monte Carlo (PCG64), fields re-weighted per sample",
+        },
+        "per_limit": {s.limit_id: (s.median_m, s.p95_m) for s in spreads},
+    }
+
+
+def _add_spread(entries: list[dict[str, Any]], spread: dict[str, Any] | None) -> None:
+    if spread is None:
+        return
+    for entry in entries:
+        median, p95 = spread["per_limit"][entry["limit"]]
+        entry["distance_median_m"] = median
+        entry["distance_p95_m"] = p95
+
+
+def keepout(
+    scenario: Scenario,
+    limits: Sequence[str] | None = None,
+    option: str | None = None,
+    *,
+    progress: ProgressFactory | None = None,
+) -> KeepoutReport:
+    """Keep-out distance about the first source for each limit.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    limits : sequence of str, optional
+        Limit ids (default: the scenario's ``[exposure] limits``).
+    option : str, optional
+        Assess this ``[[option]]`` of the scenario instead of the base.
+    progress : callable, optional
+        ``progress(label)`` returns a stage callback (see :func:`maps.busy`).
+
+    Returns
+    -------
+    KeepoutReport
+    """
+    scenario = select_option(scenario, option)
+    ids = select_limits(scenario, limits)
+    with maps.busy(progress, "keep-out search"):
+        results = keepout_distances(scenario, ids)
+    scoped = scenario if ids == tuple(scenario.limit_ids) else scenario.with_limits(ids)
+    spread = uncertainty_data(scoped, results)
+    return KeepoutReport(scenario, tuple(results), spread)
+
+
 def keepout_data(scenario: Scenario) -> tuple[dict[str, Any], list[KeepoutResult]]:
     """Keep-out distance for each scenario limit (contract ``keepout`` JSON)."""
-    results = keepout_distances(scenario)
-    data = {
+    report = keepout(scenario)
+    return report.to_dict(), list(report.distances)
+
+
+def readings_data(scenario: Scenario, readings: list[Any]) -> dict[str, Any]:
+    """Survey readings against the time-averaged prediction (``readings --json``).
+
+    Each reading's power density is compared with every scenario limit: the reading
+    counts as over a limit where its quotient (the measured density against the
+    limit's density) reaches one.
+    """
+    from .readings import compare_readings
+
+    pts = np.array([r.position_m for r in readings])
+    result = evaluate(scenario, pts)
+    measured = np.array([r.power_density_w_m2 for r in readings])
+    quotients = {}
+    for limit_id in scenario.limit_ids:
+        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        quotients[limit_id] = limits_mod.quotient(value, measured)
+    body = compare_readings(readings, result.power_density_w_m2, quotients)
+    return {
         "schema_version": SCHEMA_VERSION,
         "frequency_hz": scenario.frequency_hz,
         "scenario": scenario.name,
-        "average_power_w": scenario.average_power_w,
-        "centre_m": [float(x) for x in scenario.centre_m],
-        "reflections": scenario.reflections,
-        "keepout": [keepout_entry(r) for r in results],
+        **body,
+        "compared_with": "time-averaged prediction (duty cycle applied): a survey meter "
+        "averages over at least a second, far longer than a mains cycle",
         "caution": CAUTION_TEXT,
     }
-    return data, results
 
 
-# ------------------------------------------------------------------------------------------
-# Maps, comparison and the full assessment (keepclear map / compare / assess).
-def named_points_data(
-    scenario: Scenario, limit_ids: list[str] | tuple[str, ...] | None = None
-) -> list[dict[str, Any]]:
-    """The scenario's ``[[point]]`` places, probe-like, each with its ``name``."""
-    if not scenario.points:
-        return []
-    ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
-    probed = scenario.with_limits(ids)
-    pts = np.array([p.position_m for p in scenario.points])
-    data, _ = probe_data(probed, pts)
-    from .maps import point_letter
+# --------------------------------------------------------------------- map
+@dataclass(frozen=True)
+class GridSettings:
+    """How a map is sampled; None takes the default from the keep-out radius.
 
-    out = []
-    for i, (p, entry) in enumerate(zip(scenario.points, data["points"], strict=True)):
-        worst = max(entry["quotients"].items(), key=lambda kv: kv[1])
-        out.append(
-            {
-                "name": p.name,
-                "map_letter": point_letter(i),
-                **entry,
-                "worst_limit": worst[0],
-                "worst_quotient": worst[1],
-                "exceeds": [k for k, q in entry["quotients"].items() if q >= 1.0],
-            }
+    Attributes
+    ----------
+    half_extent_m : float, optional
+        Half the side of the map [m].
+    step_m : float, optional
+        Sample spacing [m].
+    pixels : int, optional
+        Samples a side (instead of ``step_m``) [count].
+    """
+
+    half_extent_m: float | None = None
+    step_m: float | None = None
+    pixels: int | None = None
+
+    def __post_init__(self) -> None:
+        check_grid(self.half_extent_m, self.step_m, self.pixels)
+
+    def as_kwargs(self) -> dict[str, Any]:
+        """The keyword arguments of :func:`keepclear.fields.maps.run_map`."""
+        return {"half_extent_m": self.half_extent_m, "step_m": self.step_m, "pixels": self.pixels}
+
+
+def map_plane(
+    scenario: Scenario,
+    plane: str | maps.Plane | None = None,
+    *,
+    through_m: ArrayLike | None = None,
+    height_m: float | None = None,
+) -> maps.Plane:
+    """The plane of a map: ``"xy"``, ``"xz"``, ``"yz"`` through a point, or ``"boresight"``.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    plane : str or Plane, optional
+        A principal plane name (default ``"xy"``), ``"boresight"`` (the vertical plane
+        through the first source's boresight) or a ready :class:`maps.Plane`.
+    through_m : array_like, optional
+        A point on a principal plane, also the map centre (default the first source) [m].
+    height_m : float, optional
+        Height of the horizontal plane (``"xy"`` only) [m].
+    """
+    if isinstance(plane, maps.Plane):
+        return plane
+    check_height(height_m)
+    if height_m is not None and plane not in (None, "xy"):
+        raise InputError(
+            "applies to the horizontal plane only (--plane xy)", "argument", "--height-m"
         )
-    return out
+    if plane == "boresight":
+        if through_m is not None:
+            raise InputError("does not apply to --plane boresight", "argument", "--through")
+        return maps.boresight_plane(scenario)
+    point = scenario.centre_m.copy() if through_m is None else np.array(through_m, dtype=float)
+    if height_m is not None:
+        point[2] = height_m
+    return maps.principal_plane(plane or "xy", point)
+
+
+@dataclass(frozen=True, eq=False)
+class FieldMap:
+    """A map on a plane with its limit zones and enclosing shapes (``keepclear map``).
+
+    Attributes
+    ----------
+    run : MapRun
+        The grid (``run.result``: time-averaged ``power_density_w_m2`` [W m^-2],
+        ``e_v_m`` [V m^-1], ``h_a_m`` [A m^-1] and quotients [1] on the grid), the zones
+        per limit and their enclosing shapes [m].
+    files : tuple of str
+        The files written for it, when a caller wrote any.
+    """
+
+    run: maps.MapRun
+    files: tuple[str, ...] = ()
+
+    @property
+    def keepouts(self) -> tuple[KeepoutResult, ...]:
+        """The keep-out answers of the mapped limits."""
+        return self.run.keepouts
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``map --json`` object: plane, grid, zones and shapes per limit."""
+        return map_data(self.run, list(self.files))
+
+
+def field_map(
+    scenario: Scenario,
+    plane: str | maps.Plane | None = None,
+    *,
+    limits: Sequence[str] | None = None,
+    option: str | None = None,
+    through_m: ArrayLike | None = None,
+    height_m: float | None = None,
+    grid: GridSettings | None = None,
+    progress: ProgressFactory | None = None,
+) -> FieldMap:
+    """Map the time-averaged fields on a plane, with the zone of each limit.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    plane : str or Plane, optional
+        See :func:`map_plane` (default the horizontal plane through the first source).
+    limits : sequence of str, optional
+        Limits to contour (default: the scenario's).
+    option : str, optional
+        Map this ``[[option]]`` instead of the base.
+    through_m, height_m : optional
+        See :func:`map_plane` [m].
+    grid : GridSettings, optional
+        Sampling (default from the keep-out radius).
+    progress : callable, optional
+        ``progress(label)`` returns a stage callback.
+
+    Returns
+    -------
+    FieldMap
+    """
+    scenario = select_option(scenario, option)
+    grid = grid or GridSettings()
+    ids = select_limits(scenario, limits)
+    the_plane = map_plane(scenario, plane, through_m=through_m, height_m=height_m)
+    with maps.busy(progress, "keep-out search"):
+        keepouts = keepout_distances(scenario, ids)
+    run = maps.run_map(
+        scenario, the_plane, keepouts, progress=_callback(progress, "map"), **grid.as_kwargs()
+    )
+    return FieldMap(run)
 
 
 def map_files(
-    run: Any, stem: str, style: Any = None, formats: tuple[str, ...] = ("png", "svg")
+    run: Any,
+    stem: str,
+    style: Any = None,
+    formats: tuple[str, ...] = ("png", "svg"),
+    overlay: Any = None,
 ) -> dict[str, bytes]:
     """The files of one map run, by name, in the ``formats`` asked.
 
     ``{stem}.png``, ``{stem}.svg`` (the figure), ``{stem}.csv``, ``{stem}.npz`` (the
     grid) and ``zones-....geojson`` (the zones; ``map-`` in the stem becomes ``zones-``).
     """
-    from . import maps, plots
+    from . import plots
     from .outputs import json_text
 
     files: dict[str, bytes] = {}
     if "png" in formats or "svg" in formats:
-        fig = plots.map_figure(run.result, run.scenario, run.keepouts, style, run.zones)
+        fig = plots.map_figure(
+            run.result, run.scenario, run.keepouts, style, run.zones, overlay=overlay
+        )
         for fmt in ("png", "svg"):
             if fmt in formats:
                 files[f"{stem}.{fmt}"] = plots.figure_bytes(fig, fmt)
@@ -202,269 +711,65 @@ def map_data(run: Any, files: list[str] | None = None) -> dict[str, Any]:
     }
 
 
-def stage_output_folder(out_dir: str | Any) -> Any:
-    """A fresh, empty staging folder for outputs bound for ``out_dir``.
+# ----------------------------------------------------------------- compare
+@dataclass(frozen=True, eq=False)
+class ComparisonResult:
+    """The base and each ``[[option]]``, ranked (``keepclear compare``).
 
-    Beside ``out_dir`` when it does not exist yet (so it can be renamed into place
-    whole); inside it, hidden, when it does.  Checks up front that the folder can be
-    written, before any computation.
-
-    Raises
-    ------
-    ResourceError
-        Naming ``--out`` when the path is a file, its parent folder is missing, or
-        nothing can be created there.
+    Attributes
+    ----------
+    comparison : Comparison
+        The variants in rank order, each with its keep-out distances [m], floor map and
+        zone areas [m^2], leakage 5 cm from the enclosure [W m^-2] and worst named place.
     """
-    import os
-    import tempfile
-    from pathlib import Path
 
-    from .errors import ResourceError
+    comparison: Comparison
 
-    out = Path(out_dir)
-    label = str(out_dir)
-    if out.exists() and not out.is_dir():
-        raise ResourceError(
-            f"'{label}' is a file, not a folder; give a folder", "argument", "--out"
-        )
-    parent = out.absolute().parent
-    if not out.exists() and not parent.is_dir():
-        what = "is not a folder" if parent.exists() else "does not exist"
-        raise ResourceError(
-            f"cannot create '{label}': '{parent}' {what}; create it first", "argument", "--out"
-        )
-    where = out if out.exists() else parent
-    if not os.access(where, os.W_OK | os.X_OK):
-        raise ResourceError(f"'{where}' cannot be written (permission denied)", "argument", "--out")
-    try:
-        staging = tempfile.mkdtemp(prefix=f".{out.name or 'out'}.", suffix=".partial", dir=where)
-    except OSError as exc:
-        raise ResourceError(
-            f"'{where}' cannot be written ({exc.strerror})", "argument", "--out"
-        ) from None
-    return Path(staging)
+    def to_dict(self) -> dict[str, Any]:
+        """The ``compare --json`` object."""
+        return self.comparison.data()
+
+    def figure(self) -> Any:
+        """The side-by-side floor maps (a matplotlib figure)."""
+        return self.comparison.figure()
 
 
-def discard_staging(staging: Any) -> None:
-    """Remove a staging folder and everything in it."""
-    import shutil
-
-    shutil.rmtree(staging, ignore_errors=True)
-
-
-def publish_output_folder(staging: Any, out_dir: Any, protected: list[Any]) -> list[Any]:
-    """Move the staged files into ``out_dir``; return their final paths.
-
-    A new ``out_dir`` is the staging folder renamed (one atomic step).  Into an
-    existing folder each file is renamed over its old version (each atomic), after
-    checking that none would replace an input file or a folder.  On a refusal the
-    staging folder is removed and nothing is written.
-    """
-    import os
-    from pathlib import Path
-
-    from .errors import ResourceError
-    from .outputs import refuse_overwriting
-
-    staging = Path(staging)
-    out = Path(out_dir)
-    names = sorted(p.name for p in staging.iterdir())
-    try:
-        for name in names:
-            target = out / name
-            refuse_overwriting(target, [Path(p) for p in protected])
-            if target.is_dir():
-                raise ResourceError(
-                    f"'{target}' is a folder; cannot replace it by a file", "argument", "--out"
-                )
-        if not out.exists():
-            umask = os.umask(0)
-            os.umask(umask)
-            os.chmod(staging, 0o777 & ~umask)
-            try:
-                os.rename(staging, out)
-                return [out / n for n in names]
-            except OSError:
-                out.mkdir()
-        for name in names:
-            os.replace(staging / name, out / name)
-        return [out / n for n in names]
-    except OSError as exc:
-        raise ResourceError(
-            f"'{out}' cannot be written ({exc.strerror})", "argument", "--out"
-        ) from None
-    finally:
-        if staging.exists():
-            discard_staging(staging)
-
-
-def run_assessment(
+def compare(
     scenario: Scenario,
+    limits: Sequence[str] | None = None,
     *,
-    limit_ids: list[str] | tuple[str, ...] | None = None,
     height_m: float | None = None,
-    half_extent_m: float | None = None,
-    step_m: float | None = None,
-    pixels: int | None = None,
-    scenario_text: str | None = None,
-    progress: Any = None,
-) -> tuple[dict[str, Any], dict[str, bytes]]:
-    """The whole assessment: keep-out, points, maps, zones, comparison and report.
+    grid: GridSettings | None = None,
+    progress: ProgressFactory | None = None,
+) -> ComparisonResult:
+    """Assess the base scenario and each ``[[option]]`` on one floor grid, and rank them.
 
     Parameters
     ----------
     scenario : Scenario
-    limit_ids : sequence of str, optional
-        Limits to assess (default: the scenario's).
+    limits : sequence of str, optional
+        Limit ids (default: the scenario's).
     height_m : float, optional
-        Height of the floor-plane map and zones (default: the first source's) [m].
-    half_extent_m, step_m, pixels : optional
-        Grid settings of the maps (defaults from the keep-out radius).
-    scenario_text : str, optional
-        The scenario file as written, for the report.
+        Height of the floor plane (default: the first source's) [m].
+    grid : GridSettings, optional
+        Sampling of the floor maps.
     progress : callable, optional
-        ``progress(label)`` returns a ``(done, total)`` callback or None.
-
-    Returns
-    -------
-    data : dict
-        The ``assessment.json`` object.
-    files : dict
-        File name -> bytes, every output (``assessment.json`` and ``report.html``
-        included).
+        ``progress(label)`` returns a stage callback.
     """
-    import math
-    from importlib import metadata
+    from .compare import compare_options
 
-    from . import maps, plots
-    from .errors import InputError
-    from .outputs import json_text
-    from .report import render_report
-
-    ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
-    if height_m is not None and not math.isfinite(height_m):
-        raise InputError("must be a finite height in metres", "argument", "--height-m")
-
-    def callback(label: str) -> Any:
-        return progress(label) if progress is not None else None
-
-    with maps.busy(progress, "keep-out search"):
-        keepouts = keepout_distances(scenario, ids)
-    centre = scenario.centre_m
-    height = float(centre[2]) if height_m is None else float(height_m)
-    grid_args: dict[str, Any] = {
-        "half_extent_m": half_extent_m,
-        "step_m": step_m,
-        "pixels": pixels,
-    }
-    floor_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
-    vertical_plane = maps.boresight_plane(scenario)
-    floor = maps.run_map(
-        scenario, floor_plane, keepouts, progress=callback("floor-plane map"), **grid_args
+    check_height(height_m)
+    grid = grid or GridSettings()
+    ids = select_limits(scenario, limits)
+    comparison = compare_options(
+        scenario, ids, height_m=height_m, progress=progress, **grid.as_kwargs()
     )
-    vertical = maps.run_map(
-        scenario, vertical_plane, keepouts, progress=callback("vertical map"), **grid_args
-    )
-    zone_points = {
-        k.limit_id: np.vstack([floor.zone_points_m(k.limit_id), vertical.zone_points_m(k.limit_id)])
-        for k in keepouts
-    }
-    cylinders = maps.keepout_cylinders(
-        scenario, keepouts, progress=callback("vertical extent"), extra_points_m=zone_points
-    )
-    points = named_points_data(scenario, ids)
-
-    files: dict[str, bytes] = {}
-    files.update(map_files(floor, "map-floor", formats=("png", "svg", "npz", "geojson")))
-    files.update(map_files(vertical, "map-vertical", formats=("png", "svg", "npz")))
-    comparison = None
-    if scenario.options:
-        from .compare import compare_options
-
-        comparison = compare_options(
-            scenario,
-            ids,
-            height_m=height,
-            progress=callback,
-            base_keepouts=keepouts,
-            **grid_args,
-        )
-        fig = comparison.figure()
-        files["compare.png"] = plots.figure_bytes(fig, "png")
-        files["compare.svg"] = plots.figure_bytes(fig, "svg")
-        files["compare.json"] = json_text(comparison.data()).encode()
-    if scenario_text is not None:
-        files["scenario-input.toml"] = scenario_text.encode("utf-8")
-
-    by_cyl = {c.limit_id: c for c in cylinders}
-    keepout_rows = []
-    for k in keepouts:
-        row = keepout_entry(k)
-        row["recommended_distance_m"] = k.recommended_distance_m
-        # Cross-check of the keep-out search by the maps: the farthest zone point found.
-        reach = max(floor.reach_m(k.limit_id), vertical.reach_m(k.limit_id))
-        step = max(floor.result.grid.step_m, vertical.result.grid.step_m)
-        row["map_reach_m"] = reach
-        row["map_reach_beyond_keepout"] = bool(reach > k.recommended_distance_m + step)
-        row["mark_out_m"] = max(k.recommended_distance_m, reach)
-        row["cylinder"] = by_cyl[k.limit_id].as_dict()
-        row["floor_zone"] = floor.conservative_shapes(k.limit_id)
-        keepout_rows.append(row)
-    try:
-        version = metadata.version("keepclear")
-    except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
-        version = "unknown"
-    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
-    data: dict[str, Any] = {
-        "schema_version": SCHEMA_VERSION,
-        "tool_version": version,
-        "scenario": scenario.name,
-        "scenario_file": scenario.path,
-        "frequency_hz": scenario.frequency_hz,
-        "reflections": scenario.reflections,
-        "average_power_w": scenario.average_power_w,
-        "centre_m": [float(x) for x in centre],
-        "sources": [
-            {
-                "id": s.id,
-                "antenna": s.antenna,
-                "power_w": s.power_w,
-                "duty_cycle": s.duty_cycle,
-                "average_power_w": s.average_power_w,
-                "position_m": [float(x) for x in s.position_m],
-            }
-            for s in scenario.sources
-        ],
-        "limits": [{**v.as_dict(), "verification": v.verification} for v in values],
-        "keepout": keepout_rows,
-        "points": points,
-        "maps": {
-            "floor": {**floor.summary(), "height_m": height},
-            "vertical": vertical.summary(),
-        },
-        "comparison": None if comparison is None else comparison.data(),
-        "assumptions": {
-            "time_averaging": plots.duty_text(scenario),
-            "reflections": plots.reflection_text(scenario),
-            "shields": len(scenario.shields),
-            "enclosure": scenario.enclosure is not None,
-        },
-        "caution": CAUTION_TEXT,
-    }
-    names = sorted([*files, "assessment.json", "report.html"])
-    data["files"] = names
-    figures = {
-        "floor": files["map-floor.png"],
-        "vertical": files["map-vertical.png"],
-    }
-    if comparison is not None:
-        figures["compare"] = files["compare.png"]
-    files["report.html"] = render_report(data, figures, scenario_text).encode("utf-8")
-    files["assessment.json"] = json_text(data).encode("utf-8")
-    return data, files
+    return ComparisonResult(comparison)
 
 
-#: Every file ``assess`` may write (the comparison only with options).
+# ------------------------------------------------------------------ assess
+#: Every file ``assess`` may write, the one list (the comparison only with options, the
+#: scenario as given only when its text is known).
 ASSESS_FILE_NAMES = (
     "assessment.json",
     "report.html",
@@ -480,3 +785,502 @@ ASSESS_FILE_NAMES = (
     "compare.svg",
     "scenario-input.toml",
 )
+_COMPARISON_FILES = frozenset({"compare.json", "compare.png", "compare.svg"})
+
+
+def assess_file_names(with_comparison: bool, with_scenario_text: bool) -> tuple[str, ...]:
+    """The files an assessment writes, sorted: :data:`ASSESS_FILE_NAMES` as they apply."""
+    return tuple(
+        sorted(
+            n
+            for n in ASSESS_FILE_NAMES
+            if (with_comparison or n not in _COMPARISON_FILES)
+            and (with_scenario_text or n != "scenario-input.toml")
+        )
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class AssessmentMaps:
+    """The two maps of an assessment.
+
+    Attributes
+    ----------
+    floor : MapRun
+        The horizontal plane at ``height_m``.
+    vertical : MapRun
+        The vertical plane through the first source's boresight.
+    height_m : float
+        Height of the floor plane [m].
+    """
+
+    floor: maps.MapRun
+    vertical: maps.MapRun
+    height_m: float
+
+
+def step_keepout(
+    scenario: Scenario, limit_ids: Sequence[str], progress: ProgressFactory | None = None
+) -> tuple[KeepoutResult, ...]:
+    """Step 1, keep-out: the keep-out answer of each limit."""
+    with maps.busy(progress, "keep-out search"):
+        return tuple(keepout_distances(scenario, list(limit_ids)))
+
+
+def step_maps(
+    scenario: Scenario,
+    keepouts: Sequence[KeepoutResult],
+    grid: GridSettings,
+    height_m: float | None = None,
+    progress: ProgressFactory | None = None,
+) -> AssessmentMaps:
+    """Step 2, maps: the floor-plane map (at ``height_m``) and the vertical map."""
+    centre = scenario.centre_m
+    height = float(centre[2]) if height_m is None else float(height_m)
+    floor_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
+    vertical_plane = maps.boresight_plane(scenario)
+    kwargs = grid.as_kwargs()
+    floor = maps.run_map(
+        scenario, floor_plane, keepouts, progress=_callback(progress, "floor-plane map"), **kwargs
+    )
+    vertical = maps.run_map(
+        scenario, vertical_plane, keepouts, progress=_callback(progress, "vertical map"), **kwargs
+    )
+    return AssessmentMaps(floor, vertical, height)
+
+
+def step_zones(
+    scenario: Scenario,
+    keepouts: Sequence[KeepoutResult],
+    runs: AssessmentMaps,
+    progress: ProgressFactory | None = None,
+) -> tuple[maps.Cylinder, ...]:
+    """Step 3, zones: the vertical cylinder per limit holding the zones of both maps."""
+    zone_points = {
+        k.limit_id: np.vstack(
+            [runs.floor.zone_points_m(k.limit_id), runs.vertical.zone_points_m(k.limit_id)]
+        )
+        for k in keepouts
+    }
+    return tuple(
+        maps.keepout_cylinders(
+            scenario,
+            keepouts,
+            progress=_callback(progress, "vertical extent"),
+            extra_points_m=zone_points,
+        )
+    )
+
+
+def step_places(scenario: Scenario, limit_ids: Sequence[str]) -> ProbeResult | None:
+    """Step 4, places: the scenario's named ``[[point]]`` places probed (None without)."""
+    if not scenario.points:
+        return None
+    return probe(scenario.with_limits(tuple(limit_ids)))
+
+
+def step_options(
+    scenario: Scenario,
+    limit_ids: Sequence[str],
+    keepouts: Sequence[KeepoutResult],
+    grid: GridSettings,
+    height_m: float,
+    progress: ProgressFactory | None = None,
+) -> Comparison | None:
+    """Step 5, options: the ranked comparison of the ``[[option]]``s (None without)."""
+    if not scenario.options:
+        return None
+    from .compare import compare_options
+
+    return compare_options(
+        scenario,
+        tuple(limit_ids),
+        height_m=height_m,
+        progress=lambda label: _callback(progress, label),
+        base_keepouts=keepouts,
+        **grid.as_kwargs(),
+    )
+
+
+def step_uncertainty(
+    scenario: Scenario,
+    limit_ids: Sequence[str],
+    keepouts: Sequence[KeepoutResult],
+    progress: ProgressFactory | None = None,
+) -> dict[str, Any] | None:
+    """With ``[uncertainty]``: the Monte Carlo spread of each keep-out (None without)."""
+    if scenario.uncertainty is None:
+        return None
+    with maps.busy(progress, "uncertainty samples"):
+        return uncertainty_data(scenario.with_limits(tuple(limit_ids)), list(keepouts))
+
+
+def place_entries(places: ProbeResult | None) -> list[dict[str, Any]]:
+    """The ``points`` list of ``assessment.json``: each place probed, with its verdict."""
+    if places is None:
+        return []
+    out = []
+    for i, entry in enumerate(places.point_dicts()):
+        name = entry.pop("name")
+        worst = max(entry["quotients"].items(), key=lambda kv: kv[1])
+        out.append(
+            {
+                "name": name,
+                "map_letter": maps.point_letter(i),
+                **entry,
+                "worst_limit": worst[0],
+                "worst_quotient": worst[1],
+                "exceeds": [k for k, q in entry["quotients"].items() if q >= 1.0],
+            }
+        )
+    return out
+
+
+def named_points_data(
+    scenario: Scenario, limit_ids: list[str] | tuple[str, ...] | None = None
+) -> list[dict[str, Any]]:
+    """The scenario's ``[[point]]`` places, probe-like, each with its ``name``."""
+    ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
+    return place_entries(step_places(scenario, ids))
+
+
+@dataclass(frozen=True, eq=False)
+class AssessmentResult:
+    """The full assessment (``keepclear assess``).
+
+    Attributes
+    ----------
+    scenario : Scenario
+    limit_ids : tuple of str
+        The limits assessed.
+    keepouts : tuple of KeepoutResult
+        Keep-out answer per limit [m].
+    maps : AssessmentMaps
+        The floor-plane and vertical maps, with their zones.
+    cylinders : tuple of Cylinder
+        Per limit, the vertical cylinder about the first source holding every
+        exceedance found (radius and height range [m]).
+    places : ProbeResult or None
+        The named places probed.
+    comparison : Comparison or None
+        The options ranked, when the scenario has any.
+    spread : dict or None
+        With ``[uncertainty]``, the keep-out spread (:func:`uncertainty_data`).
+    readings : dict or None
+        The survey readings compared (:func:`readings_data`), when given.
+    data : dict
+        The ``assessment.json`` object.
+    files : dict of str to bytes
+        Every output by file name (:func:`assess_file_names`), ``assessment.json`` and
+        ``report.html`` included.
+    written : tuple of Path
+        Where the files were written, once they were (:func:`write_assessment`).
+    """
+
+    scenario: Scenario
+    limit_ids: tuple[str, ...]
+    keepouts: tuple[KeepoutResult, ...]
+    maps: AssessmentMaps
+    cylinders: tuple[maps.Cylinder, ...]
+    places: ProbeResult | None
+    comparison: Comparison | None
+    spread: dict[str, Any] | None
+    readings: dict[str, Any] | None
+    data: dict[str, Any]
+    files: Mapping[str, bytes]
+    written: tuple[Path, ...] = field(default=())
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``assessment.json`` object (what ``assess --json`` prints)."""
+        return self.data
+
+
+def _map_overlay(scenario: Scenario, run: Any, readings_block: dict[str, Any] | None) -> Any:
+    """The P95 contours (with ``[uncertainty]``) and the readings near a map's plane."""
+    from .plots import MapOverlay
+
+    p95: dict[str, NDArray[np.float64]] = {}
+    if scenario.uncertainty is not None:
+        from .uncertainty import quotient_percentile
+
+        grid = run.result.grid
+        q = quotient_percentile(
+            scenario, scenario.uncertainty, grid.points_m(), list(run.result.limit_ids)
+        )
+        p95 = {k: v.reshape(grid.shape) for k, v in q.items()}
+    marks = []
+    if readings_block is not None:
+        plane = run.result.grid.plane
+        near = max(0.5, 2 * run.result.grid.step_m)
+        for i, r in enumerate(readings_block["readings"]):
+            pos = np.asarray(r["position_m"], dtype=float)
+            st, off = plane.to_plane(pos)
+            if abs(float(off[0])) <= near:
+                marks.append(
+                    {
+                        "s": float(st[0, 0]),
+                        "t": float(st[0, 1]),
+                        "tag": r["label"] or f"R{i + 1}",
+                        "under": r["under_predicted"],
+                    }
+                )
+    return MapOverlay(p95=p95, readings=marks)
+
+
+def step_report(
+    scenario: Scenario,
+    limit_ids: Sequence[str],
+    keepouts: Sequence[KeepoutResult],
+    runs: AssessmentMaps,
+    cylinders: Sequence[maps.Cylinder],
+    places: ProbeResult | None,
+    comparison: Comparison | None,
+    scenario_text: str | None = None,
+    spread: dict[str, Any] | None = None,
+    readings_block: dict[str, Any] | None = None,
+) -> tuple[dict[str, Any], dict[str, bytes]]:
+    """Step 6, report: the ``assessment.json`` object and every output file's bytes."""
+    from importlib import metadata
+
+    from . import plots
+    from .outputs import json_text
+    from .report import render_report
+
+    floor, vertical = runs.floor, runs.vertical
+    by_cyl = {c.limit_id: c for c in cylinders}
+    keepout_rows = []
+    for k in keepouts:
+        row = keepout_entry(k)
+        row["recommended_distance_m"] = k.recommended_distance_m
+        # Cross-check of the keep-out search by the maps: the farthest zone point found.
+        reach = max(floor.reach_m(k.limit_id), vertical.reach_m(k.limit_id))
+        step = max(floor.result.grid.step_m, vertical.result.grid.step_m)
+        row["map_reach_m"] = reach
+        row["map_reach_beyond_keepout"] = bool(reach > k.recommended_distance_m + step)
+        row["mark_out_m"] = max(k.recommended_distance_m, reach)
+        row["cylinder"] = by_cyl[k.limit_id].as_dict()
+        row["floor_zone"] = floor.conservative_shapes(k.limit_id)
+        keepout_rows.append(row)
+    _add_spread(keepout_rows, spread)
+    try:
+        version = metadata.version("keepclear")
+    except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
+        version = "unknown"
+    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in limit_ids]
+    data: dict[str, Any] = {
+        "schema_version": SCHEMA_VERSION,
+        "tool_version": version,
+        "scenario": scenario.name,
+        "scenario_file": scenario.path,
+        "frequency_hz": scenario.frequency_hz,
+        "reflections": scenario.reflections,
+        "average_power_w": scenario.average_power_w,
+        "centre_m": [float(x) for x in scenario.centre_m],
+        "sources": [
+            {
+                "id": s.id,
+                "antenna": s.antenna,
+                "power_w": s.power_w,
+                "duty_cycle": s.duty_cycle,
+                "average_power_w": s.average_power_w,
+                "position_m": [float(x) for x in s.position_m],
+            }
+            for s in scenario.sources
+        ],
+        "limits": [{**v.as_dict(), "verification": v.verification} for v in values],
+        "keepout": keepout_rows,
+        "points": place_entries(places),
+        "maps": {
+            "floor": {**floor.summary(), "height_m": runs.height_m},
+            "vertical": vertical.summary(),
+        },
+        "comparison": None if comparison is None else comparison.data(),
+        "uncertainty": None if spread is None else spread["spec"],
+        "readings": readings_block,
+        "assumptions": {
+            "time_averaging": plots.duty_text(scenario),
+            "reflections": plots.reflection_text(scenario),
+            "shields": len(scenario.shields),
+            "enclosure": scenario.enclosure is not None,
+        },
+        "caution": CAUTION_TEXT,
+    }
+    names = assess_file_names(comparison is not None, scenario_text is not None)
+    data["files"] = list(names)
+
+    files: dict[str, bytes] = {}
+    overlays = {
+        name: _map_overlay(scenario, run, readings_block)
+        for name, run in (("floor", floor), ("vertical", vertical))
+    }
+    files.update(
+        map_files(
+            floor,
+            "map-floor",
+            formats=("png", "svg", "npz", "geojson"),
+            overlay=overlays["floor"],
+        )
+    )
+    files.update(
+        map_files(
+            vertical, "map-vertical", formats=("png", "svg", "npz"), overlay=overlays["vertical"]
+        )
+    )
+    figures = {"floor": files["map-floor.png"], "vertical": files["map-vertical.png"]}
+    if comparison is not None:
+        fig = comparison.figure()
+        files["compare.png"] = plots.figure_bytes(fig, "png")
+        files["compare.svg"] = plots.figure_bytes(fig, "svg")
+        files["compare.json"] = json_text(comparison.data()).encode()
+        figures["compare"] = files["compare.png"]
+    if scenario_text is not None:
+        files["scenario-input.toml"] = scenario_text.encode("utf-8")
+    files["report.html"] = render_report(data, figures, scenario_text).encode("utf-8")
+    files["assessment.json"] = json_text(data).encode("utf-8")
+    if tuple(sorted(files)) != names:  # pragma: no cover - a programming error
+        raise RuntimeError(f"assessment files {sorted(files)} differ from {names}")
+    return data, files
+
+
+def assess(
+    scenario: Scenario,
+    out: str | Path | None = None,
+    *,
+    limits: Sequence[str] | None = None,
+    height_m: float | None = None,
+    grid: GridSettings | None = None,
+    scenario_text: str | None = None,
+    readings: Sequence[Any] | None = None,
+    progress: ProgressFactory | None = None,
+) -> AssessmentResult:
+    """The full assessment: keep-out -> maps -> zones -> places -> options -> report.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    out : str or Path, optional
+        Folder to write every output into (created; files of the same name replaced,
+        nothing else touched; all or nothing).  Without it nothing is written.
+    limits : sequence of str, optional
+        Limit ids (default: the scenario's).
+    height_m : float, optional
+        Height of the floor-plane map and zones (default: the first source's) [m].
+    grid : GridSettings, optional
+        Sampling of the maps (default from the keep-out radius).
+    scenario_text : str, optional
+        The scenario file as written, for the report (default: read from
+        ``scenario.path`` when that is a file).
+    readings : sequence of Reading, optional
+        Survey readings to compare and mark on the maps
+        (:func:`keepclear.fields.readings.read_readings_csv`).
+    progress : callable, optional
+        ``progress(label)`` returns a stage callback.
+
+    Returns
+    -------
+    AssessmentResult
+    """
+    check_height(height_m)
+    grid = grid or GridSettings()
+    ids = select_limits(scenario, limits)
+    if scenario_text is None and scenario.path and Path(scenario.path).is_file():
+        scenario_text = Path(scenario.path).read_text(encoding="utf-8")
+    if out is None:
+        return _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
+    protected = [Path(scenario.path)] if scenario.path else []
+    refuse_assessment_overwrites(out, protected)
+    from .outputs import staged_output_folder
+
+    with staged_output_folder(out, protected) as staged:
+        result = _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
+        for name, blob in result.files.items():
+            staged.write(name, blob)
+    return replace(result, written=tuple(staged.published))
+
+
+def refuse_assessment_overwrites(out: str | Path, protected: Sequence[str | Path]) -> None:
+    """Refuse, before any computation, an ``out`` folder whose outputs would replace an input."""
+    from .outputs import refuse_overwriting
+
+    for name in ASSESS_FILE_NAMES:
+        refuse_overwriting(Path(out) / name, [Path(p) for p in protected])
+
+
+def _assess(
+    scenario: Scenario,
+    ids: tuple[str, ...],
+    height_m: float | None,
+    grid: GridSettings,
+    scenario_text: str | None,
+    progress: ProgressFactory | None,
+    readings: Sequence[Any] | None = None,
+) -> AssessmentResult:
+    scenario = prepare(scenario).scenario
+    keepouts = step_keepout(scenario, ids, progress)
+    runs = step_maps(scenario, keepouts, grid, height_m, progress)
+    cylinders = step_zones(scenario, keepouts, runs, progress)
+    places = step_places(scenario, ids)
+    spread = step_uncertainty(scenario, ids, keepouts, progress)
+    readings_block = readings_data(scenario.with_limits(ids), readings) if readings else None
+    comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress)
+    data, files = step_report(
+        scenario,
+        ids,
+        keepouts,
+        runs,
+        cylinders,
+        places,
+        comparison,
+        scenario_text,
+        spread,
+        readings_block,
+    )
+    return AssessmentResult(
+        scenario,
+        ids,
+        keepouts,
+        runs,
+        cylinders,
+        places,
+        comparison,
+        spread,
+        readings_block,
+        data,
+        files,
+    )
+
+
+def write_assessment(
+    result: AssessmentResult, out: str | Path, protected: Sequence[str | Path] = ()
+) -> AssessmentResult:
+    """Write every file of an assessment into ``out`` (all or nothing); the written paths."""
+    from .outputs import staged_output_folder
+
+    with staged_output_folder(out, protected) as staged:
+        for name, blob in result.files.items():
+            staged.write(name, blob)
+    return replace(result, written=tuple(staged.published))
+
+
+def run_assessment(
+    scenario: Scenario,
+    *,
+    limit_ids: list[str] | tuple[str, ...] | None = None,
+    height_m: float | None = None,
+    half_extent_m: float | None = None,
+    step_m: float | None = None,
+    pixels: int | None = None,
+    scenario_text: str | None = None,
+    progress: Any = None,
+    readings: list[Any] | None = None,
+) -> tuple[dict[str, Any], dict[str, bytes]]:
+    """The whole assessment as ``(assessment.json object, files by name)``; nothing written.
+
+    The same steps as :func:`assess` (which returns the typed result).
+    """
+    if height_m is not None and not math.isfinite(height_m):
+        raise InputError("must be a finite height in metres", "argument", "--height-m")
+    ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
+    grid = GridSettings(half_extent_m, step_m, pixels)
+    result = _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
+    return result.data, dict(result.files)

@@ -10,19 +10,36 @@ Each variant (the base, then every option as the loader merged it) gets
 * the worst named point: the ``[[point]]`` with the largest exposure quotient
   over the selected limits.
 
-Ranking: the smallest "largest keep-out distance across the selected limits"
-first (each with the model's gain uncertainty where one is stated, the figure to
-mark out), ties (to the millimetre) broken by the smaller zone area of the
-strictest limit, then by the worst named point's quotient.  The ranking says
-which option needs the least space; it is not a judgement that any option is
-safe.
+* the value at every named place (the ``places`` of ``compare --json``): the
+  time-averaged power density, its change in dB against the base, and the
+  quotient of each limit.
+
+Ranking (``rank_by``):
+
+* ``"keepout"`` (default): the smallest "largest keep-out distance across the
+  selected limits" first (each with the model's gain uncertainty where one is
+  stated, the figure to mark out), then the smaller zone area of the strictest
+  limit, then the worst named point's quotient;
+* ``"place:NAME"``: the smallest time-averaged power density at the named place
+  first, then as ``"keepout"``;
+* ``"zone-area"``: the smallest floor zone area of the strictest limit first,
+  then as ``"keepout"``.
+
+Ties are decided with a stated tolerance, never by the last bit of a float:
+two keep-out distances within 1 mm, two areas within 0.001 m^2 (or 1e-6
+relative), two densities or quotients within 1e-6 relative count as equal, and
+the next criterion decides.  When every criterion ties, the variants keep the
+scenario's order (the base first, then the options as written).  The ranking
+says which option needs the least space, or gives the least exposure at the
+chosen place; it is not a judgement that any option is safe.
 """
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -31,6 +48,7 @@ from . import maps
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
+from .report_text import density_text, share_text
 from .scenario import Scenario
 
 SCHEMA_VERSION = 1
@@ -54,6 +72,14 @@ class Variant:
         Largest leakage power density 5 cm from the enclosure [W m^-2].
     worst_point : dict or None
         ``{"name", "quotient", "limit", "power_density_w_m2"}``.
+    places : tuple of dict
+        One ``{"name", "power_density_w_m2", "quotients"}`` per named place, in the
+        scenario's order.
+    order : int
+        Position in the scenario (0 for the base): the last tie-break.
+    panel : MapRun or None
+        The floor map on the variant's own, smaller extent for the comparison figure
+        (None where the common grid already fits it).
     """
 
     name: str
@@ -63,6 +89,9 @@ class Variant:
     floor: maps.MapRun
     leakage_5cm_w_m2: float | None
     worst_point: dict[str, Any] | None
+    places: tuple[dict[str, Any], ...] = field(default=())
+    order: int = 0
+    panel: Any = None
 
     @property
     def is_base(self) -> bool:
@@ -79,10 +108,85 @@ class Variant:
         """Floor-plane zone area of the strictest limit (the largest zone) [m^2]."""
         return max((zs[-1].area_m2 for zs in self.floor.zones.values()), default=0.0)
 
-    def rank_key(self) -> tuple[float, float, float]:
-        """Sort key: keep-out to the millimetre, then zone area, then worst point."""
-        q = self.worst_point["quotient"] if self.worst_point else 0.0
-        return (round(self.largest_keepout_m, 3), round(self.zone_area_m2, 3), q)
+    def place_density_w_m2(self, name: str) -> float:
+        """Time-averaged power density at the named place [W m^-2]."""
+        for place in self.places:
+            if place["name"] == name:
+                return float(place["power_density_w_m2"])
+        raise KeyError(name)
+
+
+#: Tolerances of the ranking: (absolute, relative) per criterion.  Values closer than
+#: ``max(absolute, relative * larger)`` are a tie and the next criterion decides.
+RANK_TOLERANCE = {
+    "keepout_m": (1e-3, 0.0),
+    "zone_area_m2": (1e-3, 1e-6),
+    "power_density_w_m2": (0.0, 1e-6),
+    "quotient": (0.0, 1e-6),
+}
+
+#: An option's figure panel gets its own extent below this fraction of the common one.
+OWN_PANEL_FRACTION = 0.6
+
+#: The ``--rank-by`` choices besides ``place:NAME``.
+RANK_CHOICES = ("keepout", "zone-area")
+
+
+def _criteria(rank_by: str) -> list[tuple[str, Callable[[Variant], float]]]:
+    """The ranking criteria, most important first, as (tolerance key, value) pairs."""
+    keepout = [
+        ("keepout_m", lambda v: v.largest_keepout_m),
+        ("zone_area_m2", lambda v: v.zone_area_m2),
+        ("quotient", lambda v: v.worst_point["quotient"] if v.worst_point else 0.0),
+    ]
+    if rank_by == "keepout":
+        return keepout
+    if rank_by == "zone-area":
+        return [keepout[1], keepout[0], keepout[2]]
+    name = rank_by.removeprefix("place:")
+    return [("power_density_w_m2", lambda v: v.place_density_w_m2(name)), *keepout]
+
+
+def rank_variants(variants: Sequence[Variant], rank_by: str = "keepout") -> list[Variant]:
+    """The variants in rank order, best first, ties decided by :data:`RANK_TOLERANCE`.
+
+    Parameters
+    ----------
+    variants : sequence of Variant
+    rank_by : str
+        ``"keepout"``, ``"zone-area"`` or ``"place:NAME"``.
+
+    Returns
+    -------
+    list of Variant
+    """
+    criteria = _criteria(rank_by)
+
+    def compare(a: Variant, b: Variant) -> int:
+        for key, value in criteria:
+            x, y = value(a), value(b)
+            absolute, relative = RANK_TOLERANCE[key]
+            if abs(x - y) > max(absolute, relative * max(abs(x), abs(y))):
+                return -1 if x < y else 1
+        return (a.order > b.order) - (a.order < b.order)
+
+    return sorted(variants, key=functools.cmp_to_key(compare))
+
+
+def ranked_by_text(rank_by: str) -> str:
+    """The sentence that says how the variants were ranked."""
+    keepout = (
+        "largest keep-out distance across the limits (with model uncertainty), "
+        "then floor zone area of the strictest limit, then worst named point"
+    )
+    if rank_by == "keepout":
+        return keepout
+    if rank_by == "zone-area":
+        return (
+            "floor zone area of the strictest limit, then largest keep-out distance across "
+            "the limits (with model uncertainty), then worst named point"
+        )
+    return f"time-averaged power density at {rank_by.removeprefix('place:')}, then {keepout}"
 
 
 def leakage_5cm_w_m2(scenario: Scenario) -> float | None:
@@ -123,18 +227,47 @@ def _largest(value: Any) -> float | None:
     return float(arr.max()) if arr.size else None
 
 
-def worst_point(scenario: Scenario, limit_ids: Sequence[str]) -> dict[str, Any] | None:
-    """The named point with the largest exposure quotient over the limits, or None."""
+def place_values(
+    scenario: Scenario, limit_ids: Sequence[str]
+) -> tuple[tuple[dict[str, Any], ...], dict[str, Any] | None]:
+    """The named places' densities and quotients, and the worst of them.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    limit_ids : sequence of str
+
+    Returns
+    -------
+    places : tuple of dict
+        ``{"name", "power_density_w_m2", "quotients"}`` per ``[[point]]``, in order.
+    worst : dict or None
+        ``{"name", "position_m", "quotient", "limit", "power_density_w_m2"}`` of the
+        place with the largest quotient over the limits (the first such place and
+        limit on a tie), or None without named places.
+    """
     if not scenario.points:
-        return None
+        return (), None
     from . import limits as limits_mod
 
     pts = np.array([p.position_m for p in scenario.points])
     res = evaluate(scenario, pts)
-    best: dict[str, Any] | None = None
+    quotients = {}
     for limit_id in limit_ids:
         value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
-        q = limits_mod.quotient(value, res.power_density_w_m2, res.e_v_m, res.h_a_m)
+        quotients[limit_id] = limits_mod.quotient(
+            value, res.power_density_w_m2, res.e_v_m, res.h_a_m
+        )
+    places = tuple(
+        {
+            "name": p.name,
+            "power_density_w_m2": float(res.power_density_w_m2[i]),
+            "quotients": {limit_id: float(q[i]) for limit_id, q in quotients.items()},
+        }
+        for i, p in enumerate(scenario.points)
+    )
+    best: dict[str, Any] | None = None
+    for limit_id, q in quotients.items():
         i = int(np.argmax(q))
         if best is None or q[i] > best["quotient"]:
             best = {
@@ -144,7 +277,21 @@ def worst_point(scenario: Scenario, limit_ids: Sequence[str]) -> dict[str, Any] 
                 "limit": limit_id,
                 "power_density_w_m2": float(res.power_density_w_m2[i]),
             }
-    return best
+    return places, best
+
+
+def worst_point(scenario: Scenario, limit_ids: Sequence[str]) -> dict[str, Any] | None:
+    """The named point with the largest exposure quotient over the limits, or None."""
+    return place_values(scenario, limit_ids)[1]
+
+
+def change_db(value_w_m2: float, base_w_m2: float) -> float | None:
+    """``10 log10(value / base)`` [dB]; None where either is zero or not finite."""
+    if not (value_w_m2 > 0.0 and base_w_m2 > 0.0):
+        return None
+    if not (math.isfinite(value_w_m2) and math.isfinite(base_w_m2)):
+        return None
+    return 10.0 * math.log10(value_w_m2 / base_w_m2)
 
 
 @dataclass(frozen=True)
@@ -165,10 +312,13 @@ class Comparison:
     limit_ids: tuple[str, ...]
     height_m: float
     variants: tuple[Variant, ...]
+    rank_by: str = "keepout"
 
     def data(self) -> dict[str, Any]:
         """The ``compare --json`` object (schema_version 1)."""
         grid = self.variants[0].floor.result.grid
+        base = next(v for v in self.variants if v.is_base)
+        base_places = {p["name"]: p["power_density_w_m2"] for p in base.places}
         rows = []
         for rank, v in enumerate(self.variants, start=1):
             floor = {z[0].limit_id: z for z in v.floor.zones.values()}
@@ -198,6 +348,15 @@ class Comparison:
                     "zone_clipped_at_map_edge": any(z.clipped for zs in floor.values() for z in zs),
                     "leakage_5cm_w_m2": v.leakage_5cm_w_m2,
                     "worst_point": v.worst_point,
+                    "places": [
+                        {
+                            "name": p["name"],
+                            "power_density_w_m2": p["power_density_w_m2"],
+                            "change_db": change_db(p["power_density_w_m2"], base_places[p["name"]]),
+                            "quotients": p["quotients"],
+                        }
+                        for p in v.places
+                    ],
                 }
             )
         return {
@@ -210,10 +369,7 @@ class Comparison:
                 "extent_m": list(grid.extent_m),
                 "step_m": grid.step_m,
             },
-            "ranked_by": (
-                "largest keep-out distance across the limits (with model uncertainty), "
-                "then floor zone area of the strictest limit, then worst named point"
-            ),
+            "ranked_by": ranked_by_text(self.rank_by),
             "options": rows,
             "caution": CAUTION_TEXT,
         }
@@ -224,12 +380,22 @@ class Comparison:
 
         panels = []
         for rank, v in enumerate(self.variants, start=1):
+            letter = chr(ord("a") + rank - 1) if rank <= 26 else str(rank)
             caption = (
-                f"{rank}. {v.name}: keep-out {v.largest_keepout_m:.2f} m, "
+                f"({letter}) {rank}. {v.name}: keep-out {v.largest_keepout_m:.2f} m, "
                 f"zone {v.zone_area_m2:.2f} m²"
             )
-            panels.append((caption, v.floor.result, v.scenario, v.keepouts))
-        return comparison_figure(panels, f"Options compared: {self.base.name}")
+            run = v.panel if v.panel is not None else v.floor
+            panels.append((caption, run.result, v.scenario, v.keepouts))
+        own = [v.panel is not None for v in self.variants]
+        note = (
+            "panels "
+            + ", ".join(f"({chr(ord('a') + i)})" for i, o in enumerate(own) if o and i < 26)
+            + " on their own, smaller extent"
+            if any(own)
+            else ""
+        )
+        return comparison_figure(panels, f"Options compared: {self.base.name}", note=note)
 
 
 def compare_options(
@@ -242,6 +408,8 @@ def compare_options(
     pixels: int | None = None,
     progress: ProgressFactory | None = None,
     base_keepouts: Sequence[KeepoutResult] | None = None,
+    rank_by: str = "keepout",
+    own_panels: bool = True,
 ) -> Comparison:
     """Assess the base and every option on a common floor grid and rank them.
 
@@ -259,12 +427,19 @@ def compare_options(
         ``progress(label)`` returns a ``(done, total)`` callback or None.
     base_keepouts : sequence of KeepoutResult, optional
         The base's keep-out answers for ``limit_ids`` when already computed.
+    rank_by : str
+        ``"keepout"`` (default), ``"zone-area"`` or ``"place:NAME"`` with NAME a
+        ``[[point]]`` of the scenario (see the module notes for the tie rule).
+    own_panels : bool
+        Give the figure's panel of an option whose own default extent is under
+        :data:`OWN_PANEL_FRACTION` of the common one a map of its own extent.
 
     Returns
     -------
     Comparison
     """
     ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
+    check_rank_by(scenario, rank_by)
     height = float(scenario.centre_m[2]) if height_m is None else float(height_m)
     if not math.isfinite(height):
         from .errors import InputError
@@ -291,7 +466,7 @@ def compare_options(
             for (_, _, s), k in zip(variants, keepouts, strict=True)
         )
     out = []
-    for (name, description, s), k in zip(variants, keepouts, strict=True):
+    for order, ((name, description, s), k) in enumerate(zip(variants, keepouts, strict=True)):
         callback = progress(f"option {name}") if progress is not None else None
         run = maps.run_map(
             s,
@@ -303,9 +478,44 @@ def compare_options(
             centre_st_m=plane.centre_st_m,
             progress=callback,
         )
-        out.append(Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst_point(s, ids)))
-    out.sort(key=Variant.rank_key)
-    return Comparison(scenario, ids, height, tuple(out))
+        places, worst = place_values(s, ids)
+        panel = None
+        own_m = maps.default_half_extent_m(s, k, plane)
+        if own_panels and own_m < OWN_PANEL_FRACTION * half_extent_m:
+            # A small option's zone is a few pixels of the common grid: its panel of the
+            # figure gets a map of its own extent (the data keep the common grid).
+            panel = maps.run_map(
+                s,
+                plane,
+                k,
+                half_extent_m=own_m,
+                pixels=run.result.grid.shape[1],
+                centre_st_m=plane.centre_st_m,
+            )
+        out.append(
+            Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst, places, order, panel)
+        )
+    return Comparison(scenario, ids, height, tuple(rank_variants(out, rank_by)), rank_by)
+
+
+def check_rank_by(scenario: Scenario, rank_by: str) -> None:
+    """Refuse a ranking the scenario cannot give (exit 2 through the CLI).
+
+    Raises
+    ------
+    InputError
+        If ``rank_by`` is not ``keepout``, ``zone-area`` or ``place:NAME`` with NAME
+        one of the scenario's ``[[point]]`` names.
+    """
+    from .errors import InputError
+
+    if rank_by in RANK_CHOICES:
+        return
+    names = [p.name for p in scenario.points]
+    if rank_by.startswith("place:") and rank_by.removeprefix("place:") in names:
+        return
+    allowed = ", ".join([*RANK_CHOICES, *(f"place:{n}" for n in names)])
+    raise InputError(f"{rank_by!r} is not a ranking; allowed: {allowed}", "argument", "--rank-by")
 
 
 def comparison_table(data: dict[str, Any]) -> str:
@@ -329,7 +539,7 @@ def comparison_table(data: dict[str, Any]) -> str:
         cells.append("-" if leak is None else f"{leak:.3g}")
         wp = row["worst_point"]
         cells.append(
-            "-" if wp is None else f"{wp['name']}: {100 * wp['quotient']:.3g} % of {wp['limit']}"
+            "-" if wp is None else f"{wp['name']}: {share_text(wp['quotient'])} of {wp['limit']}"
         )
         rows.append(cells)
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
@@ -343,4 +553,24 @@ def comparison_table(data: dict[str, Any]) -> str:
     ]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
     lines += ["", "Keep-out in brackets: widened by the source model's stated gain uncertainty."]
+    lines += _places_lines(data)
     return "\n".join(lines)
+
+
+def _places_lines(data: dict[str, Any]) -> list[str]:
+    """Each option's time-averaged density at every named place, with its change in dB."""
+    rows = [row for row in data["options"] if row.get("places")]
+    if not rows:
+        return []
+    lines = ["", "At the named places (time-averaged; change against the base):"]
+    for name in [p["name"] for p in rows[0]["places"]]:
+        lines.append(f"  {name}:")
+        for row in rows:
+            place = next(p for p in row["places"] if p["name"] == name)
+            change = place["change_db"]
+            db = "" if row["is_base"] or change is None else f"  {change:+.1f} dB"
+            label = row["name"] if row["is_base"] else f"option: {row['name']}"
+            lines.append(
+                f"    {row['rank']}. {label}: {density_text(place['power_density_w_m2'])}{db}"
+            )
+    return lines

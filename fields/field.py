@@ -13,7 +13,12 @@ leaks the power of the sources inside) the field at each point is
 * combined per the scenario's ``reflections`` mode: ``"coherent"`` sums the
   phasors (the standing-wave pattern); ``"envelope"`` adds the magnitudes (the
   worst phase everywhere, never below coherent);
-* behind a reflector (inside the wall or floor half-space, or the room beyond)
+* a finite reflector (a plate: ``size_m``) scales its image by the plate's
+  Fresnel-Kirchhoff aperture factor (continuous across the reflection boundary), and a
+  finite *metal* plate shades the direct ray and the legs of the other first-order
+  paths as a shield with no transmission does; a plate does not bound the space, so
+  every other plane's images stay in play beside and under it;
+* behind an infinite reflector (inside the wall or floor half-space, or the room beyond)
   only the direct field remains, unattenuated (the wall's thickness is unknown and a
   thin panel can pass nearly all of it: conservative), or nothing behind metal.
 
@@ -47,8 +52,10 @@ References
 
 from __future__ import annotations
 
+import functools
 import os
 import warnings
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -56,7 +63,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import ETA0_OHM, Radiator, as_points
 
-from .scenario import Scenario
+from .scenario import Scenario, Source
 
 #: Default and largest memory budget of one evaluation [bytes] (the scratch of the sums;
 #: the N x 3 points and the N results are the caller's).
@@ -167,22 +174,105 @@ class FieldResult:
     peak_power_density_w_m2: NDArray[np.float64]
 
 
-def _cached(scenario: Scenario, name: str, build):  # noqa: ANN001, ANN202
-    """Derived data kept on the (frozen) scenario, computed on first use."""
-    cache = scenario.__dict__.setdefault("_derived", {})
-    if name not in cache:
-        cache[name] = build()
-    return cache[name]
+@dataclass(frozen=True)
+class CavityState:
+    """The stirred field inside an enclosure, fixed by the enclosed sources.
+
+    Parameters
+    ----------
+    enclosed : tuple of Source
+        The sources inside the enclosure.
+    power_density_w_m2 : float
+        Cavity power density while every enclosed source radiates [W m^-2].
+    average_ratio : float
+        Time-averaged over peak enclosed power (the duty-weighted share) [1].
+    """
+
+    enclosed: tuple[Source, ...]
+    power_density_w_m2: float
+    average_ratio: float
 
 
-def radiating_terms(scenario: Scenario) -> list[RadiatingTerm]:
+@dataclass(frozen=True, eq=False)
+class PreparedScenario:
+    """A scenario with what every evaluation needs built once: immutable.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The validated scenario.
+    terms : tuple of RadiatingTerm
+        The incoherent radiating terms: free sources and enclosure openings (the power
+        balance of the enclosure is solved here, not per evaluation).
+    cavity : CavityState or None
+        The field inside the enclosure, when there is one.
+
+    Notes
+    -----
+    Build it with :func:`prepare`.  The reflectors' images are formed per evaluation from
+    the terms' radiators (:func:`keepclear.fields.reflection.reflected_fields`).
+    """
+
+    scenario: Scenario
+    terms: tuple[RadiatingTerm, ...]
+    cavity: CavityState | None
+
+
+#: What :func:`prepare` built, by the identity of its scenario, while that scenario lives
+#: (the radiating terms and the cavity state hold no reference to the scenario itself, so
+#: the entry goes when the scenario does).
+_PREPARED: dict[int, tuple[weakref.ref[Scenario], tuple[RadiatingTerm, ...], CavityState | None]]
+_PREPARED = {}
+
+
+def prepare(scenario: Scenario | PreparedScenario) -> PreparedScenario:
+    """The :class:`PreparedScenario` of a scenario; its parts are built on first use, then shared.
+
+    The prepared parts are kept beside the scenario (keyed by its identity, dropped when
+    the scenario is), never written into the frozen :class:`Scenario` itself, so every
+    search and map over one scenario solves its enclosure once.
+    """
+    if isinstance(scenario, PreparedScenario):
+        return scenario
+    key = id(scenario)
+    known = _PREPARED.get(key)
+    if known is not None and known[0]() is scenario:
+        return PreparedScenario(scenario, known[1], known[2])
+    terms, cavity = tuple(_radiating_terms(scenario)), _cavity(scenario)
+    ref = weakref.ref(scenario, functools.partial(_forget, key, _PREPARED))
+    _PREPARED[key] = (ref, terms, cavity)
+    return PreparedScenario(scenario, terms, cavity)
+
+
+def _forget(key: int, table: dict, ref: weakref.ref) -> None:
+    """Drop a prepared scenario once its scenario is gone (``table`` bound: safe at exit)."""
+    entry = table.get(key)
+    if entry is not None and entry[0] is ref:
+        del table[key]
+
+
+def _cavity(scenario: Scenario) -> CavityState | None:
+    enclosure = scenario.enclosure
+    if enclosure is None:
+        return None
+    enclosed = tuple(s for s in scenario.sources if enclosure.contains(s.position_m[None, :])[0])
+    total_w = sum(s.power_w for s in enclosed)
+    average_w = sum(s.average_power_w for s in enclosed)
+    density = float(
+        enclosure.power_balance(total_w, scenario.frequency_hz)["cavity_power_density_w_m2"]
+    )
+    ratio = average_w / total_w if total_w > 0 else 0.0
+    return CavityState(enclosed, density, ratio)
+
+
+def radiating_terms(scenario: Scenario | PreparedScenario) -> list[RadiatingTerm]:
     """The incoherent terms of a scenario: free sources, and enclosure openings.
 
     Sources inside the enclosure do not radiate outside directly; the openings of
     the enclosure do, with the leaked share of their power.  Computed once per
-    scenario (the power balance of the enclosure is not repeated per evaluation).
+    scenario (see :func:`prepare`).
     """
-    return _cached(scenario, "terms", lambda: _radiating_terms(scenario))
+    return list(prepare(scenario).terms)
 
 
 def _radiating_terms(scenario: Scenario) -> list[RadiatingTerm]:
@@ -249,7 +339,37 @@ def _path_factors(
         for shield in scenario.shields:
             back *= shield.amplitude_factor(starts, ends)
         images = [f * back[k * n : (k + 1) * n] for k, f in enumerate(images)]
+    direct, images = _plate_shadows(scenario, radiator, points_m, bounces, direct, images)
     return direct, images
+
+
+def _plate_shadows(  # noqa: ANN202
+    scenario: Scenario,
+    radiator: Radiator,
+    points_m: NDArray[np.float64],
+    bounces: list[NDArray[np.float64]],
+    direct: NDArray[np.float64],
+    images: list[NDArray[np.float64]],
+):
+    """Finite metal reflectors as obstacles on the direct ray and the reflected legs.
+
+    Both legs of each first-order reflected path count, except the plate that path
+    reflects from.
+    """
+    from . import reflection
+
+    refl = scenario.reflectors
+    if not reflection.has_obstacles(refl):
+        return direct, images
+    f_hz, source = scenario.frequency_hz, radiator.position_m
+    extent = 0.5 * radiator.largest_dimension_m
+    direct = direct * reflection.plate_obstacle_factor(refl, source, points_m, f_hz, (), extent)
+    out = []
+    for k, (f, q) in enumerate(zip(images, bounces, strict=True)):
+        leg1 = reflection.plate_obstacle_factor(refl, source, q, f_hz, (k,), extent)
+        leg2 = reflection.plate_obstacle_factor(refl, q, points_m, f_hz, (k,))
+        out.append(f * leg1 * leg2)
+    return direct, out
 
 
 def _term_squares(
@@ -262,20 +382,21 @@ def _term_squares(
     radiator = term.radiator
     e, h = radiator.fields(points_m, chunk_bytes)
     image_factors: list[NDArray[np.float64]] = []
-    if scenario.shields:
+    from . import reflection
+
+    shaded = bool(scenario.shields) or reflection.has_obstacles(scenario.reflectors)
+    if shaded:
         f, image_factors = _path_factors(scenario, radiator, points_m, len(scenario.reflectors))
         e = e * f[:, None]
         h = h * f[:, None]
     if not scenario.reflectors:
         return np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
 
-    from . import reflection
-
     order = 2 if len(scenario.reflectors) > 1 else 1
     images = reflection.reflected_fields(
         radiator, scenario.reflectors, points_m, scenario.frequency_hz, order=order
     )
-    if scenario.shields:
+    if shaded:
         # First-order images: shield credit along the real path, source -> reflection
         # point -> field point (a sheet behind the plane is not on it).  Higher orders get
         # no credit (conservative: their path is not traced).
@@ -302,7 +423,7 @@ def _term_squares(
 
 
 def evaluate(
-    scenario: Scenario,
+    scenario: Scenario | PreparedScenario,
     points_m: ArrayLike,
     chunk_points: int | None = None,
     progress: object | None = None,
@@ -313,8 +434,8 @@ def evaluate(
 
     Parameters
     ----------
-    scenario : Scenario
-        The validated scenario.
+    scenario : Scenario or PreparedScenario
+        The validated scenario, or its prepared form (:func:`prepare`).
     points_m : array_like, shape (N, 3)
         Field points in scenario coordinates [m].
     chunk_points : int, optional
@@ -336,7 +457,9 @@ def evaluate(
     h2_avg = np.zeros(n)
     e2_peak = np.zeros(n)
     h2_peak = np.zeros(n)
-    terms = radiating_terms(scenario)
+    prepared = prepare(scenario)
+    scenario = prepared.scenario
+    terms = prepared.terms
     plan_points, radiator_bytes = chunk_plan(scenario, memory_bytes)
     step = plan_points if chunk_points is None else max(1, min(int(chunk_points), plan_points))
     step = -(-n // max(1, -(-n // step)))  # equal chunks: no small remainder
@@ -349,7 +472,7 @@ def evaluate(
             h2_avg[sl] += term.average_weight * h2
             e2_peak[sl] += term.peak_weight * e2
             h2_peak[sl] += term.peak_weight * h2
-        cavity = _cavity_squares(scenario, chunk, radiator_bytes)
+        cavity = _cavity_squares(prepared, chunk, radiator_bytes)
         if cavity is not None:
             mask, c2_avg, c2_peak, direct = cavity
             inner = np.flatnonzero(mask) + start
@@ -363,37 +486,30 @@ def evaluate(
 
 
 def _cavity_squares(  # noqa: ANN202
-    scenario: Scenario, pts: NDArray[np.float64], chunk_bytes: int = 64 * 1024**2
+    scenario: Scenario | PreparedScenario,
+    pts: NDArray[np.float64],
+    chunk_bytes: int = 64 * 1024**2,
 ):
     """Inside the enclosure: the stirred cavity field plus the sources' direct fields."""
-    enclosure = scenario.enclosure
-    if enclosure is None:
+    prepared = prepare(scenario)
+    enclosure = prepared.scenario.enclosure
+    cavity = prepared.cavity
+    if enclosure is None or cavity is None:
         return None
     mask = enclosure.contains(pts)
     if not mask.any():
         return None
-    enclosed = [s for s in scenario.sources if enclosure.contains(s.position_m[None, :])[0]]
-    total_w = sum(s.power_w for s in enclosed)
-    average_w = sum(s.average_power_w for s in enclosed)
-    s_cavity = _cached(
-        scenario,
-        "cavity_density",
-        lambda: float(
-            enclosure.power_balance(total_w, scenario.frequency_hz)["cavity_power_density_w_m2"]
-        ),
-    )
     inner = pts[mask]
     direct = [np.zeros(inner.shape[0]) for _ in range(4)]
-    for s in enclosed:
+    for s in cavity.enclosed:
         e, h = s.radiator.fields(inner, chunk_bytes)
         e2, h2 = np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
         direct[0] += s.duty_cycle * e2
         direct[1] += s.duty_cycle * h2
         direct[2] += e2
         direct[3] += h2
-    ratio = average_w / total_w if total_w > 0 else 0.0
-    c2_peak = s_cavity * ETA0_OHM
-    return mask, c2_peak * ratio, c2_peak, direct
+    c2_peak = cavity.power_density_w_m2 * ETA0_OHM
+    return mask, c2_peak * cavity.average_ratio, c2_peak, direct
 
 
 def _result(e2_avg: NDArray, h2_avg: NDArray, e2_peak: NDArray, h2_peak: NDArray) -> FieldResult:
@@ -407,6 +523,8 @@ def _result(e2_avg: NDArray, h2_avg: NDArray, e2_peak: NDArray, h2_peak: NDArray
     )
 
 
-def power_density(scenario: Scenario, points_m: ArrayLike) -> NDArray[np.float64]:
+def power_density(
+    scenario: Scenario | PreparedScenario, points_m: ArrayLike
+) -> NDArray[np.float64]:
     """Time-averaged power density at points [W m^-2] (shortcut for searches)."""
     return evaluate(scenario, points_m).power_density_w_m2

@@ -7,12 +7,13 @@ half a file, and a scenario file is never overwritten.
 
 from __future__ import annotations
 
+import contextlib
 import io
 import json
 import math
 import os
 import tempfile
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -404,3 +405,133 @@ def csv_rows_g9(table: NDArray[np.float64], rows_per_block: int = 16384) -> byte
         flat = text.reshape(-1)
         parts.append(flat[flat != 0].tobytes())  # NUL only pads
     return b"".join(parts)
+
+
+# ------------------------------------------------------------------ output folders
+def stage_output_folder(out_dir: str | Path) -> Path:
+    """A fresh, empty staging folder for outputs bound for ``out_dir``.
+
+    Beside ``out_dir`` when it does not exist yet (so it can be renamed into place
+    whole); inside it, hidden, when it does.  Checks up front that the folder can be
+    written, before any computation.
+
+    Raises
+    ------
+    ResourceError
+        Naming ``--out`` when the path is a file, its parent folder is missing, or
+        nothing can be created there.
+    """
+    out = Path(out_dir)
+    label = str(out_dir)
+    if out.exists() and not out.is_dir():
+        raise ResourceError(
+            f"'{label}' is a file, not a folder; give a folder", "argument", "--out"
+        )
+    parent = out.absolute().parent
+    if not out.exists() and not parent.is_dir():
+        what = "is not a folder" if parent.exists() else "does not exist"
+        raise ResourceError(
+            f"cannot create '{label}': '{parent}' {what}; create it first", "argument", "--out"
+        )
+    where = out if out.exists() else parent
+    if not os.access(where, os.W_OK | os.X_OK):
+        raise ResourceError(f"'{where}' cannot be written (permission denied)", "argument", "--out")
+    try:
+        staging = tempfile.mkdtemp(prefix=f".{out.name or 'out'}.", suffix=".partial", dir=where)
+    except OSError as exc:
+        raise ResourceError(
+            f"'{where}' cannot be written ({exc.strerror})", "argument", "--out"
+        ) from None
+    return Path(staging)
+
+
+def discard_staging(staging: str | Path) -> None:
+    """Remove a staging folder and everything in it."""
+    import shutil
+
+    shutil.rmtree(staging, ignore_errors=True)
+
+
+def publish_output_folder(
+    staging: str | Path, out_dir: str | Path, protected: Iterable[str | Path]
+) -> list[Path]:
+    """Move the staged files into ``out_dir``; return their final paths.
+
+    A new ``out_dir`` is the staging folder renamed (one atomic step).  Into an
+    existing folder each file is renamed over its old version (each atomic), after
+    checking that none would replace an input file or a folder.  On a refusal the
+    staging folder is removed and nothing is written.
+    """
+    staging = Path(staging)
+    out = Path(out_dir)
+    protected = [Path(p) for p in protected]
+    names = sorted(p.name for p in staging.iterdir())
+    try:
+        for name in names:
+            target = out / name
+            refuse_overwriting(target, protected)
+            if target.is_dir():
+                raise ResourceError(
+                    f"'{target}' is a folder; cannot replace it by a file", "argument", "--out"
+                )
+        if not out.exists():
+            umask = os.umask(0)
+            os.umask(umask)
+            os.chmod(staging, 0o777 & ~umask)
+            try:
+                os.rename(staging, out)
+                return [out / n for n in names]
+            except OSError:
+                out.mkdir()
+        for name in names:
+            os.replace(staging / name, out / name)
+        return [out / n for n in names]
+    except OSError as exc:
+        raise ResourceError(
+            f"'{out}' cannot be written ({exc.strerror})", "argument", "--out"
+        ) from None
+    finally:
+        if staging.exists():
+            discard_staging(staging)
+
+
+class StagedFolder:
+    """Files bound for one output folder, written to a staging folder first.
+
+    Use through :func:`staged_output_folder`; ``write(name, data)`` stages a file, and
+    ``published`` holds the final paths once the block has ended without an error.
+    """
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+        self.published: list[Path] = []
+
+    def write(self, name: str, data: bytes) -> None:
+        """Stage one file (atomically) under ``name``."""
+        atomic_write_bytes(self.path / name, data)
+
+
+@contextlib.contextmanager
+def staged_output_folder(
+    out_dir: str | Path, protected: Iterable[str | Path] = ()
+) -> Iterator[StagedFolder]:
+    """Stage, then publish, the files of one output folder: all of them or none.
+
+    The staging folder is made (and the destination checked) on entry, before any
+    computation in the block; on a normal exit the staged files are moved into
+    ``out_dir`` (:func:`publish_output_folder`, never over a ``protected`` input file);
+    on an error, or an interrupt, the staging folder is removed and ``out_dir`` is left
+    as it was.
+
+    Yields
+    ------
+    StagedFolder
+        Its ``published`` list holds the final paths after the block.
+    """
+    staged = StagedFolder(stage_output_folder(out_dir))
+    try:
+        yield staged
+    except BaseException:
+        discard_staging(staged.path)
+        raise
+    staged.published = publish_output_folder(staged.path, out_dir, list(protected))

@@ -25,7 +25,7 @@ import io
 import math
 import textwrap
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import matplotlib as mpl
@@ -230,6 +230,7 @@ def draw_map(
     *,
     zones: dict[str, list[maps.Zone]] | None = None,
     labels: bool = True,
+    overlay: MapOverlay | None = None,
 ) -> Any:
     """Draw one map into an axes: colour image, contours, objects, points.
 
@@ -248,6 +249,8 @@ def draw_map(
         same marching squares); accepted so callers can pass what they have.
     labels : bool
         Whether to write names beside sources and points.
+    overlay : MapOverlay, optional
+        The 95th-percentile contours of an ``[uncertainty]`` run and survey readings.
 
     Returns
     -------
@@ -304,6 +307,8 @@ def draw_map(
             _draw_object(ax, plane, corners, "opening", grid.step_m)
     _draw_sources(ax, plane, scenario, (s1 - s0), grid.step_m, labels)
     _draw_points(ax, plane, scenario, (s0, s1, t0, t1), grid.step_m, labels)
+    if overlay is not None:
+        _draw_overlay(ax, result, overlay)
     ax.set_xlim(s0 - ds / 2, s1 + ds / 2)
     ax.set_ylim(t0 - dt / 2, t1 + dt / 2)
     ax.set_xlabel(_axis_label(plane, 0))
@@ -344,6 +349,9 @@ def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> Non
     s0, s1, t0, t1 = grid.extent_m
     ss, tt = np.meshgrid(grid.s_m, grid.t_m)
     for reflector in scenario.reflectors:
+        if getattr(reflector, "is_finite", False):
+            _draw_plate(ax, plane, reflector.outline(), grid.step_m)
+            continue
         trace = maps.plane_trace(plane, reflector.point_m, reflector.normal)
         if trace is None:
             continue
@@ -376,6 +384,56 @@ def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> Non
             ys = np.array([t0, t1])
             xs = (c - b * ys) / a
         ax.plot(xs, ys, color="#333333", lw=2.4, solid_capstyle="butt", zorder=5)
+
+
+#: Colour of a finite reflecting plate on maps.
+PLATE_COLOUR = "#333333"
+
+
+def _draw_plate(
+    ax: Any, plane: maps.Plane, corners: NDArray[np.float64] | None, step: float
+) -> None:
+    """A finite reflector: only the plate itself is hatched (space around it stays open).
+
+    Where the map plane cuts the plate, a thick hatched bar along the cut; where the map
+    lies in the plate's plane, the plate's rectangle hatched; otherwise its dashed outline
+    projected (off the map plane).
+    """
+    if corners is None:
+        return
+    section = maps.convex_section(plane, corners)
+    if section is not None and section.shape[0] == 2:
+        ax.plot(
+            section[:, 0],
+            section[:, 1],
+            color=PLATE_COLOUR,
+            lw=4.0,
+            zorder=6,
+            solid_capstyle="butt",
+        )
+        ax.plot(section[:, 0], section[:, 1], color="white", lw=1.2, ls=(0, (2, 2)), zorder=6)
+        return
+    if section is not None:
+        ax.add_patch(
+            Polygon(
+                section, closed=True, fc="#808080", alpha=0.35, ec=PLATE_COLOUR, lw=2.0, zorder=2
+            )
+        )
+        ax.add_patch(
+            Polygon(
+                section, closed=True, fill=False, hatch="////", ec=PLATE_COLOUR, lw=0.0, zorder=2
+            )
+        )
+        return
+    hull = maps.projected_hull(plane, corners)
+    if hull is not None and hull.shape[0] > 2:
+        ax.add_patch(
+            Polygon(
+                hull, closed=True, fill=False, ec=PLATE_COLOUR, lw=1.3, ls="--", alpha=0.7, zorder=6
+            )
+        )
+    elif hull is not None:
+        ax.plot(hull[:, 0], hull[:, 1], color=PLATE_COLOUR, lw=1.6, ls="--", alpha=0.7, zorder=6)
 
 
 def _draw_object(
@@ -513,8 +571,14 @@ def _draw_points(
     step: float,
     labels: bool,
 ) -> None:
-    """Named places: a dot and a letter; the legend gives each letter's name."""
-    for p in _shown_points(plane, scenario, extent, step):
+    """Named places: a dot and a letter; the legend gives each letter's name.
+
+    Letters of places close together are moved apart: each takes the first of eight
+    offsets around its dot whose box is clear of the letters placed before it.
+    """
+    shown = _shown_points(plane, scenario, extent, step)
+    offsets = _label_offsets(ax, extent, [(p.s, p.t) for p in shown]) if labels else []
+    for k, p in enumerate(shown):
         ax.plot(
             p.s,
             p.t,
@@ -530,13 +594,53 @@ def _draw_points(
             ax.annotate(
                 p.letter,
                 (p.s, p.t),
-                xytext=(5, 5),
+                xytext=offsets[k],
                 textcoords="offset points",
                 fontsize=9,
                 fontweight="bold",
                 bbox=_LABEL_BOX,
                 zorder=9,
+                ha="left",
+                va="bottom",
             )
+
+
+#: Offsets of a place's letter from its dot, in order of preference [points].
+_LABEL_OFFSETS = ((5, 5), (5, -16), (-15, 5), (-15, -16), (12, -5), (-22, -5), (-5, 12), (-5, -23))
+#: Size of a letter's box (a bold 9 pt capital with its padding) [points].
+_LABEL_SIZE = (11.0, 13.0)
+
+
+def _label_offsets(
+    ax: Any, extent: tuple[float, float, float, float], at: list[tuple[float, float]]
+) -> list[tuple[int, int]]:
+    """Greedy non-overlapping label offsets for letters at data positions ``at``."""
+    s0, s1, t0, t1 = extent
+    fig_w, fig_h = ax.figure.get_size_inches()
+    box = ax.get_position()
+    sx = box.width * fig_w * 72.0 / max(s1 - s0, 1e-12)
+    sy = box.height * fig_h * 72.0 / max(t1 - t0, 1e-12)
+    placed: list[tuple[float, float, float, float]] = []
+    dots = [((s - s0) * sx, (t - t0) * sy) for s, t in at]
+    out = []
+    for x, y in dots:
+        choice = _LABEL_OFFSETS[0]
+        for dx, dy in _LABEL_OFFSETS:
+            rect = (x + dx, y + dy, x + dx + _LABEL_SIZE[0], y + dy + _LABEL_SIZE[1])
+            clear = all(
+                rect[2] <= r[0] or r[2] <= rect[0] or rect[3] <= r[1] or r[3] <= rect[1]
+                for r in placed
+            ) and all(
+                not (rect[0] - 3 <= dx_ <= rect[2] + 3 and rect[1] - 3 <= dy_ <= rect[3] + 3)
+                for dx_, dy_ in dots
+            )
+            if clear:
+                choice = (dx, dy)
+                break
+        dx, dy = choice
+        placed.append((x + dx, y + dy, x + dx + _LABEL_SIZE[0], y + dy + _LABEL_SIZE[1]))
+        out.append(choice)
+    return out
 
 
 def _off_plane(plane: maps.Plane, position_m: NDArray, offset_m: float) -> str:
@@ -602,9 +706,14 @@ def _legend_handles(
             )
         )
     plane = result.grid.plane
-    if any(maps.plane_trace(plane, r.point_m, r.normal) for r in scenario.reflectors):
+    infinite = [r for r in scenario.reflectors if not getattr(r, "is_finite", False)]
+    if any(maps.plane_trace(plane, r.point_m, r.normal) for r in infinite):
         handles.append(
             Line2D([], [], color="#333333", lw=2.4, label="reflecting plane (hatched: behind it)")
+        )
+    if len(infinite) < len(scenario.reflectors):
+        handles.append(
+            Line2D([], [], color=PLATE_COLOUR, lw=4.0, label="reflecting plate (finite)")
         )
     if scenario.shields:
         handles.append(Line2D([], [], color="#3b3b8f", lw=3.2, label="shield"))
@@ -672,12 +781,101 @@ def quantity_title(style: MapStyle, result: maps.MapResult) -> str:
     return "Time-averaged power density"
 
 
+@dataclass(frozen=True)
+class MapOverlay:
+    """What an assessment adds to a map beyond the nominal fields.
+
+    Parameters
+    ----------
+    p95 : dict
+        Limit id -> the 95th percentile over the Monte Carlo samples of the quotient on
+        the map's grid (ny, nx); its contour at one is drawn thin and dashed.
+    readings : list of dict
+        Survey readings near the plane: ``s``, ``t`` (plane coordinates [m]), ``tag``
+        (a short label) and ``under`` (more than 3 dB above the model).
+    """
+
+    p95: dict[str, NDArray[np.float64]] = field(default_factory=dict)
+    readings: list[dict[str, Any]] = field(default_factory=list)
+
+
+def _draw_overlay(ax: Any, result: maps.MapResult, overlay: MapOverlay) -> None:
+    grid = result.grid
+    for i, limit_id in enumerate(result.limit_ids):
+        q = overlay.p95.get(limit_id)
+        if q is None or not np.any(q >= 1.0) or q.shape != grid.shape or min(q.shape) < 2:
+            continue
+        st = limit_style(i)
+        ax.contour(
+            grid.s_m,
+            grid.t_m,
+            q,
+            levels=[1.0],
+            colors=[st["color"]],
+            linewidths=1.0,
+            linestyles=[(0, (4, 2))],
+            zorder=4,
+        )
+    for r in overlay.readings:
+        ax.plot(
+            r["s"],
+            r["t"],
+            marker="D",
+            ms=6,
+            ls="none",
+            zorder=9,
+            mfc="#d62728" if r["under"] else "#ffffff",
+            mec="black",
+            mew=1.0,
+        )
+        ax.annotate(
+            r["tag"],
+            (r["s"], r["t"]),
+            xytext=(5, -11),
+            textcoords="offset points",
+            fontsize=8,
+            bbox=_LABEL_BOX,
+            zorder=9,
+        )
+
+
+def _overlay_handles(overlay: MapOverlay | None) -> list[Any]:
+    if overlay is None:
+        return []
+    out: list[Any] = []
+    if overlay.p95:
+        out.append(
+            Line2D(
+                [],
+                [],
+                color="#444444",
+                lw=1.0,
+                ls=(0, (4, 2)),
+                label="dashed: 95th-percentile contour of the same limit ([uncertainty] samples)",
+            )
+        )
+    if overlay.readings:
+        out.append(
+            Line2D(
+                [],
+                [],
+                marker="D",
+                ls="none",
+                mfc="#ffffff",
+                mec="black",
+                label="survey reading (filled red: more than 3 dB above the model)",
+            )
+        )
+    return out
+
+
 def map_figure(
     result: maps.MapResult,
     scenario: Scenario,
     keepouts: Sequence[KeepoutResult],
     style: MapStyle | None = None,
     zones: dict[str, list[maps.Zone]] | None = None,
+    overlay: MapOverlay | None = None,
 ) -> Figure:
     """The complete figure of one map: title, map, colour bar, legend, caution.
 
@@ -694,14 +892,15 @@ def map_figure(
     matplotlib.figure.Figure
     """
     style = style or MapStyle()
-    handles = _legend_handles(result, keepouts, scenario)
+    handles = _legend_handles(result, keepouts, scenario) + _overlay_handles(overlay)
     heading = _title_lines(scenario, result, style)
     # Layout in inches: title block, square map with colour bar, legend, caution.
     width, left, side = 8.4, 0.85, 5.6
     s0, s1, t0, t1 = result.grid.extent_m
     # A map wider than tall (a vertical plane over a floor) keeps its width.
     tall = side * min(1.0, max((t1 - t0) / max(s1 - s0, 1e-9), 0.3))
-    top = 0.3 + 0.27 * len(heading[1]) + 0.19 * len(heading[2]) + 0.2
+    top = 0.3 + 0.25 * (len(heading[0]) - 1) + 0.27 * len(heading[1]) + 0.19 * len(heading[2])
+    top += 0.2
     legend_h = 0.2 * len(handles) + 0.2
     height = top + tall + 0.6 + legend_h + 0.55
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
@@ -710,7 +909,7 @@ def map_figure(
         ax = fig.add_axes((left / width, bottom, side / width, tall / height))
         cax = fig.add_axes(((left + side + 0.95) / width, bottom, 0.22 / width, tall / height))
         norm = _norm(style, [result])
-        image = draw_map(ax, result, scenario, keepouts, style, norm, zones=zones)
+        image = draw_map(ax, result, scenario, keepouts, style, norm, zones=zones, overlay=overlay)
         _colour_bar(fig, image, cax, style, style.quotient_limit or result.limit_ids[0])
         _title(fig, heading, height)
         fig.legend(
@@ -727,7 +926,7 @@ def map_figure(
 
 def _title_lines(
     scenario: Scenario, result: maps.MapResult, style: MapStyle
-) -> tuple[str, list[str], list[str]]:
+) -> tuple[list[str], list[str], list[str]]:
     """Title, the what-and-where lines and the assumption lines of a map."""
     grid = result.grid
     what = f"{quantity_title(style, result)} on the {grid.plane.description}"
@@ -736,17 +935,47 @@ def _title_lines(
         f"{scenario.frequency_hz / 1e9:g}\u00a0GHz"
     )
     return (
-        textwrap.shorten(scenario.name, 90),
+        wrap_title(scenario.name, TITLE_WIDTH),
         textwrap.wrap(what, 92),
         textwrap.wrap(assumptions, 115),
     )
 
 
-def _title(fig: Figure, heading: tuple[str, list[str], list[str]], height: float) -> None:
+#: Characters of a bold title line on a single map's figure.
+TITLE_WIDTH = 72
+#: A title is cut (with an ellipsis) after this many lines.
+TITLE_MAX_LINES = 3
+
+
+def wrap_title(text: str, width: int) -> list[str]:
+    """A title wrapped to lines of ``width`` characters, at most three lines.
+
+    The whole name shows unless it needs more than three lines; then the third line
+    ends with an ellipsis.  Control characters are shown as spaces (fonts have no
+    glyph for them).
+    """
+    printable = "".join(ch if ch.isprintable() else " " for ch in text)
+    lines = textwrap.wrap(printable, width, break_long_words=True) or [""]
+    if len(lines) > TITLE_MAX_LINES:
+        lines = lines[: TITLE_MAX_LINES - 1] + [
+            textwrap.shorten(" ".join(lines[TITLE_MAX_LINES - 1 :]), width, placeholder=" …")
+        ]
+    return lines
+
+
+def _title(fig: Figure, heading: tuple[list[str], list[str], list[str]], height: float) -> None:
     title, what, assumptions = heading
     x = 0.5 / fig.get_figwidth()
-    fig.text(x, 1 - 0.22 / height, title, fontsize=12.5, fontweight="bold", va="top")
-    y = 0.52
+    fig.text(
+        x,
+        1 - 0.22 / height,
+        "\n".join(title),
+        fontsize=12.5,
+        fontweight="bold",
+        va="top",
+        linespacing=1.15,
+    )
+    y = 0.52 + 0.25 * (len(title) - 1)
     fig.text(x, 1 - y / height, "\n".join(what), fontsize=10.5, va="top", linespacing=1.3)
     y += 0.27 * len(what) - 0.03
     fig.text(x, 1 - y / height, "\n".join(assumptions), fontsize=8.5, va="top", color="#333333")
@@ -769,6 +998,7 @@ def comparison_figure(
     panels: Sequence[tuple[str, maps.MapResult, Scenario, Sequence[KeepoutResult]]],
     title: str,
     style: MapStyle | None = None,
+    note: str = "",
 ) -> Figure:
     """Maps of several options side by side on one colour scale.
 
@@ -779,6 +1009,8 @@ def comparison_figure(
     title : str
         Figure title.
     style : MapStyle, optional
+    note : str, optional
+        A clause added to the subtitle (for example about the panels' extents).
     """
     style = style or MapStyle()
     n = len(panels)
@@ -789,6 +1021,8 @@ def comparison_figure(
     bar_gap, bar, right = 0.95, 0.22, 0.95
     legend_h = 0.75
     width = left + cols * side + (cols - 1) * gap + bar_gap + bar + right
+    title_lines = wrap_title(title, int(TITLE_WIDTH * width / 8.4))
+    top += 0.24 * (len(title_lines) - 1)
     row_h = row_head + side + row_foot
     height = top + rows * row_h + legend_h + 0.35
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
@@ -818,17 +1052,18 @@ def comparison_figure(
         fig.text(
             left / width,
             1 - 0.2 / height,
-            textwrap.shorten(title, 110),
+            "\n".join(title_lines),
             fontsize=12,
             fontweight="bold",
             va="top",
+            linespacing=1.15,
         )
         first = panels[0][1]
         fig.text(
             left / width,
-            1 - 0.5 / height,
+            1 - (0.5 + 0.24 * (len(title_lines) - 1)) / height,
             f"{quantity_title(style, first)} on the {first.grid.plane.description}; "
-            "one colour scale for all panels; ranked best first",
+            "one colour scale for all panels; ranked best first" + (f"; {note}" if note else ""),
             fontsize=9.5,
             va="top",
         )

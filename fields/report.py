@@ -341,6 +341,151 @@ def _points(data: dict[str, Any]) -> str:
     )
 
 
+def _uncertainty_section(data: dict[str, Any]) -> str:
+    """The Monte Carlo spread of the keep-out (with ``[uncertainty]``)."""
+    u = data.get("uncertainty")
+    if not u:
+        return ""
+    rows = [
+        [
+            _e(k["limit"]),
+            _metres(k["distance_m"]),
+            _metres(k["distance_median_m"]),
+            f"<strong>{_metres(k['distance_p95_m'])}</strong>",
+        ]
+        for k in data["keepout"]
+    ]
+    gains = ", ".join(f"{g:g}" for g in u["gain_db_used"])
+    return (
+        "<h3>How sure: the keep-out over the input uncertainty</h3>"
+        f"<p>{u['samples']} Monte Carlo samples (PCG64, seed {u['seed']}) of the inputs, each "
+        f"normal with one sigma: delivered power {u['power_db']:g}&nbsp;dB, gain {_e(gains)}"
+        f"&nbsp;dB (per source; the model's own figure where the table gives none), floor and "
+        f"wall |Γ| {u['reflection']:g}, shielding credit {u['shielding_db']:g}&nbsp;dB, source "
+        f"position {u['position_m']:g}&nbsp;m per axis. The fields are computed once and "
+        "re-weighted per sample. <strong>Mark out the 95th percentile</strong>: it is the "
+        "distance 19 set-ups in 20 stay within. On the maps the dashed contour of each limit is "
+        "where its 95th-percentile quotient reaches one (source position spread not included "
+        "there).</p>"
+        + _table(["limit", "nominal", "median", "95th percentile"], rows, numeric={1, 2, 3})
+    )
+
+
+def _places_extras(data: dict[str, Any]) -> str:
+    """Stay time per limit and spatial averages at the named places."""
+    parts = []
+    stay_rows = []
+    for p in data["points"]:
+        for limit_id, seconds in (p.get("allowed_s") or {}).items():
+            if seconds is not None:
+                stay_rows.append(
+                    [
+                        _e(p["name"]),
+                        _e(limit_id),
+                        f"{seconds:.3g}&nbsp;s ({seconds / 60:.2g}&nbsp;min)",
+                        _e(p.get("allowed_rule", {}).get(limit_id, "")),
+                    ]
+                )
+    if stay_rows:
+        parts.append(
+            "<h3>How long: the longest stay per averaging window</h3>"
+            "<p>Where a place is over a limit, a person may stay there for at most this long in "
+            "each averaging window of that limit (linear time averaging: window × limit ÷ "
+            "density, with nothing received the rest of the window). For the ICNIRP 2020 local "
+            "limits the brief-exposure energy rule (Table 7) is applied where it is stricter; "
+            "its formula was written from memory of the guidelines and is not yet checked "
+            "against the printed table.</p>"
+            + _table(["place", "limit", "longest stay", "rule"], stay_rows)
+        )
+    avg_rows = []
+    for p in data["points"]:
+        if "spatial_average_w_m2" not in p:
+            continue
+        z0, z1 = p["average_over_height_m"]
+        compared = "; ".join(
+            f"{_e(k)}: {c['compared_with']} ({100 * c['quotient']:.3g}&nbsp;%)"
+            for k, c in p.get("spatial_average_comparison", {}).items()
+        )
+        avg_rows.append(
+            [
+                _e(p["name"]),
+                f"{z0:g} to {z1:g}&nbsp;m",
+                _num(p["spatial_average_w_m2"]),
+                _num(p["power_density_w_m2"]),
+                compared,
+            ]
+        )
+    if avg_rows:
+        parts.append(
+            "<h3>The whole body: spatial average over a standing person</h3>"
+            "<p>The time-averaged power density averaged over a vertical line at the place, "
+            "by the composite midpoint rule with 20 equally spaced points (0.1&nbsp;m apart over "
+            "2&nbsp;m). Whole-body limits (ICNIRP 2020 Table 5, IEEE, FCC, Safety Code 6) are "
+            "compared with the spatial average; local limits, product emission limits and "
+            "device thresholds with the point value.</p>"
+            + _table(
+                ["place", "line", "spatial average W/m²", "point value W/m²", "compared with"],
+                avg_rows,
+                numeric={2, 3},
+            )
+        )
+    return "".join(parts)
+
+
+def _readings_section(data: dict[str, Any]) -> str:
+    """Survey readings against the prediction (``assess --readings``)."""
+    block = data.get("readings")
+    if not block:
+        return ""
+    rows = []
+    for i, r in enumerate(block["readings"]):
+        db = r["ratio_db"]
+        flag = '<span class="exceed">under-predicted</span>' if r["under_predicted"] else ""
+        rows.append(
+            [
+                _e(r["label"] or f"R{i + 1}"),
+                "(" + ", ".join(f"{x:g}" for x in r["position_m"]) + ")&nbsp;m",
+                f"{r['value']:g}&nbsp;{_e(r['unit'])}",
+                _num(r["measured_w_m2"]),
+                _num(r["predicted_w_m2"]),
+                "no prediction" if db is None else f"{db:+.1f}",
+                flag,
+                _e(", ".join(r["over_limits"]) or "-"),
+            ]
+        )
+    largest = block["largest_under_prediction_db"]
+    return (
+        "<h3>What the meter says: survey readings against the model</h3>"
+        "<p>A survey meter averages over a second or more, far longer than a mains cycle, so "
+        "each reading is compared with the time-averaged prediction (duty cycle applied); E "
+        "and H readings as E²/η0 and η0H². A reading more than 3&nbsp;dB above the model is "
+        "flagged. The readings are marked on the maps (diamonds; filled red when flagged) "
+        "where they lie within 0.5&nbsp;m of the plane.</p>"
+        + _table(
+            [
+                "reading",
+                "position",
+                "meter",
+                "measured W/m²",
+                "predicted W/m²",
+                "ratio dB",
+                "flag",
+                "over limits",
+            ],
+            rows,
+            numeric={3, 4, 5},
+        )
+        + "<p>"
+        + (
+            f"Largest measured-over-predicted ratio {largest:+.1f}&nbsp;dB. "
+            if largest is not None
+            else ""
+        )
+        + f"Suggested margin on the model: <strong>{block['suggested_margin_db']:.1f}&nbsp;dB"
+        "</strong>.</p>"
+    )
+
+
 def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
     comp = data.get("comparison")
     if not comp:
@@ -376,6 +521,7 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
         "the least space; it does not make any option safe by itself.</p>",
         _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
         _legend(keys, data),
+        _comparison_places(data, comp),
     ]
     if figure is not None:
         parts.append(
@@ -384,6 +530,31 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
             + "<figcaption>The options on one colour scale, best first.</figcaption></figure>"
         )
     return "\n".join(parts)
+
+
+def _comparison_places(data: dict[str, Any], comp: dict[str, Any]) -> str:
+    """Each option's time-averaged density at every named place, with its change in dB."""
+    if not any(row.get("places") for row in comp["options"]):
+        return ""
+    letters = {p["name"]: p.get("map_letter", p["name"]) for p in data["points"]}
+    names = [p["name"] for p in comp["options"][0]["places"]]
+    header = ["#", "option"] + [f"at {_e(letters.get(n, n))}" for n in names]
+    rows = []
+    for row in comp["options"]:
+        cells = [str(row["rank"]), _free(row["name"])]
+        for place in row["places"]:
+            text = _density(place["power_density_w_m2"])
+            if not row["is_base"] and place["change_db"] is not None:
+                text += f"<br>{place['change_db']:+.1f}&nbsp;dB"
+            cells.append(text)
+        rows.append(cells)
+    legend = "; ".join(f"<strong>{_e(letters.get(n, n))}</strong> = {_free(n)}" for n in names)
+    return (
+        "<h3>The options at the named places</h3>"
+        + _table(header, rows, numeric={0, *range(2, len(header))})
+        + f'<p class="legend">Time-averaged power density; the change in dB is against the '
+        f"base. {legend}.</p>"
+    )
 
 
 def _method(data: dict[str, Any]) -> str:
@@ -555,8 +726,11 @@ def render_report(
         "how low the zones reach.</figcaption></figure>",
         "<h2>2. Results per limit</h2>",
         _results(data),
+        _uncertainty_section(data),
         "<h2>3. Named places</h2>",
         _points(data),
+        _places_extras(data),
+        _readings_section(data),
         "<h2>4. Options compared</h2>",
         _comparison(data, figures.get("compare")),
         "<h2>5. Method and assumptions</h2>",

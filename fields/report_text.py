@@ -68,6 +68,7 @@ def probe_table(data: dict[str, Any]) -> str:
         for limit_id, q in p["quotients"].items():
             verdict = "EXCEEDS" if q >= 1 else "below"
             lines.append(f"  {limit_id:36s} {share_text(q):>14s} of limit  {verdict}")
+        lines += probe_extras(p)
         lines.append("")
     return "\n".join(lines).rstrip()
 
@@ -133,6 +134,119 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
         ]
     if scenario is not None and np.any([k["distance_m"] > 0 for k in data["keepout"]]):
         lines += ["", "Keep people outside this radius while the source can radiate."]
+    return "\n".join(lines)
+
+
+def _stay_text(seconds: float | None) -> str:
+    if seconds is None:
+        return ""
+    if seconds >= 120:
+        return f"  stay at most {seconds / 60:.3g} min per window"
+    return f"  stay at most {seconds:.3g} s per window"
+
+
+def probe_extras(p: dict[str, Any]) -> list[str]:
+    """Lines for a probe point's stay times and spatial average (added keys)."""
+    lines = []
+    allowed = p.get("allowed_s") or {}
+    for limit_id, seconds in allowed.items():
+        if seconds is not None:
+            lines.append(f"  {limit_id:36s}{_stay_text(seconds)}")
+    if "spatial_average_w_m2" in p:
+        z0, z1 = p["average_over_height_m"]
+        lines.append(
+            f"  spatial average over z = {z0:g} .. {z1:g} m "
+            f"({p['spatial_average_points']} points): "
+            f"{_fmt(p['spatial_average_w_m2'])} W/m2 "
+            f"(point value {_fmt(p['power_density_w_m2'])})"
+        )
+        for limit_id, c in p.get("spatial_average_comparison", {}).items():
+            lines.append(
+                f"    {limit_id:34s} compared with the {c['compared_with']}: "
+                f"{100 * c['quotient']:.3g} % of limit"
+            )
+    return lines
+
+
+def uncertainty_lines(data: dict[str, Any]) -> str:
+    """The Monte Carlo spread of the keep-out distances (``keepout`` with [uncertainty])."""
+    u = data["uncertainty"]
+    rows = [
+        [
+            k["limit"],
+            f"{k['distance_m']:.3f}",
+            f"{k['distance_median_m']:.3f}",
+            f"{k['distance_p95_m']:.3f}",
+        ]
+        for k in data["keepout"]
+    ]
+    gains = ", ".join(f"{g:g}" for g in u["gain_db_used"])
+    head = (
+        f"Uncertainty: {u['samples']} samples (seed {u['seed']}); one sigma: power "
+        f"{u['power_db']:g} dB, gain {gains} dB, |Gamma| {u['reflection']:g}, shielding "
+        f"{u['shielding_db']:g} dB, position {u['position_m']:g} m"
+    )
+    return (
+        head
+        + "\n\n"
+        + _table(["limit", "nominal m", "median m", "95th percentile m"], rows)
+        + "\n\nMark out the 95th percentile where the inputs are this uncertain."
+    )
+
+
+def readings_table(data: dict[str, Any]) -> str:
+    """The ``readings`` listing: each reading against the time-averaged prediction."""
+    rows = []
+    for r in data["readings"]:
+        x, y, z = r["position_m"]
+        db = r["ratio_db"]
+        rows.append(
+            [
+                r.get("label") or f"({x:g}, {y:g}, {z:g})",
+                f"{r['value']:g} {r['unit']}",
+                _fmt(r["measured_w_m2"]),
+                _fmt(r["predicted_w_m2"]),
+                "no prediction" if db is None else f"{db:+.1f}",
+                "UNDER-PREDICTED" if r["under_predicted"] else "",
+                ", ".join(r["over_limits"]) or "-",
+            ]
+        )
+    lines = [
+        f"Scenario: {data['scenario']}",
+        "A survey meter averages over a second or more, far longer than a mains cycle: each "
+        "reading is compared with the time-averaged prediction (duty cycle applied).",
+        "",
+        _table(
+            [
+                "reading",
+                "meter",
+                "measured W/m2",
+                "predicted W/m2",
+                "measured/predicted dB",
+                "flag",
+                "over limits",
+            ],
+            rows,
+        ),
+        "",
+    ]
+    largest = data["largest_under_prediction_db"]
+    if largest is not None:
+        lines.append(f"Largest measured-over-predicted ratio: {largest:+.1f} dB.")
+    lines.append(
+        f"Suggested margin on the model: {data['suggested_margin_db']:.1f} dB"
+        + (
+            " (the largest ratio found)."
+            if data["suggested_margin_db"] > 0
+            else " (no reading above its prediction)."
+        )
+    )
+    if data.get("under_predicted_count"):
+        lines.append(
+            f"{data['under_predicted_count']} reading(s) more than 3 dB above the model: check "
+            "the set-up against the scenario (power, position, reflecting surfaces) before "
+            "relying on the model's keep-out."
+        )
     return "\n".join(lines)
 
 

@@ -72,7 +72,11 @@ _TOP_KEYS = (
     "enclosure",
     "point",
     "option",
+    "sweep",
+    "uncertainty",
 )
+#: Top-level keys that make variants of the scenario: not allowed inside an option.
+_VARIANT_KEYS = ("option", "sweep")
 #: Frequencies the models accept at all [Hz]; limits narrow this further.
 FREQUENCY_RANGE_HZ = (1e8, 1e11)
 
@@ -117,10 +121,15 @@ class Source:
 
 @dataclass(frozen=True)
 class PointOfInterest:
-    """A named place to report (``[[point]]``): the operator's seat, a doorway."""
+    """A named place to report (``[[point]]``): the operator's seat, a doorway.
+
+    ``average_over_height_m`` (optional) is ``(z0, z1)``: a vertical line at this x, y
+    over which the spatial average of the power density is also reported [m].
+    """
 
     name: str
     position_m: NDArray[np.float64]
+    average_over_height_m: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -170,6 +179,7 @@ class Scenario:
     points: tuple[PointOfInterest, ...] = ()
     options: tuple[Option, ...] = ()
     document: dict[str, Any] = field(default_factory=dict)
+    uncertainty: Any = None
 
     @property
     def centre_m(self) -> NDArray[np.float64]:
@@ -377,9 +387,73 @@ def _read_points(root: Table) -> tuple[PointOfInterest, ...]:
         if name in names:
             raise t.error("name", f"'{name}' is used by another [[point]]; names must be unique")
         names.add(name)
-        points.append(PointOfInterest(name, t.vector("position_m", unit="m")))
+        position = t.vector("position_m", unit="m")
+        span = None
+        if t.has("average_over_height_m"):
+            raw = t.raw("average_over_height_m")
+            if (
+                not isinstance(raw, list)
+                or len(raw) != 2
+                or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in raw)
+            ):
+                raise t.error(
+                    "average_over_height_m",
+                    f"must be two heights [z0, z1] in metres, got {raw!r}"[:160],
+                )
+            z0, z1 = (float(v) for v in raw)
+            if not (np.isfinite(z0) and np.isfinite(z1)) or max(abs(z0), abs(z1)) > 1e6:
+                raise t.error("average_over_height_m", "must be two finite heights [z0, z1] [m]")
+            if not z1 > z0:
+                raise t.error(
+                    "average_over_height_m",
+                    f"must be [z0, z1] with z1 > z0 (the line from z0 up to z1) [m], "
+                    f"got [{z0:g}, {z1:g}]",
+                )
+            span = (z0, z1)
+        points.append(PointOfInterest(name, position, span))
         t.finish()
     return tuple(points)
+
+
+def _read_uncertainty(root: Table) -> Any:
+    t = root.table("uncertainty", None)
+    if t is None:
+        return None
+    from .uncertainty import DEFAULT_SAMPLES, DEFAULT_SEED, UNCERTAINTY_KEYS, UncertaintySpec
+
+    for key in t.data:
+        if key not in UNCERTAINTY_KEYS:
+            raise t.error(
+                key,
+                "is not a known uncertainty key"
+                + suggest(key, UNCERTAINTY_KEYS)
+                + f"; allowed: {', '.join(UNCERTAINTY_KEYS)}",
+            )
+    spec = UncertaintySpec(
+        power_db=t.number("power_db", 0.0, unit="dB", minimum=0.0, maximum=20.0),
+        gain_db=t.number("gain_db", None, unit="dB", minimum=0.0, maximum=20.0),
+        reflection=t.number("reflection", 0.0, minimum=0.0, maximum=1.0),
+        shielding_db=t.number("shielding_db", 0.0, unit="dB", minimum=0.0, maximum=100.0),
+        position_m=t.number("position_m", 0.0, unit="m", minimum=0.0, maximum=10.0),
+        samples=_integer(t, "samples", DEFAULT_SAMPLES, 1, 1_000_000),
+        seed=_integer(t, "seed", DEFAULT_SEED, 0, 2**63 - 1),
+    )
+    t.finish(UNCERTAINTY_KEYS)
+    return spec
+
+
+def _integer(t: Table, key: str, default: int, minimum: int, maximum: int) -> int:
+    if not t.has(key):
+        return default
+    value = t.raw(key)
+    if isinstance(value, bool) or not isinstance(value, int) or not minimum <= value <= maximum:
+        shown = (
+            repr(value)
+            if not isinstance(value, int) or value.bit_length() < 200
+            else "a huge integer"
+        )
+        raise t.error(key, f"must be a whole number from {minimum} to {maximum}, got {shown}")
+    return int(value)
 
 
 def _read_reflectors(root: Table, frequency_hz: float) -> tuple[Any, ...]:
@@ -436,7 +510,9 @@ def scenario_from_document(
     """
     root = Table(document, "", source)
     for key in root.data:
-        allowed = _TOP_KEYS if allow_options else tuple(k for k in _TOP_KEYS if k != "option")
+        allowed = (
+            _TOP_KEYS if allow_options else tuple(k for k in _TOP_KEYS if k not in _VARIANT_KEYS)
+        )
         if key not in allowed:
             raise root.error(
                 key,
@@ -471,7 +547,9 @@ def scenario_from_document(
     shields = _read_shields(root, frequency)
     enclosure = _read_enclosure(root, frequency, sources)
     points = _read_points(root)
+    uncertainty = _read_uncertainty(root)
     root.raw("option", None)
+    root.raw("sweep", None)
     scenario = Scenario(
         name=name,
         path=source,
@@ -484,20 +562,28 @@ def scenario_from_document(
         enclosure=enclosure,
         points=points,
         document=document,
+        uncertainty=uncertainty,
     )
     if allow_options and "option" in document:
         scenario = replace(scenario, options=_read_options(root, document, source))
+    if allow_options and "sweep" in document:
+        scenario = replace(scenario, options=scenario.options + _read_sweeps(root, scenario))
+    if allow_options:
+        from .plausibility import warn_implausible
+
+        warn_implausible([scenario, *(o.scenario for o in scenario.options)])
     return scenario
 
 
 def _merge_option(base: dict[str, Any], option: Table) -> dict[str, Any]:
     merged = copy.deepcopy(base)
     merged.pop("option", None)
+    merged.pop("sweep", None)
     for key, value in option.data.items():
         if key in ("name", "description"):
             continue
-        if key not in _TOP_KEYS or key == "option":
-            allowed = [k for k in _TOP_KEYS if k != "option"] + ["name", "description"]
+        if key not in _TOP_KEYS or key in _VARIANT_KEYS:
+            allowed = [k for k in _TOP_KEYS if k not in _VARIANT_KEYS] + ["name", "description"]
             raise option.error(
                 key,
                 "is not a key an option may override"
@@ -565,6 +651,62 @@ def _read_options(root: Table, document: dict[str, Any], source: str) -> tuple[O
             Option(name, description, replace(scenario, name=f"{scenario.name} — {name}"))
         )
     return tuple(options)
+
+
+def _read_sweeps(root: Table, scenario: Scenario) -> tuple[Option, ...]:
+    """The options of every ``[[sweep]]`` (see :mod:`keepclear.fields.sweep`)."""
+    out: list[Option] = []
+    names = {o.name for o in scenario.options}
+    for t in root.tables("sweep"):
+        key = t.string("key")
+        values = t.raw("values")
+        if not isinstance(values, list):
+            raise t.error("values", "must be a list of values, one option each")
+        label = t.string("name", None)
+        t.finish(("key", "values", "name"))
+        out += _sweep_options(scenario, key, values, label, (root.source, t.path), names)
+    return tuple(out)
+
+
+def _sweep_options(
+    scenario: Scenario,
+    key: str,
+    values: list[Any],
+    label: str | None,
+    where: tuple[str, str],
+    names: set[str],
+) -> list[Option]:
+    from .sweep import expand_sweep
+
+    def build(document: dict[str, Any]) -> Scenario:
+        return scenario_from_document(document, scenario.path, allow_options=False)
+
+    out = []
+    for name, description, variant in expand_sweep(
+        scenario.document, key, values, label, build, where
+    ):
+        if name in names:
+            raise ScenarioError(
+                f"makes an option named '{name}', which another option already has",
+                where[0],
+                where[1],
+            )
+        names.add(name)
+        out.append(Option(name, description, replace(variant, name=f"{scenario.name} — {name}")))
+    return out
+
+
+def with_sweep(scenario: Scenario, key: str, values: list[Any]) -> Scenario:
+    """The scenario with one more sweep's options (``compare --sweep KEY=V1,V2``).
+
+    Raises
+    ------
+    ScenarioError
+        As for a ``[[sweep]]`` in the file, located at the ``--sweep`` argument.
+    """
+    names = {o.name for o in scenario.options}
+    options = _sweep_options(scenario, key, values, None, ("argument", "--sweep"), names)
+    return replace(scenario, options=scenario.options + tuple(options))
 
 
 def load_scenario(path: str | Path) -> Scenario:

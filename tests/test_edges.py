@@ -622,13 +622,6 @@ def test_points_inside_on_and_in_the_walls_of_an_enclosure(write_scenario):
     assert cavity["power_density_w_m2"] > outside_5cm["power_density_w_m2"]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="fields/plots.py: a scenario name with a control character (ESC, found by the long "
-    "fuzz profile) reaches matplotlib, which warns 'Glyph 27 missing from font(s) DejaVu "
-    "Sans'; under the suite's filterwarnings=error that is exit 1, and users see a stray "
-    "warning; names should be made printable before drawing",
-)
 def test_control_characters_in_the_name_draw_without_warnings(write_scenario, tmp_path):
     text = ISOTROPIC.replace('name = "test point source"', 'name = "bench \\u001b[31m B2"')
     path = write_scenario(text)

@@ -36,6 +36,10 @@ from keepclear.fields.scenario import load_scenario
 from ._cli import assert_clean_exit, run, strict_json, validate
 from ._hypothesis import PROFILE, examples
 
+# Limit ids are drawn from every id, the oven-leakage product limits included, for scenarios
+# without an enclosure: the plausibility warning that this draws is expected here.
+pytestmark = pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
+
 # Hypothesis writes each example into the same temporary folder (function-scoped fixtures
 # are not reset between examples; the file is overwritten every time, which is what we want).
 FUNCTION_FIXTURE = [HealthCheck.function_scoped_fixture]

@@ -130,3 +130,34 @@ def test_comparison_figure_shares_one_colour_scale(iso_run):
     images = [im for ax in fig.axes for im in ax.get_images()]
     assert len(images) == 2
     assert images[0].norm.vmin == images[1].norm.vmin and images[0].norm.vmax == images[1].norm.vmax
+
+
+def test_long_titles_wrap_and_keep_every_word():
+    name = "Kiln room north bench with the long-necked applicator " * 3
+    lines = plots.wrap_title(name, plots.TITLE_WIDTH)
+    assert 1 < len(lines) <= plots.TITLE_MAX_LINES
+    assert all(len(line) <= plots.TITLE_WIDTH for line in lines)
+    assert " ".join(lines).split() == name.split()
+    assert plots.wrap_title("A\x1bB", 40) == ["A B"]
+    # Beyond three lines the third ends with an ellipsis instead of running off the figure.
+    assert plots.wrap_title(name * 3, 40)[-1].endswith("…")
+
+
+def test_letters_of_nearby_places_do_not_overlap(write_scenario):
+    text = ISOTROPIC
+    for i, (x, y) in enumerate([(1.0, 1.0), (1.05, 1.02), (1.02, 1.08), (0.97, 0.96)]):
+        text += f'\n[[point]]\nname = "p{i}"\nposition_m = [{x}, {y}, 0.0]\n'
+    scenario = load_scenario(write_scenario(text))
+    plane = maps.principal_plane("xy", [0.0, 0.0, 0.0])
+    run = maps.run_map(scenario, plane, keepout_distances(scenario), half_extent_m=3.0, pixels=31)
+    fig = plots.map_figure(run.result, scenario, run.keepouts)
+    fig.canvas.draw()
+    ax = fig.axes[0]
+    letters = [t for t in ax.texts if t.get_text() in {"A", "B", "C", "D"}]
+    assert len(letters) == 4
+    boxes = [t.get_window_extent() for t in letters]
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1 :]:
+            overlap_x = min(a.x1, b.x1) - max(a.x0, b.x0)
+            overlap_y = min(a.y1, b.y1) - max(a.y0, b.y0)
+            assert overlap_x <= 0.5 or overlap_y <= 0.5, (a, b)

@@ -216,8 +216,11 @@ def _dump(data: Any) -> str:
 def main(argv: list[str]) -> int:
     """Write the golden files, or with ``--check`` report every difference."""
     check = "--check" in argv
+    only = {a.removeprefix("--only=") for a in argv if a.startswith("--only=")}
     jobs: list[tuple[str, Any]] = [("limits", limits_output)]
     jobs += [(p.stem, (lambda p=p: scenario_outputs(p))) for p in scenario_paths()]
+    if only:
+        jobs = [(name, job) for name, job in jobs if name in only]
     bad = 0
     for name, job in jobs:
         data = job()

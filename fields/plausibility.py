@@ -1,0 +1,147 @@
+"""Plausibility checks: inputs that are allowed but probably not what the user meant.
+
+A scenario can be valid and still wrong: a position typed in centimetres puts a person
+84 m up, a 1 m thick "sheet" is a wall, a product-emission limit is read as a keep-out
+limit.  Each check here issues a :class:`PlausibilityWarning` (a
+:class:`~keepclear.antennas.base.ModelRangeWarning`, so the command line prints it after
+the results) that names the key, the value and why it looks wrong.  Nothing is changed
+and nothing is refused: the numbers are computed as given.
+
+The thresholds are ours (common practice, no source): a portable 2.45 GHz set-up is
+driven by magnetrons of about 0.5 to 100 kW, stands in a room or a yard well within
+100 m, and is screened by sheets of millimetres to centimetres.
+
+* a shield's metal thicker than 5 cm;
+* a named place, reflector, shield, enclosure or other source more than 100 m from the
+  first source (a reflector: the plane's distance; a shield or enclosure: its centre);
+* a source power above 100 kW;
+* a duty cycle below 1e-4;
+* a product emission limit (the oven-leakage ids ``fda-1030.10/*``, 21 CFR 1030.10(c)(1):
+  leakage 5 cm from an oven's external surface) used without an ``[enclosure]``.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Iterable
+from typing import Any
+
+import numpy as np
+
+from keepclear.antennas.base import ModelRangeWarning
+
+#: Thicker shield metal than this looks like a wall, or a thickness typed in mm [m].
+MAX_PLAUSIBLE_SHEET_M = 0.05
+#: Objects farther from the first source than this look like a unit slip [m].
+MAX_PLAUSIBLE_DISTANCE_M = 100.0
+#: More power than this is beyond a portable magnetron set-up [W].
+MAX_PLAUSIBLE_POWER_W = 100e3
+#: A duty cycle below this looks like a percentage typed as a tiny fraction.
+MIN_PLAUSIBLE_DUTY_CYCLE = 1e-4
+#: Limit ids that are product emission limits, not keep-out limits.
+OVEN_LEAKAGE_PREFIX = "fda-1030.10/"
+
+
+class PlausibilityWarning(ModelRangeWarning):
+    """A valid input that is probably not what the user meant."""
+
+
+def oven_leakage_messages(limit_ids: Iterable[str], has_enclosure: bool) -> list[str]:
+    """Messages for oven-leakage limits assessed without an enclosure."""
+    if has_enclosure:
+        return []
+    return [
+        f"{limit_id} is a product emission limit for microwave-oven leakage, read 5 cm from "
+        "an oven's outer surface (21 CFR 1030.10(c)(1)); the scenario has no [enclosure], "
+        "so it is compared here like an exposure limit, which is not what it was written for"
+        for limit_id in limit_ids
+        if limit_id.startswith(OVEN_LEAKAGE_PREFIX)
+    ]
+
+
+def plausibility_messages(scenario: Any) -> list[str]:
+    """Every plausibility message for a built scenario, in a fixed order.
+
+    Parameters
+    ----------
+    scenario : Scenario
+
+    Returns
+    -------
+    list of str
+        One sentence per finding: the key path, the value and why it looks wrong.
+    """
+    out: list[str] = []
+    first = np.asarray(scenario.sources[0].position_m, dtype=float)
+    far = MAX_PLAUSIBLE_DISTANCE_M
+
+    def distance(point: Any) -> float:
+        return float(np.linalg.norm(np.asarray(point, dtype=float) - first))
+
+    for i, s in enumerate(scenario.sources):
+        if s.power_w > MAX_PLAUSIBLE_POWER_W:
+            out.append(
+                f"source[{i}].power_w = {s.power_w:g} W is above 100 kW, beyond a portable "
+                "magnetron set-up; check the unit (W, not mW)"
+            )
+        if s.duty_cycle < MIN_PLAUSIBLE_DUTY_CYCLE:
+            out.append(
+                f"source[{i}].duty_cycle = {s.duty_cycle:g} is below 1e-4; a duty cycle is a "
+                "fraction (0.5 for half the time), not a percentage divided twice"
+            )
+        if i and distance(s.position_m) > far:
+            out.append(
+                f"source[{i}].position_m is {distance(s.position_m):.0f} m from the first "
+                "source; positions are in metres (not centimetres)"
+            )
+    for i, p in enumerate(scenario.points):
+        if distance(p.position_m) > far:
+            out.append(
+                f"point[{i}].position_m ('{p.name}') is {distance(p.position_m):.0f} m from the "
+                "first source; positions are in metres (not centimetres)"
+            )
+    for i, r in enumerate(scenario.reflectors):
+        gap = abs(float(np.dot(first - np.asarray(r.point_m, float), np.asarray(r.normal))))
+        if gap > far:
+            out.append(
+                f"reflector[{i}] lies {gap:.0f} m from the first source; point_m is in metres"
+            )
+    for i, sh in enumerate(scenario.shields):
+        thickness = getattr(sh.spec, "thickness_m", None)
+        if thickness is not None and thickness > MAX_PLAUSIBLE_SHEET_M:
+            out.append(
+                f"shield[{i}].thickness_m = {thickness:g} m is thicker than 5 cm, more a wall "
+                "than a sheet; thicknesses are in metres (1 mm = 0.001)"
+            )
+        if distance(sh.center_m) > far:
+            out.append(
+                f"shield[{i}] is centred {distance(sh.center_m):.0f} m from the first source; "
+                "positions are in metres"
+            )
+    enclosure = scenario.enclosure
+    if enclosure is not None:
+        centre = np.asarray(enclosure.min_corner_m, float) + 0.5 * np.asarray(
+            enclosure.size_m, float
+        )
+        if distance(centre) > far:
+            out.append(
+                f"the enclosure is centred {distance(centre):.0f} m from the first source; "
+                "positions are in metres"
+            )
+        if enclosure.thickness_m > MAX_PLAUSIBLE_SHEET_M:
+            out.append(
+                f"enclosure wall thickness {enclosure.thickness_m:g} m is thicker than 5 cm; "
+                "thicknesses are in metres"
+            )
+    out += oven_leakage_messages(scenario.limit_ids, enclosure is not None)
+    return out
+
+
+def warn_implausible(scenarios: Iterable[Any]) -> None:
+    """Issue each distinct plausibility message of the scenarios once."""
+    seen: set[str] = set()
+    for scenario in scenarios:
+        for message in plausibility_messages(scenario):
+            if message not in seen:
+                seen.add(message)
+                warnings.warn(message, PlausibilityWarning, stacklevel=3)

@@ -1,0 +1,124 @@
+"""Sweeps: one key over a list of values, each an option, checked like any scenario.
+
+The physical check rests on the far-field law of FCC OET Bulletin 65, Edition 97-01
+(1997), eq. (3): R = sqrt(P G / (4 pi S)), so the keep-out radius of an isotropic source
+scales as the square root of its power.
+"""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+from typer.testing import CliRunner
+
+from keepclear.fields.cli import app
+from keepclear.fields.errors import InputError, ScenarioError
+from keepclear.fields.keepout import keepout_distances
+from keepclear.fields.scenario import load_scenario, with_sweep
+from keepclear.fields.sweep import parse_sweep_argument
+
+from .conftest import ISOTROPIC
+
+runner = CliRunner()
+
+SWEPT = (
+    ISOTROPIC
+    + """
+[[point]]
+name = "desk"
+position_m = [0.5, 0.0, 0.0]
+
+[[sweep]]
+name = "power"
+key = "source.s.power_w"
+values = [25.0, 4.0]
+"""
+)
+
+
+def test_sweep_makes_one_option_per_value_following_the_far_field_law(write_scenario):
+    scenario = load_scenario(write_scenario(SWEPT))
+    assert [o.name for o in scenario.options] == ["power = 25", "power = 4"]
+    assert [o.scenario.sources[0].power_w for o in scenario.options] == [25.0, 4.0]
+    base = keepout_distances(scenario)[0].distance_m
+    for option, power in zip(scenario.options, (25.0, 4.0), strict=True):
+        # OET 65 eq. (3): R scales as sqrt(P); the base is 100 W.
+        distance = keepout_distances(option.scenario)[0].distance_m
+        assert distance / base == pytest.approx(math.sqrt(power / 100.0), rel=2e-3)
+
+
+def test_sweep_follows_the_options_and_keeps_file_order(write_scenario):
+    text = SWEPT.replace(
+        "[[sweep]]",
+        '[[option]]\nname = "moved"\n[[option.source]]\nid = "s"\nposition_m = [1, 0, 0]\n\n'
+        "[[sweep]]",
+    )
+    text += '\n[[sweep]]\nkey = "reflections"\nvalues = ["coherent"]\n'
+    scenario = load_scenario(write_scenario(text))
+    assert [o.name for o in scenario.options] == [
+        "moved",
+        "power = 25",
+        "power = 4",
+        "reflections = coherent",
+    ]
+    assert scenario.options[-1].scenario.reflections == "coherent"
+
+
+@pytest.mark.parametrize(
+    ("sweep", "where", "fragment"),
+    [
+        ('key = "source.nope.power_w"\nvalues = [1.0]', "sweep[0].key", "no [[source]]"),
+        ('key = "antenna.s.power_w"\nvalues = [1.0]', "sweep[0].key", "not a table"),
+        ('key = "source.s.power_w"\nvalues = []', "sweep[0].values", "at least one"),
+        ('key = "source.s.power_w"\nvalues = [-5.0]', "sweep[0].values", "-5"),
+        ('key = "source.s.power_w"\nvalues = 5.0', "sweep[0].values", "list"),
+        ('key = "source.s.power_w"\nvalues = [1.0]\nstep = 2', "sweep[0].step", "not a known"),
+    ],
+)
+def test_bad_sweep_is_refused_naming_the_key(write_scenario, sweep, where, fragment):
+    path = write_scenario(ISOTROPIC + "\n[[sweep]]\n" + sweep + "\n")
+    with pytest.raises(ScenarioError) as caught:
+        load_scenario(path)
+    assert caught.value.key == where
+    assert fragment in str(caught.value)
+    result = runner.invoke(app, ["probe", str(path), "--at", "1,0,0"])
+    assert result.exit_code == 2
+    assert where in result.stderr and "Traceback" not in result.output
+
+
+def test_sweep_inside_an_option_is_refused(write_scenario):
+    text = ISOTROPIC + '\n[[option]]\nname = "x"\n[[option.sweep]]\nkey = "frequency_hz"\n'
+    with pytest.raises(ScenarioError, match="not a key an option may override"):
+        load_scenario(write_scenario(text + "values = [2.4e9]\n"))
+
+
+def test_sweep_name_clash_with_an_option_is_refused(write_scenario):
+    text = SWEPT.replace("[[sweep]]", '[[option]]\nname = "power = 4"\n\n[[sweep]]')
+    with pytest.raises(ScenarioError, match="already has"):
+        load_scenario(write_scenario(text))
+
+
+def test_command_line_sweep_argument():
+    assert parse_sweep_argument("source.feed.power_w=900,40,9") == (
+        "source.feed.power_w",
+        [900, 40, 9],
+    )
+    assert parse_sweep_argument("source.feed.position_m=[0,0,1],[0,0,2.5]") == (
+        "source.feed.position_m",
+        [[0, 0, 1], [0, 0, 2.5]],
+    )
+    assert parse_sweep_argument("shield.1.metal=aluminium,copper")[1] == ["aluminium", "copper"]
+    for bad in ("source.feed.power_w", "=1,2", "source.feed.power_w=1,,2", "k=nan"):
+        with pytest.raises(InputError, match="--sweep|finite|empty"):
+            parse_sweep_argument(bad)
+
+
+def test_with_sweep_adds_options_to_a_loaded_scenario(write_scenario):
+    scenario = with_sweep(load_scenario(write_scenario(ISOTROPIC)), "source.s.duty_cycle", [0.5])
+    (option,) = scenario.options
+    assert option.name == "source.s.duty_cycle = 0.5"
+    assert option.scenario.average_power_w == pytest.approx(50.0)
+    with pytest.raises(ScenarioError) as caught:
+        with_sweep(scenario, "source.s.duty_cycle", [0.0])
+    assert caught.value.key == "--sweep"
