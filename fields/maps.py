@@ -47,6 +47,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import io
 import json
 import math
@@ -63,7 +64,7 @@ from keepclear.antennas.base import ETA0_OHM, ModelRangeWarning, fibonacci_spher
 
 from . import limits as limits_mod
 from .errors import InputError, ResourceError
-from .field import evaluate, radiating_terms
+from .field import FieldResult, evaluate, radiating_terms
 from .keepout import KeepoutResult
 from .scenario import Scenario
 
@@ -531,7 +532,7 @@ class MapResult:
 
 def limit_values(scenario: Scenario, limit_ids: Sequence[str]) -> tuple[limits_mod.LimitValue, ...]:
     """The limits at the scenario frequency (LimitError names an unknown id)."""
-    return tuple(limits_mod.get_limit(i).at(scenario.frequency_hz) for i in limit_ids)
+    return tuple(scenario.limit_value(i) for i in limit_ids)
 
 
 def evaluate_map(
@@ -574,9 +575,30 @@ def evaluate_map(
         cat("power_density_w_m2"), cat("e_v_m"), cat("h_a_m"), cat("peak_power_density_w_m2")
     )
     q = np.empty((len(values), *grid.shape))
+    while_on = None
     for i, v in enumerate(values):
-        q[i] = limits_mod.quotient(v, s, e, h)
+        if v.while_on:  # a device threshold: the fields while every source radiates
+            if while_on is None:
+                while_on = _while_on_fields(s, peak, cat("peak_e_v_m"), cat("peak_h_a_m"))
+            q[i] = limits_mod.quotient(v, *while_on)
+        else:
+            q[i] = limits_mod.quotient(v, s, e, h)
     return MapResult(grid, s, peak, e, h, values, q)
+
+
+def _while_on_fields(
+    s: NDArray[np.float64], peak: NDArray[np.float64], peak_e: NDArray, peak_h: NDArray
+) -> tuple[NDArray, NDArray, NDArray]:
+    """Density, E and H while every source radiates, for the while-on limits.
+
+    A sample counted as exceeding by :func:`_singular_as_exceeding` (its density set to
+    :data:`SINGULAR_DENSITY_W_M2`) or without finite peak fields exceeds here too.
+    """
+    bad = s >= SINGULAR_DENSITY_W_M2
+    bad |= ~(np.isfinite(peak_e) & np.isfinite(peak_h))
+    peak_e = np.where(bad, math.sqrt(SINGULAR_DENSITY_W_M2 * ETA0_OHM), peak_e)
+    peak_h = np.where(bad, math.sqrt(SINGULAR_DENSITY_W_M2 / ETA0_OHM), peak_h)
+    return np.where(bad, SINGULAR_DENSITY_W_M2, peak), peak_e, peak_h
 
 
 def _singular_as_exceeding(
@@ -843,18 +865,20 @@ def keepout_cylinders(
         values = limit_values(scenario, [k.limit_id for k in keepouts])
         n = pts.shape[0]
         chunk = max(8192, n // 40)
-        s_parts, e_parts, h_parts = [], [], []
+        parts = []
         for start in range(0, n, chunk):
-            res = evaluate(scenario, pts[start : start + chunk])
-            s_parts.append(res.power_density_w_m2)
-            e_parts.append(res.e_v_m)
-            h_parts.append(res.h_a_m)
+            parts.append(evaluate(scenario, pts[start : start + chunk]))
             if progress is not None:
                 progress(min(n, start + chunk), n)
-        s, e, h = (np.concatenate(p) for p in (s_parts, e_parts, h_parts))
+        res = FieldResult(
+            **{
+                f.name: np.concatenate([getattr(p, f.name) for p in parts])
+                for f in dataclasses.fields(FieldResult)
+            }
+        )
         for k, v in zip(keepouts, values, strict=True):
             scale = 1.0 / uncertainty_level(k)
-            hits_by_limit[k.limit_id] = pts[limits_mod.quotient(v, s, e, h) * scale >= 1.0]
+            hits_by_limit[k.limit_id] = pts[limits_mod.field_quotient(v, res) * scale >= 1.0]
     out = []
     for k in keepouts:
         known = [hits_by_limit.get(k.limit_id, np.zeros((0, 3)))]

@@ -18,6 +18,8 @@ from keepclear.fields import maps, plots
 from keepclear.fields.keepout import keepout_distances
 from keepclear.fields.scenario import load_scenario
 
+from ._cli import assert_clean_exit, run
+from ._edge_cases import load_scenario_name
 from .conftest import ISOTROPIC
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948:2004, sec. 5.2
@@ -161,3 +163,16 @@ def test_letters_of_nearby_places_do_not_overlap(write_scenario):
             overlap_x = min(a.x1, b.x1) - max(a.x0, b.x0)
             overlap_y = min(a.y1, b.y1) - max(a.y0, b.y0)
             assert overlap_x <= 0.5 or overlap_y <= 0.5, (a, b)
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+def test_control_characters_in_the_name_draw_without_warnings(write_scenario, tmp_path):
+    text = ISOTROPIC.replace('name = "test point source"', 'name = "bench \\u001b[31m B2"')
+    path = write_scenario(text)
+    assert "\x1b" in load_scenario_name(path)
+    result = run("assess", path, "--out", tmp_path / "out", "--pixels", "5", "--json")
+    assert_clean_exit(result, allowed=(0,))

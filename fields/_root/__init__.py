@@ -25,12 +25,14 @@ from keepclear.fields.assessment import (
     KeepoutReport,
     LimitsResult,
     ProbeResult,
+    ReadingsResult,
     assess,
     compare,
     field_map,
     keepout,
     limits,
     probe,
+    readings,
 )
 from keepclear.fields.errors import InputError, LimitError, ResourceError, ScenarioError
 from keepclear.fields.scenario import Scenario, load_scenario
@@ -45,6 +47,7 @@ __all__ = [
     "LimitError",
     "LimitsResult",
     "ProbeResult",
+    "ReadingsResult",
     "ResourceError",
     "Scenario",
     "ScenarioError",
@@ -55,4 +58,5 @@ __all__ = [
     "limits",
     "load_scenario",
     "probe",
+    "readings",
 ]
