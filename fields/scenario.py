@@ -59,8 +59,9 @@ _KIND_KEYS: dict[str, tuple[str, ...]] = {
         "ground_offset_m",
         "box_depth_m",
     ),
-    "open-waveguide": ("boresight", "polarization", "waveguide", "broad_m", "narrow_m"),
+    "open-waveguide": ("boresight", "polarization", "waveguide", "broad_m", "narrow_m", "flange_m"),
     "horn": (
+        "flange_m",
         "boresight",
         "polarization",
         "waveguide",
@@ -408,10 +409,26 @@ def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None)
 
 def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
     from keepclear.antennas.aperture import OpenWaveguide
+    from keepclear.antennas.walls import WalledAperture
 
     broad, narrow = _feed_dimensions(t)
     placement = _placement(t, "boresight", polarization=True)
-    return t.build(OpenWaveguide, f, p, broad, narrow, placement=placement)
+    guide = t.build(OpenWaveguide, f, p, broad, narrow, placement=placement)
+    return t.build(WalledAperture, guide, _flange(t))
+
+
+def _flange(t: Table) -> Any:
+    """The optional ``flange_m = [w, h]`` as given (checked by the wall model) [m]."""
+    if not t.has("flange_m"):
+        return None
+    value = t.raw("flange_m")
+    if (
+        not isinstance(value, list)
+        or len(value) != 2
+        or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value)
+    ):
+        raise t.error("flange_m", f"must be two lengths [w, h] in metres, got {value!r}")
+    return [float(v) for v in value]
 
 
 def _build_horn(t: Table, f: float, p: float) -> Radiator:
@@ -425,8 +442,12 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
         "aperture_height_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
     )
     length = t.number("length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0)
+    from keepclear.antennas.walls import WalledAperture
+
     placement = _placement(t, "boresight", polarization=True)
-    return t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
+    horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
+    flare = horn.geometry.flare_half_angles_deg
+    return t.build(WalledAperture, horn, _flange(t), flare_half_angles_deg=flare)
 
 
 _BUILDERS: dict[str, Callable[[Table, float, float], Radiator]] = {
