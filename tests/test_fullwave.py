@@ -14,7 +14,8 @@ Power densities are per watt radiated, as keepclear computes them at ``power_w =
 normalised by the Poynting flux through a closed surface around the source).
 
 Regions where the model is known not to hold yet are marked ``xfail`` (not strict) in
-:data:`KNOWN_GAPS`, with the reason; remove an entry once its model lands.
+:data:`KNOWN_GAPS`, with the reason and the measured figures; remove an entry once the
+region passes (the test then runs plainly and must pass).
 """
 
 from __future__ import annotations
@@ -28,10 +29,13 @@ from tests import validation_data as vd
 
 CASES = vd.available()
 
-_NO_FINITE_GROUND = (
-    "finite-ground monopole (ground = 'plate' / 'box') is not in the model yet: the "
-    "scenario loader refuses the key, and the infinite-ground model has no field behind "
-    "the ground plane"
+_PROBE_AXIS_NULL = (
+    "over-prediction (conservative) on the probe's axis only, the monopole's pattern null "
+    "(20-29 dB under the strongest sample at 0.3 m): box-probe +1.10 dB at 0.3 m; "
+    "plate-probe +1.03 dB at 0.2 m and +1.70 dB at 0.3 m; every other point in front within "
+    "0.6 dB. Neither solution is converged there: openEMS's medium and fine meshes differ by "
+    "0.7 dB (box) and 3.2 dB (plate) at 0.3 m on the axis, and the model's wire grid refined "
+    "from lambda/10 to lambda/15 moves the plate's figure from +1.70 to -0.48 dB"
 )
 _FRONT_WITHOUT_WALLS = (
     "aperture-only model: in front it is up to 2.6 dB high in the H plane at 45-60 deg and "
@@ -44,12 +48,8 @@ _NO_WALL_CURRENTS = (
 
 #: (case, region) -> reason, for regions whose model is not in place yet.
 KNOWN_GAPS: dict[tuple[str, str], str] = {
-    ("box-probe", "front"): _NO_FINITE_GROUND,
-    ("box-probe", "elsewhere"): _NO_FINITE_GROUND,
-    ("box-probe", "peak"): _NO_FINITE_GROUND,
-    ("plate-probe", "front"): _NO_FINITE_GROUND,
-    ("plate-probe", "elsewhere"): _NO_FINITE_GROUND,
-    ("plate-probe", "peak"): _NO_FINITE_GROUND,
+    ("box-probe", "front"): _PROBE_AXIS_NULL,
+    ("plate-probe", "front"): _PROBE_AXIS_NULL,
     ("guide-wr340", "front"): _FRONT_WITHOUT_WALLS,
     ("guide-wr340", "elsewhere"): _NO_WALL_CURRENTS,
     ("guide-wr430", "elsewhere"): _NO_WALL_CURRENTS,
@@ -119,6 +119,29 @@ def test_peak_directivity_within_1_db_of_openems(name: str, tmp_path) -> None:  
     assert model_dbi == pytest.approx(case.peak_directivity_dbi, abs=1.0), (
         f"{case.name} ({case.engine}): model {model_dbi:.2f} dBi, "
         f"full wave {case.peak_directivity_dbi:.2f} dBi"
+    )
+
+
+_PROBES = [n for n in CASES if n.endswith("-probe") or "-probe-" in n]
+
+
+@pytest.mark.parametrize("name", _PROBES)
+def test_probe_margin_covers_the_largest_error_in_front(name: str, tmp_path) -> None:  # noqa: ANN001
+    """The finite-ground monopole's keep-out margin is at least its largest error in front.
+
+    Issue 12, item 5: a model's ``gain_uncertainty_db`` comes from the largest error in
+    front found by the full-wave validation (FiniteGroundMonopole: plate-probe, +1.70 dB
+    on the probe axis at 0.3 m, openEMS v0.0.35).  The margin is stated to 0.1 dB, so
+    0.05 dB of rounding is allowed.
+    """
+    case = vd.load(name)
+    path = tmp_path / f"{case.name}.toml"
+    path.write_text(case.scenario_text(), encoding="utf-8")
+    radiator = load_scenario(path).sources[0].radiator
+    err = _errors_db(case, tmp_path)[case.front()]
+    assert np.max(np.abs(err)) <= radiator.gain_uncertainty_db + 0.05, (
+        f"{case.name} ({case.engine}): largest error in front {np.max(np.abs(err)):.2f} dB, "
+        f"margin {radiator.gain_uncertainty_db} dB"
     )
 
 

@@ -95,7 +95,8 @@ def _db(v: float) -> str:
 def markdown(names: list[str]) -> None:
     """Print a markdown table: one row per case and region.
 
-    The models as they are; for the probes, the infinite-ground monopole (ground keys removed).
+    The models as they are; for the probes also the infinite-ground monopole (ground keys
+    removed), for comparison.
     """
     print(
         "| case (openEMS v0.0.35) | model | peak D: full wave / model [dBi] | region | points "
@@ -105,27 +106,36 @@ def markdown(names: list[str]) -> None:
     for name in names:
         case = vd.load(name)
         probe = "ground" in case.source_toml
-        try:
-            err, peak = errors(case, infinite_ground=probe)
-        except Exception as exc:  # noqa: BLE001
-            print(f"| {name} | not available ({exc}) | | | | | |")
-            continue
-        label = "infinite-ground monopole (ground keys removed)" if probe else "as built"
-        front = case.front()
-        for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
-            e = err[m]
-            labs = [lab for lab, k in zip(case.labels, m, strict=True) if k]
-            zeros = int(np.sum(~np.isfinite(e)))
-            f = np.where(np.isfinite(e), e, -np.inf)
-            worst = int(np.argmax(np.abs(f)))
-            fin = e[np.isfinite(e)]
-            text = f"{fin.min():+.1f} / {fin.max():+.1f}" if fin.size else "n/a"
-            if zeros:
-                text += f"; zero at {zeros} points"
-            print(
-                f"| {name} | {label} | {case.peak_directivity_dbi:.2f} / {peak:.2f} | {region} "
-                f"| {m.sum()} | {text} | {labs[worst]}: {_db(f[worst])} |"
-            )
+        variants = [False, True] if probe else [False]
+        for infinite in variants:
+            try:
+                err, peak = errors(case, infinite_ground=infinite)
+            except Exception as exc:  # noqa: BLE001
+                print(f"| {name} | not available ({exc}) | | | | | |")
+                continue
+            label = "infinite-ground monopole (ground keys removed)" if infinite else "as built"
+            _markdown_rows(case, name, label, err, peak)
+
+
+def _markdown_rows(
+    case: vd.FullWaveCase, name: str, label: str, err: np.ndarray, peak: float
+) -> None:
+    """Print the two rows (front, elsewhere) of one case and model."""
+    front = case.front()
+    for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
+        e = err[m]
+        labs = [lab for lab, k in zip(case.labels, m, strict=True) if k]
+        zeros = int(np.sum(~np.isfinite(e)))
+        f = np.where(np.isfinite(e), e, -np.inf)
+        worst = int(np.argmax(np.abs(f)))
+        fin = e[np.isfinite(e)]
+        text = f"{fin.min():+.1f} / {fin.max():+.1f}" if fin.size else "n/a"
+        if zeros:
+            text += f"; zero at {zeros} points"
+        print(
+            f"| {name} | {label} | {case.peak_directivity_dbi:.2f} / {peak:.2f} | {region} "
+            f"| {m.sum()} | {text} | {labs[worst]}: {_db(f[worst])} |"
+        )
 
 
 def main() -> None:
