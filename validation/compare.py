@@ -95,8 +95,7 @@ def _db(v: float) -> str:
 def markdown(names: list[str]) -> None:
     """Print a markdown table: one row per case and region.
 
-    The models as they are; for the probes also the infinite-ground monopole (ground keys
-    removed), for comparison.
+    The models as they are; for the probes, the infinite-ground monopole (ground keys removed).
     """
     print(
         "| case (openEMS v0.0.35) | model | peak D: full wave / model [dBi] | region | points "
@@ -105,37 +104,73 @@ def markdown(names: list[str]) -> None:
     print("|" + " --- |" * 7)
     for name in names:
         case = vd.load(name)
-        probe = "ground" in case.source_toml
-        variants = [False, True] if probe else [False]
-        for infinite in variants:
-            try:
-                err, peak = errors(case, infinite_ground=infinite)
-            except Exception as exc:  # noqa: BLE001
-                print(f"| {name} | not available ({exc}) | | | | | |")
-                continue
-            label = "infinite-ground monopole (ground keys removed)" if infinite else "as built"
-            _markdown_rows(case, name, label, err, peak)
+        for label, err, peak in _variants(case):
+            _markdown_rows(name, case, label, err, peak)
+
+
+def _variants(case: vd.FullWaveCase) -> list[tuple[str, np.ndarray, float]]:
+    """The model as built and, for a probe, the infinite-ground monopole; those that load."""
+    out = []
+    options = [("as built", False)]
+    if "ground" in case.source_toml:
+        options.append(("infinite-ground monopole (ground keys removed)", True))
+    for label, infinite in options:
+        try:
+            err, peak = errors(case, infinite_ground=infinite)
+        except Exception:  # noqa: BLE001, S112
+            continue  # the model is not available in this version
+        out.append((label, err, peak))
+    return out
 
 
 def _markdown_rows(
-    case: vd.FullWaveCase, name: str, label: str, err: np.ndarray, peak: float
+    name: str, case: vd.FullWaveCase, label: str, err: np.ndarray, peak: float
 ) -> None:
-    """Print the two rows (front, elsewhere) of one case and model."""
-    front = case.front()
-    for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
-        e = err[m]
-        labs = [lab for lab, k in zip(case.labels, m, strict=True) if k]
-        zeros = int(np.sum(~np.isfinite(e)))
-        f = np.where(np.isfinite(e), e, -np.inf)
-        worst = int(np.argmax(np.abs(f)))
-        fin = e[np.isfinite(e)]
-        text = f"{fin.min():+.1f} / {fin.max():+.1f}" if fin.size else "n/a"
-        if zeros:
-            text += f"; zero at {zeros} points"
+    if True:
+        front = case.front()
+        for region, m in (("front <= 60 deg", front), ("elsewhere", ~front)):
+            e = err[m]
+            labs = [lab for lab, k in zip(case.labels, m, strict=True) if k]
+            zeros = int(np.sum(~np.isfinite(e)))
+            f = np.where(np.isfinite(e), e, -np.inf)
+            worst = int(np.argmax(np.abs(f)))
+            fin = e[np.isfinite(e)]
+            text = f"{fin.min():+.1f} / {fin.max():+.1f}" if fin.size else "n/a"
+            if zeros:
+                text += f"; zero at {zeros} points"
+            print(
+                f"| {name} | {label} | {case.peak_directivity_dbi:.2f} / {peak:.2f} | {region} "
+                f"| {m.sum()} | {text} | {labs[worst]}: {_db(f[worst])} |"
+            )
+
+
+def grid(names: list[str]) -> None:
+    """Print each case's error per plane and angle (rows) and distance (columns) [dB]."""
+    for name in names:
+        case = vd.load(name)
+        for model, err, peak in _variants(case):
+            _grid_rows(name, case, model, err, peak)
+
+
+def _grid_rows(name: str, case: vd.FullWaveCase, model: str, err: np.ndarray, peak: float) -> None:
+    order = {"axis": 0, "E": 1, "H": 2, "diagonal": 3}
+    if True:
+        rows: dict = {}
+        for s, e in zip(case.doc["samples"], err, strict=True):
+            rows.setdefault((s["plane"], s["angle_deg"]), {})[s["distance_m"]] = e
+        radii = sorted({s["distance_m"] for s in case.doc["samples"]})
         print(
-            f"| {name} | {label} | {case.peak_directivity_dbi:.2f} / {peak:.2f} | {region} "
-            f"| {m.sum()} | {text} | {labs[worst]}: {_db(f[worst])} |"
+            f"\n{name} ({case.engine}); keepclear {model}; peak directivity full wave "
+            f"{case.peak_directivity_dbi:.2f} dBi, model {peak:.2f} dBi"
         )
+        print("  plane    angle  " + " ".join(f"{r:>6} m" for r in radii))
+        for key in sorted(rows, key=lambda k: (order[k[0]], k[1])):
+            v = rows[key]
+            cells = " ".join(
+                (f"{v[r]:+8.1f}" if np.isfinite(v[r]) else "    zero") if r in v else "       -"
+                for r in radii
+            )
+            print(f"  {key[0]:8s} {key[1]:6} {cells}")
 
 
 def main() -> None:
@@ -148,10 +183,14 @@ def main() -> None:
     )
     ap.add_argument("--detail", action="store_true", help="one line per sample")
     ap.add_argument("--markdown", action="store_true", help="a table for the README")
+    ap.add_argument("--grid", action="store_true", help="error per angle and distance")
     ap.add_argument("cases", nargs="*", default=None)
     args = ap.parse_args()
     if args.markdown:
         markdown(args.cases or vd.available())
+        return
+    if args.grid:
+        grid(args.cases or vd.available())
         return
     for name in args.cases or vd.available():
         report(name, args.infinite_ground, args.detail)

@@ -699,11 +699,20 @@ def read_fd(fn: str) -> tuple[list[np.ndarray], np.ndarray]:
 
 
 def plane_flux(
-    fn_e: str, fn_h: str, normal_axis: int, sign: float, symmetric: bool = False
+    fn_e: str,
+    fn_h: str,
+    normal_axis: int,
+    sign: float,
+    symmetric: bool = False,
+    wall_top: bool = False,
 ) -> float:
     """Integrate 0.5 Re(E x H*) . n over a node-interpolated dumped plane [W].
 
-    Peak phasors; trapezoidal rule over the mesh lines.
+    Peak phasors; trapezoidal rule over the mesh lines. With ``wall_top`` (a guide's
+    cross-section ending on its broad wall z = b/2), the row on the wall is replaced by the
+    linear continuation of the two rows below it: openEMS's node interpolation averages E and H
+    there with the zero field inside the metal, which halves both, while the TE10 field is
+    uniform along z up to the wall.
     """
     mesh, e = read_fd(fn_e)
     _, h = read_fd(fn_h)
@@ -711,6 +720,15 @@ def plane_flux(
     s = np.take(s, 0, axis=normal_axis)
     others = [ax for ax in range(3) if ax != normal_axis]
     mesh = list(mesh)
+    if wall_top and 2 in others and mesh[2].size >= 3:
+        k = others.index(2)
+        z = mesh[2]
+        r1, r2 = np.take(s, -2, axis=k), np.take(s, -3, axis=k)
+        top = r1 + (r1 - r2) * (z[-1] - z[-2]) / (z[-2] - z[-3])
+        idx = [slice(None)] * 2
+        idx[k] = -1
+        s = s.copy()
+        s[tuple(idx)] = top
     if 1 in others and symmetric and mesh[1][0] > 0:
         # from the magnetic wall y = 0 to the first dumped line: the even continuation
         k = others.index(1)
@@ -749,6 +767,7 @@ def postprocess(case, sim_path, feed, nf, pts, lines, start, stop) -> dict:  # n
             0,
             1.0,
             case["symmetric"],
+            wall_top=True,
         )
         s11 = fit_s11(case, sim_path, feed)
         out["power"]["port_definition"] = (
@@ -974,6 +993,7 @@ def write_case(case: dict, runs: dict) -> Path:
 
 def main(argv: list[str] | None = None) -> int:
     """Command line: run the cases asked for and write their data files."""
+    global END_CRITERION
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--case", default="all", help="case name or 'all': " + ", ".join(CASES))
     ap.add_argument(
@@ -994,11 +1014,18 @@ def main(argv: list[str] | None = None) -> int:
         help="post-process a kept raw output again instead of running openEMS",
     )
     ap.add_argument(
+        "--end-criterion",
+        type=float,
+        default=END_CRITERION,
+        help=f"energy decay that ends a run (default {END_CRITERION:g})",
+    )
+    ap.add_argument(
         "--summary",
         action="store_true",
         help="print the results table of the stored data files (markdown) and exit",
     )
     args = ap.parse_args(argv)
+    END_CRITERION = args.end_criterion
     if args.summary:
         print_summary()
         return 0
