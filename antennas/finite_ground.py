@@ -85,6 +85,9 @@ from .wire import _validate_wire
 GROUND_KINDS = ("plate", "box")
 #: Largest probe segment, in wavelengths.
 PROBE_SEGMENT_WAVELENGTHS = 1.0 / 20.0
+#: Keep-out margin [dB]: the largest error in front against the openEMS v0.0.35 cases
+#: (plate-probe, +1.70 dB on the probe axis at 0.3 m; see FiniteGroundMonopole).
+GAIN_UNCERTAINTY_DB = 1.7
 #: Distance, in units of max(D, lambda), beyond which the radiation field is used.
 FAR_ZONE_FACTOR = 1000.0
 
@@ -134,9 +137,15 @@ class FiniteGroundMonopole(Radiator):
     Attributes
     ----------
     gain_uncertainty_db : float
-        1.0 dB.  Basis: the peak directivity of the box case (0.20 x 0.09 x 0.15 m,
-        30 mm probe) against the full-wave 2.4 dBi, and the change of the peak gain
-        between the lambda/10 grid and a lambda/15 grid (tests/test_finite_ground.py).
+        1.7 dB: the largest error in front (within 60 deg of the probe axis) against
+        the full-wave validation, case ``plate-probe`` (openEMS v0.0.35, 30 mm probe
+        on a 0.25 m square plate, validation/README.md): +1.70 dB at 0.3 m on the
+        probe's axis.  That largest error is an over-prediction in the monopole's axial
+        null, where neither solution is mesh-converged (openEMS's two meshes differ by
+        3.2 dB there).  Off the axis the errors in front lie within -0.5/+0.6 dB in the
+        three probe cases (``box-probe``, ``plate-probe``, ``box-probe-offset``) and the
+        peak directivities agree within 0.35 dB.  The margin is nevertheless the largest
+        error in front, as the project's rule for keep-out margins asks (tests/test_fullwave.py).
     radiation_resistance_ohm : float
         2 P / |I_feed|^2 with the feed current of the scaled solution [ohm].
 
@@ -212,7 +221,7 @@ class FiniteGroundMonopole(Radiator):
         self.radiation_resistance_ohm = (
             self.power_w / abs(feed) ** 2 if self.power_w > 0 and abs(feed) > 0 else math.nan
         )
-        self.gain_uncertainty_db = 1.0
+        self.gain_uncertainty_db = GAIN_UNCERTAINTY_DB
         self._max_gain: tuple[float, NDArray[np.float64]] | None = None
 
     # ------------------------------------------------------------------ geometry

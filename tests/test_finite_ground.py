@@ -67,10 +67,10 @@ def plate_2():
 # ------------------------------------------------------------------ published numbers
 def test_box_peak_directivity_against_the_full_wave_figure(box):
     # Full-wave (FDTD) solution of this geometry quoted in the project's issue 12: peak
-    # directivity 2.4 dBi (the infinite-ground model says 5.2 dBi).  Within the model's
-    # stated gain uncertainty.  Found when written: 2.44 dBi.
+    # directivity 2.4 dBi (the infinite-ground model says 5.2 dBi).  Within 1 dB, the
+    # project's acceptance for a peak directivity.  Found when written: 2.44 dBi.
     d_dbi = 10 * math.log10(box.max_gain())
-    assert d_dbi == pytest.approx(2.4, abs=box.gain_uncertainty_db)
+    assert d_dbi == pytest.approx(2.4, abs=1.0)
     assert d_dbi < 10 * math.log10(Monopole(F_HZ, 1.0, 0.030).max_gain()) - 2.0
 
 
@@ -258,10 +258,9 @@ def test_kernel_reproduces_the_sinusoidal_dipole():
 
 
 def test_grid_convergence_supports_the_stated_uncertainty(plate_1):
-    # The basis of gain_uncertainty_db: refining the grid from lambda/10 to lambda/14
-    # moves the peak gain by well under the stated 1 dB (0.2 dB when written), the
-    # field in front by under 1 dB, and behind the plate by under 1.5 dB (1.0 dB when
-    # written).
+    # Refining the grid from lambda/10 to lambda/14 moves the peak gain by under 0.5 dB
+    # (0.2 dB when written), the field in front by under 1 dB, and behind the plate by
+    # under 1.5 dB (1.0 dB when written); all below the stated margin.
     fine = FiniteGroundMonopole(
         F_HZ,
         1.0,
@@ -272,11 +271,12 @@ def test_grid_convergence_supports_the_stated_uncertainty(plate_1):
     )
     assert fine.structure.segment_count > plate_1.structure.segment_count
     dg = 10 * math.log10(fine.max_gain() / plate_1.max_gain())
-    assert abs(dg) < 0.5 * plate_1.gain_uncertainty_db
+    assert abs(dg) < 0.5
+    assert plate_1.gain_uncertainty_db >= 1.0
     front = np.array([[0.3, 0.1, 0.2], [-0.2, -0.2, 0.05], [0.0, 0.1, 0.5]])
     behind = np.array([[0.0, 0.4, -0.3], [0.1, 0.0, -0.5]])
     ds = 10 * np.log10(_density(fine, front) / _density(plate_1, front))
-    assert np.max(np.abs(ds)) < plate_1.gain_uncertainty_db
+    assert np.max(np.abs(ds)) < 1.0
     ds = 10 * np.log10(_density(fine, behind) / _density(plate_1, behind))
     assert np.max(np.abs(ds)) < 1.5
 

@@ -33,8 +33,12 @@ from tests import validation_data as vd
 CASES = vd.available()
 
 _PROBE_AXIS_NULL = (
-    "finite-ground monopole (moment method): in front it is up to 1.1 dB (box) and 1.7 dB "
-    "(plate) high on the probe's axis at 0.3 m, in the pattern null; conservative"
+    "over-prediction (conservative) on the probe's axis only, the monopole's pattern null "
+    "(20-29 dB under the strongest sample at 0.3 m): box-probe +1.10 dB at 0.3 m; "
+    "plate-probe +1.03 dB at 0.2 m and +1.70 dB at 0.3 m; every other point in front within "
+    "0.6 dB. Neither solution is converged there: openEMS's medium and fine meshes differ by "
+    "0.7 dB (box) and 3.2 dB (plate) at 0.3 m on the axis, and the model's wire grid refined "
+    "from lambda/10 to lambda/15 moves the plate's figure from +1.70 to -0.48 dB"
 )
 _FRONT_WITHOUT_WALLS = (
     "aperture model with the rim term: in front 0.0 to +2.2 dB (H 60 deg 0.3 m; E 45 deg "
@@ -131,6 +135,28 @@ def test_peak_directivity_within_1_db_of_openems(name: str) -> None:
     assert model_dbi == pytest.approx(case.peak_directivity_dbi, abs=1.0), (
         f"{case.name} ({case.engine}): model {model_dbi:.2f} dBi, "
         f"full wave {case.peak_directivity_dbi:.2f} dBi"
+    )
+
+
+_PROBES = [n for n in CASES if "-probe" in n]
+
+
+@pytest.mark.parametrize("name", _PROBES)
+def test_probe_margin_covers_the_largest_error_in_front(name: str) -> None:
+    """The finite-ground monopole's keep-out margin is at least its largest error in front.
+
+    Issue 12, item 5: a model's ``gain_uncertainty_db`` comes from the largest error in
+    front found by the full-wave validation (FiniteGroundMonopole: plate-probe, +1.70 dB
+    on the probe axis at 0.3 m, openEMS v0.0.35).  The margin is stated to 0.1 dB, so
+    0.05 dB of rounding is allowed.
+    """
+    from keepclear.antennas.finite_ground import GAIN_UNCERTAINTY_DB
+
+    case = vd.load(name)
+    err = np.max(np.abs(_errors_db(case)[case.front()]))
+    assert err <= GAIN_UNCERTAINTY_DB + 0.05, (
+        f"{case.name} ({case.engine}): largest error in front {err:.2f} dB, "
+        f"margin {GAIN_UNCERTAINTY_DB} dB"
     )
 
 
