@@ -72,6 +72,8 @@ from __future__ import annotations
 
 import functools
 import math
+from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -107,6 +109,27 @@ def _pair(value: ArrayLike, name: str, positive: bool) -> tuple[float, float]:
 def _face_count(lines_u: NDArray[np.float64], lines_v: NDArray[np.float64]) -> int:
     """Number of segments of a full rectangular grid on these lines."""
     return int(lines_u.size * (lines_v.size - 1) + lines_v.size * (lines_u.size - 1))
+
+
+@dataclass
+class _Solved:
+    """A solved structure: its currents scaled to the power, and its outgoing-wave table."""
+
+    structure: moment.WireStructure
+    solution: Any
+    elements: moment.CurrentElements
+    #: The peak gain and its local direction, once searched.
+    max_gain: tuple[float, NDArray[np.float64]] | None = field(default=None)
+
+    @functools.cached_property
+    def expansion(self) -> moment.OutgoingExpansion:
+        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
+        return moment.OutgoingExpansion(self.elements, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
+
+
+#: Solved structures by geometry, frequency and power (the most recent few).
+_SOLVED: dict[tuple[Any, ...], _Solved] = {}
+_SOLVED_CACHE_SIZE = 8
 
 
 class FiniteGroundMonopole(Radiator):
@@ -211,9 +234,34 @@ class FiniteGroundMonopole(Radiator):
         self.ground_offset_m = (off_w, off_h)
         self.box_depth_m = depth if ground == "box" else None
         lam = self.wavelength_m
-        self.structure = self._structure(max_segment_wavelengths * lam)
-        self.solution = moment.solve_structure(self.structure, self.frequency_hz)
-        self.elements = self.solution.elements(self.power_w)
+        # The moment-method solution and its outgoing-wave table depend only on the
+        # geometry, the frequency and the power: a scenario loaded again (an option, a
+        # second command in the same process) reuses them.
+        key = (
+            self.frequency_hz,
+            self.power_w,
+            ground,
+            length,
+            radius,
+            width,
+            height,
+            off_w,
+            off_h,
+            depth,
+            float(max_segment_wavelengths),
+        )
+        solved = _SOLVED.get(key)
+        if solved is None:
+            structure = self._structure(max_segment_wavelengths * lam)
+            solution = moment.solve_structure(structure, self.frequency_hz)
+            solved = _Solved(structure, solution, solution.elements(self.power_w))
+            _SOLVED[key] = solved
+            while len(_SOLVED) > _SOLVED_CACHE_SIZE:
+                _SOLVED.pop(next(iter(_SOLVED)))
+        self._solved = solved
+        self.structure = solved.structure
+        self.solution = solved.solution
+        self.elements = solved.elements
         # Both paths bound their own scratch (the kernel by pairs, the expansion by its
         # table): a chunk of points costs about this much each.
         self.bytes_per_point = 32 * 1024
@@ -222,7 +270,6 @@ class FiniteGroundMonopole(Radiator):
             self.power_w / abs(feed) ** 2 if self.power_w > 0 and abs(feed) > 0 else math.nan
         )
         self.gain_uncertainty_db = GAIN_UNCERTAINTY_DB
-        self._max_gain: tuple[float, NDArray[np.float64]] | None = None
 
     # ------------------------------------------------------------------ geometry
     def _face_bounds(self) -> tuple[float, float, float, float]:
@@ -301,11 +348,10 @@ class FiniteGroundMonopole(Radiator):
         wire = np.hypot(np.hypot(x, y), z - zc) <= self.wire_radius_m + tol
         return np.asarray(metal | wire)
 
-    @functools.cached_property
+    @property
     def expansion(self) -> moment.OutgoingExpansion:
         """The tabulated outgoing-wave expansion used beyond 2.5 times the metal's radius."""
-        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
-        return moment.OutgoingExpansion(self.elements, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
+        return self._solved.expansion
 
     # --------------------------------------------------------------------- model
     def _local_fields(
@@ -333,10 +379,10 @@ class FiniteGroundMonopole(Radiator):
         return self.elements.far_field(directions_local)
 
     def _peak(self) -> tuple[float, NDArray[np.float64]]:
-        if self._max_gain is None:
+        if self._solved.max_gain is None:
             if self.power_w <= 0:
-                self._max_gain = (0.0, np.array([0.0, 0.0, 1.0]))
-                return self._max_gain
+                self._solved.max_gain = (0.0, np.array([0.0, 0.0, 1.0]))
+                return self._solved.max_gain
             dirs = fibonacci_sphere(6000)
             g = self._local_gain(dirs)
             best = dirs[int(np.argmax(g))]
@@ -351,8 +397,8 @@ class FiniteGroundMonopole(Radiator):
             t, p = res.x
             u = np.array([math.sin(t) * math.cos(p), math.sin(t) * math.sin(p), math.cos(t)])
             g_best = max(-float(res.fun), float(np.max(g)))
-            self._max_gain = (g_best, u if -res.fun >= np.max(g) else best)
-        return self._max_gain
+            self._solved.max_gain = (g_best, u if -res.fun >= np.max(g) else best)
+        return self._solved.max_gain
 
     def _local_gain(self, directions_local: NDArray[np.float64]) -> NDArray[np.float64]:
         f = self._local_far_field(directions_local)

@@ -349,9 +349,10 @@ def test_inside_or_on_marks_the_box_the_plate_and_the_wire(box, plate_1):
 
 
 def test_the_solution_is_solved_once_and_is_deterministic(box):
-    before = moment._solve_cached.cache_info().hits
+    before = moment._solve_cached.cache_info().misses
     again = FiniteGroundMonopole(F_HZ, 1.0, 0.030, **BOX)
-    assert moment._solve_cached.cache_info().hits == before + 1
+    # No new NEC-2 run: the same geometry, frequency and power reuse the solved structure.
+    assert moment._solve_cached.cache_info().misses == before
     assert np.array_equal(again.solution.centre_currents_a, box.solution.centre_currents_a)
 
 
