@@ -49,7 +49,9 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import constants
 
-from .errors import InputError
+# Defined beside InputError (no numpy or scipy there: the command line starts fast);
+# re-exported here, where the models use them.
+from .errors import InputError, ModelInputError, ModelRangeWarning  # noqa: F401
 
 #: Characteristic impedance of free space [ohm] (from CODATA mu0 and eps0).
 ETA0_OHM: Final[float] = float(np.sqrt(constants.mu_0 / constants.epsilon_0))
@@ -58,35 +60,6 @@ C_M_S: Final[float] = float(constants.c)
 
 #: Default memory budget for one evaluation chunk [bytes].
 DEFAULT_CHUNK_BYTES: Final[int] = 64 * 1024**2
-
-
-class ModelInputError(InputError, ValueError):
-    """A source model was given parameters it cannot represent.
-
-    An :class:`~keepclear.antennas.errors.InputError` whose key is the model parameter:
-    the message names the parameter, the value and what is allowed; the scenario loader
-    relocates it to the file and key path, and raised at run time it is still bad input
-    (exit status 2 on the command line).
-
-    Parameters
-    ----------
-    parameter : str
-        The model parameter (the scenario key where they coincide).
-    message : str
-        What is wrong and what is allowed.
-    """
-
-    def __init__(self, parameter: str, message: str) -> None:
-        super().__init__(message, None, parameter)
-        self.parameter = parameter
-
-    def located(self, source: str | None = None, key: str | None = None) -> InputError:
-        """An :class:`InputError` with the file and/or key filled in where still missing."""
-        return InputError(self.message, self.source or source, self.key or key)
-
-
-class ModelRangeWarning(UserWarning):
-    """A model is used close to (but not past) the edge of its validity."""
 
 
 def unit_vector(vector: ArrayLike, name: str = "vector") -> NDArray[np.float64]:

@@ -14,21 +14,23 @@ import os
 import sys
 import warnings
 from enum import StrEnum
-from importlib import metadata
 from pathlib import Path
 from typing import Annotated, Any
 
-import numpy as np
 import typer
 from typer.core import TyperGroup
 
-from keepclear.antennas.base import ModelRangeWarning
+from keepclear.antennas.errors import ModelRangeWarning
 
-from . import assessment as api
-from .assessment import COORDINATE_BOUND_M, GridSettings
+from ._lazy import lazy_module
 from .cautions import caution_block
 from .errors import InputError
 from .progress import Progress
+
+# numpy and the API (and through it scipy, matplotlib, scikit-rf and the models) are
+# imported when a command first uses them, never for --help or a refused argument.
+np = lazy_module("numpy")
+api = lazy_module("keepclear.fields.assessment")
 
 PANEL_OUTPUT = "Output"
 PANEL_POINTS = "Points"
@@ -113,6 +115,8 @@ def _flush_warnings() -> None:
 
 def _version(value: bool) -> None:
     if value:
+        from importlib import metadata
+
         try:
             version = metadata.version("keepclear")
         except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
@@ -271,9 +275,9 @@ def parse_vector(text: str, option: str) -> np.ndarray:
             "argument",
             option,
         )
-    if max(abs(c) for c in xyz) > COORDINATE_BOUND_M:
+    if max(abs(c) for c in xyz) > api.COORDINATE_BOUND_M:
         raise InputError(
-            f"coordinates must lie within +-{COORDINATE_BOUND_M:g} m, got '{text}'",
+            f"coordinates must lie within +-{api.COORDINATE_BOUND_M:g} m, got '{text}'",
             "argument",
             option,
         )
@@ -566,7 +570,7 @@ def map_command(
         )
     api.check_height(height_m)
     through_m = None if through is None else parse_vector(through, "--through")
-    grid = GridSettings(extent_m, step_m, pixels)
+    grid = api.GridSettings(extent_m, step_m, pixels)
     for path in [p for p in singles.values() if p is not None]:
         refuse_overwriting(path, [scenario])
         folder = path.parent if str(path.parent) else Path(".")
@@ -666,7 +670,7 @@ def compare_command(
     from .plots import figure_bytes
 
     api.check_height(height_m)
-    grid = GridSettings(extent_m, step_m, pixels)
+    grid = api.GridSettings(extent_m, step_m, pixels)
     loaded = _load(scenario)
     ids = api.select_limits(loaded, limit)
     if not loaded.options:
@@ -736,7 +740,7 @@ def assess_command(
     from .report import summary_text
 
     api.check_height(height_m)
-    grid = GridSettings(extent_m, step_m, pixels)
+    grid = api.GridSettings(extent_m, step_m, pixels)
     readings = None
     if readings_csv is not None:
         from .readings import read_readings_csv

@@ -9,8 +9,7 @@ unexpected fault (exit 1).
 
 from __future__ import annotations
 
-from keepclear.antennas.base import ModelInputError
-from keepclear.antennas.errors import InputError, one_line
+from keepclear.antennas.errors import InputError, ModelInputError, one_line
 
 
 class ScenarioError(InputError):
