@@ -523,8 +523,15 @@ class Shield:
         else:
             offsets = np.zeros((1, 3))
         result = np.zeros(pts.shape[0])
+        todo = np.arange(pts.shape[0])
         for offset in offsets:
-            result = np.maximum(result, self._factor_from(src + offset, pts))
+            # a factor is at most 1: a point that has it from one corner is done
+            result[todo] = np.maximum(
+                result[todo], self._factor_from(src[todo] + offset, pts[todo])
+            )
+            todo = todo[result[todo] < 1.0]
+            if todo.size == 0:
+                break
         return result
 
     def _factor_from(self, src: NDArray[np.float64], pts: NDArray[np.float64]) -> NDArray:
@@ -543,6 +550,19 @@ class Shield:
         xv = (x - c) @ v
         hw, hh, m = self.width_m / 2, self.height_m / 2, float(self.edge_margin_m or 0.0)
         inside = (np.abs(xu) < hw - m) & (np.abs(xv) < hh - m)
+        if not inside.all():  # no credit outside the margin: work on the rays inside only
+            crossing[crossing] = inside
+            if not inside.any():
+                return out
+            s, p, frac, seg, xu, xv = (
+                s[inside],
+                p[inside],
+                frac[inside],
+                seg[inside],
+                xu[inside],
+                xv[inside],
+            )
+            inside = np.ones(s.shape[0], dtype=bool)
         length = np.linalg.norm(seg, axis=1)
         ray = seg / length[:, None]
         cos_inc = np.abs(ray @ n)
