@@ -42,6 +42,7 @@ References
 from __future__ import annotations
 
 import abc
+import copy
 from dataclasses import dataclass, field
 from typing import Final
 
@@ -216,6 +217,30 @@ class Radiator(abc.ABC):
         self.placement = placement if placement is not None else Placement()
 
     # ------------------------------------------------------------------ model
+    def with_power(self, power_w: float) -> Radiator:
+        """The same model radiating ``power_w``: a copy that shares the model's caches.
+
+        Every model here is linear in the field amplitude, so the copy's fields are this
+        radiator's times sqrt(power_w / self.power_w); building it costs nothing, and
+        inside :func:`keepclear.antennas.memo.shared_field_evaluations` it shares this
+        radiator's field evaluations.
+
+        Parameters
+        ----------
+        power_w : float
+            Radiated power of the copy [W].
+        """
+        if not (np.isfinite(power_w) and power_w >= 0):
+            raise ModelInputError("power_w", f"power_w must be >= 0, got {power_w!r}")
+        other = copy.copy(self)
+        other.power_w = float(power_w)
+        other._power_changed()
+        return other
+
+    def _power_changed(self) -> None:
+        """Update what depends on ``power_w`` after :meth:`with_power` (models that keep any)."""
+        return None
+
     @abc.abstractmethod
     def _local_fields(
         self, points_local_m: NDArray[np.float64]
