@@ -94,15 +94,37 @@ def check_grid(
         n, option = 2 * int(np.ceil(half_extent_m / step_m - 1e-9)) + 1, "--step-m"
     else:
         return
-    if n > maps.MAX_PIXELS_PER_SIDE or maps.grid_bytes(n * n, 4) > maps.MAX_GRID_BYTES:
+    need = maps.grid_bytes(n * n, GRID_CHECK_LIMITS)
+    if n > maps.MAX_PIXELS_PER_SIDE:
         raise ResourceError(
-            f"a {n} x {n} map needs about {maps.grid_bytes(n * n, 4) / 2**20:.0f} MiB "
-            f"(at most {maps.MAX_PIXELS_PER_SIDE} samples a side and "
-            f"{maps.MAX_GRID_BYTES / 2**20:.0f} MiB allowed); use a coarser {option} or a "
+            f"a {n} x {n} map has more than the {maps.MAX_PIXELS_PER_SIDE} samples a side "
+            f"allowed (and would need about {need / 2**20:.0f} MiB); use a coarser {option} "
+            "or a smaller --extent-m",
+            "argument",
+            option,
+        )
+    if need > maps.MAX_GRID_BYTES:
+        largest = largest_square_map(GRID_CHECK_LIMITS)
+        raise ResourceError(
+            f"a {n} x {n} map needs about {need / 2**20:.0f} MiB, more than the "
+            f"{maps.MAX_GRID_BYTES / 2**20:.0f} MiB allowed (at most {largest} x {largest} "
+            f"samples with {GRID_CHECK_LIMITS} limits); use a coarser {option} or a "
             "smaller --extent-m",
             "argument",
             option,
         )
+
+
+#: Limits assumed when a grid is checked before the limits are known.
+GRID_CHECK_LIMITS = 4
+
+
+def largest_square_map(n_limits: int) -> int:
+    """The most samples a side of a square map within the memory bound [count]."""
+    n = int(math.isqrt(maps.MAX_GRID_BYTES // max(1, maps.grid_bytes(1, n_limits))))
+    while n > 3 and maps.grid_bytes(n * n, n_limits) > maps.MAX_GRID_BYTES:
+        n -= 1
+    return min(n, maps.MAX_PIXELS_PER_SIDE)
 
 
 def select_limits(scenario: Scenario, limit_ids: Sequence[str] | None) -> tuple[str, ...]:
@@ -137,6 +159,40 @@ def select_option(scenario: Scenario, option: str | None) -> Scenario:
     raise InputError(
         f"no option named {option!r}; the scenario's options: {names}", "argument", "--option"
     )
+
+
+#: A sweep given to the API: ``"KEY=V1,V2,..."`` as on the command line, or ``(key, values)``.
+SweepSpec = str | tuple[str, Sequence[Any]]
+
+
+def with_sweeps(scenario: Scenario, sweeps: Sequence[SweepSpec] | None) -> Scenario:
+    """The scenario with the options of each sweep added (``--sweep KEY=V1,V2,...``).
+
+    Parameters
+    ----------
+    scenario : Scenario
+    sweeps : sequence, optional
+        Each a ``"KEY=V1,V2,..."`` text (:func:`keepclear.fields.sweep.parse_sweep_argument`)
+        or a ``(key, values)`` pair; the key is a sweep's dotted path (``source.feed.power_w``).
+
+    Raises
+    ------
+    InputError
+        Naming ``--sweep``: a text that is not ``KEY=V1,...``, a key that names nothing, a
+        value that makes an impossible scenario, or an option name already taken.
+    """
+    if not sweeps:
+        return scenario
+    from .scenario import with_sweep
+    from .sweep import parse_sweep_argument
+
+    for spec in sweeps:
+        if isinstance(spec, str):
+            key, values = parse_sweep_argument(spec)
+        else:
+            key, values = spec[0], list(spec[1])
+        scenario = with_sweep(scenario, key, list(values))
+    return scenario
 
 
 def _callback(progress: ProgressFactory | None, label: str) -> Any:
@@ -403,6 +459,17 @@ class KeepoutReport:
     distances: tuple[KeepoutResult, ...]
     spread: dict[str, Any] | None = None
 
+    @functools.cached_property
+    def sources(self) -> list[dict[str, Any]]:
+        """Each source described (:func:`keepclear.fields.describe.describe_sources`).
+
+        Peak gain [dBi] and its direction, EIRP while on and averaged [W], far-field
+        distance 2 D^2 / lambda [m].
+        """
+        from .describe import describe_sources
+
+        return describe_sources(self.scenario)
+
     @property
     def average_power_w(self) -> float:
         """Sum of the sources' time-averaged powers [W]."""
@@ -424,6 +491,7 @@ class KeepoutReport:
             "centre_m": [float(x) for x in s.centre_m],
             "reflections": s.reflections,
             "keepout": [keepout_entry(r) for r in self.distances],
+            "sources": self.sources,
             "caution": CAUTION_TEXT,
         }
         _add_spread(data["keepout"], self.spread)
@@ -529,6 +597,81 @@ def readings_data(scenario: Scenario, readings: list[Any]) -> dict[str, Any]:
     }
 
 
+@dataclass(frozen=True)
+class ReadingsResult:
+    """Survey-meter readings against the model (``keepclear readings``).
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario compared (its limits are the ones each reading is checked against).
+    readings : tuple of Reading
+        The readings as read: place [m], value and unit, and the power density they
+        stand for [W m^-2] (E and H through E^2/eta0 and eta0 H^2).
+    data : dict
+        The ``readings --json`` body: per reading ``measured_w_m2``, ``predicted_w_m2``
+        (time-averaged) [W m^-2], ``ratio_db`` [dB], ``under_predicted``,
+        ``over_limits``; ``largest_under_prediction_db`` and ``suggested_margin_db`` [dB].
+    """
+
+    scenario: Scenario
+    readings: tuple[Any, ...]
+    data: dict[str, Any]
+
+    @property
+    def suggested_margin_db(self) -> float:
+        """The largest measured-over-predicted ratio, 0 when none is positive [dB]."""
+        return float(self.data["suggested_margin_db"])
+
+    @property
+    def under_predicted(self) -> tuple[bool, ...]:
+        """Per reading: more than 3 dB above the prediction."""
+        return tuple(bool(r["under_predicted"]) for r in self.data["readings"])
+
+    def to_dict(self) -> dict[str, Any]:
+        """The ``keepclear readings --json`` object."""
+        return dict(self.data)
+
+
+def readings(
+    scenario: Scenario,
+    readings_in: str | Path | Sequence[Any],
+    *,
+    limits: Sequence[str] | None = None,
+    option: str | None = None,
+) -> ReadingsResult:
+    """Survey-meter readings against the time-averaged prediction.
+
+    A meter averages over a second or more, far longer than a mains cycle, so each
+    reading is compared with the time-averaged prediction (duty cycle applied).
+
+    Parameters
+    ----------
+    scenario : Scenario
+    readings_in : str, Path or sequence of Reading
+        A readings CSV (header ``x_m,y_m,z_m,value,unit[,label]``; units W/m2, mW/cm2,
+        V/m, A/m) or readings already read
+        (:func:`keepclear.fields.readings.read_readings_csv`).
+    limits : sequence of str, optional
+        Limit ids (default: the scenario's).
+    option : str, optional
+        Compare with this ``[[option]]`` of the scenario instead of the base.
+
+    Returns
+    -------
+    ReadingsResult
+    """
+    from .readings import read_readings_csv
+
+    scenario = select_option(scenario, option)
+    scenario = scenario.with_limits(select_limits(scenario, limits))
+    if isinstance(readings_in, (str, Path)):
+        taken = tuple(read_readings_csv(readings_in))
+    else:
+        taken = tuple(readings_in)
+    return ReadingsResult(scenario, taken, readings_data(scenario, list(taken)))
+
+
 # --------------------------------------------------------------------- map
 @dataclass(frozen=True)
 class GridSettings:
@@ -590,7 +733,20 @@ def map_plane(
     point = scenario.centre_m.copy() if through_m is None else np.array(through_m, dtype=float)
     if height_m is not None:
         point[2] = height_m
-    return maps.principal_plane(plane or "xy", point)
+    the_plane = maps.principal_plane(plane or "xy", point)
+    if plane in (None, "xy") and through_m is None and height_m is None:
+        the_plane = source_height_plane(the_plane)
+    return the_plane
+
+
+def source_height_plane(plane: maps.Plane) -> maps.Plane:
+    """A horizontal plane through the first source, described as such.
+
+    The assessment's "floor" map (``map-floor.*``) and ``map``'s default plane lie at the
+    first source's height, not on the floor: their description says so.
+    """
+    z = float(plane.ref_m[2])
+    return replace(plane, description=f"horizontal plane at source height z = {z:.2f} m")
 
 
 @dataclass(frozen=True, eq=False)
@@ -743,6 +899,8 @@ def compare(
     *,
     height_m: float | None = None,
     grid: GridSettings | None = None,
+    rank_by: str = "keepout",
+    sweeps: Sequence[SweepSpec] | None = None,
     progress: ProgressFactory | None = None,
 ) -> ComparisonResult:
     """Assess the base scenario and each ``[[option]]`` on one floor grid, and rank them.
@@ -753,19 +911,28 @@ def compare(
     limits : sequence of str, optional
         Limit ids (default: the scenario's).
     height_m : float, optional
-        Height of the floor plane (default: the first source's) [m].
+        Height of the horizontal plane of the maps (default: the first source's) [m].
     grid : GridSettings, optional
-        Sampling of the floor maps.
+        Sampling of the maps.
+    rank_by : str
+        ``"keepout"`` (default), ``"zone-area"`` or ``"place:NAME"`` with NAME a
+        ``[[point]]`` of the scenario; ties within
+        :data:`keepclear.fields.compare.RANK_TOLERANCE` keep the scenario's order.
+    sweeps : sequence, optional
+        More options, one per value of each sweep (:func:`with_sweeps`), after the
+        scenario's own ``[[option]]`` and ``[[sweep]]`` ones.
     progress : callable, optional
         ``progress(label)`` returns a stage callback.
     """
-    from .compare import compare_options
+    from .compare import check_rank_by, compare_options
 
     check_height(height_m)
     grid = grid or GridSettings()
     ids = select_limits(scenario, limits)
+    check_rank_by(scenario, rank_by)
+    scenario = with_sweeps(scenario, sweeps)
     comparison = compare_options(
-        scenario, ids, height_m=height_m, progress=progress, **grid.as_kwargs()
+        scenario, ids, height_m=height_m, progress=progress, rank_by=rank_by, **grid.as_kwargs()
     )
     return ComparisonResult(comparison)
 
@@ -780,6 +947,8 @@ ASSESS_FILE_NAMES = (
     "map-floor.svg",
     "map-floor.npz",
     "zones-floor.geojson",
+    "zones-floor-level.geojson",
+    "zones-head-height.geojson",
     "map-vertical.png",
     "map-vertical.svg",
     "map-vertical.npz",
@@ -789,37 +958,124 @@ ASSESS_FILE_NAMES = (
     "scenario-input.toml",
 )
 _COMPARISON_FILES = frozenset({"compare.json", "compare.png", "compare.svg"})
+_FLOOR_FILES = frozenset({"zones-floor-level.geojson", "zones-head-height.geojson"})
 
 
-def assess_file_names(with_comparison: bool, with_scenario_text: bool) -> tuple[str, ...]:
-    """The files an assessment writes, sorted: :data:`ASSESS_FILE_NAMES` as they apply."""
+def assess_file_names(
+    with_comparison: bool, with_scenario_text: bool, with_floor: bool = False
+) -> tuple[str, ...]:
+    """The files an assessment writes, sorted: :data:`ASSESS_FILE_NAMES` as they apply.
+
+    The comparison only with options, the scenario as given only when its text is
+    known, the zones at floor level and head height only when the scenario has a floor.
+    """
     return tuple(
         sorted(
             n
             for n in ASSESS_FILE_NAMES
             if (with_comparison or n not in _COMPARISON_FILES)
             and (with_scenario_text or n != "scenario-input.toml")
+            and (with_floor or n not in _FLOOR_FILES)
         )
     )
 
 
+#: Zones "at the floor" are taken this far above a floor, where feet are [m] (common
+#: practice, no source; the reflection model holds from about a wavelength, 0.12 m, off
+#: the plane and is an approximation closer, README "Floors, walls and benches").
+FLOOR_LEVEL_ABOVE_M = 0.1
+#: Head height of a standing adult above the floor [m] (common practice, no source).
+HEAD_HEIGHT_ABOVE_M = 1.7
+#: A reflector is a floor when its normal is within about 8 degrees of +z.
+FLOOR_NORMAL_MIN_Z = 0.99
+
+
+def floor_height_m(scenario: Scenario) -> float | None:
+    """The height of the scenario's floor, or None when it has none [m].
+
+    The floor is the highest infinite reflecting plane whose normal points up (within
+    about 8 degrees of +z) and which lies below every source, taken under the first
+    source.  A finite plate (a table top) is not a floor.
+    """
+    centre = scenario.centre_m
+    lowest_source = min(float(s.position_m[2]) for s in scenario.sources)
+    heights = []
+    for r in scenario.reflectors:
+        if getattr(r, "is_finite", False):
+            continue
+        n = np.asarray(r.normal, dtype=float)
+        n = n / np.linalg.norm(n)
+        if n[2] < FLOOR_NORMAL_MIN_Z:
+            continue
+        p = np.asarray(r.point_m, dtype=float)
+        # The plane's height under the first source: n . (x - p) = 0 at x = (cx, cy, z).
+        z = float(p[2] - (n[0] * (centre[0] - p[0]) + n[1] * (centre[1] - p[1])) / n[2])
+        if z < lowest_source:
+            heights.append(z)
+    return max(heights) if heights else None
+
+
+@dataclass(frozen=True, eq=False)
+class LevelMap:
+    """A horizontal map at a height above the real floor, for the zones people meet there.
+
+    Attributes
+    ----------
+    key : str
+        ``"floor_level"`` or ``"head_height"`` (the key in ``assessment.json``'s ``maps``).
+    name : str
+        In words: ``"floor level"``, ``"head height"``.
+    above_floor_m : float
+        Height above the floor [m].
+    floor_m : float
+        Height of the floor [m].
+    run : MapRun
+    """
+
+    key: str
+    name: str
+    above_floor_m: float
+    floor_m: float
+    run: maps.MapRun
+
+    @property
+    def height_m(self) -> float:
+        """Height of the plane [m]."""
+        return self.floor_m + self.above_floor_m
+
+    def summary(self) -> dict[str, Any]:
+        """The map's JSON object with its height above the floor."""
+        return {
+            **self.run.summary(),
+            "name": self.name,
+            "height_m": self.height_m,
+            "height_above_floor_m": self.above_floor_m,
+            "floor_height_m": self.floor_m,
+        }
+
+
 @dataclass(frozen=True, eq=False)
 class AssessmentMaps:
-    """The two maps of an assessment.
+    """The maps of an assessment.
 
     Attributes
     ----------
     floor : MapRun
-        The horizontal plane at ``height_m``.
+        The horizontal plane at ``height_m`` (by default the first source's height: the
+        files keep the name ``map-floor``).
     vertical : MapRun
         The vertical plane through the first source's boresight.
     height_m : float
-        Height of the floor plane [m].
+        Height of that horizontal plane [m].
+    levels : tuple of LevelMap
+        With a floor in the scenario: the horizontal maps at floor level and at head
+        height above it (empty without a floor).
     """
 
     floor: maps.MapRun
     vertical: maps.MapRun
     height_m: float
+    levels: tuple[LevelMap, ...] = ()
 
 
 def step_keepout(
@@ -841,6 +1097,8 @@ def step_maps(
     centre = scenario.centre_m
     height = float(centre[2]) if height_m is None else float(height_m)
     floor_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
+    if height_m is None:
+        floor_plane = source_height_plane(floor_plane)
     vertical_plane = maps.boresight_plane(scenario)
     kwargs = grid.as_kwargs()
     floor = maps.run_map(
@@ -849,7 +1107,24 @@ def step_maps(
     vertical = maps.run_map(
         scenario, vertical_plane, keepouts, progress=_callback(progress, "vertical map"), **kwargs
     )
-    return AssessmentMaps(floor, vertical, height)
+    levels = []
+    floor_m = floor_height_m(scenario)
+    if floor_m is not None:
+        for key, name, above in (
+            ("floor_level", "floor level", FLOOR_LEVEL_ABOVE_M),
+            ("head_height", "head height", HEAD_HEIGHT_ABOVE_M),
+        ):
+            z = floor_m + above
+            plane = replace(
+                maps.principal_plane("xy", [centre[0], centre[1], z]),
+                description=f"horizontal plane at {name}, z = {z:.2f} m "
+                f"({above:.2f} m above the floor)",
+            )
+            run = maps.run_map(
+                scenario, plane, keepouts, progress=_callback(progress, f"{name} map"), **kwargs
+            )
+            levels.append(LevelMap(key, name, above, floor_m, run))
+    return AssessmentMaps(floor, vertical, height, tuple(levels))
 
 
 def step_zones(
@@ -889,6 +1164,7 @@ def step_options(
     grid: GridSettings,
     height_m: float,
     progress: ProgressFactory | None = None,
+    rank_by: str = "keepout",
 ) -> Comparison | None:
     """Step 5, options: the ranked comparison of the ``[[option]]``s (None without)."""
     if not scenario.options:
@@ -901,6 +1177,7 @@ def step_options(
         height_m=height_m,
         progress=lambda label: _callback(progress, label),
         base_keepouts=keepouts,
+        rank_by=rank_by,
         **grid.as_kwargs(),
     )
 
@@ -1046,6 +1323,7 @@ def step_report(
     from importlib import metadata
 
     from . import plots
+    from .describe import describe_sources, reactive_near_field_m
     from .outputs import json_text
     from .report import render_report
 
@@ -1087,8 +1365,10 @@ def step_report(
                 "duty_cycle": s.duty_cycle,
                 "average_power_w": s.average_power_w,
                 "position_m": [float(x) for x in s.position_m],
+                **described,
+                "reactive_near_field_m": reactive_near_field_m(scenario.frequency_hz),
             }
-            for s in scenario.sources
+            for s, described in zip(scenario.sources, describe_sources(scenario), strict=True)
         ],
         "limits": [{**v.as_dict(), "verification": v.verification} for v in values],
         "keepout": keepout_rows,
@@ -1096,6 +1376,7 @@ def step_report(
         "maps": {
             "floor": {**floor.summary(), "height_m": runs.height_m},
             "vertical": vertical.summary(),
+            **{level.key: level.summary() for level in runs.levels},
         },
         "comparison": None if comparison is None else comparison.data(),
         "uncertainty": None if spread is None else spread["spec"],
@@ -1108,7 +1389,7 @@ def step_report(
         },
         "caution": CAUTION_TEXT,
     }
-    names = assess_file_names(comparison is not None, scenario_text is not None)
+    names = assess_file_names(comparison is not None, scenario_text is not None, bool(runs.levels))
     data["files"] = list(names)
 
     files: dict[str, bytes] = {}
@@ -1129,6 +1410,9 @@ def step_report(
             vertical, "map-vertical", formats=("png", "svg", "npz"), overlay=overlays["vertical"]
         )
     )
+    for level in runs.levels:
+        stem = "map-" + level.key.replace("_", "-")
+        files.update(map_files(level.run, stem, formats=("geojson",)))
     figures = {"floor": files["map-floor.png"], "vertical": files["map-vertical.png"]}
     if comparison is not None:
         fig = comparison.figure()
@@ -1154,6 +1438,8 @@ def assess(
     grid: GridSettings | None = None,
     scenario_text: str | None = None,
     readings: Sequence[Any] | None = None,
+    rank_by: str = "keepout",
+    sweeps: Sequence[SweepSpec] | None = None,
     progress: ProgressFactory | None = None,
 ) -> AssessmentResult:
     """The full assessment: keep-out -> maps -> zones -> places -> options -> report.
@@ -1176,6 +1462,11 @@ def assess(
     readings : sequence of Reading, optional
         Survey readings to compare and mark on the maps
         (:func:`keepclear.fields.readings.read_readings_csv`).
+    rank_by : str
+        How the options are ranked: ``"keepout"`` (default), ``"zone-area"`` or
+        ``"place:NAME"`` (:func:`compare`).
+    sweeps : sequence, optional
+        More options, one per value of each sweep (:func:`with_sweeps`).
     progress : callable, optional
         ``progress(label)`` returns a stage callback.
 
@@ -1183,19 +1474,23 @@ def assess(
     -------
     AssessmentResult
     """
+    from .compare import check_rank_by
+
     check_height(height_m)
     grid = grid or GridSettings()
     ids = select_limits(scenario, limits)
+    check_rank_by(scenario, rank_by)
+    scenario = with_sweeps(scenario, sweeps)
     if scenario_text is None and scenario.path and Path(scenario.path).is_file():
         scenario_text = Path(scenario.path).read_text(encoding="utf-8")
     if out is None:
-        return _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
+        return _assess(scenario, ids, height_m, grid, scenario_text, progress, readings, rank_by)
     protected = [Path(scenario.path)] if scenario.path else []
     refuse_assessment_overwrites(out, protected)
     from .outputs import staged_output_folder
 
     with staged_output_folder(out, protected) as staged:
-        result = _assess(scenario, ids, height_m, grid, scenario_text, progress, readings)
+        result = _assess(scenario, ids, height_m, grid, scenario_text, progress, readings, rank_by)
         for name, blob in result.files.items():
             staged.write(name, blob)
     return replace(result, written=tuple(staged.published))
@@ -1217,6 +1512,7 @@ def _assess(
     scenario_text: str | None,
     progress: ProgressFactory | None,
     readings: Sequence[Any] | None = None,
+    rank_by: str = "keepout",
 ) -> AssessmentResult:
     scenario = prepare(scenario).scenario
     # The options' searches reuse the base search's field evaluations (antennas/memo.py);
@@ -1231,7 +1527,7 @@ def _assess(
             readings_block = (
                 readings_data(scenario.with_limits(ids), readings) if readings else None
             )
-        comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress)
+        comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress, rank_by)
     data, files = step_report(
         scenario,
         ids,

@@ -182,11 +182,42 @@ MapLimitOption = Annotated[
         show_default=False,
     ),
 ]
+OptionOption = Annotated[
+    str | None,
+    typer.Option(
+        "--option",
+        help="Assess this [[option]] (or sweep value) of the scenario instead of the base; "
+        "see `keepclear compare` for the names.",
+        rich_help_panel=PANEL_QUANTITY,
+        show_default=False,
+    ),
+]
+SweepOption = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--sweep",
+        help="KEY=V1,V2,...: one more option per value of one key of a source or object, "
+        "e.g. source.feed.power_w=900,40,9 (repeat for more; as [[sweep]] in a scenario).",
+        rich_help_panel=PANEL_QUANTITY,
+        show_default=False,
+    ),
+]
+RankByOption = Annotated[
+    str,
+    typer.Option(
+        "--rank-by",
+        help="Rank the options by: keepout (the largest keep-out distance), zone-area (the "
+        "zone on the horizontal plane) or place:NAME (the power density at a [[point]]); "
+        "ties within the stated tolerances keep the scenario's order.",
+        rich_help_panel=PANEL_QUANTITY,
+    ),
+]
 HeightOption = Annotated[
     float | None,
     typer.Option(
         "--height-m",
-        help="Height of the horizontal (floor) plane; default the first source's height [m].",
+        help="Height of the horizontal plane of the maps and zones (map-floor.*); default the "
+        "first source's height [m].",
         rich_help_panel=PANEL_PLANE,
         show_default=False,
     ),
@@ -332,6 +363,8 @@ def probe_command(
         ),
     ] = None,
     csv_out: Annotated[Path | None, _file_option("--csv", "the results as CSV")] = None,
+    limit: LimitOption = None,
+    option: OptionOption = None,
     json_out: JsonFlag = False,
 ) -> None:
     """Fields, power density and exposure quotients at points.
@@ -346,7 +379,7 @@ def probe_command(
     loaded = _load(scenario)
     if points is not None:
         given.append(read_points_csv(points))
-    result = api.probe(loaded, np.vstack(given) if given else None)
+    result = api.probe(loaded, np.vstack(given) if given else None, limits=limit, option=option)
     if csv_out is not None:
         columns = (
             result.e_v_m,
@@ -362,13 +395,24 @@ def probe_command(
     if json_out:
         _emit_json(result.to_dict())
     else:
-        _print_probe(result.to_dict())
+        _print_probe(result.to_dict(), result.scenario)
 
 
-def _print_probe(data: dict[str, Any]) -> None:
+def _sources_block(scenario: Any) -> str:
+    """The sources described (peak gain, direction, EIRP, far-field distance), for text."""
+    from .describe import describe_sources, sources_text
+
+    lines = sources_text(describe_sources(scenario), scenario.frequency_hz)
+    return "\n".join(["Sources:", *lines])
+
+
+def _print_probe(data: dict[str, Any], scenario: Any = None) -> None:
     from .report_text import probe_table
 
     text = probe_table(data)
+    if scenario is not None:
+        head, _, rest = text.partition("\n\n")
+        text = head + "\n" + _sources_block(scenario) + "\n\n" + rest
     for p in data["points"]:
         if "name" in p:
             x, y, z = p["position_m"]
@@ -381,6 +425,8 @@ def _print_probe(data: dict[str, Any]) -> None:
 @app.command("keepout")
 def keepout_command(
     scenario: ScenarioPath,
+    limit: LimitOption = None,
+    option: OptionOption = None,
     json_out: JsonFlag = False,
     screening: Annotated[
         bool,
@@ -393,14 +439,18 @@ def keepout_command(
     ] = False,
 ) -> None:
     """Keep-out distance about the first source for each limit of the scenario."""
-    result = api.keepout(_load(scenario))
+    result = api.keepout(_load(scenario), limits=limit, option=option)
     data = result.to_dict()
     if json_out:
         _emit_json(data)
         return
+    from .describe import sources_text
     from .report_text import keepout_table
 
     text = keepout_table(data, result.scenario, screening=screening)
+    head, _, rest = text.partition("\n\n")
+    described = sources_text(data["sources"], data["frequency_hz"])
+    text = head + "\n" + "\n".join(["Sources:", *described]) + "\n\n" + rest
     if "uncertainty" in data:
         from .report_text import uncertainty_lines
 
@@ -421,6 +471,7 @@ def readings_command(
             show_default=False,
         ),
     ],
+    limit: LimitOption = None,
     json_out: JsonFlag = False,
 ) -> None:
     """Survey-meter readings against the model: ratio, flags, limits, a suggested margin.
@@ -429,10 +480,7 @@ def readings_command(
     reading is compared with the time-averaged prediction (duty cycle applied).  A
     reading more than 3 dB above the prediction is flagged as under-predicted.
     """
-    from .readings import read_readings_csv
-
-    readings = read_readings_csv(csv_in)
-    data = api.readings_data(_load(scenario), readings)
+    data = api.readings(_load(scenario), csv_in, limits=limit).to_dict()
     if json_out:
         _emit_json(data)
         return
@@ -480,6 +528,7 @@ def map_command(
         ),
     ] = Quantity.density,
     limit: MapLimitOption = None,
+    option: OptionOption = None,
     plane: Annotated[
         PlaneChoice | None,
         typer.Option(
@@ -576,7 +625,7 @@ def map_command(
         folder = path.parent if str(path.parent) else Path(".")
         if not folder.is_dir():
             raise InputError(f"cannot be written: folder '{folder}' does not exist", str(path))
-    loaded = _load(scenario)
+    loaded = api.select_option(_load(scenario), option)
     ids = api.select_limits(loaded, limit)
     if custom:
         the_plane = maps.custom_plane(
@@ -610,10 +659,12 @@ def map_command(
     if json_out:
         _emit_json(data)
         return
-    _print_with_caution(_map_text(data))
+    _print_with_caution(_map_text(data, loaded))
 
 
-def _map_text(data: dict[str, Any]) -> str:
+def _map_text(data: dict[str, Any], scenario: Any = None) -> str:
+    from .report_text import density_text
+
     m = data["map"]
     s0, s1, t0, t1 = m["extent_m"]
     names = m["plane"]["axis_names"]
@@ -622,11 +673,13 @@ def _map_text(data: dict[str, Any]) -> str:
         f"Map on the {m['plane']['description']}: {names[0]} {s0:.2f}..{s1:.2f} m, "
         f"{names[1]} {t0:.2f}..{t1:.2f} m, step {100 * m['step_m']:.1f} cm "
         f"({m['shape'][1]} x {m['shape'][0]})",
-        "",
     ]
+    if scenario is not None:
+        lines.append(_sources_block(scenario))
+    lines.append("")
     for e in m["limits"]:
         shapes = e["shapes"].get("with-uncertainty", e["shapes"]["model"])
-        head = f"{e['limit']} ({e['limit_w_m2']:.3g} W/m2): "
+        head = f"{e['limit']} ({density_text(e['limit_w_m2'])}): "
         if shapes["circle"]["radius_m"] == 0:
             lines.append(head + "not reached on this plane")
             continue
@@ -651,6 +704,8 @@ def compare_command(
     extent_m: ExtentOption = None,
     step_m: StepOption = None,
     pixels: PixelsOption = None,
+    rank_by: RankByOption = "keepout",
+    sweep: SweepOption = None,
     out: Annotated[
         Path | None,
         _out_option(
@@ -661,9 +716,11 @@ def compare_command(
 ) -> None:
     """Assess the base scenario and each [[option]], and rank them.
 
-    Ranked by the largest keep-out distance across the limits (smaller is better), then
-    by the zone area on the floor plane; with the leakage 5 cm from the enclosure and
-    the worst named place of each.
+    Ranked (--rank-by keepout, the default) by the largest keep-out distance across the
+    limits (smaller is better), then by the zone area on the horizontal plane at the
+    source height; or by that zone area first (zone-area), or by the power density at a
+    named place (place:NAME).  With the value at every named place and its change in dB
+    against the base, the leakage 5 cm from the enclosure and the worst named place.
     """
     from .compare import comparison_table
     from .outputs import json_text
@@ -671,8 +728,12 @@ def compare_command(
 
     api.check_height(height_m)
     grid = api.GridSettings(extent_m, step_m, pixels)
+    from .compare import check_rank_by
+
     loaded = _load(scenario)
     ids = api.select_limits(loaded, limit)
+    check_rank_by(loaded, rank_by)
+    loaded = api.with_sweeps(loaded, sweep)
     if not loaded.options:
         typer.echo(
             "keepclear: note: the scenario has no [[option]]; only the base is assessed",
@@ -680,7 +741,9 @@ def compare_command(
         )
     with _staged(out, scenario) as staged:
         with Progress() as progress:
-            result = api.compare(loaded, ids, height_m=height_m, grid=grid, progress=progress)
+            result = api.compare(
+                loaded, ids, height_m=height_m, grid=grid, rank_by=rank_by, progress=progress
+            )
         data = result.to_dict()
         if staged is not None:
             fig = result.figure()
@@ -691,7 +754,27 @@ def compare_command(
     if json_out:
         _emit_json(data)
         return
-    _print_with_caution(comparison_table(data))
+    text = comparison_table(data)
+    head, _, rest = text.partition("\n\n")
+    _print_with_caution(head + "\n" + "\n".join(_compare_sources_lines(result)) + "\n\n" + rest)
+
+
+def _compare_sources_lines(result: Any) -> list[str]:
+    """The base's sources described, and each option's where they differ from the base's."""
+    from .describe import describe_sources, sources_text
+
+    variants = result.comparison.variants
+    base = next(v for v in variants if v.is_base)
+    f = base.scenario.frequency_hz
+    described = describe_sources(base.scenario)
+    lines = ["Sources of the base:", *sources_text(described, f)]
+    for v in variants:
+        if v.is_base:
+            continue
+        own = describe_sources(v.scenario)
+        if own != described:
+            lines += [f"Sources of option {v.name}:", *sources_text(own, f)]
+    return lines
 
 
 @app.command("assess")
@@ -717,6 +800,8 @@ def assess_command(
             rich_help_panel=PANEL_OUTPUT,
         ),
     ] = False,
+    rank_by: RankByOption = "keepout",
+    sweep: SweepOption = None,
     readings_csv: Annotated[
         Path | None,
         typer.Option(
@@ -730,11 +815,12 @@ def assess_command(
 ) -> None:
     """The full assessment: summary, assessment.json, maps, zones, options and report.html.
 
-    Keep-out distance per limit, the named places, the floor-plane map (at the source
-    height or --height-m) with the zones to tape (GeoJSON), a vertical map through the
-    boresight, the comparison when the scenario has options, and a self-contained HTML
-    report.  Everything is written to a staging folder first and moved into --out only
-    when complete.
+    Keep-out distance per limit, the sources described, the named places, the map of
+    the horizontal plane at the source height (or --height-m; files map-floor.*) with
+    its zones (GeoJSON), with a floor in the scenario also the zones just above the floor
+    and at head height, a vertical map through the boresight, the comparison when the
+    scenario has options (or --sweep), and a self-contained HTML report.  Everything is
+    written to a staging folder first and moved into --out only when complete.
     """
     from .outputs import json_text
     from .report import summary_text
@@ -746,8 +832,12 @@ def assess_command(
         from .readings import read_readings_csv
 
         readings = read_readings_csv(readings_csv, "--readings")
+    from .compare import check_rank_by
+
     loaded = _load(scenario)
     ids = api.select_limits(loaded, limit)
+    check_rank_by(loaded, rank_by)
+    loaded = api.with_sweeps(loaded, sweep)
     api.refuse_assessment_overwrites(out, [scenario])
     text = Path(scenario).read_text(encoding="utf-8")
     with Progress() as progress:
@@ -759,6 +849,7 @@ def assess_command(
             grid=grid,
             scenario_text=text,
             readings=readings,
+            rank_by=rank_by,
             progress=progress,
         )
     if json_out:

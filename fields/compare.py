@@ -39,7 +39,7 @@ from __future__ import annotations
 import functools
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -50,7 +50,7 @@ from . import maps
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
-from .report_text import density_text, share_text
+from .report_text import density_text, pair_text, share_text
 from .scenario import Scenario
 
 SCHEMA_VERSION = 1
@@ -173,6 +173,26 @@ def rank_variants(variants: Sequence[Variant], rank_by: str = "keepout") -> list
         return (a.order > b.order) - (a.order < b.order)
 
     return sorted(variants, key=functools.cmp_to_key(compare))
+
+
+def tolerance_text() -> str:
+    """The tie rule of the ranking in words, from :data:`RANK_TOLERANCE`."""
+    k_abs = RANK_TOLERANCE["keepout_m"][0]
+    a_abs, a_rel = RANK_TOLERANCE["zone_area_m2"]
+    d_rel = RANK_TOLERANCE["power_density_w_m2"][1]
+    q_rel = RANK_TOLERANCE["quotient"][1]
+
+    def small(x: float) -> str:
+        # 1e-06 reads better as 1e-6.
+        mantissa, _, exponent = f"{x:g}".partition("e")
+        return f"{mantissa}e{int(exponent)}" if exponent else mantissa
+
+    return (
+        f" (ties: keep-out distances within {1000 * k_abs:g} mm, zone areas within "
+        f"{small(a_abs)} m2 or {small(a_rel)} relative, densities within {small(d_rel)} and "
+        f"quotients within {small(q_rel)} relative count as equal; full ties keep the "
+        "scenario's order)"
+    )
 
 
 def ranked_by_text(rank_by: str) -> str:
@@ -372,6 +392,8 @@ class Comparison:
                 "step_m": grid.step_m,
             },
             "ranked_by": ranked_by_text(self.rank_by),
+            "rank_by": self.rank_by,
+            "tie_rule": tolerance_text().strip()[1:-1],
             "options": rows,
             "caution": CAUTION_TEXT,
         }
@@ -463,6 +485,8 @@ def compare_options(
             keepouts.append(tuple(keepout_distances(s, ids)))
     centre = scenario.centre_m
     plane = maps.principal_plane("xy", [centre[0], centre[1], height])
+    if height_m is None:
+        plane = replace(plane, description=f"horizontal plane at source height z = {height:.2f} m")
     if half_extent_m is None:
         half_extent_m = max(
             maps.default_half_extent_m(s, k, plane)
@@ -525,7 +549,7 @@ def comparison_table(data: dict[str, Any]) -> str:
     """The ranked comparison as a plain-text table."""
     limits = data["limits"]
     header = ["rank", "option"] + [f"keep-out m {i}" for i in limits]
-    header += ["floor zone m2", "leak 5 cm W/m2", "worst named point"]
+    header += ["zone m2", "leak 5 cm W/m2 (mW/cm2)", "worst named point"]
     rows = []
     for row in data["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
@@ -539,7 +563,7 @@ def comparison_table(data: dict[str, Any]) -> str:
         strictest = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
         cells.append(f"{strictest:.2f}" + (" clipped" if row["zone_clipped_at_map_edge"] else ""))
         leak = row["leakage_5cm_w_m2"]
-        cells.append("-" if leak is None else f"{leak:.3g}")
+        cells.append(pair_text(leak))
         wp = row["worst_point"]
         cells.append(
             "-" if wp is None else f"{wp['name']}: {share_text(wp['quotient'])} of {wp['limit']}"
@@ -548,8 +572,9 @@ def comparison_table(data: dict[str, Any]) -> str:
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
     lines = [
         f"Options compared: {data['scenario']}",
-        f"Floor plane at z = {data['floor_plane']['height_m']:.2f} m; ranked by "
-        + data["ranked_by"],
+        f"Zones on the horizontal plane z = {data['floor_plane']['height_m']:.2f} m; ranked by "
+        + data["ranked_by"]
+        + tolerance_text(),
         "",
         "  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True)),
         "  ".join("-" * w for w in widths),

@@ -30,6 +30,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from keepclear.antennas.base import C_M_S
+
 from .scenario import Scenario, Source
 
 
@@ -67,15 +69,53 @@ def describe_sources(scenario: Scenario) -> list[dict[str, Any]]:
     return [describe_source(s) for s in scenario.sources]
 
 
-def sources_text(described: list[dict[str, Any]]) -> list[str]:
-    """Terminal lines describing the sources (one a source)."""
+def reactive_near_field_m(frequency_hz: float) -> float:
+    """The usual reach of the reactive near field of a small source, lambda / (2 pi) [m].
+
+    Balanis, *Antenna Theory*, 4th ed., 2016, sec. 2.2.4: for a source small against the
+    wavelength the reactive near field extends to about lambda / 2 pi.
+    """
+    return C_M_S / float(frequency_hz) / (2.0 * math.pi)
+
+
+def power_text(power_w: float) -> str:
+    """A power with three significant figures and thousands separators ("23,600 W")."""
+    value = float(f"{power_w:.3g}")
+    if abs(value) >= 1000:
+        return f"{value:,.0f} W"
+    return f"{value:.3g} W"
+
+
+def far_field_text(far_field_distance_m: float, frequency_hz: float) -> str:
+    """The far-field distance in words, saying so when it is inside the reactive near field."""
+    reactive = reactive_near_field_m(frequency_hz)
+    text = f"far field beyond 2D²/λ = {far_field_distance_m:.3g} m"
+    if far_field_distance_m < reactive:
+        text += (
+            f", shorter than the reactive near field (λ/2π = {1000 * reactive:.1f} mm), "
+            "which sets the near-field region instead"
+        )
+    return text
+
+
+def sources_text(described: list[dict[str, Any]], frequency_hz: float = 2.45e9) -> list[str]:
+    """Terminal lines describing the sources (one a source).
+
+    Parameters
+    ----------
+    described : list of dict
+        :func:`describe_sources` entries.
+    frequency_hz : float
+        Operating frequency, for the reactive near field lambda / 2 pi [Hz].
+    """
     lines = []
     for d in described:
         x, y, z = d["peak_direction"]
         gain = "-" if d["peak_gain_dbi"] is None else f"{d['peak_gain_dbi']:.1f} dBi"
         lines.append(
             f"  {d['id']} ({d['antenna']}): peak gain {gain} towards ({x:+.2f}, {y:+.2f}, "
-            f"{z:+.2f}); EIRP {d['eirp_w']:.4g} W while on, {d['average_eirp_w']:.4g} W "
-            f"averaged; far field beyond 2D²/λ = {d['far_field_distance_m']:.3g} m"
+            f"{z:+.2f}); EIRP {power_text(d['eirp_w'])} while on, "
+            f"{power_text(d['average_eirp_w'])} averaged; "
+            + far_field_text(d["far_field_distance_m"], frequency_hz)
         )
     return lines

@@ -13,7 +13,12 @@ leaks the power of the sources inside) the field at each point is
 * combined per the scenario's ``reflections`` mode: ``"coherent"`` sums the
   phasors (the standing-wave pattern); ``"envelope"`` adds the magnitudes (the
   worst phase everywhere, never below coherent);
-* behind a reflector (inside the wall or floor half-space, or the room beyond)
+* a finite reflector (a plate: ``size_m``) scales its image by the plate's
+  Fresnel-Kirchhoff aperture factor (continuous across the reflection boundary), and a
+  finite *metal* plate shades the direct ray and the legs of the other first-order
+  paths as a shield with no transmission does; a plate does not bound the space, so
+  every other plane's images stay in play beside and under it;
+* behind an infinite reflector (inside the wall or floor half-space, or the room beyond)
   only the direct field remains, unattenuated (the wall's thickness is unknown and a
   thin panel can pass nearly all of it: conservative), or nothing behind metal.
 
@@ -334,7 +339,37 @@ def _path_factors(
         for shield in scenario.shields:
             back *= shield.amplitude_factor(starts, ends)
         images = [f * back[k * n : (k + 1) * n] for k, f in enumerate(images)]
+    direct, images = _plate_shadows(scenario, radiator, points_m, bounces, direct, images)
     return direct, images
+
+
+def _plate_shadows(  # noqa: ANN202
+    scenario: Scenario,
+    radiator: Radiator,
+    points_m: NDArray[np.float64],
+    bounces: list[NDArray[np.float64]],
+    direct: NDArray[np.float64],
+    images: list[NDArray[np.float64]],
+):
+    """Finite metal reflectors as obstacles on the direct ray and the reflected legs.
+
+    Both legs of each first-order reflected path count, except the plate that path
+    reflects from.
+    """
+    from . import reflection
+
+    refl = scenario.reflectors
+    if not reflection.has_obstacles(refl):
+        return direct, images
+    f_hz, source = scenario.frequency_hz, radiator.position_m
+    extent = 0.5 * radiator.largest_dimension_m
+    direct = direct * reflection.plate_obstacle_factor(refl, source, points_m, f_hz, (), extent)
+    out = []
+    for k, (f, q) in enumerate(zip(images, bounces, strict=True)):
+        leg1 = reflection.plate_obstacle_factor(refl, source, q, f_hz, (k,), extent)
+        leg2 = reflection.plate_obstacle_factor(refl, q, points_m, f_hz, (k,))
+        out.append(f * leg1 * leg2)
+    return direct, out
 
 
 def _term_squares(
@@ -347,20 +382,21 @@ def _term_squares(
     radiator = term.radiator
     e, h = radiator.fields(points_m, chunk_bytes)
     image_factors: list[NDArray[np.float64]] = []
-    if scenario.shields:
+    from . import reflection
+
+    shaded = bool(scenario.shields) or reflection.has_obstacles(scenario.reflectors)
+    if shaded:
         f, image_factors = _path_factors(scenario, radiator, points_m, len(scenario.reflectors))
         e = e * f[:, None]
         h = h * f[:, None]
     if not scenario.reflectors:
         return np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
 
-    from . import reflection
-
     order = 2 if len(scenario.reflectors) > 1 else 1
     images = reflection.reflected_fields(
         radiator, scenario.reflectors, points_m, scenario.frequency_hz, order=order
     )
-    if scenario.shields:
+    if shaded:
         # First-order images: shield credit along the real path, source -> reflection
         # point -> field point (a sheet behind the plane is not on it).  Higher orders get
         # no credit (conservative: their path is not traced).

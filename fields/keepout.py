@@ -15,7 +15,9 @@ values where the standard gives them.
    Along every reflector, rays also run in the plane itself, a millimetre on the
    source side, from the foot of the centre: next to a floor the exceedance is a thin
    layer (the reflection adds most at grazing incidence) that reaches farthest on the
-   floor, between any two rays from the centre.
+   floor, between any two rays from the centre.  A finite plate adds rays along the
+   beam it reflects: from its centre, corners and edge midpoints, away from each
+   term's image, and from the centre towards its corners (the reflection boundaries).
 2. Along each ray the quotient is sampled on a grid that is fine near the
    source (a sixteenth of a wavelength) and grows geometrically (3 % a step)
    further out; in coherent-reflection mode the step stays at a sixteenth of a
@@ -387,6 +389,32 @@ def _plane_rays(search: _Search, reflector, azimuths: NDArray) -> tuple[NDArray,
     return np.tile(origin, (len(azimuths), 1)), directions
 
 
+def _beam_rays(search: _Search, reflector) -> tuple[NDArray, NDArray]:  # noqa: ANN001
+    """Rays along the beam a finite plate reflects, and from the centre to its corners.
+
+    The beam rays leave the plate's centre, corners and edge midpoints (a millimetre in
+    front of it), away from each radiating term's image: the reflected beam is bounded by
+    the rays from the image through the plate's edges (the reflection boundary).
+    """
+    n = np.asarray(reflector.normal, dtype=float)
+    corners = np.asarray(reflector.corners(), dtype=float)
+    mids = 0.5 * (corners + np.roll(corners, -1, axis=0))
+    marks = np.vstack([np.asarray(reflector.point_m, dtype=float), corners, mids])
+    marks = marks + PLANE_STANDOFF_M * n
+    origins, directions = [], []
+    for t in search.terms:
+        image = reflector.mirror_points(t.radiator.position_m[None, :])[0]
+        away = marks - image
+        origins.append(marks)
+        directions.append(away / np.linalg.norm(away, axis=1)[:, None])
+    towards = marks[1:5] - search.centre
+    norm = np.linalg.norm(towards, axis=1)
+    keep = norm > 1e-9
+    origins.append(np.tile(search.centre, (int(keep.sum()), 1)))
+    directions.append(towards[keep] / norm[keep, None])
+    return np.vstack(origins), np.vstack(directions)
+
+
 #: Height above a reflector at which the in-plane rays run [m].
 PLANE_STANDOFF_M = 1e-3
 #: Rays of the first pass along each reflector.
@@ -412,6 +440,11 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
         origins.append(o)
         directions.append(d)
         kinds.append(np.full(len(d), j))
+        if getattr(reflector, "is_finite", False):
+            o, d = _beam_rays(search, reflector)
+            origins.append(o)
+            directions.append(d)
+            kinds.append(np.full(len(d), -1))
     o, d, kind = np.vstack(origins), np.vstack(directions), np.concatenate(kinds)
     dist = best.add(o, d, search.rays(o, d))
 
@@ -428,7 +461,7 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
         for j in starts:
             if kind[j] < 0:
                 cap = _cap(d[j], 1.5 * spacing * shrink, 24)
-                new_o.append(np.tile(search.centre, (len(cap), 1)))
+                new_o.append(np.tile(o[j], (len(cap), 1)))
                 new_d.append(cap)
                 new_kind.append(np.full(len(cap), -1))
             else:

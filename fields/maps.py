@@ -347,7 +347,8 @@ def default_half_extent_m(
     shift = float(np.max(np.abs(st_c[0] - centre)))
     base = max(MIN_HALF_EXTENT_M, KEEPOUT_EXTENT_FACTOR * r + shift)
     places = [p.position_m for p in scenario.points] + [s.position_m for s in scenario.sources]
-    for obj in (*scenario.shields, scenario.enclosure):
+    plates = [r for r in scenario.reflectors if getattr(r, "is_finite", False)]
+    for obj in (*scenario.shields, *plates, scenario.enclosure):
         corners = object_corners(obj) if obj is not None else None
         if corners is not None:
             places += list(corners)
@@ -389,7 +390,9 @@ def default_window_m(
     floors = [
         float(r.point_m[2]) - base_t
         for r in scenario.reflectors
-        if float(np.asarray(r.normal)[2]) > 0.99 and float(r.point_m[2]) - base_t < ct
+        if not getattr(r, "is_finite", False)  # a table top is not a floor
+        and float(np.asarray(r.normal)[2]) > 0.99
+        and float(r.point_m[2]) - base_t < ct
     ]
     if not floors:
         return square

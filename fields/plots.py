@@ -349,6 +349,9 @@ def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> Non
     s0, s1, t0, t1 = grid.extent_m
     ss, tt = np.meshgrid(grid.s_m, grid.t_m)
     for reflector in scenario.reflectors:
+        if getattr(reflector, "is_finite", False):
+            _draw_plate(ax, plane, reflector.outline(), grid.step_m)
+            continue
         trace = maps.plane_trace(plane, reflector.point_m, reflector.normal)
         if trace is None:
             continue
@@ -381,6 +384,56 @@ def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> Non
             ys = np.array([t0, t1])
             xs = (c - b * ys) / a
         ax.plot(xs, ys, color="#333333", lw=2.4, solid_capstyle="butt", zorder=5)
+
+
+#: Colour of a finite reflecting plate on maps.
+PLATE_COLOUR = "#333333"
+
+
+def _draw_plate(
+    ax: Any, plane: maps.Plane, corners: NDArray[np.float64] | None, step: float
+) -> None:
+    """A finite reflector: only the plate itself is hatched (space around it stays open).
+
+    Where the map plane cuts the plate, a thick hatched bar along the cut; where the map
+    lies in the plate's plane, the plate's rectangle hatched; otherwise its dashed outline
+    projected (off the map plane).
+    """
+    if corners is None:
+        return
+    section = maps.convex_section(plane, corners)
+    if section is not None and section.shape[0] == 2:
+        ax.plot(
+            section[:, 0],
+            section[:, 1],
+            color=PLATE_COLOUR,
+            lw=4.0,
+            zorder=6,
+            solid_capstyle="butt",
+        )
+        ax.plot(section[:, 0], section[:, 1], color="white", lw=1.2, ls=(0, (2, 2)), zorder=6)
+        return
+    if section is not None:
+        ax.add_patch(
+            Polygon(
+                section, closed=True, fc="#808080", alpha=0.35, ec=PLATE_COLOUR, lw=2.0, zorder=2
+            )
+        )
+        ax.add_patch(
+            Polygon(
+                section, closed=True, fill=False, hatch="////", ec=PLATE_COLOUR, lw=0.0, zorder=2
+            )
+        )
+        return
+    hull = maps.projected_hull(plane, corners)
+    if hull is not None and hull.shape[0] > 2:
+        ax.add_patch(
+            Polygon(
+                hull, closed=True, fill=False, ec=PLATE_COLOUR, lw=1.3, ls="--", alpha=0.7, zorder=6
+            )
+        )
+    elif hull is not None:
+        ax.plot(hull[:, 0], hull[:, 1], color=PLATE_COLOUR, lw=1.6, ls="--", alpha=0.7, zorder=6)
 
 
 def _draw_object(
@@ -653,9 +706,14 @@ def _legend_handles(
             )
         )
     plane = result.grid.plane
-    if any(maps.plane_trace(plane, r.point_m, r.normal) for r in scenario.reflectors):
+    infinite = [r for r in scenario.reflectors if not getattr(r, "is_finite", False)]
+    if any(maps.plane_trace(plane, r.point_m, r.normal) for r in infinite):
         handles.append(
             Line2D([], [], color="#333333", lw=2.4, label="reflecting plane (hatched: behind it)")
+        )
+    if len(infinite) < len(scenario.reflectors):
+        handles.append(
+            Line2D([], [], color=PLATE_COLOUR, lw=4.0, label="reflecting plate (finite)")
         )
     if scenario.shields:
         handles.append(Line2D([], [], color="#3b3b8f", lw=3.2, label="shield"))

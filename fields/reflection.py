@@ -85,13 +85,43 @@ of all planes (the intersection of the half-spaces, convex, so the straight legs
 stay inside).  For a 90-degree conducting corner this gives exactly the three
 images of the classical solution (Balanis [2]_, corner reflector, ch. 15).
 
-Points behind any reflector (d < 0) get no reflected field; the orchestrator
-uses :func:`transmission_power_factor` for the direct ray there.
+Points behind any infinite reflector (d < 0) get no reflected field; the
+orchestrator uses :func:`transmission_power_factor` for the direct ray there.
+
+Finite plates (``size_m``, physical optics in Fresnel form).  A plate is a rectangle
+of the plane, centred on ``point_m``.  Its image is the infinite plane's, multiplied by
+the Fresnel-Kirchhoff factor A of a rectangular aperture seen from the image point
+(:func:`keepclear.fields.diffraction.rectangle_aperture_factor`, ITU-R P.526 [4]_
+sec. 5.2.1.1): the physical-optics integral of the plate's induced currents in the
+Fresnel (paraxial) approximation, the Fresnel coefficients taken at the specular
+angle.  A is about 1 where the specular point lies well inside the plate (a plate
+much larger than the first Fresnel zone is the infinite plane), 1/2 where it lies on an
+edge, and falls smoothly to the edge-diffracted field outside: the field is continuous
+across the reflection boundary.  A plate much smaller than the first Fresnel zone
+gives :math:`|A| = ab\\cos\\theta\\,(d_1 + d_2)/(\\lambda d_1 d_2)`, the physical-optics
+flat-plate result :math:`\\sigma = 4\\pi (ab\\cos\\theta/\\lambda)^2` (Balanis [1]_
+sec. 11.3; Knott, Shaeffer and Tuley [5]_).  The phase of A follows the path length,
+so the coherent mode keeps the standing-wave pattern.  For a second-order path each
+plate on it contributes its A along the unfolded ray (the image of the earlier bounces
+to the field point mirrored in the later planes).  A plate reflects on both faces (the
+floor's image reaches the underside of a table); a plate never bounds the space, so
+every other plane's images are in play beside, over and under it.  Behind a plate
+(on its far side) its own image is 0; the orchestrator keeps the direct ray there in
+full for a non-metal plate (as for a non-metal infinite plane) and applies the opaque
+plate's diffraction factor for a metal one (:func:`plate_obstacle_factor`, the same
+Fresnel-Kirchhoff model as shield sheets).  Against the uniform theory of diffraction
+(Kouyoumjian and Pathak [6]_) this scalar model differs mostly at wide diffraction
+angles, where the diffracted field is weak, and it does not follow the polarisation of
+the edge-diffracted field.
 
 Assumptions and range of validity
 ---------------------------------
-* Planes are infinite and flat; the far side is a half-space, so a wall has no
-  thickness: no slab resonance, no absorption inside the wall.
+* Planes are flat; an infinite plane's far side is a half-space and a plate is
+  thin, so a wall has no thickness: no slab resonance, no absorption inside it.
+* Plates: scalar paraxial physical optics (accurate for source and field point
+  several wavelengths away and rays within some tens of degrees of the specular
+  direction); no surface waves, no edge currents beyond physical optics, no
+  multiple bounces between a plate and the source.
 * Ray optics for non-conducting planes: the Fresnel coefficient at the image
   ray's angle.  Accurate when the source and the field point are more than about
   a wavelength from the plane; surface-wave (Sommerfeld) terms near the
@@ -110,19 +140,29 @@ References
 .. [3] Recommendation ITU-R P.2040-3 (08/2023), sec. 2.2.1 (plane-wave reflection
    at a planar interface; 2.2.1.5 simplified expressions for incidence from air)
    and sec. 2.2.1.4 (coefficients for power flux densities).
+.. [4] Recommendation ITU-R P.526-15 (10/2019), *Propagation by diffraction*, sec. 4.1
+   (knife edge) and sec. 5.2 (rectangular apertures and screens).
+.. [5] E. F. Knott, J. F. Shaeffer and M. T. Tuley, *Radar Cross Section*, 2nd ed.,
+   Artech House, 1993, ch. 5 (physical optics; flat plate sigma = 4 pi A^2 / lambda^2 at
+   normal incidence; chapter from memory).
+.. [6] R. G. Kouyoumjian and P. H. Pathak, "A uniform geometrical theory of diffraction
+   for an edge in a perfectly conducting surface", Proc. IEEE 62(11), 1448-1461, 1974.
 """
 
 from __future__ import annotations
 
+import math
 import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from dataclasses import field as dataclass_field
 from typing import Final
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import (
+    C_M_S,
     ModelInputError,
     ModelRangeWarning,
     Radiator,
@@ -130,6 +170,7 @@ from keepclear.antennas.base import (
     unit_vector,
 )
 
+from . import diffraction
 from .materials import (
     MATERIAL_NAMES,
     canonical_material_name,
@@ -154,6 +195,8 @@ REFLECTOR_KEYS: Final[tuple[str, ...]] = (
     "conductivity_s_m",
     "reflection_coefficient",
     "name",
+    "size_m",
+    "up",
 )
 
 FieldFunction = Callable[
@@ -248,7 +291,7 @@ def normal_incidence_coefficient_from_permittivity(relative_permittivity: comple
 # ------------------------------------------------------------------------- Reflector
 @dataclass(frozen=True, eq=False)
 class Reflector:
-    """An infinite reflecting plane.
+    """A reflecting plane: infinite, or a finite rectangle (``size_m``).
 
     Parameters
     ----------
@@ -269,18 +312,26 @@ class Reflector:
         polarisations at all angles (-1 behaves as metal) [1].
     label : str
         Name used in messages.
+    size_m : tuple of float, optional
+        ``(width, height)`` of a finite rectangle centred on ``point_m`` [m]; None (the
+        default) is an infinite plane.
+    up : array_like, shape (3,), optional
+        Direction of the rectangle's height edges, perpendicular to ``normal``; default
+        +z, or +y when the normal is within about 25 degrees of vertical [1].
 
     Raises
     ------
     ModelInputError
         Naming the scenario key: not exactly one of the three forms, a value out of
-        range, an unknown material, a zero normal.
+        range, an unknown material, a zero normal, a size that is not two positive
+        numbers, an ``up`` not perpendicular to the normal or given without ``size_m``.
 
     Notes
     -----
     Exactly one of ``material``, ``relative_permittivity`` (with
     ``conductivity_s_m``) or ``reflection_coefficient`` is given.  Instances are
-    immutable (the arrays are read-only) and compare by identity.
+    immutable (the arrays are read-only) and compare by identity.  A finite plate's
+    width runs along ``width_axis = height_axis x normal``.
     """
 
     point_m: NDArray[np.float64]
@@ -290,8 +341,52 @@ class Reflector:
     conductivity_s_m: float | None = None
     reflection_coefficient: float | None = None
     label: str = "reflector"
+    size_m: tuple[float, float] | None = None
+    up: NDArray[np.float64] | None = None
+    width_axis: NDArray[np.float64] | None = dataclass_field(init=False, repr=False, default=None)
+    height_axis: NDArray[np.float64] | None = dataclass_field(init=False, repr=False, default=None)
 
     def __post_init__(self) -> None:
+        self._init_geometry()
+        self._init_size()
+
+    def _init_size(self) -> None:
+        if self.size_m is None:
+            if self.up is not None:
+                raise ModelInputError(
+                    "up", "up is only for a finite reflector: give size_m = [width, height] too"
+                )
+            return
+        size = np.asarray(self.size_m, dtype=float)
+        if size.shape != (2,) or not np.all(np.isfinite(size)) or np.any(size <= 0):
+            raise ModelInputError(
+                "size_m",
+                f"size_m must be [width, height], two numbers > 0 [m], got {self.size_m!r}",
+            )
+        n = self.normal
+        if self.up is None:
+            up = np.array([0.0, 0.0, 1.0]) if abs(n[2]) < 0.9 else np.array([0.0, 1.0, 0.0])
+            up = up - np.dot(up, n) * n
+        else:
+            up = unit_vector(self.up, "up")
+            if abs(float(np.dot(up, n))) > 1e-6:
+                raise ModelInputError(
+                    "up",
+                    "up must be perpendicular to normal (it gives the direction of the height "
+                    f"edges in the plane); the angle between them is "
+                    f"{np.degrees(np.arccos(np.clip(abs(np.dot(up, n)), 0, 1))):.3g} degrees",
+                )
+            up = up - np.dot(up, n) * n
+        v = up / np.linalg.norm(up)
+        u = np.cross(v, n)
+        for arr in (u, v):
+            arr.setflags(write=False)
+        object.__setattr__(self, "size_m", (float(size[0]), float(size[1])))
+        object.__setattr__(self, "up", v)
+        object.__setattr__(self, "width_axis", u)
+        object.__setattr__(self, "height_axis", v)
+
+    def _init_geometry(self) -> None:
         point = np.asarray(self.point_m, dtype=float)
         if point.shape != (3,) or not np.all(np.isfinite(point)):
             raise ModelInputError(
@@ -515,6 +610,136 @@ class Reflector:
         d = (pts - self.point_m) @ self.normal
         return pts - 2.0 * d[:, None] * self.normal
 
+    # ------------------------------------------------------- finite plate
+    @property
+    def is_finite(self) -> bool:
+        """Whether this is a finite rectangle (``size_m`` given)."""
+        return self.size_m is not None
+
+    @property
+    def is_obstacle(self) -> bool:
+        """Whether the plate blocks rays that cross it: a finite metal plate.
+
+        A non-metal plate, like a non-metal infinite plane, passes the direct ray in
+        full (its thickness is unknown; conservative).
+        """
+        return self.is_finite and self.kind == "metal"
+
+    def corners(self) -> NDArray[np.float64]:
+        """The four corners (4, 3) of a finite plate, in order around it [m].
+
+        Raises
+        ------
+        ValueError
+            For an infinite plane (it has none).
+        """
+        if self.size_m is None or self.width_axis is None or self.height_axis is None:
+            raise ValueError(f"{self.label}: an infinite plane has no corners")
+        hw, hh = self.size_m[0] / 2, self.size_m[1] / 2
+        u, v, c = self.width_axis, self.height_axis, self.point_m
+        return np.array(
+            [c - hw * u - hh * v, c + hw * u - hh * v, c + hw * u + hh * v, c - hw * u + hh * v]
+        )
+
+    def outline(self) -> NDArray[np.float64] | None:
+        """Corners (4, 3) of a finite plate for drawing; None for an infinite plane [m]."""
+        return self.corners() if self.is_finite else None
+
+    def _crossing(
+        self, start_m: NDArray[np.float64], end_m: NDArray[np.float64], frequency_hz: float
+    ) -> diffraction.RectangleCrossing:
+        assert self.size_m is not None and self.width_axis is not None
+        assert self.height_axis is not None
+        return diffraction.rectangle_crossing(
+            start_m,
+            end_m,
+            self.point_m,
+            self.normal,
+            self.width_axis,
+            self.height_axis,
+            self.size_m[0] / 2,
+            self.size_m[1] / 2,
+            C_M_S / frequency_hz,
+        )
+
+    def aperture_factor(
+        self, start_m: ArrayLike, end_m: ArrayLike, frequency_hz: float
+    ) -> NDArray[np.complex128]:
+        """Fresnel-Kirchhoff factor of the plate on unfolded reflected rays start -> end.
+
+        Parameters
+        ----------
+        start_m : array_like, shape (N, 3)
+            The image point of the path (the source mirrored in this plane, and in the
+            planes of any earlier bounces) [m].
+        end_m : array_like, shape (N, 3)
+            The field point (unfolded through any later bounces) [m].
+        frequency_hz : float
+            Frequency [Hz].
+
+        Returns
+        -------
+        ndarray, complex, shape (N,)
+            1 for an infinite plane; for a plate the rectangular-aperture factor A of
+            :func:`~keepclear.fields.diffraction.rectangle_aperture_factor` (about 1
+            where the specular point lies well inside the plate, 1/2 on its edge,
+            falling off outside), 0 where the ray does not cross the plane [1].
+        """
+        start = as_points(start_m)
+        end = as_points(end_m)
+        if not self.is_finite:
+            return np.ones(end.shape[0], dtype=complex)
+        geo = self._crossing(np.broadcast_to(start, end.shape), end, frequency_hz)
+        out = np.zeros(end.shape[0], dtype=complex)
+        if geo.crossing.any():
+            out[geo.crossing] = diffraction.rectangle_aperture_factor(geo.nu[:, geo.crossing])
+        return out
+
+    def obstacle_factor(
+        self,
+        start_m: ArrayLike,
+        end_m: ArrayLike,
+        frequency_hz: float,
+        source_extent_m: float = 0.0,
+    ) -> NDArray[np.float64]:
+        """Amplitude factor of the plate as an obstacle on straight rays start -> end.
+
+        Parameters
+        ----------
+        start_m : array_like, shape (3,) or (N, 3)
+            The ray's origin (a source, or a reflection point) [m].
+        end_m : array_like, shape (N, 3)
+            Field points [m].
+        frequency_hz : float
+            Frequency [Hz].
+        source_extent_m : float
+            Half-size of the source: the largest factor over the corners of a cube of
+            this half-size about the origin [m].
+
+        Returns
+        -------
+        ndarray, shape (N,)
+            1 for an infinite plane, a non-metal plate, or a ray that does not cross the
+            plate's plane; else the opaque-plate factor of
+            :func:`~keepclear.fields.diffraction.obstacle_factor` (the plate passes
+            nothing itself; its edges diffract), continuous across the shadow
+            boundary [1].
+        """
+        end = as_points(end_m)
+        out = np.ones(end.shape[0])
+        if not self.is_obstacle:
+            return out
+        start = np.broadcast_to(np.asarray(start_m, dtype=float).reshape(-1, 3), end.shape)
+        axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
+        best = np.zeros(end.shape[0])
+        for offset in diffraction.cube_offsets(float(source_extent_m), axes):
+            geo = self._crossing(start + offset, end, frequency_hz)
+            f = np.ones(end.shape[0])
+            if geo.crossing.any():
+                f[geo.crossing] = diffraction.obstacle_factor(geo.nu[:, geo.crossing])
+            best = np.maximum(best, f)
+        return best
+
 
 # ------------------------------------------------------------------- table reading
 def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
@@ -583,6 +808,7 @@ def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
         kwargs["reflection_coefficient"] = table.number(
             "reflection_coefficient", minimum=-1.0, maximum=1.0
         )
+    kwargs.update(_finite_plate_keys(table))
     reflector = table.build(Reflector, point_m=point, normal=normal, label=label, **kwargs)
     if reflector.material is not None:
         message = out_of_range_message(reflector.material, frequency_hz)
@@ -591,6 +817,32 @@ def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
             warnings.warn(f"{where}: {message}", ModelRangeWarning, stacklevel=2)
     table.finish()
     return reflector
+
+
+def _finite_plate_keys(table: Table) -> dict[str, object]:
+    """The optional ``size_m = [w, h]`` and ``up`` of a finite reflector, checked."""
+    out: dict[str, object] = {}
+    value = table.raw("size_m", None)  # read even when absent: a misspelling gets its hint
+    if value is not None:
+        if (
+            not isinstance(value, list)
+            or len(value) != 2
+            or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
+            or not all(math.isfinite(float(v)) and 0 < float(v) <= 1e4 for v in value)
+        ):
+            raise table.error(
+                "size_m",
+                f"must be [width, height], two numbers > 0 and <= 10000 [m], got {value!r}",
+            )
+        out["size_m"] = (float(value[0]), float(value[1]))
+    up = table.vector("up", None, nonzero=True)
+    if up is not None:
+        if "size_m" not in out:
+            raise table.error(
+                "up", "is only for a finite reflector: give size_m = [width, height] too"
+            )
+        out["up"] = up
+    return out
 
 
 # ------------------------------------------------------------------ image method
@@ -608,12 +860,27 @@ def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.f
 def _accessible(
     reflectors: Sequence[Reflector], points_m: NDArray[np.float64], exclude: Sequence[int]
 ) -> NDArray[np.bool_]:
-    """Points on the source side (or on) every plane not in ``exclude``."""
+    """Points on the source side (or on) every infinite plane not in ``exclude``.
+
+    Finite plates do not bound the space: rays pass beside them.
+    """
     ok = np.ones(points_m.shape[0], dtype=bool)
     for k, r in enumerate(reflectors):
-        if k not in exclude:
+        if k not in exclude and not r.is_finite:
             ok &= r.signed_distance_m(points_m) >= -PLANE_TOLERANCE_M
     return ok
+
+
+def _crossing_either_way(
+    reflector: Reflector, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
+    """Where segments with ends on opposite sides (or on) of the plane meet it."""
+    d0 = reflector.signed_distance_m(start_m)
+    d1 = reflector.signed_distance_m(end_m)
+    span = d0 - d1
+    good = (d0 * d1 <= PLANE_TOLERANCE_M**2) & (np.abs(span) > 0)
+    t = np.clip(np.where(good, d0 / np.where(good, span, 1.0), 0.0), 0.0, 1.0)
+    return start_m + t[:, None] * (end_m - start_m), good
 
 
 def _crossing(
@@ -780,6 +1047,10 @@ def reflected_fields(
         valid = inside & met & _accessible(refl, q_j, exclude=(j,))
         if valid.any():
             e[valid], h[valid] = first_ops[j](pts[valid])
+            if rj.is_finite:
+                a = rj.aperture_factor(first_refs[j], pts[valid], frequency_hz)
+                e[valid] *= a[:, None]
+                h[valid] *= a[:, None]
         images.append((e, h))
 
     if order == 2:
@@ -789,23 +1060,34 @@ def reflected_fields(
                 if i == j:
                     continue
                 e, h = zeros()
-                if float(rj.signed_distance_m(s_i)[0]) > PLANE_TOLERANCE_M:
+                d_ij = float(rj.signed_distance_m(s_i)[0])
+                # an infinite plane reflects on its source side only; a plate on both faces
+                if d_ij > PLANE_TOLERANCE_M or (rj.is_finite and d_ij < -PLANE_TOLERANCE_M):
                     s_ij = rj.mirror_points(s_i)
-                    q_j, met_j = _crossing(rj, np.broadcast_to(s_ij, pts.shape), pts)
+                    q_j, met_j = _crossing_either_way(rj, np.broadcast_to(s_ij, pts.shape), pts)
                     valid = inside & met_j & _accessible(refl, q_j, exclude=(j,))
                     q_i, met_i = _crossing(ri, np.broadcast_to(s_i, pts.shape), q_j)
                     valid &= met_i & _accessible(refl, q_i, exclude=(i,))
                     if valid.any():
                         op = _image_operator(first_ops[i], s_i[0], rj, frequency_hz)
                         e[valid], h[valid] = op(pts[valid])
+                        a = np.ones(int(valid.sum()), dtype=complex)
+                        if rj.is_finite:  # last bounce: the unfolded ray s_ij -> p
+                            a *= rj.aperture_factor(s_ij, pts[valid], frequency_hz)
+                        if ri.is_finite:  # first bounce: the unfolded ray s_i -> M_j p
+                            a *= ri.aperture_factor(s_i, rj.mirror_points(pts[valid]), frequency_hz)
+                        e[valid] *= a[:, None]
+                        h[valid] *= a[:, None]
                 images.append((e, h))
     return images
 
 
 def behind(reflectors: Sequence[Reflector], points_m: ArrayLike) -> NDArray[np.bool_]:
-    """Whether each point (N, 3) is on the far side of any reflector (N,) bool.
+    """Whether each point (N, 3) is on the far side of any infinite reflector (N,) bool.
 
-    Points on a plane (within :data:`PLANE_TOLERANCE_M`) are not behind it.
+    Points on a plane (within :data:`PLANE_TOLERANCE_M`) are not behind it.  Finite
+    plates are never "behind": rays pass beside them, and a metal plate's shadow is
+    :func:`plate_obstacle_factor`.
     """
     pts = as_points(points_m)
     return ~_accessible(tuple(reflectors), pts, exclude=())
@@ -860,12 +1142,58 @@ def transmission_power_factor(
     ray = pts - source
     dist = np.linalg.norm(ray, axis=1)
     for r in refl:
+        if r.is_finite:  # a plate's shadow is plate_obstacle_factor's
+            continue
         crossing = r.signed_distance_m(pts) < -PLANE_TOLERANCE_M
         if not crossing.any():
             continue
         cos = np.abs(ray[crossing] @ r.normal) / dist[crossing]
         factor[crossing] *= r.transmitted_power_fraction(frequency_hz, np.clip(cos, 0.0, 1.0))
     return factor
+
+
+def plate_obstacle_factor(
+    reflectors: Sequence[Reflector],
+    start_m: ArrayLike,
+    end_m: ArrayLike,
+    frequency_hz: float,
+    exclude: Sequence[int] = (),
+    source_extent_m: float = 0.0,
+) -> NDArray[np.float64]:
+    """Product of the finite metal plates' obstacle factors on straight rays (N,).
+
+    Parameters
+    ----------
+    reflectors : sequence of Reflector
+        The scenario's reflectors; only finite metal plates (:attr:`Reflector.is_obstacle`)
+        not in ``exclude`` count.
+    start_m : array_like, shape (3,) or (N, 3)
+        Ray origins: a source, or the reflection points of a reflected path [m].
+    end_m : array_like, shape (N, 3)
+        Ray ends [m].
+    frequency_hz : float
+        Frequency [Hz].
+    exclude : sequence of int
+        Indices of plates not to count (the plate a leg ends or starts on).
+    source_extent_m : float
+        Half-size of the source (see :meth:`Reflector.obstacle_factor`) [m].
+
+    Returns
+    -------
+    ndarray, shape (N,)
+        1 where no metal plate is crossed; continuous across each shadow boundary [1].
+    """
+    end = as_points(end_m)
+    out = np.ones(end.shape[0])
+    for k, r in enumerate(reflectors):
+        if r.is_obstacle and k not in exclude:
+            out *= r.obstacle_factor(start_m, end, frequency_hz, source_extent_m)
+    return out
+
+
+def has_obstacles(reflectors: Sequence[Reflector]) -> bool:
+    """Whether any reflector is a finite metal plate (an obstacle for rays)."""
+    return any(r.is_obstacle for r in reflectors)
 
 
 # -------------------------------------------------------------------- combination
@@ -931,8 +1259,10 @@ __all__ = [
     "behind",
     "combine",
     "fresnel_coefficients",
+    "has_obstacles",
     "image_labels",
     "normal_incidence_coefficient_from_permittivity",
+    "plate_obstacle_factor",
     "reflected_fields",
     "reflector_from_table",
     "transmission_power_factor",

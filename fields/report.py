@@ -23,7 +23,8 @@ import html
 from typing import Any
 
 from .cautions import CAUTION_LINES, caution_block
-from .report_text import share_text
+from .describe import power_text
+from .report_text import density_text, pair_text, share_text
 
 #: What the estimate leaves out, as printed in the report.
 LEFT_OUT: tuple[tuple[str, str], ...] = (
@@ -227,7 +228,7 @@ def _summary(data: dict[str, Any]) -> str:
             "limit value",
             "keep-out radius",
             "mark out",
-            f"circle on floor plane (z = {floor_h:.2f} m)",
+            f"circle at source height (z = {floor_h:.2f} m)",
             "vertical cylinder",
         ],
         rows,
@@ -252,6 +253,107 @@ def _summary(data: dict[str, Any]) -> str:
     lines.append(f"<p>{_e(CAUTION_LINES[0])}</p>")
     lines.append("</section>")
     return "\n".join(lines)
+
+
+def _sources(data: dict[str, Any]) -> str:
+    """What each source radiates, as the model has it: gain, direction, EIRP, far field."""
+    rows = []
+    notes = []
+    for s in data["sources"]:
+        if "peak_gain_dbi" not in s:
+            continue
+        x, y, z = s["peak_direction"]
+        gain = s["peak_gain_dbi"]
+        far = s["far_field_distance_m"]
+        reactive = s.get("reactive_near_field_m")
+        rows.append(
+            [
+                _free(s["id"]),
+                _e(s["antenna"]),
+                f"{s['power_w']:g}&nbsp;W, duty {s['duty_cycle']:g}",
+                "–" if gain is None else f"{gain:.1f}&nbsp;dBi",
+                f"({x:+.2f}, {y:+.2f}, {z:+.2f})",
+                _e(power_text(s["eirp_w"])).replace(" ", "&nbsp;"),
+                _e(power_text(s["average_eirp_w"])).replace(" ", "&nbsp;"),
+                f"{far:.3g}&nbsp;m",
+            ]
+        )
+        if reactive is not None and far < reactive:
+            notes.append(
+                f"{s['id']}: the far-field distance 2D²/λ = {far:.3g} m is shorter than the "
+                f"reactive near field, which reaches about λ/2π = {1000 * reactive:.1f} mm; "
+                "treat points closer than that as near field."
+            )
+    if not rows:
+        return ""
+    table = _table(
+        [
+            "source",
+            "antenna",
+            "power while on",
+            "peak gain",
+            "peak towards (x, y, z)",
+            "EIRP while on",
+            "EIRP averaged",
+            "far field beyond 2D²/λ",
+        ],
+        rows,
+        numeric={3, 5, 6, 7},
+    )
+    legend = (
+        '<p class="legend">Peak gain and its direction are the model’s own; EIRP is the '
+        "power while on times the peak gain, averaged with the duty cycle applied; the far "
+        "field is taken from the Fraunhofer distance 2D²/λ, D the source’s largest "
+        "dimension (Balanis, Antenna Theory, 4th ed., eq. (2-1)). A source inside an "
+        "enclosure radiates only through the enclosure’s openings.</p>"
+    )
+    return table + legend + "".join(f"<p>{_e(n)}</p>" for n in notes)
+
+
+def _levels_section(data: dict[str, Any]) -> str:
+    """The zones at floor level and at head height, when the scenario has a floor."""
+    levels = _levels(data)
+    if not levels:
+        return ""
+    header = ["limit"] + [
+        f"{_e(lv['name'])}, z = {lv['height_m']:.2f}&nbsp;m ({lv['height_above_floor_m']:.2f}"
+        "&nbsp;m above the floor): circle, area, box"
+        for lv in levels
+    ]
+    rows = []
+    for k in data["keepout"]:
+        cells = [_id(k["limit"])]
+        for lv in levels:
+            e = _level_limit(lv, k["limit"])
+            if e is None:
+                cells.append("–")
+                continue
+            shapes = e["shapes"].get("with-uncertainty", e["shapes"]["model"])
+            radius = shapes["circle"]["radius_m"]
+            if radius == 0:
+                cells.append("not reached")
+                continue
+            box = shapes["box"]
+            keys = [key for key in box if key.endswith("_m") and key != "size_m"]
+            box_text = "; ".join(
+                f"{_e(key[:-2])} {box[key][0]:.2f} to {box[key][1]:.2f}&nbsp;m" for key in keys
+            )
+            clipped = " <em>(clipped at map edge)</em>" if e["clipped_at_map_edge"] else ""
+            cells.append(
+                f"r {_metres(radius)}, {_num(e['zone_area_with_uncertainty_m2'])}&nbsp;m²; "
+                f"{box_text}{clipped}"
+            )
+        rows.append(cells)
+    floor_m = levels[0]["floor_height_m"]
+    return (
+        "<h3>Zones near the floor and at head height</h3>"
+        f"<p>The scenario has a floor at z = {floor_m:.2f}&nbsp;m. Besides the plane at the "
+        "source height, the zones are given just above the floor (where feet are; "
+        f"{levels[0]['height_above_floor_m']:.2f}&nbsp;m up, where the reflection model "
+        "is an approximation) and at head height (1.7&nbsp;m above the floor, common "
+        "practice, no source); their outlines are in zones-floor-level.geojson and "
+        "zones-head-height.geojson.</p>" + _table(header, rows)
+    )
 
 
 def _reach_notes(data: dict[str, Any]) -> list[str]:
@@ -307,7 +409,7 @@ def _results(data: dict[str, Any]) -> str:
             "with model uncertainty",
             "screening (far-field formula)",
             "farthest towards",
-            "box on floor plane",
+            "box at source height",
             "zone area",
         ],
         rows,
@@ -403,7 +505,7 @@ def _places_extras(data: dict[str, Any]) -> str:
             continue
         z0, z1 = p["average_over_height_m"]
         compared = "; ".join(
-            f"{_e(k)}: {c['compared_with']} ({100 * c['quotient']:.3g}&nbsp;%)"
+            f"{_e(k)}: {c['compared_with']} ({_share(c['quotient'])})"
             for k, c in p.get("spatial_average_comparison", {}).items()
         )
         avg_rows.append(
@@ -516,9 +618,12 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
         )
         rows.append(cells)
     parts = [
-        f"<p>Ranked by {_e(comp['ranked_by'])}. Floor plane at z = "
+        f"<p>Ranked by {_e(comp['ranked_by'])}"
+        + (f" ({_e(comp['tie_rule'])})" if comp.get("tie_rule") else "")
+        + ". Zones on the horizontal plane z = "
         f"{comp['floor_plane']['height_m']:.2f}&nbsp;m. The ranking says which option needs "
-        "the least space; it does not make any option safe by itself.</p>",
+        "the least space, or gives the least exposure at the chosen place; it does not make "
+        "any option safe by itself.</p>",
         _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
         _legend(keys, data),
         _comparison_places(data, comp),
@@ -526,7 +631,7 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
     if figure is not None:
         parts.append(
             '<figure class="map">'
-            + _img(figure, "floor-plane maps of the options side by side")
+            + _img(figure, "maps of the options side by side on the horizontal plane")
             + "<figcaption>The options on one colour scale, best first.</figcaption></figure>"
         )
     return "\n".join(parts)
@@ -592,7 +697,7 @@ peak gain in every direction and the reflection factor F of FCC OET Bulletin 65 
 space, 2.56 for a ground, 4 for a perfect reflector); enclosures and shields ignored. It is
 shown for comparison only: within the near field it can err either way.</dd>
 <dt>Maps and zones</dt>
-<dd>The floor-plane map is the horizontal plane at z = {floor["height_m"]:.2f}&nbsp;m
+<dd>The first map is the {_e(floor["plane"]["description"])}
 ({floor["shape"][1]} × {floor["shape"][0]} samples, step {100 * floor["step_m"]:.1f}&nbsp;cm);
 the vertical map is the {_e(vertical["plane"]["description"])} (step
 {100 * vertical["step_m"]:.1f}&nbsp;cm). Zone boundaries are marching-squares contours of
@@ -600,7 +705,7 @@ log₁₀ of the quotient (exact along grid lines for a 1/r² fall-off). The cir
 source and the axis-aligned box are widened by one grid step; the vertical cylinder comes
 from rays in about 900 directions sampled to the keep-out radius, widened by one radial
 step and never larger than the cylinder around the keep-out sphere. The zones are written
-as GeoJSON in metres in the plane’s own coordinates (x, y on the floor plane), not
+as GeoJSON in metres in the plane’s own coordinates (x, y on the horizontal plane), not
 longitude and latitude.</dd>
 </dl>
 """
@@ -624,7 +729,7 @@ def _limit_sources(data: dict[str, Any]) -> str:
     rows = []
     for v in data["limits"]:
         avg = v["averaging_time_s"]
-        fields = [f"S {_num(v['power_density_w_m2'], 4)}&nbsp;W/m²"]
+        fields = [f"S {_density(v['power_density_w_m2'], 4)}"]
         if v["e_v_m"] is not None:
             fields.append(f"E {_num(v['e_v_m'], 4)}&nbsp;V/m")
         if v["h_a_m"] is not None:
@@ -636,7 +741,7 @@ def _limit_sources(data: dict[str, Any]) -> str:
                 "–" if avg is None else f"{avg / 60:g}&nbsp;min",
                 _e(v["source"]),
                 f"<code>{_e(v['expression'])}</code>",
-                _e(v.get("verification", "")),
+                _e(verification_sentences(v.get("verification", ""))),
             ]
         )
     return _table(
@@ -646,10 +751,62 @@ def _limit_sources(data: dict[str, Any]) -> str:
             "averaging",
             "source",
             "printed expression",
-            "verification",
+            "how the values were checked",
         ],
         rows,
     )
+
+
+_TAG_WORDS = {"S": "power density", "E": "E field", "H": "H field", "averaging": "averaging time"}
+
+
+def verification_sentences(verification: str) -> str:
+    """A limit's verification tags (``"S MEMORY; E NA FOUND; ..."``) as plain sentences.
+
+    Uses :func:`keepclear.fields.limits.verification_text` where the limits module has
+    it; otherwise says the same in the report's own words: which values were checked
+    against the published table (FOUND), which are recalled and not checked (MEMORY),
+    and which quantities the standard gives no value for (NA).  Text that is not in the
+    tag form is shown as it is.
+    """
+    from . import limits as limits_mod
+
+    text_of = getattr(limits_mod, "verification_text", None)
+    if text_of is not None:
+        try:
+            return str(text_of(verification))
+        except ValueError:
+            return verification
+    groups: dict[str, list[str]] = {"FOUND": [], "MEMORY": [], "OTHER": []}
+    absent: list[str] = []
+    for part in (p.strip() for p in verification.split(";") if p.strip()):
+        words = part.split()
+        if len(words) not in (2, 3) or words[0] not in _TAG_WORDS:
+            return verification
+        name = _TAG_WORDS[words[0]]
+        if len(words) == 3 and words[1] == "NA":
+            absent.append(name)
+            continue
+        groups[words[-1] if words[-1] in ("FOUND", "MEMORY") else "OTHER"].append(name)
+    sentences = []
+    if groups["FOUND"]:
+        sentences.append(
+            _sentence(_join(groups["FOUND"])) + ": checked against the published table."
+        )
+    if groups["MEMORY"]:
+        sentences.append(
+            _sentence(_join(groups["MEMORY"]))
+            + ": recalled, not yet checked against the printed standard."
+        )
+    if groups["OTHER"]:
+        sentences.append(_sentence(_join(groups["OTHER"])) + ": as given by the user.")
+    if absent:
+        sentences.append(f"The standard gives no {_join(absent, 'or')} value at this frequency.")
+    return " ".join(sentences)
+
+
+def _join(words: list[str], last: str = "and") -> str:
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + f" {last} " + words[-1]
 
 
 _REFERENCES = (
@@ -714,16 +871,19 @@ def render_report(
         f"{data['average_power_w']:g}&nbsp;W · keepclear {_e(data['tool_version'])} · "
         f"generated {generated}</p></header>",
         _summary(data),
+        "<h2>Sources</h2>",
+        _sources(data),
         "<h2>1. Maps</h2>",
         '<figure class="map">'
-        + _img(figures["floor"], "power density on the floor plane")
-        + f"<figcaption>Floor plane at z = {floor['height_m']:.2f}&nbsp;m: time-averaged power "
-        "density, the contour of each limit and the keep-out sphere cut by the plane. "
-        "This is the zone to mark on the floor (zones-floor.geojson).</figcaption></figure>",
+        + _img(figures["floor"], f"power density on the {floor['plane']['description']}")
+        + f"<figcaption>{_e(_sentence(floor['plane']['description']))}: time-averaged power "
+        "density, the contour of each limit and the keep-out sphere cut by the plane "
+        "(zones-floor.geojson).</figcaption></figure>",
         '<figure class="map">'
         + _img(figures["vertical"], "power density on the vertical plane")
         + f"<figcaption>{_e(_sentence(vertical['plane']['description']))}: how high and "
         "how low the zones reach.</figcaption></figure>",
+        _levels_section(data),
         "<h2>2. Results per limit</h2>",
         _results(data),
         _uncertainty_section(data),
@@ -760,21 +920,32 @@ def render_report(
 # ------------------------------------------------------------- terminal summary
 def summary_text(data: dict[str, Any], written: list[str] | None = None, width: int = 100) -> str:
     """The terminal summary of an assessment: keep-out, named places, options, files."""
+    from .describe import sources_text
+
     lines = [
         f"Scenario: {data['scenario']}",
         f"{data['frequency_hz'] / 1e9:g} GHz; time-averaged power {data['average_power_w']:g} W; "
         f"{data['assumptions']['time_averaging']}; {data['assumptions']['reflections']}",
+        "Sources:",
+        *sources_text(data["sources"], data["frequency_hz"]),
         "",
         "Keep-out about the first source (mark out the larger figure):",
     ]
-    header = ["limit", "W/m2", "keep-out m", "mark out m", "floor circle m", "cylinder r m, z m"]
+    header = [
+        "limit",
+        "W/m2 (mW/cm2)",
+        "keep-out m",
+        "mark out m",
+        "circle at source height m",
+        "cylinder r m, z m",
+    ]
     rows = []
     for k in data["keepout"]:
         cyl = k["cylinder"]
         rows.append(
             [
                 k["limit"],
-                _num(k["limit_w_m2"]),
+                pair_text(k["limit_w_m2"]),
                 f"{k['distance_m']:.2f}" if k["reached"] else "not reached",
                 f"{k['mark_out_m']:.2f}" if k["mark_out_m"] > 0 else "-",
                 f"{k['floor_zone']['circle']['radius_m']:.2f}" if k["reached"] else "-",
@@ -787,17 +958,32 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
         )
     lines += _text_table(header, rows)
     lines += ["  Note: " + note for note in _reach_notes(data)]
+    levels = _levels(data)
+    if levels:
+        floor_m = levels[0]["floor_height_m"]
+        lines += ["", f"Zones near the floor and at head height (floor at z = {floor_m:.2f} m):"]
+        header = ["limit"] + [
+            f"{lv['name']} z = {lv['height_m']:.2f} m: circle r m, area m2" for lv in levels
+        ]
+        rows = []
+        for k in data["keepout"]:
+            cells = [k["limit"]]
+            for lv in levels:
+                cells.append(_level_cell_text(lv, k["limit"]))
+            rows.append(cells)
+        lines += _text_table(header, rows)
     if data["points"]:
-        lines += ["", "Named places (letter on the maps; largest % of a limit):"]
+        lines += ["", "Named places (letter on the maps; the largest share of a limit):"]
         for p in data["points"]:
             verdict = "REACHES A LIMIT" if p["exceeds"] else "below every limit"
             lines.append(
-                f"  {p.get('map_letter', '-')}  {p['name']}: {100 * p['worst_quotient']:.3g} % "
+                f"  {p.get('map_letter', '-')}  {p['name']}: "
+                f"{density_text(p['power_density_w_m2'])}, {share_text(p['worst_quotient'])} "
                 f"of {p['worst_limit']}  {verdict}"
             )
     comp = data.get("comparison")
     if comp:
-        lines += ["", "Options, best first:"]
+        lines += ["", f"Options, best first (ranked by {comp['ranked_by']}):"]
         for row in comp["options"]:
             lines.append(
                 f"  {row['rank']}. {row['name']}: largest keep-out {row['largest_keepout_m']:.2f} m"
@@ -806,6 +992,28 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
         lines += ["", "Written:"] + [f"  {w}" for w in written]
     lines += ["", caution_block(width)]
     return "\n".join(lines)
+
+
+def _levels(data: dict[str, Any]) -> list[dict[str, Any]]:
+    """The maps at floor level and head height, when the scenario has a floor."""
+    return [data["maps"][k] for k in ("floor_level", "head_height") if data["maps"].get(k)]
+
+
+def _level_limit(level: dict[str, Any], limit_id: str) -> dict[str, Any] | None:
+    return next((e for e in level["limits"] if e["limit"] == limit_id), None)
+
+
+def _level_cell_text(level: dict[str, Any], limit_id: str) -> str:
+    """A limit's zone on a level map: circle radius and area, or "not reached"."""
+    e = _level_limit(level, limit_id)
+    if e is None:
+        return "-"
+    shapes = e["shapes"].get("with-uncertainty", e["shapes"]["model"])
+    radius = shapes["circle"]["radius_m"]
+    if radius == 0:
+        return "not reached"
+    clipped = " (clipped at map edge)" if e["clipped_at_map_edge"] else ""
+    return f"{radius:.2f}, {e['zone_area_with_uncertainty_m2']:.2f}{clipped}"
 
 
 def _text_table(header: list[str], rows: list[list[str]]) -> list[str]:

@@ -8,10 +8,13 @@ import numpy as np
 
 
 def _fmt(x: float | None, digits: int = 3) -> str:
+    """A number to ``digits`` significant figures; thousands separators up to 1e9."""
     if x is None:
         return "-"
     if x == 0:
         return "0"
+    if 1e3 <= abs(x) < 1e9:
+        return f"{float(f'{x:.{digits}g}'):,.0f}"
     return f"{x:.{digits}g}"
 
 
@@ -83,7 +86,13 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
         f"reflections: {data['reflections']}",
         "",
     ]
-    header = ["limit", "limit W/m2", "keep-out m", "with model uncertainty m", "farthest towards"]
+    header = [
+        "limit",
+        "limit W/m2 (mW/cm2)",
+        "keep-out m",
+        "with model uncertainty m",
+        "farthest towards",
+    ]
     boxed = any("outside_enclosure" in k for k in data["keepout"])
     if boxed:
         header += ["outside enclosure m", "clear of enclosure m"]
@@ -97,7 +106,7 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
         )
         row = [
             k["limit"],
-            _fmt(k["limit_w_m2"], 4),
+            pair_text(k["limit_w_m2"], 4),
             f"{k['distance_m']:.3f}",
             f"{k['distance_with_uncertainty_m']:.3f}"
             + (f" (+{k['model_uncertainty_db']:.1f} dB)" if k["model_uncertainty_db"] > 0 else ""),
@@ -157,13 +166,13 @@ def probe_extras(p: dict[str, Any]) -> list[str]:
         lines.append(
             f"  spatial average over z = {z0:g} .. {z1:g} m "
             f"({p['spatial_average_points']} points): "
-            f"{_fmt(p['spatial_average_w_m2'])} W/m2 "
-            f"(point value {_fmt(p['power_density_w_m2'])})"
+            f"{density_text(p['spatial_average_w_m2'])} "
+            f"(point value {density_text(p['power_density_w_m2'])})"
         )
         for limit_id, c in p.get("spatial_average_comparison", {}).items():
             lines.append(
                 f"    {limit_id:34s} compared with the {c['compared_with']}: "
-                f"{100 * c['quotient']:.3g} % of limit"
+                f"{share_text(c['quotient'])} of limit"
             )
     return lines
 
@@ -204,8 +213,8 @@ def readings_table(data: dict[str, Any]) -> str:
             [
                 r.get("label") or f"({x:g}, {y:g}, {z:g})",
                 f"{r['value']:g} {r['unit']}",
-                _fmt(r["measured_w_m2"]),
-                _fmt(r["predicted_w_m2"]),
+                pair_text(r["measured_w_m2"]),
+                pair_text(r["predicted_w_m2"]),
                 "no prediction" if db is None else f"{db:+.1f}",
                 "UNDER-PREDICTED" if r["under_predicted"] else "",
                 ", ".join(r["over_limits"]) or "-",
@@ -220,8 +229,8 @@ def readings_table(data: dict[str, Any]) -> str:
             [
                 "reading",
                 "meter",
-                "measured W/m2",
-                "predicted W/m2",
+                "measured W/m2 (mW/cm2)",
+                "predicted W/m2 (mW/cm2)",
                 "measured/predicted dB",
                 "flag",
                 "over limits",
@@ -290,3 +299,10 @@ def density_text(power_density_w_m2: float | None, digits: int = 3) -> str:
         return "-"
     w_m2 = _fmt(power_density_w_m2, digits)
     return f"{w_m2} W/m2 ({_fmt(power_density_w_m2 / 10.0, digits)} mW/cm2)"
+
+
+def pair_text(power_density_w_m2: float | None, digits: int = 3) -> str:
+    """A power density for a table column headed "W/m2 (mW/cm2)": ``"10 (1)"``."""
+    if power_density_w_m2 is None:
+        return "-"
+    return f"{_fmt(power_density_w_m2, digits)} ({_fmt(power_density_w_m2 / 10.0, digits)})"

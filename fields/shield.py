@@ -8,12 +8,19 @@ which is below 1 only for points whose straight ray from the source crosses the 
 What is and is not modelled, in order of importance:
 
 * **Edges.**  Diffraction around a finite sheet can carry far more field than the sheet
-  passes.  Rays that cross within ``edge_margin_m`` (default lambda/2) of an edge get no
-  credit at all, and elsewhere the credit is limited by the knife-edge diffraction of
-  all four edges, added in amplitude to the field passed through the sheet (each edge
-  treated as an infinite straight knife edge, ITU-R P.526; the magnitudes add, the
-  worst phase).  A source of finite size (``source_extent_m``) gets credit only where
-  the rays from every corner of its bounding cube cross the sheet.
+  passes.  The sheet is a thin rectangle in the Fresnel-Kirchhoff (Babinet) model of
+  :mod:`keepclear.fields.diffraction`: every edge is a knife edge of ITU-R P.526
+  sec. 4.1 with a *signed* parameter nu (positive on the sheet's side), the four edges
+  and the corners combined per P.526 sec. 5.2 (rectangular screen), and the field the
+  sheet passes added in the worst phase (:func:`~keepclear.fields.diffraction.obstacle_factor`).
+  The factor is continuous everywhere except through the sheet itself: it falls
+  smoothly from the lit side (where the Fresnel ripple can exceed 1 by up to 1.4 dB
+  beside an edge) through 0.5 (-6 dB) on the shadow boundary to, deep in the shadow,
+  the four edges' knife-edge fields added in magnitude plus the sheet's own
+  transmission (the credit of the earlier hard-edge model there).  ``edge_margin_m``
+  (default 0) shrinks the credited sheet on every side (a frame or seams near the edge
+  that do not shield).  A source of finite size (``source_extent_m``) gets the largest
+  factor over the rays from every corner of its bounding cube.
 * **Oblique incidence.**  The sheet's transmission is evaluated at the ray's angle, for
   the worse polarisation (TM for sheets: its reflection loss falls as
   20 log10(1 / cos theta)); a rated or slot panel loses 20 log10(1 / cos theta) of its
@@ -24,8 +31,10 @@ What is and is not modelled, in order of importance:
   (R dropped, B kept where negative); an aperture-type panel loses
   20 log10(lambda / (2 pi r)) (Ott's near-field aperture rule).
 * Not modelled: seams and joints (which leak most), reflections from the sheet back
-  towards the source side (the orchestrator's reflectors are separate), and the sheet
-  as a scatterer.  An added shield never raises the field.
+  towards the source side (declare a finite ``[[reflector]]`` for that), and the field
+  scattered by the sheet beyond the Fresnel-Kirchhoff model.  An added shield never
+  lowers the field on the source side, and raises it on the far side only by the
+  Fresnel ripple beside an edge (at most 1.9 dB near a corner, where two ripples meet).
 """
 
 from __future__ import annotations
@@ -39,6 +48,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import C_M_S, ModelInputError, as_points, unit_vector
 
+from . import diffraction
 from . import shielding as sh
 from .validate import Table
 
@@ -390,7 +400,8 @@ class Shield:
         Direction of the height edges (projected into the sheet).  Default +z, or +y
         for a horizontal sheet (normal within about 25 degrees of vertical).
     edge_margin_m : float, optional
-        Rays crossing closer than this to an edge get no credit [m].  Default lambda/2.
+        The credited sheet is this much smaller than the sheet on every side [m].
+        Default 0.
     label : str
         Name for reports.
 
@@ -437,7 +448,7 @@ class Shield:
             )
         v = v / np.linalg.norm(v)
         u = np.cross(v, n)
-        margin = self.wavelength_m / 2 if self.edge_margin_m is None else self.edge_margin_m
+        margin = 0.0 if self.edge_margin_m is None else self.edge_margin_m
         if not (math.isfinite(margin) and margin >= 0):
             raise ModelInputError("edge_margin_m", f"edge_margin_m must be >= 0, got {margin!r}")
         object.__setattr__(self, "center_m", center)
@@ -492,16 +503,19 @@ class Shield:
         Returns
         -------
         ndarray, shape (N,)
-            In (0, 1]: 1 where the ray misses the sheet (or crosses within the edge
-            margin), else ``min(1, sqrt(T) + sum of the four edges' knife-edge field
-            ratios)``; the largest value over the source corners.
+            Positive: 1 where the ray does not cross the sheet's plane; elsewhere the
+            Fresnel-Kirchhoff factor of
+            :func:`~keepclear.fields.diffraction.obstacle_factor` with the sheet's
+            transmission sqrt(T) at the ray's angle; the largest value over the source
+            corners.
 
         Notes
         -----
         The knife-edge parameter of an edge is
-        :math:`\\nu = h\\sqrt{2(d_1+d_2)/(\\lambda d_1 d_2)}`, h the distance between the
-        ray and the edge line, d1 and d2 the distances from the source and the point
-        to the crossing point (ITU-R P.526, sec. 4.1).
+        :math:`\\nu = h\\sqrt{2(d_1+d_2)/(\\lambda d_1 d_2)}`, h the signed distance
+        between the ray and the edge line (positive on the sheet's side), d1 and d2 the
+        distances from the source and the point to the crossing point (ITU-R P.526,
+        sec. 4.1).
         """
         pts = as_points(points_m)
         src = np.asarray(source_points_m, dtype=float)
@@ -516,71 +530,36 @@ class Shield:
         extent = float(source_extent_m)
         if not (math.isfinite(extent) and extent >= 0):
             raise ValueError(f"source_extent_m must be >= 0, got {source_extent_m!r}")
-        if extent > 0:
-            signs = np.array([[a, b, c] for a in (-1, 1) for b in (-1, 1) for c in (-1, 1)])
-            axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
-            offsets = extent * signs @ axes.T
-        else:
-            offsets = np.zeros((1, 3))
+        axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
+        offsets = diffraction.cube_offsets(extent, axes)
         result = np.zeros(pts.shape[0])
-        todo = np.arange(pts.shape[0])
         for offset in offsets:
-            # a factor is at most 1: a point that has it from one corner is done
-            result[todo] = np.maximum(
-                result[todo], self._factor_from(src[todo] + offset, pts[todo])
-            )
-            todo = todo[result[todo] < 1.0]
-            if todo.size == 0:
-                break
+            result = np.maximum(result, self._factor_from(src + offset, pts))
         return result
 
     def _factor_from(self, src: NDArray[np.float64], pts: NDArray[np.float64]) -> NDArray:
-        n, u, v, c = self.normal, self.width_axis, self.height_axis, self.center_m
-        ds = (src - c) @ n
-        dp = (pts - c) @ n
-        crossing = ds * dp < 0
+        hw = self.width_m / 2 - float(self.edge_margin_m or 0.0)
+        hh = self.height_m / 2 - float(self.edge_margin_m or 0.0)
         out = np.ones(pts.shape[0])
-        if not np.any(crossing):
+        if hw <= 0 or hh <= 0:  # the margin leaves nothing to credit
             return out
-        s, p, a, b = src[crossing], pts[crossing], ds[crossing], dp[crossing]
-        frac = a / (a - b)
-        seg = p - s
-        x = s + frac[:, None] * seg
-        xu = (x - c) @ u
-        xv = (x - c) @ v
-        hw, hh, m = self.width_m / 2, self.height_m / 2, float(self.edge_margin_m or 0.0)
-        inside = (np.abs(xu) < hw - m) & (np.abs(xv) < hh - m)
-        if not inside.all():  # no credit outside the margin: work on the rays inside only
-            crossing[crossing] = inside
-            if not inside.any():
-                return out
-            s, p, frac, seg, xu, xv = (
-                s[inside],
-                p[inside],
-                frac[inside],
-                seg[inside],
-                xu[inside],
-                xv[inside],
-            )
-            inside = np.ones(s.shape[0], dtype=bool)
-        length = np.linalg.norm(seg, axis=1)
-        ray = seg / length[:, None]
-        cos_inc = np.abs(ray @ n)
-        d1 = frac * length
-        d2 = (1 - frac) * length
-        t = self.spec.power_transmission(self.frequency_hz, cos_inc, d1)
-        lam = self.wavelength_m
-        fresnel = np.sqrt(2 * (d1 + d2) / (lam * d1 * d2))
-        along_v = np.sqrt(np.clip(1 - (ray @ v) ** 2, 1e-12, None))
-        along_u = np.sqrt(np.clip(1 - (ray @ u) ** 2, 1e-12, None))
-        edges = (
-            sh.knife_edge_field_ratio(np.maximum(hw - xu, 0) * cos_inc / along_v * fresnel)
-            + sh.knife_edge_field_ratio(np.maximum(hw + xu, 0) * cos_inc / along_v * fresnel)
-            + sh.knife_edge_field_ratio(np.maximum(hh - xv, 0) * cos_inc / along_u * fresnel)
-            + sh.knife_edge_field_ratio(np.maximum(hh + xv, 0) * cos_inc / along_u * fresnel)
+        geo = diffraction.rectangle_crossing(
+            src,
+            pts,
+            self.center_m,
+            self.normal,
+            self.width_axis,
+            self.height_axis,
+            hw,
+            hh,
+            self.wavelength_m,
         )
-        factor = np.minimum(1.0, np.sqrt(np.clip(t, 0.0, 1.0)) + edges)
-        out[crossing] = np.where(inside, factor, 1.0)
+        if not geo.crossing.any():
+            return out
+        c = geo.crossing
+        t = self.spec.power_transmission(self.frequency_hz, geo.cos_incidence[c], geo.d1_m[c])
+        tau = np.sqrt(np.clip(t, 0.0, 1.0))
+        out[c] = diffraction.obstacle_factor(geo.nu[:, c], tau)
         return out
 
 

@@ -376,6 +376,17 @@ def _term_parts(term: RadiatingTerm, scenario: Scenario, pts: NDArray[np.float64
             reflection.reflected_fields(radiator, refl, pts, scenario.frequency_hz, order)
         )
     n_comp = 1 + len(images)
+    if reflection.has_obstacles(refl):
+        # finite metal plates shade the direct ray and the first-order legs (not varied)
+        f_hz, origin = scenario.frequency_hz, radiator.position_m
+        spread = 0.5 * radiator.largest_dimension_m
+        f0 = reflection.plate_obstacle_factor(refl, origin, pts, f_hz, (), spread)
+        e, h = e * f0[:, None], h * f0[:, None]
+        for k in range(n_first):
+            q = _bounce_points(refl[k], origin, pts)
+            fk = reflection.plate_obstacle_factor(refl, origin, q, f_hz, (k,), spread)
+            fk = fk * reflection.plate_obstacle_factor(refl, q, pts, f_hz, (k,))
+            images[k] = (images[k][0] * fk[:, None], images[k][1] * fk[:, None])
     log_shield = None
     if scenario.shields:
         source = radiator.position_m

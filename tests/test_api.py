@@ -236,3 +236,13 @@ def test_readme_example_runs():
     finally:
         os.chdir(here)
     assert "icnirp-2020/general-public" in buf.getvalue()
+
+
+def test_readings_to_dict_is_the_command_json():
+    desk = SCENARIOS / "desk-box-source.toml"
+    csv_path = SCENARIOS / "desk-box-source-readings.csv"
+    result = kc.readings(kc.load_scenario(desk), csv_path)
+    cli = strict_json(run("readings", desk, "--csv", csv_path, "--json").stdout)
+    assert _roundtrip(result.to_dict()) == cli
+    assert result.suggested_margin_db == cli["suggested_margin_db"]
+    assert len(result.under_predicted) == len(cli["readings"])

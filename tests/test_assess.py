@@ -278,9 +278,9 @@ def test_map_custom_plane(tmp_path, write_scenario):
         (["--out", "o", "--origin", "0,0,0", "--u", "1,0,0", "--v", "2,0,0"], "--v"),
     ],
 )
-def test_map_bad_arguments_exit_2(tmp_path, write_scenario, args, fragment):
+def test_map_bad_arguments_exit_2(tmp_path, write_scenario, monkeypatch, args, fragment):
     scenario = write_scenario(SCENARIO)
-    os.chdir(tmp_path)
+    monkeypatch.chdir(tmp_path)  # restored after the test: later tests use relative paths
     before = listing(tmp_path)
     line = one_error_line(run("map", scenario, *args))
     assert fragment in line

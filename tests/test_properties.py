@@ -552,9 +552,12 @@ def shields(draw, sources: list[dict]) -> dict:
 @pytest.mark.skipif(not HAS_SHIELD, reason="shield model not present")
 @settings(max_examples=examples(25))
 @given(doc=documents(max_sources=2), data=st.data(), pts=field_points())
-def test_a_shield_never_raises_a_field(doc, data, pts):
+def test_a_shield_raises_a_field_at_most_by_the_fresnel_ripple(doc, data, pts):
     # In coherent mode a sheet that weakens only the reflected ray can fill an interference
-    # null (physically right), so the law is stated for the envelope, the default.
+    # null (physically right), so the law is stated for the envelope, the default.  Beside
+    # its shadow a sheet's diffraction raises each ray's field by at most the lit-side
+    # ripple of a rectangular screen, 1.9 dB near a corner (ITU-R P.526-15 sec. 5.2;
+    # 1.4 dB beside one straight edge, Fig. 7).
     doc = {**doc, "reflections": "envelope"}
     bare = build(doc)
     assume(bare is not None)
@@ -562,8 +565,10 @@ def test_a_shield_never_raises_a_field(doc, data, pts):
     shielded = build(shielded_doc)
     assume(shielded is not None)
     r0, r1 = evaluate(bare, pts), evaluate(shielded, pts)
+    ripple = 10 ** (1.9 / 20)
     for name in ("e_v_m", "h_a_m", "power_density_w_m2", "peak_power_density_w_m2"):
-        assert np.all(getattr(r1, name) <= getattr(r0, name) * (1 + 1e-12)), name
+        bound = ripple if name in ("e_v_m", "h_a_m") else ripple**2
+        assert np.all(getattr(r1, name) <= getattr(r0, name) * bound * (1 + 1e-12)), name
 
 
 @pytest.mark.skipif(not (HAS_SHIELD and HAS_REFLECTION), reason="shield or reflection missing")

@@ -14,6 +14,8 @@ from keepclear.fields import spatial_average as sa
 from keepclear.fields.field import evaluate
 from keepclear.fields.scenario import load_scenario
 
+from .conftest import SCENARIOS
+
 
 def test_points_are_twenty_midpoints_ten_centimetres_apart():
     pts = sa.line_points_m(np.array([1.0, -2.0, 1.7]), (0.0, 2.0))
@@ -23,7 +25,7 @@ def test_points_are_twenty_midpoints_ten_centimetres_apart():
 
 
 def test_average_equals_the_mean_of_the_points_computed_independently():
-    scenario = load_scenario("scenarios/plasma-bench.toml")
+    scenario = load_scenario(SCENARIOS / "plasma-bench.toml")
     place = np.array([1.5, 0.3, 1.7])
     own = np.array([[1.5, 0.3, 0.05 + 0.1 * i] for i in range(20)])  # built by hand
     expected = float(np.mean(evaluate(scenario, own).power_density_w_m2))

@@ -24,6 +24,8 @@ from keepclear.fields.field import evaluate
 from keepclear.fields.keepout import keepout_distances
 from keepclear.fields.scenario import load_scenario
 
+from .conftest import SCENARIOS
+
 ISOTROPIC = """
 [[source]]
 antenna = "isotropic"
@@ -111,7 +113,7 @@ def test_position_spread_moves_a_point_source_rigidly(isotropic):
 def test_decomposition_reproduces_the_field_orchestrator():
     # With neutral factors the re-weighted Gram sums are the orchestrator's |E|^2, |H|^2
     # (a floor, a shield and an open guide: every path the decomposition copies).
-    scenario = load_scenario("scenarios/screened-waveguide-bench.toml")
+    scenario = load_scenario(SCENARIOS / "screened-waveguide-bench.toml")
     pts = np.random.default_rng(0).uniform(-2.0, 2.0, (300, 3))
     pts[:, 2] = np.abs(pts[:, 2]) + 0.05
     dec = unc.decompose(scenario, pts)
@@ -130,7 +132,7 @@ def test_decomposition_reproduces_the_field_orchestrator():
 def test_reflection_and_shield_spread_move_the_keepout_both_ways_or_not_at_all():
     # A metal reflector's |Gamma| = 1 cannot grow (kept in 0..1): a draw above leaves the
     # nominal answer; a draw below, or a weaker shield, changes it.
-    scenario = load_scenario("scenarios/screened-waveguide-bench.toml")
+    scenario = load_scenario(SCENARIOS / "screened-waveguide-bench.toml")
     nominal = keepout_distances(scenario)
     spec = unc.UncertaintySpec(reflection=0.1, shielding_db=3.0, gain_db=0.0, samples=40, seed=5)
     for s in unc.keepout_spread(scenario, spec, nominal):
@@ -162,7 +164,7 @@ def test_defaults_and_the_models_own_gain_figure(tmp_path):
     path.write_text(ISOTROPIC + "[uncertainty]\npower_db = 0.5\n")
     spec = load_scenario(path).uncertainty
     assert (spec.samples, spec.seed, spec.gain_db) == (1000, 1, None)
-    demo = load_scenario("scenarios/plasma-bench.toml")
+    demo = load_scenario(SCENARIOS / "plasma-bench.toml")
     term = demo.sources[0]
     from keepclear.fields.field import radiating_terms
 

@@ -29,12 +29,14 @@ if TYPE_CHECKING:  # the names, for type checkers and readers; imported on first
         KeepoutReport,
         LimitsResult,
         ProbeResult,
+        ReadingsResult,
         assess,
         compare,
         field_map,
         keepout,
         limits,
         probe,
+        readings,
     )
     from keepclear.fields.errors import InputError, LimitError, ResourceError, ScenarioError
     from keepclear.fields.scenario import Scenario, load_scenario
@@ -49,6 +51,7 @@ __all__ = [
     "LimitError",
     "LimitsResult",
     "ProbeResult",
+    "ReadingsResult",
     "ResourceError",
     "Scenario",
     "ScenarioError",
@@ -59,6 +62,7 @@ __all__ = [
     "limits",
     "load_scenario",
     "probe",
+    "readings",
 ]
 
 #: The module each name of the API comes from.  ``import keepclear`` alone imports none of
