@@ -280,6 +280,8 @@ def _print_with_caution(text: str) -> None:
 
 
 def _load(path: Path):  # noqa: ANN202
+    if not Path(path).exists():  # refused before numpy and the models are imported
+        raise InputError("no such file", str(path))
     from .scenario import load_scenario
 
     return load_scenario(path)
@@ -439,7 +441,8 @@ def keepout_command(
     ] = False,
 ) -> None:
     """Keep-out distance about the first source for each limit of the scenario."""
-    result = api.keepout(_load(scenario), limits=limit, option=option)
+    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    result = api.keepout(loaded, limits=limit, option=option)
     data = result.to_dict()
     if json_out:
         _emit_json(data)
@@ -480,7 +483,8 @@ def readings_command(
     reading is compared with the time-averaged prediction (duty cycle applied).  A
     reading more than 3 dB above the prediction is flagged as under-predicted.
     """
-    data = api.readings(_load(scenario), csv_in, limits=limit).to_dict()
+    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    data = api.readings(loaded, csv_in, limits=limit).to_dict()
     if json_out:
         _emit_json(data)
         return
@@ -625,7 +629,8 @@ def map_command(
         folder = path.parent if str(path.parent) else Path(".")
         if not folder.is_dir():
             raise InputError(f"cannot be written: folder '{folder}' does not exist", str(path))
-    loaded = api.select_option(_load(scenario), option)
+    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    loaded = api.select_option(loaded, option)
     ids = api.select_limits(loaded, limit)
     if custom:
         the_plane = maps.custom_plane(
