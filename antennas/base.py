@@ -223,10 +223,30 @@ class Radiator(abc.ABC):
 
     Subclasses may override ``bytes_per_point`` to tell the chunker how much
     scratch memory one field point costs.
+
+    Every radiator also states, in its local frame, where its body is:
+
+    * ``_local_outline() -> (n, 3)``: the corners of its body, whose convex hull is
+      the shape to draw (two corners: a wire; four coplanar: an aperture or a plate;
+      eight: a horn's flare or a box); None for a point source (the default);
+      :meth:`outline` places them in the scenario;
+    * ``_local_inside_or_on(points_local, tolerance_m) -> bool (N,)``: the points inside
+      the body (a guide, a horn, a box) or within ``tolerance_m`` of its metal (a wire,
+      a plate); none for a point source (the default).  :meth:`inside_or_on` places the
+      points.  A model with a body must override it: a point there is not a place
+      where anyone stands, and its field must not be reported silently.
+
+    and the margin by which its real gain may exceed the model,
+    :attr:`gain_uncertainty_db` (keep-out estimates add it).
     """
 
     #: Short model name as used in scenario files.
     kind: str = "radiator"
+
+    #: Margin by which the real gain and near field may exceed the model [dB]; keep-out
+    #: estimates widen their distance by it.  Zero for an idealised source; a model
+    #: states its own value, with its reason, in its docstring.
+    gain_uncertainty_db: float = 0.0
 
     def __init__(self, frequency_hz: float, power_w: float, placement: Placement | None = None):
         if not (np.isfinite(frequency_hz) and frequency_hz > 0):
@@ -337,6 +357,77 @@ class Radiator(abc.ABC):
             e[start:stop] = self.placement.vectors_to_global(el)
             h[start:stop] = self.placement.vectors_to_global(hl)
         return e, h
+
+    # --------------------------------------------------------------- the body
+    @property
+    def main_axis(self) -> NDArray[np.float64] | None:
+        """The model's main axis (local +z) in scenario axes [1].
+
+        An aperture's boresight, a wire's direction; None for a point source.
+        """
+        return np.array(self.placement.rotation[:, 2], dtype=float)
+
+    @property
+    def boresight(self) -> NDArray[np.float64] | None:
+        """Direction of the main beam in scenario axes [1].
+
+        None where the pattern has no single beam (a wire is omnidirectional about its
+        axis; a point source).
+        """
+        return None
+
+    def _local_outline(self) -> NDArray[np.float64] | None:
+        """Corners (n, 3) of the body in the local frame [m]; None for a point source."""
+        return None
+
+    def outline(self) -> NDArray[np.float64] | None:
+        """Corners (n, 3) of the radiator's body in scenario coordinates, for drawing [m].
+
+        Returns
+        -------
+        ndarray, shape (n, 3), or None
+            Points whose convex hull is the body: two for a wire (its ends), four for
+            an aperture or a flat plate (in order around it), eight for a horn's flare
+            (mouth, then throat) or a box; None for a point source (no body).
+        """
+        local = self._local_outline()
+        if local is None:
+            return None
+        local = np.asarray(local, dtype=float).reshape(-1, 3)
+        return local @ self.placement.rotation.T + self.position_m
+
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Points (N, 3), local frame, inside the body or within ``tolerance_m`` of its metal.
+
+        The default is for a source without a body (a point source): no point.
+        """
+        return np.zeros(points_local_m.shape[0], dtype=bool)
+
+    def inside_or_on(self, points_m: ArrayLike, tolerance_m: float = 1e-3) -> NDArray[np.bool_]:
+        """Which scenario points lie inside the source or on its metal.
+
+        Parameters
+        ----------
+        points_m : array_like, shape (N, 3)
+            Points in scenario coordinates [m].
+        tolerance_m : float
+            Distance from a wire or a plate within which a point counts as on it [m]
+            (default 1 mm).
+
+        Returns
+        -------
+        ndarray of bool, shape (N,)
+            True inside a guide, a horn's flare or a box, or within ``tolerance_m`` of a
+            wire or a plate: not a place where anyone stands.
+        """
+        if not (np.isfinite(tolerance_m) and tolerance_m >= 0):
+            raise ModelInputError("tolerance_m", f"tolerance_m must be >= 0, got {tolerance_m!r}")
+        pts = as_points(points_m)
+        return np.asarray(
+            self._local_inside_or_on(self.placement.to_local(pts), float(tolerance_m)), dtype=bool
+        )
 
     def far_field(self, directions: ArrayLike) -> NDArray[np.complex128]:
         """Far-field vector amplitude F [V] in scenario axes for scenario directions (N, 3)."""

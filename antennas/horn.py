@@ -53,6 +53,8 @@ from numpy.typing import NDArray
 from scipy.special import fresnel
 
 from .aperture import HUYGENS, ApertureDistribution, ApertureRadiator, te10_distribution
+from .aperture.open_waveguide import feed_guide_length_m
+from .aperture.radiator import inside_guide, rectangle_corners
 from .base import C_M_S, ETA0_OHM, ModelInputError, ModelRangeWarning, Placement
 from .waveguide import TE10Mode, te10_mode
 
@@ -365,6 +367,35 @@ class PyramidalHorn(ApertureRadiator):
             method=method,
         )
         self.gain_uncertainty_db = 0.5
+
+    def _local_outline(self) -> NDArray[np.float64]:
+        """Mouth (z = 0, A x B) then throat (z = -L, a x b), each in order around it [m]."""
+        g = self.geometry
+        return np.concatenate(
+            [
+                rectangle_corners(g.aperture_width_m / 2, g.aperture_height_m / 2, 0.0),
+                rectangle_corners(g.broad_m / 2, g.narrow_m / 2, -g.length_m),
+            ]
+        )
+
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Inside the flare or the feed guide behind it, or within ``tolerance_m`` of the walls.
+
+        Between the throat (z = -L) and the mouth (z = 0) the cross-section grows linearly
+        from a x b to A x B; behind the throat the feed guide (a x b) is taken to run back
+        :func:`~keepclear.antennas.aperture.open_waveguide.feed_guide_length_m`.  The
+        tolerance widens each cross-section for the walls' metal.
+        """
+        g = self.geometry
+        p = points_local_m
+        z = p[:, 2]
+        back = g.length_m + feed_guide_length_m(self.mode) + tolerance_m
+        along = np.clip((z + g.length_m) / g.length_m, 0.0, 1.0)  # 0 at the throat, 1 at the mouth
+        half_x = 0.5 * (g.broad_m + (g.aperture_width_m - g.broad_m) * along)
+        half_y = 0.5 * (g.narrow_m + (g.aperture_height_m - g.narrow_m) * along)
+        return (z <= 0.0) & (z >= -back) & inside_guide(p, half_x, half_y, tolerance_m)
 
     def balanis_directivity(self) -> float:
         """Balanis' closed-form directivity (13-52) of this geometry (linear)."""

@@ -47,6 +47,11 @@ class IsotropicSource(Radiator):
 
     kind = "isotropic"
 
+    @property
+    def main_axis(self) -> None:
+        """None: a point source has no axis."""
+        return None
+
     def __init__(
         self,
         frequency_hz: float,

@@ -379,6 +379,29 @@ def _validate_wire(
 
 
 # --------------------------------------------------------------------------- radiators
+def wire_proximity(
+    points_local_m: NDArray[np.float64], z_start_m: float, z_end_m: float, reach_m: float
+) -> NDArray[np.bool_]:
+    """Points (N, 3) within ``reach_m`` of the axis segment z_start..z_end on local z.
+
+    Parameters
+    ----------
+    points_local_m : ndarray, shape (N, 3)
+        Points in the wire's local frame [m].
+    z_start_m, z_end_m : float
+        Ends of the wire along local z [m].
+    reach_m : float
+        Largest distance from the segment (wire radius plus tolerance) [m].
+
+    Returns
+    -------
+    ndarray of bool, shape (N,)
+    """
+    p = np.asarray(points_local_m, dtype=float)
+    dz = np.maximum(np.maximum(z_start_m - p[:, 2], p[:, 2] - z_end_m), 0.0)
+    return np.hypot(np.hypot(p[:, 0], p[:, 1]), dz) <= reach_m
+
+
 class _SinusoidalWireRadiator(Radiator):
     """Shared machinery of the dipole and the monopole (fields of the image dipole)."""
 
@@ -565,6 +588,17 @@ class Dipole(_SinusoidalWireRadiator):
         """The dipole length l [m]."""
         return self.length_m
 
+    def _local_outline(self) -> NDArray[np.float64]:
+        """The wire's two ends, z = -l/2 and +l/2 [m]."""
+        return np.array([[0.0, 0.0, -0.5 * self.length_m], [0.0, 0.0, 0.5 * self.length_m]])
+
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Within ``tolerance_m`` of the wire's surface (radius a about the z axis)."""
+        half = 0.5 * self.length_m
+        return wire_proximity(points_local_m, -half, half, self.wire_radius_m + tolerance_m)
+
 
 class Monopole(_SinusoidalWireRadiator):
     """Base-fed thin-wire monopole on an infinite perfectly conducting ground plane.
@@ -639,3 +673,16 @@ class Monopole(_SinusoidalWireRadiator):
     def largest_dimension_m(self) -> float:
         """Wire plus image, 2h [m] (see Notes of the class)."""
         return 2.0 * self.height_m
+
+    def _local_outline(self) -> NDArray[np.float64]:
+        """The wire's base and tip, z = 0 and h [m] (the infinite plane is not drawn)."""
+        return np.array([[0.0, 0.0, 0.0], [0.0, 0.0, self.height_m]])
+
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Within ``tolerance_m`` of the wire's surface or of the ground plane z = 0."""
+        on_wire = wire_proximity(
+            points_local_m, 0.0, self.height_m, self.wire_radius_m + tolerance_m
+        )
+        return on_wire | (np.abs(points_local_m[:, 2]) <= tolerance_m)

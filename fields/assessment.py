@@ -140,7 +140,7 @@ def select_limits(scenario: Scenario, limit_ids: Sequence[str] | None) -> tuple[
     seen: list[str] = []
     for limit_id in limit_ids:
         try:
-            limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+            scenario.limit_value(limit_id)
         except LimitError as exc:
             raise InputError(exc.message, "argument", "--limit") from None
         if limit_id not in seen:
@@ -224,20 +224,7 @@ class LimitsResult:
         return {
             "schema_version": SCHEMA_VERSION,
             "frequency_hz": self.frequency_hz,
-            "limits": [
-                {
-                    "id": v.id,
-                    "power_density_w_m2": v.power_density_w_m2,
-                    "e_v_m": v.e_v_m,
-                    "h_a_m": v.h_a_m,
-                    "averaging_time_s": v.averaging_time_s,
-                    "source": v.source,
-                    "tier": v.tier,
-                    "population": v.population,
-                    "expression": v.expression,
-                }
-                for v in self.limits
-            ],
+            "limits": [v.as_dict() for v in self.limits],
             "not_covering_frequency": list(self.not_covering_frequency),
             "caution": CAUTION_TEXT,
         }
@@ -306,8 +293,17 @@ class ProbeResult:
 
     @functools.cached_property
     def quotients(self) -> dict[str, NDArray[np.float64]]:
-        """Exposure quotient per limit id, shape (N,) each (time-averaged fields) [1]."""
+        """Exposure quotient per limit id, shape (N,) each (each on its basis) [1]."""
         return quotients_at(self.scenario, self.fields)
+
+    @functools.cached_property
+    def inside_source(self) -> NDArray[np.bool_]:
+        """Whether each point lies inside a source or on its metal, shape (N,).
+
+        Inside a guide, a horn or a box, or within 1 mm of a wire or a plate: not a place
+        where anyone stands.  Its fields are reported as computed.
+        """
+        return self.scenario.inside_source(self.points_m)
 
     def point_dicts(self) -> list[dict[str, Any]]:
         """One JSON object a point (the ``points`` list of ``probe --json``)."""
@@ -329,6 +325,7 @@ class ProbeResult:
                 "quotients": {k: float(q[i]) for k, q in quotients.items()},
                 "allowed_s": allowed,
                 "allowed_rule": {k: rules[k] for k, v in allowed.items() if v is not None},
+                "inside_source": bool(self.inside_source[i]),
             }
             out.append(entry)
         if self.names is not None:
@@ -351,14 +348,15 @@ class ProbeResult:
 
 
 def quotients_at(scenario: Scenario, result: FieldResult) -> dict[str, NDArray[np.float64]]:
-    """Exposure quotient per scenario limit for time-averaged fields."""
-    out = {}
-    for limit_id in scenario.limit_ids:
-        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
-        out[limit_id] = limits_mod.quotient(
-            value, result.power_density_w_m2, result.e_v_m, result.h_a_m
-        )
-    return out
+    """Exposure quotient per scenario limit, each on its basis.
+
+    Time-averaged fields for the people's limits; the fields while every source radiates
+    for the while-on limits (device thresholds), see :func:`limits.field_quotient`.
+    """
+    return {
+        limit_id: limits_mod.field_quotient(scenario.limit_value(limit_id), result)
+        for limit_id in scenario.limit_ids
+    }
 
 
 def probe(
@@ -583,7 +581,7 @@ def readings_data(scenario: Scenario, readings: list[Any]) -> dict[str, Any]:
     measured = np.array([r.power_density_w_m2 for r in readings])
     quotients = {}
     for limit_id in scenario.limit_ids:
-        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        value = scenario.limit_value(limit_id)
         quotients[limit_id] = limits_mod.quotient(value, measured)
     body = compare_readings(readings, result.power_density_w_m2, quotients)
     return {
@@ -1347,7 +1345,7 @@ def step_report(
         version = metadata.version("keepclear")
     except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
         version = "unknown"
-    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in limit_ids]
+    values = [scenario.limit_value(i) for i in limit_ids]
     data: dict[str, Any] = {
         "schema_version": SCHEMA_VERSION,
         "tool_version": version,

@@ -411,7 +411,7 @@ def _sources_block(scenario: Any) -> str:
 def _print_probe(data: dict[str, Any], scenario: Any = None) -> None:
     from .report_text import probe_table
 
-    text = probe_table(data)
+    text = probe_table(data, scenario)
     if scenario is not None:
         head, _, rest = text.partition("\n\n")
         text = head + "\n" + _sources_block(scenario) + "\n\n" + rest

@@ -276,10 +276,7 @@ def place_values(
     res = evaluate(scenario, pts)
     quotients = {}
     for limit_id in limit_ids:
-        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
-        quotients[limit_id] = limits_mod.quotient(
-            value, res.power_density_w_m2, res.e_v_m, res.h_a_m
-        )
+        quotients[limit_id] = limits_mod.field_quotient(scenario.limit_value(limit_id), res)
     places = tuple(
         {
             "name": p.name,

@@ -62,7 +62,6 @@ References
 from __future__ import annotations
 
 import math
-import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any, Final, NamedTuple
@@ -74,7 +73,6 @@ from keepclear.antennas.base import (
     C_M_S,
     ETA0_OHM,
     ModelInputError,
-    ModelRangeWarning,
     Placement,
     Radiator,
     as_points,
@@ -82,7 +80,6 @@ from keepclear.antennas.base import (
 
 from . import shielding as sh
 from .errors import ScenarioError
-from .validate import Table
 
 #: Face names: the outward normal's axis and sign.
 FACES: Final[tuple[str, ...]] = ("+x", "-x", "+y", "-y", "+z", "-z")
@@ -930,8 +927,9 @@ class Enclosure:
     def outline(self) -> NDArray[np.float64]:
         """The eight outer corners (8, 3) of the box, for drawing [m].
 
-        Corner i has its x, y, z at the maximum where bit 0, 1, 2 of i is set;
-        :data:`BOX_EDGES` lists the twelve edges as index pairs.
+        The same form as every drawable object (radiators, reflectors, shields): points
+        whose convex hull is the object.  Corner i has its x, y, z at the maximum where
+        bit 0, 1, 2 of i is set; :data:`BOX_EDGES` lists the twelve edges as index pairs.
         """
         lo = self.min_corner_m - self.thickness_m
         hi = self.max_corner_m + self.thickness_m
@@ -1239,168 +1237,6 @@ class Enclosure:
         return results
 
 
-# --------------------------------------------------------------------- loading
-def _offset(table: Table) -> tuple[float, float]:
-    value = table.raw("offset_m", [0.0, 0.0])
-    if (
-        not isinstance(value, list)
-        or len(value) != 2
-        or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
-        or not all(math.isfinite(float(v)) for v in value)
-    ):
-        raise table.error(
-            "offset_m",
-            "must be two finite numbers [a, b] [m]: the offset from the face centre along "
-            "the face's two in-plane axes in x, y, z order (a +x face: [y, z])",
-        )
-    return float(value[0]), float(value[1])
-
-
-def _positive_number(table: Table, key: str, default: Any = ..., maximum: float = 1e3) -> Any:
-    if default is ...:
-        return table.number(key, unit="m", minimum=0, exclusive_minimum=True, maximum=maximum)
-    return table.number(key, default, unit="m", minimum=0, exclusive_minimum=True, maximum=maximum)
-
-
-def _count(table: Table, default: int = 1) -> int:
-    value = table.number("count", default, minimum=1, maximum=1e9)
-    if float(value) != int(value):
-        raise table.error("count", f"must be a whole number >= 1, got {value!r}")
-    return int(value)
-
-
-def opening_from_table(table: Table) -> Opening:
-    """Read one ``[[enclosure.opening]]`` table.
-
-    Parameters
-    ----------
-    table : Table
-        The table (key path ``enclosure.opening[i]``).
-
-    Returns
-    -------
-    Opening
-
-    Notes
-    -----
-    Keys: ``id``, ``face``, ``type``, ``offset_m``, and per type: hole (``diameter_m``,
-    ``depth_m``, ``count``); slot (``length_m``, ``width_m``, ``along``, ``depth_m``,
-    ``count``); vent-array (``cell``, ``cell_size_m``, ``pitch_m``, ``depth_m``,
-    ``count``, ``lattice``); mesh-window (``width_m``, ``height_m``, ``pitch_m`` and
-    ``wire_diameter_m`` or ``hole_diameter_m`` with ``depth_m``, ``lattice``);
-    antenna-port (``diameter_m``).
-    """
-    label = table.string("id", table.path.rsplit(".", 1)[-1] or "opening")
-    face = table.string("face", choices=FACES)
-    kind = table.string("type", choices=OPENING_TYPES)
-    offset = _offset(table)
-    kw: dict[str, Any] = {}
-    if kind in ("hole", "antenna-port"):
-        kw["diameter_m"] = _positive_number(table, "diameter_m")
-        if kind == "hole":
-            kw["depth_m"] = _positive_number(table, "depth_m", None)
-            kw["count"] = _count(table)
-    elif kind == "slot":
-        kw["length_m"] = _positive_number(table, "length_m")
-        kw["width_m"] = _positive_number(table, "width_m")
-        kw["along"] = table.string("along", None, choices=AXES)
-        kw["depth_m"] = _positive_number(table, "depth_m", None)
-        kw["count"] = _count(table)
-    elif kind == "vent-array":
-        kw["cell"] = table.string("cell", choices=CELL_SHAPES)
-        kw["cell_size_m"] = _positive_number(table, "cell_size_m")
-        kw["pitch_m"] = _positive_number(table, "pitch_m")
-        kw["depth_m"] = _positive_number(table, "depth_m")
-        kw["count"] = _count(table)
-        kw["lattice"] = table.string("lattice", "triangular", choices=("triangular", "square"))
-    else:  # mesh-window
-        kw["width_m"] = _positive_number(table, "width_m")
-        kw["height_m"] = _positive_number(table, "height_m")
-        kw["pitch_m"] = _positive_number(table, "pitch_m")
-        if table.has("wire_diameter_m") or not table.has("hole_diameter_m"):
-            kw["wire_diameter_m"] = _positive_number(table, "wire_diameter_m", None)
-        if table.has("hole_diameter_m"):
-            kw["hole_diameter_m"] = _positive_number(table, "hole_diameter_m")
-            kw["depth_m"] = _positive_number(table, "depth_m", None)
-            kw["lattice"] = table.string("lattice", "triangular", choices=("triangular", "square"))
-    table.finish()
-    return table.build(Opening, face, kind, offset, label, **kw)
-
-
-def enclosure_from_table(table: Table, frequency_hz: float) -> Enclosure:
-    """Read the ``[enclosure]`` table and its ``[[enclosure.opening]]`` tables.
-
-    Parameters
-    ----------
-    table : Table
-        The table (key path ``enclosure``).
-    frequency_hz : float
-        Scenario frequency [Hz].
-
-    Returns
-    -------
-    Enclosure
-
-    Raises
-    ------
-    ScenarioError
-        Located at the key path, for a missing, unknown or out-of-range key, an
-        unknown metal or face, or an opening larger than (or running off) its face.
-
-    Warns
-    -----
-    ModelRangeWarning
-        When the box is too small for the stirred-cavity model.
-
-    Notes
-    -----
-    Keys: ``id``, ``center_m`` or ``min_corner_m`` (exactly one), ``size_m`` (inner
-    size along x, y, z), ``metal``, ``thickness_m``, ``load_absorption_cross_section_m2``,
-    ``load_water_volume_m3``, and ``[[enclosure.opening]]``.
-    """
-    label = table.string("id", "enclosure")
-    has_center, has_corner = table.has("center_m"), table.has("min_corner_m")
-    if has_center == has_corner:
-        raise table.error(
-            "center_m",
-            "give exactly one of center_m (cavity centre) or min_corner_m "
-            "(cavity corner with the smallest x, y, z) [m]",
-        )
-    size = table.vector("size_m", unit="m")
-    if np.any(size <= 0):
-        raise table.error("size_m", f"must be three inner sizes > 0 [m], got {size.tolist()}")
-    if has_center:
-        corner = table.vector("center_m", unit="m") - size / 2
-    else:
-        corner = table.vector("min_corner_m", unit="m")
-    metal = sh.metal_from_name(table.string("metal", choices=sh.METAL_CHOICES))
-    thickness = table.number(
-        "thickness_m", unit="m", minimum=0, exclusive_minimum=True, maximum=0.1
-    )
-    load = table.number("load_absorption_cross_section_m2", 0.0, unit="m^2", minimum=0, maximum=1e4)
-    water = table.number("load_water_volume_m3", 0.0, unit="m^3", minimum=0, maximum=1e3)
-    openings = tuple(opening_from_table(t) for t in table.tables("opening"))
-    table.finish()
-    enclosure = table.build(
-        Enclosure, corner, size, metal, thickness, openings, load, water, label, table.source
-    )
-    # Frequency-dependent checks (an array pitch beyond lambda/2, vents that do not cut
-    # off) at load time, located at the opening's key path.
-    for i, opening in enumerate(openings):
-        try:
-            opening.leak(frequency_hz, thickness, warn=True)
-        except ModelInputError as exc:
-            raise table.error(f"opening[{i}].{exc.parameter}", exc.message) from None
-    try:
-        enclosure.power_balance(1.0, frequency_hz)
-    except ModelInputError as exc:
-        raise table.error(exc.parameter, exc.message) from None
-    message = enclosure.validity_warning(frequency_hz)
-    if message is not None:
-        warnings.warn(f"{table.key_path('size_m')}: {message}", ModelRangeWarning, stacklevel=2)
-    return enclosure
-
-
 __all__ = [
     "AXES",
     "BOX_EDGES",
@@ -1414,10 +1250,8 @@ __all__ = [
     "OpeningLeak",
     "aperture_transmission_cross_section_m2",
     "cavity_q_factor",
-    "enclosure_from_table",
     "hill_wall_cross_section_m2",
     "matched_antenna_cross_section_m2",
-    "opening_from_table",
     "water_load_cross_section_m2",
     "water_relative_permittivity",
     "weyl_mode_count",

@@ -9,6 +9,9 @@ unexpected fault (exit 1).
 
 from __future__ import annotations
 
+import difflib
+from collections.abc import Iterable
+
 from keepclear.antennas.errors import InputError, ModelInputError, one_line
 
 
@@ -32,3 +35,9 @@ __all__ = [
     "ScenarioError",
     "one_line",
 ]
+
+
+def suggest(word: str, choices: Iterable[str]) -> str:
+    """Return ``" (did you mean 'x'?)"`` for the closest choice, or ``""``."""
+    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
+    return f" (did you mean '{close[0]}'?)" if close else ""

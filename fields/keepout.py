@@ -147,14 +147,19 @@ def _reflection_envelope(scenario: Scenario, minimum: float = 0.0) -> float:
     return (1.0 + total) ** 2
 
 
-def screening_distance_m(scenario: Scenario, limit_w_m2: float) -> float:
+def screening_distance_m(scenario: Scenario, limit_w_m2: float, while_on: bool = False) -> float:
     """Far-field screening radius sqrt(F sum d P G / (4 pi S)) about the first source [m].
 
     Enclosures and shields are ignored (the bare sources radiate): an upper-bound
     estimate, as the trade uses it.  Sources away from the centre add their offset.
+    With ``while_on`` (a device threshold) the duty cycle d is left out: every source
+    radiates at once.
     """
     factor = _reflection_envelope(scenario, SCREENING_GROUND_FIELD_REFLECTION)
-    eirp_w = sum(s.average_power_w * s.radiator.max_gain() for s in scenario.sources)
+    eirp_w = sum(
+        (s.power_w if while_on else s.average_power_w) * s.radiator.max_gain()
+        for s in scenario.sources
+    )
     offset = max(float(np.linalg.norm(s.position_m - scenario.centre_m)) for s in scenario.sources)
     return float(np.sqrt(factor * eirp_w / (4 * np.pi * limit_w_m2))) + offset
 
@@ -190,22 +195,37 @@ class _Search:
         self.terms = radiating_terms(scenario)
         self.coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
         self.uncertainty_db = max(
-            (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in self.terms),
+            (float(t.radiator.gain_uncertainty_db) for t in self.terms),
             default=0.0,
         )
-        floor = min(_effective_threshold_w_m2(self.values[r.limit]) / r.scale for r in self.rows)
-        self.r_max = self._initial_r_max(floor)
 
-    def _initial_r_max(self, threshold_w_m2: float) -> float:
+        def floor(while_on: bool) -> float:
+            return min(
+                (
+                    _effective_threshold_w_m2(self.values[r.limit]) / r.scale
+                    for r in self.rows
+                    if self.values[r.limit].while_on == while_on
+                ),
+                default=np.inf,
+            )
+
+        self.r_max = max(
+            self._initial_r_max(floor(False), while_on=False),
+            self._initial_r_max(floor(True), while_on=True),
+        )
+
+    def _initial_r_max(self, threshold_w_m2: float, while_on: bool = False) -> float:
         n = len(self.scenario.reflectors)
         envelope = (1.0 + n + n * (n - 1)) ** 2 if n > 1 else _reflection_envelope(self.scenario)
         r = 0.5
+        if not np.isfinite(threshold_w_m2):
+            return r
         for t in self.terms:
             rad = t.radiator
             offset = float(np.linalg.norm(rad.position_m - self.centre))
             bound = np.sqrt(
                 envelope
-                * t.average_weight
+                * (t.peak_weight if while_on else t.average_weight)
                 * rad.power_w
                 * rad.max_gain()
                 / (4 * np.pi * threshold_w_m2)
@@ -214,12 +234,13 @@ class _Search:
         return 1.3 * r
 
     def quotients(self, points: NDArray[np.float64]) -> NDArray[np.float64]:
-        """Exposure quotient times the row's margin, shape (rows, N), time-averaged fields."""
+        """Exposure quotient times the row's margin, shape (rows, N), each on its basis.
+
+        A ``"time-averaged"`` limit sees the duty-cycle-averaged fields; a ``"while-on"``
+        limit (a device threshold) the fields while every source radiates.
+        """
         res = evaluate(self.scenario, points)
-        per_limit = [
-            limits_mod.quotient(v, res.power_density_w_m2, res.e_v_m, res.h_a_m)
-            for v in self.values
-        ]
+        per_limit = [limits_mod.field_quotient(v, res) for v in self.values]
         q = np.empty((len(self.rows), points.shape[0]))
         enclosure = self.scenario.enclosure
         boxed = None
@@ -440,7 +461,7 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
         origins.append(o)
         directions.append(d)
         kinds.append(np.full(len(d), j))
-        if getattr(reflector, "is_finite", False):
+        if reflector.is_finite:
             o, d = _beam_rays(search, reflector)
             origins.append(o)
             directions.append(d)
@@ -508,14 +529,15 @@ def keepout_distances(
 
         for message in oven_leakage_messages(ids, scenario.enclosure is not None):
             warnings.warn(message, PlausibilityWarning, stacklevel=2)
-    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in ids]
+    values = [scenario.limit_value(i) for i in ids]
     terms = radiating_terms(scenario)
-    uncertainty_db = max(
-        (float(getattr(t.radiator, "gain_uncertainty_db", 0.0)) for t in terms), default=0.0
-    )
+    uncertainty_db = max((float(t.radiator.gain_uncertainty_db) for t in terms), default=0.0)
     margin = 10 ** (uncertainty_db / 10)
     # Limits with the same values give the same answer: search each once.
-    keys = [(v.power_density_w_m2, v.e_v_m, v.h_a_m) for v in values]
+    keys = [
+        (v.power_density_w_m2, v.e_v_m, v.h_a_m, v.kind, v.basis, v.power_density_derived)
+        for v in values
+    ]
     first = [keys.index(key) for key in keys]
     unique = sorted(set(first))
     scales = [1.0] + ([margin] if uncertainty_db > 0 else [])
@@ -544,7 +566,9 @@ def keepout_distances(
                 limit_w_m2=v.power_density_w_m2,
                 distance_m=r,
                 direction=direction / np.linalg.norm(direction) if r > 0 else None,
-                screening_distance_m=screening_distance_m(scenario, _effective_threshold_w_m2(v)),
+                screening_distance_m=screening_distance_m(
+                    scenario, _effective_threshold_w_m2(v), while_on=v.while_on
+                ),
                 distance_with_uncertainty_m=float(max(best.distance[k_u], r)),
                 uncertainty_db=uncertainty_db,
                 averaging_time_s=v.averaging_time_s,
@@ -561,9 +585,10 @@ def _outside(scenario: Scenario, best: _Best, k: int) -> dict[str, object]:
     outermost exceedances of all rays of the search.
     """
     r = float(best.distance[k])
-    if r <= 0:
+    enclosure = scenario.enclosure
+    if r <= 0 or enclosure is None:
         return {"distance_m": 0.0, "direction": None, "clearance_from_enclosure_m": 0.0}
-    corners = scenario.enclosure.outline()
+    corners = enclosure.outline()
     lo, hi = corners.min(axis=0), corners.max(axis=0)
     pts = np.vstack(best.ends[k])
     gap = np.linalg.norm(np.maximum(np.maximum(lo - pts, pts - hi), 0.0), axis=1)

@@ -1,10 +1,14 @@
 """Published human-exposure limits and oven-leakage limits, as cited data.
 
-Every limit the contract names (``LIMIT_IDS``) is held here as the rows of its
-published table: frequency band as printed, the incident power density, electric and
-magnetic field expressions, the averaging time, the table it comes from and a
-verification tag for every value.  Nothing is extrapolated: a frequency outside the
-published table raises :class:`~keepclear.fields.errors.LimitError`.
+Every limit the contract names (``LIMIT_IDS``) is held as the rows of its published
+table, in one data file per standard (``data/limits/*.toml``, shipped with the package)
+laid out like the printed table, one line per printed row: frequency band as printed,
+the incident power density, electric and magnetic field expressions, the averaging time,
+the table and page it comes from and a verification tag for every value.  This module
+reads those files into :class:`Limit` and :class:`Band`; a file that does not read raises
+:class:`LimitDataError` naming the file, the limit and the row.  Nothing is
+extrapolated: a frequency outside the published table raises
+:class:`~keepclear.fields.errors.LimitError`.
 
 What a reference level is
 -------------------------
@@ -91,9 +95,11 @@ from __future__ import annotations
 import ast
 import math
 import operator
+import tomllib
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
-from typing import Any
+from importlib import resources
+from typing import Any, Protocol
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -107,23 +113,38 @@ __all__ = [
     "LIMIT_IDS",
     "Band",
     "Limit",
+    "LimitDataError",
     "LimitError",
     "LimitValue",
     "all_limits",
+    "custom_threshold",
+    "field_quotient",
     "get_limit",
     "quotient",
+    "resolve_limit",
     "values_at",
+    "verification_text",
 ]
 
 FOUND = "FOUND"
 MEMORY = "MEMORY"
 TAGS = (FOUND, MEMORY)
+#: Tag of a value the user gave in the scenario file (a custom threshold).
+USER = "USER"
+
+#: What a limit protects: people (exposure limits) or equipment (device thresholds).
+KINDS = ("exposure", "device")
+#: What a limit is compared with: the time-averaged exposure (duty cycle applied) or the
+#: field while the sources radiate (every source on, no duty-cycle averaging).
+TIME_AVERAGED = "time-averaged"
+WHILE_ON = "while-on"
+BASES = (TIME_AVERAGED, WHILE_ON)
 
 #: Units a printed power density may be in, with the factor to W m^-2.
 POWER_DENSITY_UNITS = {"W/m^2": 1.0, "mW/cm^2": 10.0}
 
-TIERS = ("whole-body", "local", "product-emission")
-POPULATIONS = ("general-public", "occupational")
+TIERS = ("whole-body", "local", "product-emission", "device")
+POPULATIONS = ("general-public", "occupational", "equipment")
 
 _MHZ = 1e6
 _GHZ = 1e9
@@ -197,8 +218,9 @@ def evaluate(expression: str, frequency_hz: float) -> float:
             return _UNARY[type(node.op)](run(node.operand))
         if isinstance(node, ast.Constant):
             return node.value
-        assert isinstance(node, ast.Name)
-        return _VARIABLES[node.id](f_hz)
+        if isinstance(node, ast.Name):
+            return _VARIABLES[node.id](f_hz)
+        raise ValueError(f"limit formula {expression!r}: {ast.dump(node)} is not allowed")
 
     return float(run(_parse(expression)))
 
@@ -237,6 +259,8 @@ class Band:
         Tag of ``averaging_min``.
     note : str
         Anything the row's reader must know.
+    page : str
+        Page of the printed table, where known (empty otherwise).
     """
 
     low_hz: float
@@ -256,6 +280,7 @@ class Band:
     averaging_min: str | None = None
     averaging_tag: str | None = None
     note: str = ""
+    page: str = ""
 
     def contains(self, frequency_hz: float) -> bool:
         """Whether the row applies at ``frequency_hz`` [Hz]."""
@@ -304,6 +329,11 @@ class LimitValue:
     power_density_derived : bool
         True when the table gives no power density and ``power_density_w_m2`` is the
         plane-wave equivalent of the stricter of E and H.
+    kind : str
+        ``"exposure"`` (a limit for people) or ``"device"`` (a threshold for equipment).
+    basis : str
+        ``"time-averaged"`` (compared with the duty-cycle-averaged exposure) or
+        ``"while-on"`` (compared with the fields while every source radiates).
     """
 
     id: str
@@ -318,9 +348,16 @@ class LimitValue:
     expression: str
     verification: str = ""
     power_density_derived: bool = False
+    kind: str = "exposure"
+    basis: str = TIME_AVERAGED
+
+    @property
+    def while_on(self) -> bool:
+        """Whether the limit is compared with the fields while the sources radiate."""
+        return self.basis == WHILE_ON
 
     def as_dict(self) -> dict[str, Any]:
-        """The contract's ``limits`` JSON entry (plus tier, population, expression)."""
+        """The contract's ``limits`` JSON entry (plus kind, basis, tier, population, expression)."""
         return {
             "id": self.id,
             "power_density_w_m2": self.power_density_w_m2,
@@ -328,6 +365,8 @@ class LimitValue:
             "h_a_m": self.h_a_m,
             "averaging_time_s": self.averaging_time_s,
             "source": self.source,
+            "kind": self.kind,
+            "basis": self.basis,
             "tier": self.tier,
             "population": self.population,
             "expression": self.expression,
@@ -383,6 +422,10 @@ class Limit:
         Short label used in :attr:`LimitValue.source` (table appended).
     reference : str
         Full citation with DOI where there is one.
+    kind : str
+        ``"exposure"`` (people) or ``"device"`` (equipment: an immunity threshold).
+    basis : str
+        ``"time-averaged"`` or ``"while-on"``; see :class:`LimitValue`.
     """
 
     id: str
@@ -398,6 +441,8 @@ class Limit:
     notes: tuple[str, ...]
     source: str
     reference: str
+    kind: str = "exposure"
+    basis: str = TIME_AVERAGED
 
     @property
     def band_hz(self) -> tuple[float, float]:
@@ -476,11 +521,21 @@ class Limit:
             averaging = self.averaging_time_s
         expression = band.expression
         if derived:
-            expression += "; S = min(E^2/eta0, eta0*H^2) (derived: the table gives no S)"
+            expression += (
+                "; S = E^2/eta0 (its plane-wave equivalent; the threshold is the E field)"
+                if self.kind == "device"
+                else "; S = min(E^2/eta0, eta0*H^2) (derived: the table gives no S)"
+            )
+        elif self.kind == "device" and e is not None and band.e_field is not None:
+            expression = (
+                f"S = {band.power_density} {band.power_density_unit} (E = {e:.4g} V/m, its "
+                "plane-wave equivalent; the threshold is the power density)"
+            )
         formulas = " ".join(
             x for x in (band.power_density, band.e_field, band.h_field) if x is not None
         )
-        legend = "; fM, f in MHz, fG in GHz" if any(c.isalpha() for c in formulas) else ""
+        variables = self.kind == "exposure" and any(c.isalpha() for c in formulas)
+        legend = "; fM, f in MHz, fG in GHz" if variables else ""
         expression += f" [{band.printed_range}{legend}]"
 
         def tag(name: str, value: Any, cell_tag: str) -> str:
@@ -507,1020 +562,370 @@ class Limit:
             expression=expression,
             verification=verification,
             power_density_derived=derived,
+            kind=self.kind,
+            basis=self.basis,
         )
 
 
-def _row(
-    low_hz: float,
-    high_hz: float,
-    printed: str,
-    table: str,
-    s: str | None,
-    e: str | None,
-    h: str | None,
-    tag: str,
-    where: str,
-    *,
-    low_inclusive: bool = True,
-    high_inclusive: bool = True,
-    e_tag: str | None = None,
-    h_tag: str | None = None,
-    unit: str = "W/m^2",
-    averaging_min: str | None = None,
-    averaging_tag: str | None = None,
-    note: str = "",
-) -> Band:
-    return Band(
-        low_hz=low_hz,
-        high_hz=high_hz,
-        low_inclusive=low_inclusive,
-        high_inclusive=high_inclusive,
-        printed_range=printed,
-        table=table,
-        power_density=s,
-        e_field=e,
-        h_field=h,
-        s_tag=tag,
-        e_tag=e_tag or tag,
-        h_tag=h_tag or tag,
-        where=where,
-        power_density_unit=unit,
-        averaging_min=averaging_min,
-        averaging_tag=averaging_tag,
-        note=note,
-    )
+# ------------------------------------------------------------------ the tables
+# One file per standard in ``data/limits/``, laid out like the printed table: a
+# ``[document]`` table (what every limit of the file shares), a ``[text]`` table of named
+# provenance sentences, and one ``[[limit]]`` per tier whose ``rows`` hold one line per
+# printed row.  Problems raise :class:`LimitDataError` naming the file, the limit and the
+# row, never ``assert`` (which ``python -O`` strips).
 
-
-# ---- ICNIRP 2020 ------------------------------------------------------------
-_ICNIRP_REF = (
-    "ICNIRP (2020) Guidelines for limiting exposure to electromagnetic fields "
-    "(100 kHz to 300 GHz). Health Phys 118(5):483-524. doi:10.1097/HP.0000000000001210"
-)
-_T5_MEM = (
-    "recalled from ICNIRP 2020 Table 5; consistent with Table 6 (FOUND), whose rows "
-    "below 2 GHz are 5x in S (sqrt(5) in E, H) of these"
-)
-_T5_PUBLIC_S = (
-    "FOUND (secondary): research note quoting ICNIRP 2020 Table 5 'averaged over 30 min "
-    "and the whole body': 10 W/m2 above 2 GHz, fM/200 from 400 to 2000 MHz (search "
-    "file id 70499974463)"
-)
-_T6 = (
-    "FOUND (secondary): Bioelectromagnetism (textbook), Table 7.8 p. 316, 'Reproduced "
-    "from ICNIRP, Health Physics 118:483-524, 2020'"
-)
-_ICNIRP_NOTES_COMMON = (
-    "ICNIRP 2020 replaces the 100 kHz-300 GHz part of ICNIRP 1998. At 2.45 GHz the "
-    "power density is unchanged (10 / 50 W/m2) but the whole-body averaging went from "
-    "6 to 30 min, E and H are no longer given above 2 GHz (NA: only S is assessed), "
-    "local reference levels were added, and the 1998 pulse rule (peak <= 1000x) became "
-    "brief-exposure energy limits (Table 7, not held here).",
+#: The data files, in the contract's order of limit ids.
+LIMIT_FILES: tuple[str, ...] = (
+    "icnirp-2020.toml",
+    "ieee-c95.1-2019.toml",
+    "fcc-1.1310.toml",
+    "sc6-2015.toml",
+    "fda-1030.10.toml",
+    "iec-61000-4-3.toml",
+    "iec-60601-1-2.toml",
 )
 
+#: The columns of a ``rows`` table, in order.
+ROW_COLUMNS: tuple[str, ...] = (
+    "start_MHz",
+    "end_MHz",
+    "printed range",
+    "table",
+    "page",
+    "S",
+    "S unit",
+    "S tag",
+    "E",
+    "E tag",
+    "H",
+    "H tag",
+    "avg min",
+    "avg tag",
+    "where",
+    "note",
+)
+_LIMIT_KEYS = {
+    "id",
+    "title",
+    "document",
+    "edition",
+    "source",
+    "reference",
+    "tier",
+    "population",
+    "averaging_time_s",
+    "averaging_tag",
+    "averaging_reason",
+    "notes",
+    "rows",
+    "kind",
+    "basis",
+}
+_SHARED_KEYS = ("document", "edition", "source", "reference")
+_NONE = ("", "-")
 
-def _icnirp_whole_body(population: str) -> Limit:
-    occ = population == "occupational"
-    t5 = "Table 5"
-    if occ:
-        rows = (
-            _row(
-                0.1 * _MHZ,
-                30 * _MHZ,
-                "0.1-30 MHz",
-                t5,
-                None,
-                "660/fM^0.7",
-                "4.9/fM",
-                MEMORY,
-                _T5_MEM,
-            ),
-            _row(
-                30 * _MHZ,
-                400 * _MHZ,
-                ">30-400 MHz",
-                t5,
-                "10",
-                "61",
-                "0.16",
-                MEMORY,
-                _T5_MEM,
-                low_inclusive=False,
-            ),
-            _row(
-                400 * _MHZ,
-                2000 * _MHZ,
-                ">400-2000 MHz",
-                t5,
-                "fM/40",
-                "3*fM^0.5",
-                "0.008*fM^0.5",
-                MEMORY,
-                _T5_MEM,
-                low_inclusive=False,
-            ),
-            _row(
-                2 * _GHZ,
-                300 * _GHZ,
-                ">2-300 GHz",
-                t5,
-                "50",
-                None,
-                None,
-                MEMORY,
-                _T5_MEM + "; 50 W/m2 also agrees with FCC, IEEE and ICNIRP 1998 "
-                "occupational (FOUND for those)",
-                low_inclusive=False,
-            ),
+
+class LimitDataError(ValueError):
+    """A limit data file that does not read: names the file, the limit, the row and why."""
+
+
+def _edge_mhz(text: str, strict: str, where: str) -> tuple[float, bool]:
+    """A band edge as printed in MHz; a leading ``>`` or ``<`` makes it exclusive."""
+    inclusive = not text.startswith(strict)
+    number = text[1:] if not inclusive else text
+    try:
+        value = float(number)
+    except ValueError:
+        raise LimitDataError(
+            f"{where}: band edge {text!r} is not a number of MHz "
+            f"(optionally preceded by {strict!r} for an open edge)"
+        ) from None
+    if not math.isfinite(value) or value < 0:
+        raise LimitDataError(f"{where}: band edge {text!r} must be a finite number >= 0 [MHz]")
+    return value * _MHZ, inclusive
+
+
+def _formula(text: str, where: str, column: str) -> str | None:
+    if text == "NA":
+        return None
+    try:
+        _parse(text)
+    except (SyntaxError, ValueError) as exc:
+        raise LimitDataError(
+            f"{where}: column {column!r}: {text!r} is not a formula ({exc})"
+        ) from None
+    return text
+
+
+def _tag(text: str, where: str, column: str) -> str:
+    if text not in TAGS:
+        raise LimitDataError(f"{where}: column {column!r} must be one of {TAGS}, got {text!r}")
+    return text
+
+
+def _joined_text(text: str, texts: dict[str, str], where: str, column: str) -> str:
+    """A ``+``-joined list of names from the file's ``[text]`` table, concatenated."""
+    parts = []
+    for name in (p.strip() for p in text.split("+")):
+        if name not in texts:
+            raise LimitDataError(
+                f"{where}: column {column!r} names {name!r}, which the [text] table lacks"
+            )
+        parts.append(texts[name])
+    return "".join(parts)
+
+
+def _parse_rows(block: str, texts: dict[str, str], where: str) -> tuple[Band, ...]:
+    lines = [line for line in block.splitlines() if line.strip()]
+    if not lines:
+        raise LimitDataError(f"{where}: 'rows' holds no header and no rows")
+    header = tuple(cell.strip() for cell in lines[0].split("|"))
+    if header != ROW_COLUMNS:
+        raise LimitDataError(f"{where}: 'rows' header must be {' | '.join(ROW_COLUMNS)}")
+    bands = []
+    for number, line in enumerate(lines[1:], start=1):
+        at = f"{where}, row {number}"
+        cells = [cell.strip() for cell in line.split("|")]
+        if len(cells) != len(ROW_COLUMNS):
+            raise LimitDataError(f"{at}: {len(cells)} cells, the header names {len(ROW_COLUMNS)}")
+        c = dict(zip(ROW_COLUMNS, cells, strict=True))
+        low, low_inclusive = _edge_mhz(c["start_MHz"], ">", at)
+        high, high_inclusive = _edge_mhz(c["end_MHz"], "<", at)
+        if low > high:
+            raise LimitDataError(f"{at}: the band starts above its end")
+        s = _formula(c["S"], at, "S")
+        e = _formula(c["E"], at, "E")
+        h = _formula(c["H"], at, "H")
+        if s is None and e is None and h is None:
+            raise LimitDataError(f"{at}: S, E and H are all NA; a row must give one of them")
+        if c["S unit"] not in POWER_DENSITY_UNITS:
+            raise LimitDataError(
+                f"{at}: column 'S unit' must be one of {tuple(POWER_DENSITY_UNITS)}, "
+                f"got {c['S unit']!r}"
+            )
+        averaging = None if c["avg min"] in _NONE else _formula(c["avg min"], at, "avg min")
+        averaging_tag = None if c["avg tag"] in _NONE else _tag(c["avg tag"], at, "avg tag")
+        if (averaging is None) != (averaging_tag is None):
+            raise LimitDataError(f"{at}: 'avg min' and 'avg tag' go together")
+        if not c["printed range"] or not c["table"]:
+            raise LimitDataError(f"{at}: 'printed range' and 'table' must not be empty")
+        bands.append(
+            Band(
+                low_hz=low,
+                high_hz=high,
+                low_inclusive=low_inclusive,
+                high_inclusive=high_inclusive,
+                printed_range=c["printed range"],
+                table=c["table"],
+                power_density=s,
+                e_field=e,
+                h_field=h,
+                s_tag=_tag(c["S tag"], at, "S tag"),
+                e_tag=_tag(c["E tag"], at, "E tag"),
+                h_tag=_tag(c["H tag"], at, "H tag"),
+                where=_joined_text(c["where"], texts, at, "where"),
+                power_density_unit=c["S unit"],
+                averaging_min=averaging,
+                averaging_tag=averaging_tag,
+                note="" if c["note"] in _NONE else _joined_text(c["note"], texts, at, "note"),
+                page="" if c["page"] in _NONE else c["page"],
+            )
         )
-    else:
-        rows = (
-            _row(
-                0.1 * _MHZ,
-                30 * _MHZ,
-                "0.1-30 MHz",
-                t5,
-                None,
-                "300/fM^0.7",
-                "2.2/fM",
-                MEMORY,
-                _T5_MEM,
-            ),
-            _row(
-                30 * _MHZ,
-                400 * _MHZ,
-                ">30-400 MHz",
-                t5,
-                "2",
-                "27.7",
-                "0.073",
-                MEMORY,
-                _T5_MEM,
-                low_inclusive=False,
-            ),
-            _row(
-                400 * _MHZ,
-                2000 * _MHZ,
-                ">400-2000 MHz",
-                t5,
-                "fM/200",
-                "1.375*fM^0.5",
-                "0.0037*fM^0.5",
-                FOUND,
-                _T5_PUBLIC_S + "; E, H " + _T5_MEM,
-                low_inclusive=False,
-                e_tag=MEMORY,
-                h_tag=MEMORY,
-            ),
-            _row(
-                2 * _GHZ,
-                300 * _GHZ,
-                ">2-300 GHz",
-                t5,
-                "10",
-                None,
-                None,
-                FOUND,
-                _T5_PUBLIC_S + "; E, H 'NA' " + _T5_MEM,
-                low_inclusive=False,
-                e_tag=MEMORY,
-                h_tag=MEMORY,
-            ),
+    return tuple(bands)
+
+
+def _text_field(entry: dict[str, Any], key: str, where: str) -> str:
+    value = entry.get(key)
+    if not isinstance(value, str) or not value:
+        raise LimitDataError(f"{where}: {key!r} must be a non-empty string")
+    return value
+
+
+def limits_from_toml(text: str, name: str) -> tuple[Limit, ...]:
+    """The limits of one data file.
+
+    Parameters
+    ----------
+    text : str
+        The file's TOML text.
+    name : str
+        The file name, for messages.
+
+    Returns
+    -------
+    tuple of Limit
+        In the order of the file.
+
+    Raises
+    ------
+    LimitDataError
+        Naming the file, the limit and the row, for anything that does not read.
+    """
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise LimitDataError(f"{name}: not valid TOML ({exc})") from None
+    unknown = set(doc) - {"document", "text", "limit"}
+    if unknown:
+        raise LimitDataError(f"{name}: unknown top-level key(s) {sorted(unknown)}")
+    shared = doc.get("document", {})
+    texts = doc.get("text", {})
+    if not all(isinstance(v, str) for v in texts.values()):
+        raise LimitDataError(f"{name}: every [text] entry must be a string")
+    entries = doc.get("limit")
+    if not isinstance(entries, list) or not entries:
+        raise LimitDataError(f"{name}: no [[limit]] table")
+    limits = []
+    for i, raw in enumerate(entries):
+        entry = {**shared, **raw}
+        where = f"{name}: limit[{i}] ({entry.get('id', '?')})"
+        extra = set(entry) - _LIMIT_KEYS
+        if extra:
+            raise LimitDataError(f"{where}: unknown key(s) {sorted(extra)}")
+        tier = _text_field(entry, "tier", where)
+        population = _text_field(entry, "population", where)
+        if tier not in TIERS or population not in POPULATIONS:
+            raise LimitDataError(
+                f"{where}: tier must be one of {TIERS} and population one of {POPULATIONS}"
+            )
+        averaging = entry.get("averaging_time_s")
+        if averaging == "none":
+            averaging = None
+        elif (
+            isinstance(averaging, bool) or not isinstance(averaging, (int, float)) or averaging <= 0
+        ):
+            raise LimitDataError(f"{where}: 'averaging_time_s' must be a number > 0 or \"none\"")
+        notes = entry.get("notes", [])
+        if not isinstance(notes, list) or not all(isinstance(n, str) for n in notes):
+            raise LimitDataError(f"{where}: 'notes' must be a list of strings")
+        kind = entry.get("kind", "exposure")
+        basis = entry.get("basis", TIME_AVERAGED)
+        if kind not in KINDS or basis not in BASES:
+            raise LimitDataError(f"{where}: kind must be one of {KINDS} and basis one of {BASES}")
+        if not isinstance(entry.get("rows"), str):
+            raise LimitDataError(f"{where}: 'rows' must be a multi-line string")
+        limits.append(
+            Limit(
+                id=_text_field(entry, "id", where),
+                title=_text_field(entry, "title", where),
+                document=_text_field(entry, "document", where),
+                edition=_text_field(entry, "edition", where),
+                tier=tier,
+                population=population,
+                averaging_time_s=None if averaging is None else float(averaging),
+                averaging_tag=_tag(entry.get("averaging_tag"), where, "averaging_tag"),
+                averaging_reason=_text_field(entry, "averaging_reason", where),
+                bands=_parse_rows(entry["rows"], texts, where),
+                notes=tuple(notes),
+                source=_text_field(entry, "source", where),
+                reference=_text_field(entry, "reference", where),
+                kind=kind,
+                basis=basis,
+            )
         )
-    name = "occupational" if occ else "general public"
-    return Limit(
-        id=f"icnirp-2020/{population}",
-        title=f"ICNIRP 2020 whole-body reference levels, {name}",
-        document="ICNIRP Guidelines for limiting exposure to electromagnetic fields "
-        "(100 kHz to 300 GHz)",
-        edition="2020 (Health Physics 118(5):483-524)",
-        tier="whole-body",
-        population=population,
-        averaging_time_s=1800.0,
-        averaging_tag=FOUND,
-        averaging_reason="30 min, Table 5 title 'averaged over 30 min and the whole body' "
-        "(FOUND secondary, search file id 70499974463)",
-        bands=rows,
-        notes=_ICNIRP_NOTES_COMMON
-        + (
-            "30-min whole-body average; ICNIRP 1998 and FCC occupational use 6 min, SC6 "
-            "6 min: a source on for less than the window is judged on its average over "
-            "the window.",
-            "Below 30 MHz the table gives E and H only; power_density_w_m2 is then the "
-            "plane-wave equivalent of the stricter field (derived).",
-            "Occupational 50 W/m2 at 2-6 GHz agrees with FCC occupational and IEEE "
-            "restricted; Health Canada SC6 controlled is lower (31.95 W/m2 at 2.45 GHz)."
-            if occ
-            else "Public 10 W/m2 above 2 GHz agrees with FCC and IEEE; Health Canada SC6 "
-            "uncontrolled is lower (5.42 W/m2 at 2.45 GHz), so SC6 gives a keep-out "
-            "radius about 1.36x larger.",
-        ),
-        source="ICNIRP 2020 guidelines",
-        reference=_ICNIRP_REF,
-    )
+    return tuple(limits)
 
 
-def _icnirp_local(population: str) -> Limit:
-    occ = population == "occupational"
-    t6 = "Table 6"
-    if occ:
-        vals = (
-            "1504/fM^0.7",
-            "10.8/fM",
-            "139",
-            "0.36",
-            "50",
-            "10.58*fM^0.43",
-            "0.0274*fM^0.43",
-            "0.29*fM^0.86",
-            "200",
-            "275/fG^0.177",
-            "100",
-        )
-    else:
-        vals = (
-            "671/fM^0.7",
-            "4.9/fM",
-            "62",
-            "0.163",
-            "10",
-            "4.72*fM^0.43",
-            "0.0123*fM^0.43",
-            "0.058*fM^0.86",
-            "40",
-            "55/fG^0.177",
-            "20",
-        )
-    e1, h1, e2, h2, s2, e3, h3, s3, s4, s5, s6 = vals
-    rows = (
-        _row(0.1 * _MHZ, 30 * _MHZ, "0.1-30 MHz", t6, None, e1, h1, FOUND, _T6),
-        _row(30 * _MHZ, 400 * _MHZ, ">30-400 MHz", t6, s2, e2, h2, FOUND, _T6, low_inclusive=False),
-        _row(
-            400 * _MHZ,
-            2000 * _MHZ,
-            ">400-2000 MHz",
-            t6,
-            s3,
-            e3,
-            h3,
-            FOUND,
-            _T6,
-            low_inclusive=False,
-        ),
-        _row(2 * _GHZ, 6 * _GHZ, ">2-6 GHz", t6, s4, None, None, FOUND, _T6, low_inclusive=False),
-        _row(
-            6 * _GHZ,
-            300 * _GHZ,
-            ">6 to <300 GHz",
-            t6,
-            s5,
-            None,
-            None,
-            FOUND,
-            _T6 + "; the reproduction's OCR drops the '/', continuity at 6 GHz "
-            "(S = the >2-6 GHz value) confirms division",
-            low_inclusive=False,
-            high_inclusive=False,
-        ),
-        _row(300 * _GHZ, 300 * _GHZ, "300 GHz", t6, s6, None, None, FOUND, _T6),
-    )
-    name = "occupational" if occ else "general public"
-    return Limit(
-        id=f"icnirp-2020/{population}-local",
-        title=f"ICNIRP 2020 local reference levels, {name}",
-        document="ICNIRP Guidelines for limiting exposure to electromagnetic fields "
-        "(100 kHz to 300 GHz)",
-        edition="2020 (Health Physics 118(5):483-524)",
-        tier="local",
-        population=population,
-        averaging_time_s=360.0,
-        averaging_tag=FOUND,
-        averaging_reason="6 min, Table 6 note 3 'Sinc, Einc, and Hinc are to be averaged "
-        "over 6 minutes' (FOUND secondary, " + _T6 + ")",
-        bands=rows,
-        notes=_ICNIRP_NOTES_COMMON
-        + (
-            "Local levels apply to peak spatial exposure of part of the body (Table 6 "
-            "notes 5-7: above 6 GHz S is averaged over 4 cm2 squares; MEMORY), averaged "
-            "over 6 min, against 30 min for the whole-body levels.",
-            "The 2-6 GHz local value is 4x the whole-body value (200 vs 50, 40 vs 10 "
-            "W/m2); IEEE C95.1-2019 has no incident-power-density local ERL below 6 GHz "
-            "(it uses a peak 10 g SAR DRL instead; MEMORY).",
-            "Table 6 note 5: for >30 MHz-6 GHz in the far field one of S, E or H shows "
-            "compliance; in the radiative near field S, or both E and H. The quotient "
-            "takes the largest ratio of every quantity given, which is never less strict.",
-        ),
-        source="ICNIRP 2020 guidelines",
-        reference=_ICNIRP_REF,
-    )
+def _load_tables() -> tuple[Limit, ...]:
+    folder = resources.files("keepclear.fields") / "data" / "limits"
+    limits: list[Limit] = []
+    for name in LIMIT_FILES:
+        limits.extend(limits_from_toml((folder / name).read_text(encoding="utf-8"), name))
+    ids = [limit.id for limit in limits]
+    twice = sorted({i for i in ids if ids.count(i) > 1})
+    if twice:
+        raise LimitDataError(f"limit id(s) defined twice: {twice}")
+    return tuple(limits)
 
 
-# ---- IEEE C95.1-2019 ---------------------------------------------------------
-_IEEE_REF = (
-    "IEEE Std C95.1-2019, IEEE Standard for Safety Levels with Respect to Human Exposure "
-    "to Electric, Magnetic, and Electromagnetic Fields, 0 Hz to 300 GHz. "
-    "doi:10.1109/IEEESTD.2019.8859679"
-)
-_IEEE_MEM = (
-    "MEMORY: the ERL tables of C95.1-2019 were not found in the reference library; "
-    "recalled (rows below 400 MHz as in the C95.1-2005 MPE tables, low confidence)"
-)
-_IEEE_MEM_HIGH = (
-    "MEMORY: not found in the reference library; recalled, and the same as ICNIRP 2020 "
-    "Table 5 which the 2019 edition harmonised with"
-)
-
-
-def _ieee(population: str) -> Limit:
-    restricted = population == "occupational"
-    if restricted:
-        table = "Table 8"
-        rows = (
-            _row(
-                0.1 * _MHZ,
-                1.0 * _MHZ,
-                "0.1-1.0 MHz",
-                table,
-                "9000",
-                "1842",
-                "16.3/fM",
-                MEMORY,
-                _IEEE_MEM,
-                note="printed S pair (S_E, S_H) = (9000, 100000/fM^2); "
-                "the E-equivalent S_E is held",
-            ),
-            _row(
-                1.0 * _MHZ,
-                30 * _MHZ,
-                "1.0-30 MHz",
-                table,
-                "9000/fM^2",
-                "1842/fM",
-                "16.3/fM",
-                MEMORY,
-                _IEEE_MEM,
-                note="printed S pair (9000/fM^2, 100000/fM^2); S_E held",
-            ),
-            _row(
-                30 * _MHZ,
-                100 * _MHZ,
-                "30-100 MHz",
-                table,
-                "10",
-                "61.4",
-                "16.3/fM",
-                MEMORY,
-                _IEEE_MEM,
-                note="printed S pair (10, 1000000/fM^2); S_E held",
-            ),
-            _row(
-                100 * _MHZ,
-                400 * _MHZ,
-                "100-400 MHz",
-                table,
-                "10",
-                "61.4",
-                "0.163",
-                MEMORY,
-                _IEEE_MEM,
-            ),
-            _row(
-                400 * _MHZ,
-                2000 * _MHZ,
-                "400-2000 MHz",
-                table,
-                "fM/40",
-                None,
-                None,
-                MEMORY,
-                _IEEE_MEM_HIGH,
-            ),
-            _row(
-                2000 * _MHZ,
-                300000 * _MHZ,
-                "2000-300000 MHz",
-                table,
-                "50",
-                None,
-                None,
-                MEMORY,
-                _IEEE_MEM_HIGH + "; C95.1-2005 had 100 W/m2 above 3 GHz for the "
-                "upper tier: 50 is the stricter reading",
-            ),
-        )
-    else:
-        table = "Table 7"
-        rows = (
-            _row(
-                0.1 * _MHZ,
-                1.34 * _MHZ,
-                "0.1-1.34 MHz",
-                table,
-                "1000",
-                "614",
-                "16.3/fM",
-                MEMORY,
-                _IEEE_MEM,
-                note="printed S pair (S_E, S_H) = (1000, 100000/fM^2); "
-                "the E-equivalent S_E is held",
-            ),
-            _row(
-                1.34 * _MHZ,
-                30 * _MHZ,
-                "1.34-30 MHz",
-                table,
-                "1800/fM^2",
-                "823.8/fM",
-                "16.3/fM",
-                MEMORY,
-                _IEEE_MEM,
-                note="printed S pair (1800/fM^2, 100000/fM^2); S_E held",
-            ),
-            _row(
-                30 * _MHZ,
-                100 * _MHZ,
-                "30-100 MHz",
-                table,
-                "2",
-                "27.5",
-                "158.3/fM^1.668",
-                MEMORY,
-                _IEEE_MEM,
-                note="printed S pair (2, 9400000/fM^3.336); S_E held",
-            ),
-            _row(
-                100 * _MHZ,
-                400 * _MHZ,
-                "100-400 MHz",
-                table,
-                "2",
-                "27.5",
-                "0.0729",
-                MEMORY,
-                _IEEE_MEM,
-            ),
-            _row(
-                400 * _MHZ,
-                2000 * _MHZ,
-                "400-2000 MHz",
-                table,
-                "fM/200",
-                None,
-                None,
-                MEMORY,
-                _IEEE_MEM_HIGH,
-            ),
-            _row(
-                2000 * _MHZ,
-                300000 * _MHZ,
-                "2000-300000 MHz",
-                table,
-                "10",
-                None,
-                None,
-                MEMORY,
-                _IEEE_MEM_HIGH,
-            ),
-        )
-    env = (
-        "persons permitted in restricted environments"
-        if restricted
-        else ("persons in unrestricted environments")
-    )
-    return Limit(
-        id=f"ieee-c95.1-2019/{'restricted' if restricted else 'unrestricted'}",
-        title=f"IEEE C95.1-2019 whole-body exposure reference levels (ERL), {env}",
-        document="IEEE Std C95.1, Standard for Safety Levels with Respect to Human "
-        "Exposure to Electric, Magnetic, and Electromagnetic Fields, 0 Hz to 300 GHz",
-        edition="2019 (published 4 Oct 2019)",
-        tier="whole-body",
-        population=population,
-        averaging_time_s=1800.0,
-        averaging_tag=MEMORY,
-        averaging_reason="30 min recalled for whole-body ERLs of both tiers, not verified "
-        "(some summaries give 6 min for the restricted tier; the shorter window is "
-        "stricter for sources on for less than the window)",
-        bands=rows,
-        notes=(
-            "Every IEEE value here is MEMORY: the 2019 ERL tables were not available in "
-            "the reference library (only the title, scope and DRL/ERL terminology were "
-            "FOUND, standards.ieee.org and the ICES notice).",
-            "At 2-300 GHz the recalled values equal ICNIRP 2020 whole-body (10 / 50 "
-            "W/m2) and the FCC MPEs; below 2 GHz they equal ICNIRP fM/200 / fM/40, "
-            "while FCC uses f/1500 / f/300 from 300 to 1500 MHz.",
-            "Rows printing a pair of power densities (E- and H-equivalent) hold the "
-            "E-equivalent; the quotient also checks E and H directly.",
-            "Local exposure below 6 GHz is governed by a peak-spatial SAR DRL (2 / 10 W/kg "
-            "over 10 g, MEMORY), not by an incident power-density ERL; not held here.",
-        ),
-        source="IEEE Std C95.1-2019",
-        reference=_IEEE_REF,
-    )
-
-
-# ---- FCC 47 CFR 1.1310 -------------------------------------------------------
-_FCC_REF = (
-    "47 CFR 1.1310 Radiofrequency radiation exposure limits, Table 1 (Limits for Maximum "
-    "Permissible Exposure), current eCFR text as amended 85 FR 18146 (1 Apr 2020)"
-)
-_FCC_FOUND = (
-    "FOUND: 47 CFR 1.1310 Table 1 rows at http://www.emclabinfo.com/emc_calc/fcclim.htm "
-    "and the rule text (editions 1997-2009) at http://hallikainen.org/org/FCC/FccRules/"
-    "2009/1/1310; current (a)-(d) text at https://lawserver.com/law/country/us/cfr/"
-    "47_cfr_1-1310 (no change to the values seen)"
-)
-
-
-def _fcc(population: str) -> Limit:
-    occ = population == "occupational"
-    t1 = "Table 1"
-    pw = "power density in parentheses: plane-wave-equivalent"
-    if occ:
-        rows = (
-            _row(
-                0.3 * _MHZ,
-                3.0 * _MHZ,
-                "0.3-3.0 MHz",
-                t1,
-                "100",
-                "614",
-                "1.63",
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-                note="*(100) " + pw,
-            ),
-            _row(
-                3.0 * _MHZ,
-                30 * _MHZ,
-                "3.0-30 MHz",
-                t1,
-                "900/f^2",
-                "1842/f",
-                "4.89/f",
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-                note="*(900/f^2) " + pw,
-            ),
-            _row(
-                30 * _MHZ,
-                300 * _MHZ,
-                "30-300 MHz",
-                t1,
-                "1.0",
-                "61.4",
-                "0.163",
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-            ),
-            _row(
-                300 * _MHZ,
-                1500 * _MHZ,
-                "300-1,500 MHz",
-                t1,
-                "f/300",
-                None,
-                None,
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-            ),
-            _row(
-                1500 * _MHZ,
-                100000 * _MHZ,
-                "1,500-100,000 MHz",
-                t1,
-                "5",
-                None,
-                None,
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-            ),
-        )
-    else:
-        rows = (
-            _row(
-                0.3 * _MHZ,
-                1.34 * _MHZ,
-                "0.3-1.34 MHz",
-                t1,
-                "100",
-                "614",
-                "1.63",
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-                note="*(100) " + pw,
-            ),
-            _row(
-                1.34 * _MHZ,
-                30 * _MHZ,
-                "1.34-30 MHz",
-                t1,
-                "180/f^2",
-                "824/f",
-                "2.19/f",
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-                note="*(180/f^2) " + pw,
-            ),
-            _row(
-                30 * _MHZ,
-                300 * _MHZ,
-                "30-300 MHz",
-                t1,
-                "0.2",
-                "27.5",
-                "0.073",
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-            ),
-            _row(
-                300 * _MHZ,
-                1500 * _MHZ,
-                "300-1,500 MHz",
-                t1,
-                "f/1500",
-                None,
-                None,
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-            ),
-            _row(
-                1500 * _MHZ,
-                100000 * _MHZ,
-                "1,500-100,000 MHz",
-                t1,
-                "1.0",
-                None,
-                None,
-                FOUND,
-                _FCC_FOUND,
-                unit="mW/cm^2",
-            ),
-        )
-    return Limit(
-        id=f"fcc-1.1310/{'occupational' if occ else 'general-population'}",
-        title="FCC maximum permissible exposure (MPE), "
-        + ("occupational/controlled" if occ else "general population/uncontrolled"),
-        document="47 CFR 1.1310 Radiofrequency radiation exposure limits",
-        edition="eCFR current text (Table 1 to paragraph (e)(1)); values unchanged since "
-        "the 1996 Report and Order FCC 96-326",
-        tier="whole-body",
-        population=population,
-        averaging_time_s=360.0 if occ else 1800.0,
-        averaging_tag=FOUND,
-        averaging_reason=("6 min" if occ else "30 min")
-        + ", Table 1 averaging-time column (FOUND, emclabinfo copy of Table 1); the SAR "
-        "paragraphs (b), (c) give the same 6 / 30 min (lawserver copy)",
-        bands=rows,
-        notes=(
-            "Averaging: occupational 6 min, general population 30 min (Table 1). ICNIRP "
-            "2020 whole-body uses 30 min for both tiers.",
-            "MPEs are derived from whole-body SAR and may replace it from 300 kHz to "
-            "6 GHz (1.1310(d)(2)); portable devices (2.1093) must use SAR.",
-            "Table 1 prints power density in mW/cm2 (1 mW/cm2 = 10 W/m2) and f in MHz; "
-            "E and H are printed only below 300 MHz.",
-            "The table prints no inclusivity at the band edges; at a shared edge the more "
-            "restrictive row is used.",
-            "300-1500 MHz: f/1500 (public) and f/300 (occupational) are higher than "
-            "ICNIRP/IEEE fM/200, fM/40 in 400-1500 MHz; equal above 2 GHz.",
-        ),
-        source="47 CFR 1.1310",
-        reference=_FCC_REF,
-    )
-
-
-# ---- Health Canada Safety Code 6 (2015) ----------------------------------------
-_SC6_REF = (
-    "Health Canada (2015) Safety Code 6: Limits of Human Exposure to Radiofrequency "
-    "Electromagnetic Energy in the Frequency Range from 3 kHz to 300 GHz. "
-    "Cat. H129-48/2015E-PDF, ISBN 978-0-660-02466-0"
-)
-_SC6_MEM = (
-    "MEMORY: Tables 5/6 were not found in a copy; recalled. E, H and S of each row agree "
-    "with the plane-wave impedance (E^2/eta0 = S within 0.3 %) and adjacent rows meet "
-    "without a step, which a misremembered coefficient would break"
-)
-_SC6_UNC_S = (
-    "MEMORY, corroborated: Mazar (EMC Europe 2016, https://studylib.net/doc/18695301) "
-    "'at 1,000 MHz the allowed PD levels (W/m2) are ... 2.94 in Canada' = "
-    "0.02619*1000^0.6834 = 2.940; ISED RSS-102 exemption '1.31 x 10-2 f^0.6834 W ... where "
-    "f is in MHz' (https://www.emc.wiki/thread-4335-1-1.html) = this S times 4*pi*(0.2 m)^2, "
-    "which confirms the exponent and that f is in MHz"
-)
-_SC6_AVG_HIGH = "616000/f^1.2"
-
-
-def _sc6(population: str) -> Limit:
-    controlled = population == "occupational"
-    table = "Table 6" if controlled else "Table 5"
-    if controlled:
-        rows = (
-            _row(10 * _MHZ, 20 * _MHZ, "10-20 MHz", table, "10", "61.4", "0.163", MEMORY, _SC6_MEM),
-            _row(
-                20 * _MHZ,
-                48 * _MHZ,
-                "20-48 MHz",
-                table,
-                "44.72/f^0.5",
-                "129.8/f^0.25",
-                "0.3444/f^0.25",
-                MEMORY,
-                _SC6_MEM,
-            ),
-            _row(
-                48 * _MHZ,
-                100 * _MHZ,
-                "48-100 MHz",
-                table,
-                "6.455",
-                "49.33",
-                "0.1309",
-                MEMORY,
-                _SC6_MEM,
-            ),
-            _row(
-                100 * _MHZ,
-                6000 * _MHZ,
-                "100-6000 MHz",
-                table,
-                "0.6455*f^0.5",
-                "15.60*f^0.25",
-                "0.04138*f^0.25",
-                MEMORY,
-                _SC6_MEM + "; E was once recalled as 15.06 and rejected by these checks",
-            ),
-            _row(
-                6000 * _MHZ,
-                15000 * _MHZ,
-                "6000-15000 MHz",
-                table,
-                "50",
-                "137",
-                "0.364",
-                MEMORY,
-                _SC6_MEM,
-            ),
-            _row(
-                15000 * _MHZ,
-                150000 * _MHZ,
-                "15000-150000 MHz",
-                table,
-                "50",
-                "137",
-                "0.364",
-                MEMORY,
-                _SC6_MEM,
-                averaging_min=_SC6_AVG_HIGH,
-                averaging_tag=MEMORY,
-            ),
-            _row(
-                150000 * _MHZ,
-                300000 * _MHZ,
-                "150000-300000 MHz",
-                table,
-                "3.33e-4*f",
-                "0.354*f^0.5",
-                "9.40e-4*f^0.5",
-                MEMORY,
-                _SC6_MEM,
-                averaging_min=_SC6_AVG_HIGH,
-                averaging_tag=MEMORY,
-            ),
-        )
-    else:
-        rows = (
-            _row(
-                10 * _MHZ, 20 * _MHZ, "10-20 MHz", table, "2", "27.46", "0.0728", MEMORY, _SC6_MEM
-            ),
-            _row(
-                20 * _MHZ,
-                48 * _MHZ,
-                "20-48 MHz",
-                table,
-                "8.944/f^0.5",
-                "58.07/f^0.25",
-                "0.1540/f^0.25",
-                MEMORY,
-                _SC6_MEM,
-            ),
-            _row(
-                48 * _MHZ,
-                300 * _MHZ,
-                "48-300 MHz",
-                table,
-                "1.291",
-                "22.06",
-                "0.05852",
-                MEMORY,
-                _SC6_MEM,
-            ),
-            _row(
-                300 * _MHZ,
-                6000 * _MHZ,
-                "300-6000 MHz",
-                table,
-                "0.02619*f^0.6834",
-                "3.142*f^0.3417",
-                "0.008335*f^0.3417",
-                MEMORY,
-                _SC6_UNC_S + ". " + _SC6_MEM,
-            ),
-            _row(
-                6000 * _MHZ,
-                15000 * _MHZ,
-                "6000-15000 MHz",
-                table,
-                "10",
-                "61.4",
-                "0.163",
-                MEMORY,
-                _SC6_MEM + "; 10 W/m2 above 6 GHz also matches the RSS-102 5 W "
-                "e.i.r.p. exemption at 20 cm (5/(4*pi*0.04) = 9.95 W/m2, FOUND)",
-            ),
-            _row(
-                15000 * _MHZ,
-                150000 * _MHZ,
-                "15000-150000 MHz",
-                table,
-                "10",
-                "61.4",
-                "0.163",
-                MEMORY,
-                _SC6_MEM,
-                averaging_min=_SC6_AVG_HIGH,
-                averaging_tag=MEMORY,
-            ),
-            _row(
-                150000 * _MHZ,
-                300000 * _MHZ,
-                "150000-300000 MHz",
-                table,
-                "6.67e-5*f",
-                "0.158*f^0.5",
-                "4.21e-4*f^0.5",
-                MEMORY,
-                _SC6_MEM,
-                averaging_min=_SC6_AVG_HIGH,
-                averaging_tag=MEMORY,
-            ),
-        )
-    env = "controlled environments" if controlled else "uncontrolled environments"
-    return Limit(
-        id=f"sc6-2015/{'controlled' if controlled else 'uncontrolled'}",
-        title=f"Health Canada Safety Code 6 reference levels, {env}",
-        document="Safety Code 6: Limits of Human Exposure to Radiofrequency "
-        "Electromagnetic Energy in the Frequency Range from 3 kHz to 300 GHz",
-        edition="2015 (June 2015, replaces SC6 2009)",
-        tier="whole-body",
-        population=population,
-        averaging_time_s=360.0,
-        averaging_tag=MEMORY,
-        averaging_reason="6 min from 10 MHz to 15 GHz; above 15 GHz 616000/f^1.2 min "
-        "(f in MHz; 6.0 min at 15 GHz, so continuous), held per row. Recalled, not "
-        "verified",
-        bands=rows,
-        notes=(
-            "f is in MHz in Tables 5 and 6 (not fG): the RSS-102 exemption formula "
-            "1.31e-2 f^0.6834 W 'where f is in MHz' (FOUND) is S x 4*pi*(20 cm)^2.",
-            "The thermal reference levels start at 10 MHz; below 10 MHz SC6 sets "
-            "nerve-stimulation levels (instantaneous E and H, other tables) not held here.",
-            "Averaging: 6 min, against 30 min for ICNIRP 2020 whole-body, IEEE 2019 and "
-            "FCC general population.",
-            (
-                "Controlled 0.6455*f^0.5 gives 31.95 W/m2 at 2.45 GHz, below the 50 W/m2 "
-                "of ICNIRP / IEEE / FCC occupational; it reaches 50 W/m2 only at 6 GHz."
-                if controlled
-                else "Uncontrolled 0.02619*f^0.6834 gives 5.42 W/m2 at 2.45 GHz, the most "
-                "restrictive public limit here (ICNIRP, IEEE, FCC: 10 W/m2); the keep-out "
-                "radius scales as 1/sqrt(S), about 1.36x larger."
-            ),
-            "The table prints no inclusivity at band edges; at a shared edge the more "
-            "restrictive row is used (the rows are continuous there anyway).",
-        ),
-        source="Health Canada Safety Code 6 (2015)",
-        reference=_SC6_REF,
-    )
-
-
-# ---- FDA 21 CFR 1030.10 ------------------------------------------------------------
-_FDA_REF = (
-    "21 CFR 1030.10 Microwave ovens, (b) definitions and (c)(1) power density limit; "
-    "FDA/BRH Procedures for Field Testing Microwave Ovens, HEW Publication (FDA) 77-8037 "
-    "(1977)"
-)
-_FDA_WHERE = (
-    "FOUND: (c)(1) quoted 'shall not exceed 1 milliwatt per square centimeter at any "
-    "point 5 centimeters or more from the external surface of the oven, measured prior "
-    "to acquisition by a purchaser, and, thereafter, 5 milliwatts per square centimeter' "
-    "(https://experts123.com/q/is-this-a-cause-for-concern-for-the-pregnant-worker-is-"
-    "there-a-maximum-allowable-limit-for-commercial-microwave-oven-radiation.html) and "
-    "FDA HEW (FDA) 77-8037 (repository henry-1981/Cowork-RA, aria/knowledge/fda/"
-    "03-guidance/538_procedures_for_field_testing_microwave_ovens.md); band from the "
-    "definition 'ranging from 890 megahertz to 6,000 megahertz' (FOUND secondary, Oregon "
-    "OAR 333-112-0005 which mirrors 1030.10(b), https://oregon.public.law/rules/"
-    "oar_333-112-0005)"
-)
-
-
-def _fda(stage: str) -> Limit:
-    before = stage == "before-purchase"
-    value = "1" if before else "5"
-    rows = (
-        _row(
-            890 * _MHZ,
-            6000 * _MHZ,
-            "890-6,000 MHz (oven definition, (b))",
-            "paragraph (c)(1)",
-            value,
-            None,
-            None,
-            FOUND,
-            _FDA_WHERE,
-            unit="mW/cm^2",
-            note="E, H: the standard limits only the equivalent plane-wave power density "
-            "(E_rms^2/377 ohm as the instrument reads it)",
-        ),
-    )
-    return Limit(
-        id=f"fda-1030.10/{stage}",
-        title="FDA microwave-oven leakage limit, "
-        + ("before acquisition by a purchaser" if before else "thereafter (in service)")
-        + ", at 5 cm or more from the external surface",
-        document="21 CFR 1030.10 Performance standard for microwave and radio frequency "
-        "emitting products: microwave ovens",
-        edition="current CFR text (standard in force since 6 Oct 1971)",
-        tier="product-emission",
-        population="general-public",
-        averaging_time_s=None,
-        averaging_tag=FOUND,
-        averaging_reason="none: (c)(1) limits the reading of an instrument that must "
-        "reach 90 % of its steady reading within 3 s (FOUND secondary, Oregon OAR "
-        "333-112-0020 mirroring 1030.10(d)), with the oven at full power, not a time "
-        "average; the limit applies at every instant of operation",
-        bands=rows,
-        notes=(
-            "A product emission limit, not an exposure limit: it bounds leakage 5 cm or "
-            "more from any external surface (including door, handles, latches, knobs) of "
-            "an oven with a 275 mL water load (FOUND, FDA 77-8037), not the body-averaged "
-            "exposure of a person.",
-            (
-                "1 mW/cm2 = 10 W/m2 before purchase equals the ICNIRP/FCC public whole-body "
-                "value numerically, but it is assessed at 5 cm, not over the body."
-                if before
-                else "5 mW/cm2 = 50 W/m2 in service is 9.2x the SC6 uncontrolled limit at "
-                "2.45 GHz (5.42 W/m2)."
-            ),
-            "No averaging time: a duty-cycled oven is judged on the reading while it "
-            "radiates, so use the peak (while radiating) power density against it.",
-        ),
-        source="21 CFR 1030.10",
-        reference=_FDA_REF,
-    )
-
-
-_LIMITS: tuple[Limit, ...] = (
-    _icnirp_whole_body("general-public"),
-    _icnirp_whole_body("occupational"),
-    _icnirp_local("general-public"),
-    _icnirp_local("occupational"),
-    _ieee("general-public"),
-    _ieee("occupational"),
-    _fcc("general-public"),
-    _fcc("occupational"),
-    _sc6("general-public"),
-    _sc6("occupational"),
-    _fda("before-purchase"),
-    _fda("in-service"),
-)
+_LIMITS: tuple[Limit, ...] = _load_tables()
 
 #: The contract's limit ids, in contract order.
 LIMIT_IDS: tuple[str, ...] = tuple(limit.id for limit in _LIMITS)
 _BY_ID = {limit.id: limit for limit in _LIMITS}
 
 
-def _self_check() -> None:
-    """Refuse to import with malformed data (bad formula, tag, unit or tier)."""
-    for limit in _LIMITS:
-        assert limit.tier in TIERS and limit.population in POPULATIONS, limit.id
-        assert limit.averaging_tag in TAGS and limit.averaging_reason, limit.id
-        for band in limit.bands:
-            assert band.low_hz <= band.high_hz, (limit.id, band.printed_range)
-            assert band.power_density_unit in POWER_DENSITY_UNITS, limit.id
-            assert {band.s_tag, band.e_tag, band.h_tag} <= set(TAGS), limit.id
-            assert any(x is not None for x in (band.power_density, band.e_field, band.h_field))
-            for text in (band.power_density, band.e_field, band.h_field, band.averaging_min):
-                if text is not None:
-                    _parse(text)
+# ------------------------------------------------------------ verification in words
+#: Plain names of the tagged quantities, for people.
+_TAG_NAMES = {"S": "power density", "E": "E field", "H": "H field", "averaging": "averaging time"}
+#: The sentence for values recalled from memory; every human-facing output uses it.
+RECALLED = "value recalled, not checked against the printed standard"
+#: The sentence for values read in the document or a faithful copy.
+CHECKED = "checked against the published table (or a faithful copy of it)"
+#: The sentence for a user threshold's values.
+GIVEN = "given in the scenario file (a user threshold, not a published value)"
+#: What every output says beside a device threshold.
+DEVICE_NOTE = (
+    "Device thresholds are about equipment, not people: they compare the RMS E field while "
+    "the sources radiate (every source on, no duty-cycle averaging) with an equipment "
+    "threshold (an immunity test level, or one of your own); they say nothing about human "
+    "exposure."
+)
 
 
-_self_check()
+def _join(words: list[str]) -> str:
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+
+
+def verification_text(verification: str) -> str:
+    """The verification tags of a limit value, as a plain sentence for people.
+
+    Parameters
+    ----------
+    verification : str
+        Tags as in :attr:`LimitValue.verification` (and the ``"verification"`` of the
+        assessment JSON), e.g. ``"S MEMORY; E NA MEMORY; H NA MEMORY; averaging FOUND"``.
+
+    Returns
+    -------
+    str
+        E.g. ``"Power density and the absence of E and H values: value recalled, not
+        checked against the printed standard. Averaging time: checked against the
+        published table (or a faithful copy of it)."``  A cell the table prints as NA
+        is named only when its absence was recalled.  Empty input gives ``""``.
+
+    Raises
+    ------
+    ValueError
+        If a part is not ``"<S|E|H|averaging> [NA] <FOUND|MEMORY>"``.
+    """
+    if not verification.strip():
+        return ""
+    found: list[str] = []
+    recalled: list[str] = []
+    absent_recalled: list[str] = []
+    given: list[str] = []
+    for part in (p.strip() for p in verification.split(";")):
+        words = part.split()
+        ok = len(words) in (2, 3) and words[0] in _TAG_NAMES and words[-1] in (*TAGS, USER)
+        if not ok or (len(words) == 3 and words[1] != "NA"):
+            raise ValueError(f"verification tag {part!r} is not '<quantity> [NA] FOUND|MEMORY'")
+        if len(words) == 3:
+            if words[-1] == MEMORY:
+                absent_recalled.append(words[0])
+            continue
+        if words[-1] == USER:
+            given.append(_TAG_NAMES[words[0]])
+            continue
+        (found if words[-1] == FOUND else recalled).append(_TAG_NAMES[words[0]])
+    if absent_recalled:
+        recalled.append(f"the absence of {_join(absent_recalled)} values")
+    sentences = []
+    if recalled:
+        text = _join(recalled)
+        sentences.append(f"{text[0].upper()}{text[1:]}: {RECALLED}.")
+    if found:
+        text = _join(found)
+        sentences.append(f"{text[0].upper()}{text[1:]}: {CHECKED}.")
+    if given:
+        text = _join(given)
+        sentences.append(f"{text[0].upper()}{text[1:]}: {GIVEN}.")
+    return " ".join(sentences)
+
+
+def is_recalled(verification: str) -> bool:
+    """Whether any value behind a limit was recalled rather than read (a MEMORY tag)."""
+    return MEMORY in verification.replace(";", " ").split()
 
 
 # ------------------------------------------------------------------ public API
@@ -1631,13 +1036,175 @@ def quotient(
 
     Notes
     -----
+    A device threshold (``limit.kind == "device"``) compares one quantity: ``(E/E_lim)^2``
+    where the threshold is an E field (and ``e_v_m`` is passed), else ``S/S_lim``.  Which
+    fields to pass (time-averaged or while radiating) follows ``limit.basis``; see
+    :func:`field_quotient`.
+
     Fields enter squared so every ratio is a ratio of powers; with a plane wave
     (E = eta0 H, S = E^2/eta0) the three ratios coincide where the table is itself
     plane-wave consistent.
     """
-    q = _nonnegative("power_density_w_m2", power_density_w_m2) / limit.power_density_w_m2
+    s = _nonnegative("power_density_w_m2", power_density_w_m2)
+    if limit.kind == "device":
+        # A device threshold is one quantity: the E field where it is given as E (the
+        # immunity test level), else the power density.
+        if limit.power_density_derived and e_v_m is not None and limit.e_v_m is not None:
+            q = (_nonnegative("e_v_m", e_v_m) / limit.e_v_m) ** 2
+            return np.asarray(q * np.ones_like(s), dtype=float)
+        return np.asarray(s / limit.power_density_w_m2, dtype=float)
+    q = s / limit.power_density_w_m2
     if e_v_m is not None and limit.e_v_m is not None:
         q = np.maximum(q, (_nonnegative("e_v_m", e_v_m) / limit.e_v_m) ** 2)
     if h_a_m is not None and limit.h_a_m is not None:
         q = np.maximum(q, (_nonnegative("h_a_m", h_a_m) / limit.h_a_m) ** 2)
     return np.asarray(q, dtype=float)
+
+
+class FieldsOnBothBases(Protocol):
+    """Fields time-averaged and while radiating, as :class:`keepclear.fields.field.FieldResult`."""
+
+    power_density_w_m2: NDArray[np.float64]
+    e_v_m: NDArray[np.float64]
+    h_a_m: NDArray[np.float64]
+    peak_power_density_w_m2: NDArray[np.float64]
+    peak_e_v_m: NDArray[np.float64]
+    peak_h_a_m: NDArray[np.float64]
+
+
+def field_quotient(limit: LimitValue, fields: FieldsOnBothBases) -> NDArray[np.float64]:
+    """Exposure quotient of one limit on its own basis.
+
+    Parameters
+    ----------
+    limit : LimitValue
+    fields : FieldsOnBothBases
+        Fields at the points, time-averaged and while radiating (a ``FieldResult``).
+
+    Returns
+    -------
+    ndarray
+        :func:`quotient` of the time-averaged fields for a ``"time-averaged"`` limit, of
+        the fields while every source radiates (no duty-cycle averaging) for a
+        ``"while-on"`` limit (the device thresholds).
+    """
+    if limit.while_on:
+        return quotient(limit, fields.peak_power_density_w_m2, fields.peak_e_v_m, fields.peak_h_a_m)
+    return quotient(limit, fields.power_density_w_m2, fields.e_v_m, fields.h_a_m)
+
+
+# ------------------------------------------------------------------ user thresholds
+#: Prefix of the ids of user thresholds.
+CUSTOM_PREFIX = "custom/"
+
+
+def custom_threshold(
+    name: str,
+    *,
+    basis: str,
+    e_v_m: float | None = None,
+    power_density_w_m2: float | None = None,
+) -> Limit:
+    """A user threshold (``[[exposure.threshold]]``) as a device-kind limit.
+
+    Parameters
+    ----------
+    name : str
+        Its name; the id is ``"custom/" + name``.
+    basis : str
+        ``"while-on"`` or ``"time-averaged"``.
+    e_v_m : float, optional
+        RMS E field threshold [V m^-1] (give this or ``power_density_w_m2``).
+    power_density_w_m2 : float, optional
+        Plane-wave-equivalent power density threshold [W m^-2].
+
+    Returns
+    -------
+    Limit
+        Valid at every frequency.  ``e_v_m`` and ``power_density_w_m2`` of its value are
+        both filled, one from the other by ``S = E^2/eta0``; the quotient compares the
+        quantity given.
+
+    Raises
+    ------
+    ValueError
+        For an empty name, a basis not in :data:`BASES`, both or neither threshold
+        given, or a threshold that is not a finite number > 0.
+    """
+    if not isinstance(name, str) or not name:
+        raise ValueError("a threshold needs a non-empty name")
+    if basis not in BASES:
+        raise ValueError(f"basis must be one of {BASES}, got {basis!r}")
+    if (e_v_m is None) == (power_density_w_m2 is None):
+        raise ValueError("give exactly one of e_v_m and power_density_w_m2")
+    value = e_v_m if e_v_m is not None else power_density_w_m2
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ValueError(f"the threshold must be a number, got {value!r}")
+    if not math.isfinite(value) or value <= 0:
+        raise ValueError(f"the threshold must be a finite number > 0, got {value!r}")
+    if e_v_m is not None:
+        s_text, e_text = None, repr(float(e_v_m))
+    else:
+        s_text = repr(float(power_density_w_m2))  # type: ignore[arg-type]
+        e_text = repr(math.sqrt(float(power_density_w_m2) * ETA0_OHM))  # type: ignore[arg-type]
+    band = Band(
+        low_hz=0.0,
+        high_hz=math.inf,
+        low_inclusive=False,
+        high_inclusive=False,
+        printed_range="every frequency",
+        table="[[exposure.threshold]]",
+        power_density=s_text,
+        e_field=e_text,
+        h_field=None,
+        s_tag=USER,
+        e_tag=USER,
+        h_tag=USER,
+        where="given in the scenario file",
+    )
+    on = "while the sources radiate" if basis == WHILE_ON else "time-averaged"
+    return Limit(
+        id=CUSTOM_PREFIX + name,
+        title=f"User threshold '{name}' ({on})",
+        document="the scenario file",
+        edition="-",
+        tier="device",
+        population="equipment",
+        averaging_time_s=None,
+        averaging_tag=USER,
+        averaging_reason="a user threshold has no averaging time; basis: " + basis,
+        bands=(band,),
+        notes=(DEVICE_NOTE,) if basis == WHILE_ON else (),
+        source="user threshold",
+        reference="the scenario file, [[exposure.threshold]]",
+        kind="device",
+        basis=basis,
+    )
+
+
+def resolve_limit(limit_id: str, thresholds: Iterable[Limit] = ()) -> Limit:
+    """The limit with an id, among the user thresholds first, then the published ones.
+
+    Parameters
+    ----------
+    limit_id : str
+        A limit id (``"icnirp-2020/general-public"``, ``"custom/router"``).
+    thresholds : iterable of Limit
+        The scenario's user thresholds.
+
+    Raises
+    ------
+    LimitError
+        For an unknown id, naming it, the closest known id and all known ids.
+    """
+    own = {limit.id: limit for limit in thresholds}
+    if isinstance(limit_id, str) and limit_id in own:
+        return own[limit_id]
+    if isinstance(limit_id, str) and limit_id not in _BY_ID:
+        known = (*LIMIT_IDS, *own)
+        raise LimitError(
+            f"unknown limit id {limit_id!r}"
+            + suggest(limit_id, known)
+            + f"; known ids: {', '.join(known)}"
+        )
+    return get_limit(limit_id)

@@ -72,7 +72,7 @@ from scipy import constants
 
 from keepclear.antennas.base import ModelInputError, ModelRangeWarning
 
-from .validate import suggest
+from .errors import suggest
 
 #: The edition whose Table 3 is encoded here.
 P2040_EDITION: Final[str] = "ITU-R P.2040-3 (08/2023), Table 3"

@@ -13,7 +13,6 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from . import limits as limits_mod
 from . import spatial_average as sa
 from .scenario import Scenario
 from .stay_time import allowed_stay
@@ -29,7 +28,7 @@ def allowed_seconds(
     seconds: dict[str, float | None] = {}
     rules: dict[str, str] = {}
     for limit_id, q in quotients.items():
-        value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+        value = scenario.limit_value(limit_id)
         stay = allowed_stay(value, float(q[index]))
         seconds[limit_id] = stay.seconds
         rules[limit_id] = stay.rule
@@ -61,7 +60,7 @@ def add_spatial_averages(scenario: Scenario, entries: list[dict[str, Any]]) -> N
         entry["spatial_average_points"] = sa.POINTS
         compared = {}
         for limit_id in entry.get("quotients", {}):
-            value = limits_mod.get_limit(limit_id).at(scenario.frequency_hz)
+            value = scenario.limit_value(limit_id)
             if sa.compared_with_average(limit_id, getattr(value, "kind", "") == "device"):
                 compared[limit_id] = {
                     "compared_with": "spatial average",

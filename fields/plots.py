@@ -147,11 +147,11 @@ def reflection_text(scenario: Scenario) -> str:
 
 
 def _reflector_name(reflector: Any) -> str:
-    label = getattr(reflector, "label", "") or "plane"
-    material = getattr(reflector, "material", None)
+    label = reflector.label or "plane"
+    material = reflector.material
     if material and material not in label:
         return f"{label} ({material})"
-    gamma = getattr(reflector, "reflection_coefficient", None)
+    gamma = reflector.reflection_coefficient
     if gamma is not None:
         return f"{label} (Gamma = {gamma:g})"
     return label
@@ -349,8 +349,9 @@ def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> Non
     s0, s1, t0, t1 = grid.extent_m
     ss, tt = np.meshgrid(grid.s_m, grid.t_m)
     for reflector in scenario.reflectors:
-        if getattr(reflector, "is_finite", False):
-            _draw_plate(ax, plane, reflector.outline(), grid.step_m)
+        corners = maps.object_corners(reflector)
+        if corners is not None:  # a finite plate: only the plate itself is hatched
+            _draw_plate(ax, plane, corners, grid.step_m)
             continue
         trace = maps.plane_trace(plane, reflector.point_m, reflector.normal)
         if trace is None:
@@ -441,7 +442,12 @@ def _draw_object(
 ) -> None:
     if corners is None:
         return
-    colour = {"shield": "#3b3b8f", "enclosure": "#2d2d2d", "opening": "#e0006c"}[role]
+    colour = {
+        "shield": "#3b3b8f",
+        "enclosure": "#2d2d2d",
+        "opening": "#e0006c",
+        "source": "#0d2a6b",
+    }[role]
     section = maps.convex_section(plane, corners)
     if section is not None:
         if section.shape[0] == 2:
@@ -468,18 +474,7 @@ def _draw_sources(
     for source in scenario.sources:
         st, offset = plane.to_plane(source.position_m)
         near = abs(float(offset[0])) <= max(step, 1e-6)
-        for outline in maps.source_outlines(source):
-            pts, off = plane.to_plane(outline.points_m)
-            on = bool(np.all(np.abs(off) <= max(step, 1e-6)))
-            kw = {
-                "color": "#0d2a6b",
-                "lw": 1.8 if on else 1.0,
-                "zorder": 7,
-                "ls": "-" if on else "--",
-            }
-            if outline.closed:
-                pts = np.vstack([pts, pts[:1]])
-            ax.plot(pts[:, 0], pts[:, 1], **kw)
+        _draw_object(ax, plane, maps.object_corners(source.radiator), "source", step)
         ax.plot(
             st[0, 0],
             st[0, 1],
@@ -491,7 +486,7 @@ def _draw_sources(
             ls="none",
             zorder=8,
         )
-        if source.antenna in ("open-waveguide", "horn"):
+        if source.radiator.boresight is not None:
             _draw_boresight(ax, plane, source, st[0], width)
         if labels:
             where = _off_plane(plane, source.position_m, float(offset[0]))
@@ -509,7 +504,7 @@ def _draw_sources(
 
 
 def _draw_boresight(ax: Any, plane: maps.Plane, source: Any, start: NDArray, width: float) -> None:
-    axis = source.radiator.placement.rotation[:, 2]
+    axis = source.radiator.boresight
     along = np.array([axis @ plane.u, axis @ plane.v])
     length = 0.12 * width
     if np.hypot(*along) < 0.2:
@@ -677,7 +672,7 @@ def _legend_handles(
                 label="keep-out sphere about the first source, cut by this plane",
             )
         )
-    apertures = any(s.antenna in ("open-waveguide", "horn") for s in scenario.sources)
+    apertures = any(s.radiator.boresight is not None for s in scenario.sources)
     handles.append(
         Line2D(
             [],
@@ -706,7 +701,7 @@ def _legend_handles(
             )
         )
     plane = result.grid.plane
-    infinite = [r for r in scenario.reflectors if not getattr(r, "is_finite", False)]
+    infinite = [r for r in scenario.reflectors if maps.object_corners(r) is None]
     if any(maps.plane_trace(plane, r.point_m, r.normal) for r in infinite):
         handles.append(
             Line2D([], [], color="#333333", lw=2.4, label="reflecting plane (hatched: behind it)")

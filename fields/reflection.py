@@ -151,8 +151,6 @@ References
 
 from __future__ import annotations
 
-import math
-import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from dataclasses import field as dataclass_field
@@ -164,7 +162,6 @@ from numpy.typing import ArrayLike, NDArray
 from keepclear.antennas.base import (
     C_M_S,
     ModelInputError,
-    ModelRangeWarning,
     Radiator,
     as_points,
     unit_vector,
@@ -172,13 +169,11 @@ from keepclear.antennas.base import (
 
 from . import diffraction
 from .materials import (
-    MATERIAL_NAMES,
     canonical_material_name,
     complex_permittivity,
-    out_of_range_message,
     relative_permittivity_itu_p2040,
 )
-from .validate import Table
+from .surroundings import ReflectorModel
 
 #: Distance below which a point counts as on a plane [m].
 PLANE_TOLERANCE_M: Final[float] = 1e-9
@@ -642,7 +637,11 @@ class Reflector:
         )
 
     def outline(self) -> NDArray[np.float64] | None:
-        """Corners (4, 3) of a finite plate for drawing; None for an infinite plane [m]."""
+        """Corners (4, 3) of a finite plate for drawing, in order around it [m].
+
+        None for an infinite plane, which is drawn as its trace through :attr:`point_m`
+        with :attr:`normal`.
+        """
         return self.corners() if self.is_finite else None
 
     def _crossing(
@@ -741,112 +740,10 @@ class Reflector:
         return best
 
 
-# ------------------------------------------------------------------- table reading
-def reflector_from_table(table: Table, frequency_hz: float) -> Reflector:
-    """Build a :class:`Reflector` from one ``[[reflector]]`` table.
-
-    Parameters
-    ----------
-    table : Table
-        The table, with keys ``point_m``, ``normal`` and exactly one of
-        ``material`` | (``relative_permittivity`` and ``conductivity_s_m``) |
-        ``reflection_coefficient``, plus an optional ``name``.
-    frequency_hz : float
-        The scenario frequency, for the material range check [Hz].
-
-    Returns
-    -------
-    Reflector
-
-    Raises
-    ------
-    ScenarioError
-        Located at the offending key: missing or conflicting forms, out-of-range
-        values, an unknown material (with the known names and a suggestion), a
-        zero normal, an unknown key.
-
-    Warns
-    -----
-    ModelRangeWarning
-        When the frequency is outside the material's ITU-R P.2040 range.
-    """
-    point = table.vector("point_m", unit="m")
-    normal = table.vector("normal", nonzero=True)
-    name = table.string("name", None)
-    has = {key: key in table.data for key in REFLECTOR_KEYS}
-    forms = []
-    if has["material"]:
-        forms.append("material")
-    if has["relative_permittivity"] or has["conductivity_s_m"]:
-        forms.append(
-            "relative_permittivity" if has["relative_permittivity"] else "conductivity_s_m"
-        )
-    if has["reflection_coefficient"]:
-        forms.append("reflection_coefficient")
-    if not forms:
-        table.finish(REFLECTOR_KEYS)  # a misspelt key gets its "did you mean" first
-        raise table.error(
-            "material",
-            "is required here: give material = an ITU-R P.2040 name or 'metal' ("
-            + ", ".join(MATERIAL_NAMES)
-            + "), or relative_permittivity and conductivity_s_m, or reflection_coefficient",
-        )
-    if len(forms) > 1:
-        raise table.error(
-            forms[1],
-            f"conflicts with {forms[0]}: give exactly one of material, "
-            "relative_permittivity + conductivity_s_m, or reflection_coefficient",
-        )
-    label = name if name else (table.path or "reflector")
-    kwargs: dict[str, object] = {}
-    if forms[0] == "material":
-        kwargs["material"] = table.string("material")
-    elif forms[0] in ("relative_permittivity", "conductivity_s_m"):
-        kwargs["relative_permittivity"] = table.number("relative_permittivity", minimum=1.0)
-        kwargs["conductivity_s_m"] = table.number("conductivity_s_m", minimum=0.0, unit="S/m")
-    else:
-        kwargs["reflection_coefficient"] = table.number(
-            "reflection_coefficient", minimum=-1.0, maximum=1.0
-        )
-    kwargs.update(_finite_plate_keys(table))
-    reflector = table.build(Reflector, point_m=point, normal=normal, label=label, **kwargs)
-    if reflector.material is not None:
-        message = out_of_range_message(reflector.material, frequency_hz)
-        if message is not None:
-            where = ": ".join(p for p in (table.source, table.key_path("material")) if p)
-            warnings.warn(f"{where}: {message}", ModelRangeWarning, stacklevel=2)
-    table.finish()
-    return reflector
-
-
-def _finite_plate_keys(table: Table) -> dict[str, object]:
-    """The optional ``size_m = [w, h]`` and ``up`` of a finite reflector, checked."""
-    out: dict[str, object] = {}
-    value = table.raw("size_m", None)  # read even when absent: a misspelling gets its hint
-    if value is not None:
-        if (
-            not isinstance(value, list)
-            or len(value) != 2
-            or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
-            or not all(math.isfinite(float(v)) and 0 < float(v) <= 1e4 for v in value)
-        ):
-            raise table.error(
-                "size_m",
-                f"must be [width, height], two numbers > 0 and <= 10000 [m], got {value!r}",
-            )
-        out["size_m"] = (float(value[0]), float(value[1]))
-    up = table.vector("up", None, nonzero=True)
-    if up is not None:
-        if "size_m" not in out:
-            raise table.error(
-                "up", "is only for a finite reflector: give size_m = [width, height] too"
-            )
-        out["up"] = up
-    return out
-
-
 # ------------------------------------------------------------------ image method
-def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.float64]) -> None:
+def _check_source_side(
+    reflectors: Sequence[ReflectorModel], position_m: NDArray[np.float64]
+) -> None:
     for r in reflectors:
         d = float(r.signed_distance_m(position_m)[0])
         if d < -PLANE_TOLERANCE_M:
@@ -858,7 +755,7 @@ def _check_source_side(reflectors: Sequence[Reflector], position_m: NDArray[np.f
 
 
 def _accessible(
-    reflectors: Sequence[Reflector], points_m: NDArray[np.float64], exclude: Sequence[int]
+    reflectors: Sequence[ReflectorModel], points_m: NDArray[np.float64], exclude: Sequence[int]
 ) -> NDArray[np.bool_]:
     """Points on the source side (or on) every infinite plane not in ``exclude``.
 
@@ -872,7 +769,7 @@ def _accessible(
 
 
 def _crossing_either_way(
-    reflector: Reflector, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+    reflector: ReflectorModel, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
     """Where segments with ends on opposite sides (or on) of the plane meet it."""
     d0 = reflector.signed_distance_m(start_m)
@@ -884,7 +781,7 @@ def _crossing_either_way(
 
 
 def _crossing(
-    reflector: Reflector, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+    reflector: ReflectorModel, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
     """Where segments from ``start`` (far side or on) to ``end`` (near side) meet the plane."""
     d0 = reflector.signed_distance_m(start_m)
@@ -903,7 +800,7 @@ def _crossing(
 def _image_operator(
     field: FieldFunction,
     reference_m: NDArray[np.float64],
-    reflector: Reflector,
+    reflector: ReflectorModel,
     frequency_hz: float,
 ) -> FieldFunction:
     """The reflected field of ``field`` (reference point ``reference_m``) in one plane.
@@ -946,7 +843,7 @@ def _image_operator(
     return reflected
 
 
-def image_labels(reflectors: Sequence[Reflector], order: int = 1) -> list[str]:
+def image_labels(reflectors: Sequence[ReflectorModel], order: int = 1) -> list[str]:
     """Labels of the images :func:`reflected_fields` returns, in the same order.
 
     Parameters
@@ -975,7 +872,7 @@ def image_labels(reflectors: Sequence[Reflector], order: int = 1) -> list[str]:
 
 def reflected_fields(
     radiator: Radiator,
-    reflectors: Sequence[Reflector],
+    reflectors: Sequence[ReflectorModel],
     points_m: ArrayLike,
     frequency_hz: float,
     order: int = 1,
@@ -1082,7 +979,7 @@ def reflected_fields(
     return images
 
 
-def behind(reflectors: Sequence[Reflector], points_m: ArrayLike) -> NDArray[np.bool_]:
+def behind(reflectors: Sequence[ReflectorModel], points_m: ArrayLike) -> NDArray[np.bool_]:
     """Whether each point (N, 3) is on the far side of any infinite reflector (N,) bool.
 
     Points on a plane (within :data:`PLANE_TOLERANCE_M`) are not behind it.  Finite
@@ -1094,7 +991,7 @@ def behind(reflectors: Sequence[Reflector], points_m: ArrayLike) -> NDArray[np.b
 
 
 def transmission_power_factor(
-    reflectors: Sequence[Reflector],
+    reflectors: Sequence[ReflectorModel],
     radiator_position_m: ArrayLike,
     points_m: ArrayLike,
     frequency_hz: float,
@@ -1153,7 +1050,7 @@ def transmission_power_factor(
 
 
 def plate_obstacle_factor(
-    reflectors: Sequence[Reflector],
+    reflectors: Sequence[ReflectorModel],
     start_m: ArrayLike,
     end_m: ArrayLike,
     frequency_hz: float,
@@ -1191,7 +1088,7 @@ def plate_obstacle_factor(
     return out
 
 
-def has_obstacles(reflectors: Sequence[Reflector]) -> bool:
+def has_obstacles(reflectors: Sequence[ReflectorModel]) -> bool:
     """Whether any reflector is a finite metal plate (an obstacle for rays)."""
     return any(r.is_obstacle for r in reflectors)
 
@@ -1264,6 +1161,5 @@ __all__ = [
     "normal_incidence_coefficient_from_permittivity",
     "plate_obstacle_factor",
     "reflected_fields",
-    "reflector_from_table",
     "transmission_power_factor",
 ]

@@ -22,6 +22,7 @@ import datetime as _dt
 import html
 from typing import Any
 
+from . import limits as limits_mod
 from .cautions import CAUTION_LINES, caution_block
 from .describe import power_text
 from .report_text import density_text, pair_text, share_text
@@ -744,7 +745,14 @@ def _limit_sources(data: dict[str, Any]) -> str:
                 _e(verification_sentences(v.get("verification", ""))),
             ]
         )
-    return _table(
+    devices = [v["id"] for v in data["limits"] if v.get("kind") == "device"]
+    note = (
+        f"<p><strong>Equipment, not people.</strong> {_e(', '.join(devices))}: "
+        f"{_e(limits_mod.DEVICE_NOTE)}</p>"
+        if devices
+        else ""
+    )
+    return note + _table(
         [
             "limit",
             f"value at {data['frequency_hz'] / 1e9:g} GHz",
@@ -757,59 +765,22 @@ def _limit_sources(data: dict[str, Any]) -> str:
     )
 
 
-_TAG_WORDS = {"S": "power density", "E": "E field", "H": "H field", "averaging": "averaging time"}
-
-
 def verification_sentences(verification: str) -> str:
     """A limit's verification tags (``"S MEMORY; E NA FOUND; ..."``) as plain sentences.
 
-    Uses :func:`keepclear.fields.limits.verification_text` where the limits module has
-    it; otherwise says the same in the report's own words: which values were checked
-    against the published table (FOUND), which are recalled and not checked (MEMORY),
-    and which quantities the standard gives no value for (NA).  Text that is not in the
-    tag form is shown as it is.
+    :func:`keepclear.fields.limits.verification_text`; text that is not in the tag form
+    is shown as it is.
     """
-    from . import limits as limits_mod
-
-    text_of = getattr(limits_mod, "verification_text", None)
-    if text_of is not None:
-        try:
-            return str(text_of(verification))
-        except ValueError:
-            return verification
-    groups: dict[str, list[str]] = {"FOUND": [], "MEMORY": [], "OTHER": []}
-    absent: list[str] = []
-    for part in (p.strip() for p in verification.split(";") if p.strip()):
-        words = part.split()
-        if len(words) not in (2, 3) or words[0] not in _TAG_WORDS:
-            return verification
-        name = _TAG_WORDS[words[0]]
-        if len(words) == 3 and words[1] == "NA":
-            absent.append(name)
-            continue
-        groups[words[-1] if words[-1] in ("FOUND", "MEMORY") else "OTHER"].append(name)
-    sentences = []
-    if groups["FOUND"]:
-        sentences.append(
-            _sentence(_join(groups["FOUND"])) + ": checked against the published table."
-        )
-    if groups["MEMORY"]:
-        sentences.append(
-            _sentence(_join(groups["MEMORY"]))
-            + ": recalled, not yet checked against the printed standard."
-        )
-    if groups["OTHER"]:
-        sentences.append(_sentence(_join(groups["OTHER"])) + ": as given by the user.")
-    if absent:
-        sentences.append(f"The standard gives no {_join(absent, 'or')} value at this frequency.")
-    return " ".join(sentences)
-
-
-def _join(words: list[str], last: str = "and") -> str:
-    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + f" {last} " + words[-1]
+    try:
+        return limits_mod.verification_text(verification)
+    except ValueError:
+        return verification
 
 
 _REFERENCES = (
+    "IEC 61000-4-3:2020 (Ed. 4.0), Radiated, radio-frequency, electromagnetic field immunity "
+    "test, Table 1 (test levels); IEC 60601-1-2:2014, Table 9 (proximity fields from RF "
+    "wireless communications equipment, 2 450 MHz: 28 V/m).",
     "ICNIRP, Guidelines for limiting exposure to electromagnetic fields (100 kHz to 300 GHz), "
     "Health Physics 118(5):483–524, 2020, doi:10.1097/HP.0000000000001210 (Tables 5, 6).",
     "IEEE Std C95.1-2019, Safety Levels with Respect to Human Exposure to Electric, Magnetic, "

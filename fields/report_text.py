@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import textwrap
 from typing import Any
 
 import numpy as np
@@ -54,26 +55,106 @@ def limits_table(data: dict[str, Any]) -> str:
     )
     if data.get("not_covering_frequency"):
         text += "\n\nNot defined at this frequency: " + ", ".join(data["not_covering_frequency"])
-    return text
+    return text + "\n\n" + verification_block(data)
 
 
-def probe_table(data: dict[str, Any]) -> str:
+def _wrap(text: str, width: int = 100) -> str:
+    return textwrap.fill(text, width, subsequent_indent="  ", break_on_hyphens=False)
+
+
+def verification_block(data: dict[str, Any]) -> str:
+    """Which limit values were checked against the printed standard, in plain words.
+
+    ``data`` is a ``limits``-shaped dict; a limit row without ``"verification"`` is
+    looked up in the limit library at ``data["frequency_hz"]``.
+    """
+    from . import limits as limits_mod
+
+    lines = ["Verification of the values:"]
+    checked = []
+    for v in data["limits"]:
+        tags = v.get("verification")
+        if tags is None and v["id"] in limits_mod.LIMIT_IDS:
+            tags = limits_mod.get_limit(v["id"]).at(data["frequency_hz"]).verification
+        if not tags:
+            continue
+        if limits_mod.is_recalled(tags):
+            lines.append(_wrap(f"- {v['id']}: {limits_mod.verification_text(tags)}"))
+        else:
+            checked.append(v["id"])
+    if checked:
+        lines.append(
+            _wrap(
+                f"- every value of {', '.join(checked)}: {limits_mod.CHECKED}."
+                if len(lines) > 1
+                else f"- every value above: {limits_mod.CHECKED}."
+            )
+        )
+    return "\n".join(lines) if len(lines) > 1 else ""
+
+
+def probe_table(data: dict[str, Any], scenario: Any = None) -> str:
     """The ``probe`` listing: one block per point."""
+    devices = device_ids(
+        {k for p in data["points"] for k in p["quotients"]},
+        scenario,
+    )
     lines = [f"Scenario: {data['scenario']}    reflections: {data['reflections']}", ""]
     for p in data["points"]:
         x, y, z = p["position_m"]
+        inside = bool(p.get("inside_source"))
         lines.append(f"Point ({x:g}, {y:g}, {z:g}) m")
+        if inside:
+            lines += [
+                "  INSIDE A SOURCE or on its metal (a guide, a horn, a box, or within 1 mm of a",
+                "  wire or a plate): nobody can stand here. The model's numbers follow; maps",
+                "  count this place as over every limit.",
+            ]
         lines.append(
-            f"  E {_fmt(p['e_v_m'])} V/m   H {_fmt(p['h_a_m'])} A/m   "
+            f"  E {_fmt(p['e_v_m'])} V/m time-averaged, "
+            f"{_fmt(p.get('peak_e_v_m'))} V/m while radiating   "
+            f"H {_fmt(p['h_a_m'])} A/m   "
             f"S {density_text(p['power_density_w_m2'])} time-averaged, "
             f"{density_text(p['peak_power_density_w_m2'])} while radiating"
         )
         for limit_id, q in p["quotients"].items():
-            verdict = "EXCEEDS" if q >= 1 else "below"
-            lines.append(f"  {limit_id:36s} {share_text(q):>14s} of limit  {verdict}")
+            verdict = "EXCEEDS" if q >= 1 else ("inside a source" if inside else "below")
+            device = " (equipment, while radiating)" if limit_id in devices else ""
+            lines.append(f"  {limit_id:36s} {share_text(q):>14s} of limit  {verdict}{device}")
         lines += probe_extras(p)
         lines.append("")
+    if devices:
+        lines.append(_wrap(device_note()))
     return "\n".join(lines).rstrip()
+
+
+def device_note() -> str:
+    """The plain sentence every output prints beside device thresholds."""
+    from . import limits as limits_mod
+
+    return limits_mod.DEVICE_NOTE
+
+
+def device_ids(limit_ids: Any, scenario: Any = None) -> set[str]:
+    """The ids among ``limit_ids`` that are device thresholds (equipment, not people)."""
+    from . import limits as limits_mod
+
+    out = set()
+    for limit_id in limit_ids:
+        if scenario is not None:
+            try:
+                limit = scenario.limit(limit_id)
+            except limits_mod.LimitError:
+                continue
+        elif limit_id in limits_mod.LIMIT_IDS:
+            limit = limits_mod.get_limit(limit_id)
+        else:  # a user threshold of a scenario not at hand: always a device kind
+            if limit_id.startswith(limits_mod.CUSTOM_PREFIX):
+                out.add(limit_id)
+            continue
+        if limit.kind == "device":
+            out.add(limit_id)
+    return out
 
 
 def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = False) -> str:
@@ -141,7 +222,17 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
             "every limit); 'outside enclosure' counts only points outside the box, and 'clear of "
             "enclosure' is how far from its outer surface the farthest of them lies.",
         ]
-    if scenario is not None and np.any([k["distance_m"] > 0 for k in data["keepout"]]):
+    devices = device_ids([k["limit"] for k in data["keepout"]], scenario)
+    if devices:
+        lines += [
+            "",
+            _wrap(
+                f"{', '.join(sorted(devices))}: keep sensitive equipment (not people) outside "
+                "that radius. " + device_note()
+            ),
+        ]
+    people = [k for k in data["keepout"] if k["limit"] not in devices]
+    if scenario is not None and np.any([k["distance_m"] > 0 for k in people]):
         lines += ["", "Keep people outside this radius while the source can radiate."]
     return "\n".join(lines)
 

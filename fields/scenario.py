@@ -20,6 +20,7 @@ whole scenario of its own.
 from __future__ import annotations
 
 import copy
+import re
 import tomllib
 from collections.abc import Callable
 from contextvars import ContextVar
@@ -28,12 +29,13 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import Placement, Radiator
 
 from . import limits as limits_mod
 from .errors import InputError, LimitError, ScenarioError
+from .surroundings import EnclosureModel, ReflectorModel, ShieldModel
 from .validate import Table, suggest
 
 #: Default operating frequency [Hz] (the 2.45 GHz ISM band centre).
@@ -42,12 +44,22 @@ DEFAULT_FREQUENCY_HZ = 2.45e9
 DEFAULT_LIMIT_IDS = ("icnirp-2020/general-public", "icnirp-2020/occupational")
 ANTENNA_KINDS = ("isotropic", "dipole", "monopole", "open-waveguide", "horn")
 REFLECTION_MODES = ("envelope", "coherent")
+#: Grounds a monopole may stand on (contract, Additions: "Finite ground for a monopole").
+GROUND_KINDS = ("infinite", "plate", "box")
 #: Keys a [[source]] table may hold, per antenna kind (besides the common ones).
 _COMMON_SOURCE_KEYS = ("id", "antenna", "power_w", "duty_cycle", "position_m")
 _KIND_KEYS: dict[str, tuple[str, ...]] = {
     "isotropic": ("gain_dbi", "polarization"),
     "dipole": ("axis", "length_m"),
-    "monopole": ("axis", "length_m"),
+    "monopole": (
+        "axis",
+        "length_m",
+        "ground",
+        "ground_size_m",
+        "ground_up",
+        "ground_offset_m",
+        "box_depth_m",
+    ),
     "open-waveguide": ("boresight", "polarization", "waveguide", "broad_m", "narrow_m"),
     "horn": (
         "boresight",
@@ -75,6 +87,8 @@ _TOP_KEYS = (
     "sweep",
     "uncertainty",
 )
+#: Distance from a wire or a plate within which a point counts as on a source's metal [m].
+INSIDE_SOURCE_TOLERANCE_M = 1e-3
 #: Top-level keys that make variants of the scenario: not allowed inside an option.
 _VARIANT_KEYS = ("option", "sweep")
 #: Frequencies the models accept at all [Hz]; limits narrow this further.
@@ -157,14 +171,19 @@ class Scenario:
         ``"envelope"`` (worst case) or ``"coherent"``.
     sources : tuple of Source
     limit_ids : tuple of str
-    reflectors, shields : tuple
-        Objects from :mod:`keepclear.fields.reflection` and :mod:`keepclear.fields.shield`.
-    enclosure : object or None
-        An :class:`keepclear.fields.enclosure.Enclosure`.
+    reflectors : tuple of ReflectorModel
+        Reflecting planes (:mod:`keepclear.fields.surroundings` interfaces; the models
+        are in :mod:`keepclear.fields.reflection`).
+    shields : tuple of ShieldModel
+        Shields (models in :mod:`keepclear.fields.shield`).
+    enclosure : EnclosureModel or None
+        The enclosure (model in :mod:`keepclear.fields.enclosure`).
     points : tuple of PointOfInterest
     options : tuple of Option
     document : dict
         The parsed TOML as given.
+    thresholds : tuple of Limit
+        User thresholds (``[[exposure.threshold]]``), ids ``custom/NAME``.
     """
 
     name: str
@@ -173,13 +192,14 @@ class Scenario:
     reflections: str
     sources: tuple[Source, ...]
     limit_ids: tuple[str, ...]
-    reflectors: tuple[Any, ...] = ()
-    shields: tuple[Any, ...] = ()
-    enclosure: Any = None
+    reflectors: tuple[ReflectorModel, ...] = ()
+    shields: tuple[ShieldModel, ...] = ()
+    enclosure: EnclosureModel | None = None
     points: tuple[PointOfInterest, ...] = ()
     options: tuple[Option, ...] = ()
     document: dict[str, Any] = field(default_factory=dict)
     uncertainty: Any = None
+    thresholds: tuple[limits_mod.Limit, ...] = ()
 
     @property
     def centre_m(self) -> NDArray[np.float64]:
@@ -196,9 +216,52 @@ class Scenario:
         """Free-space wavelength [m]."""
         return self.sources[0].radiator.wavelength_m
 
+    def limit(self, limit_id: str) -> limits_mod.Limit:
+        """A limit by id: the scenario's user thresholds, then the published limits."""
+        return limits_mod.resolve_limit(limit_id, self.thresholds)
+
+    def limit_value(self, limit_id: str) -> limits_mod.LimitValue:
+        """A limit by id, at the scenario frequency (LimitError outside its band)."""
+        return self.limit(limit_id).at(self.frequency_hz)
+
+    def inside_source(
+        self, points_m: ArrayLike, tolerance_m: float = INSIDE_SOURCE_TOLERANCE_M
+    ) -> NDArray[np.bool_]:
+        """Which points lie inside a source or on its metal (:func:`inside_source_mask`)."""
+        return inside_source_mask(self, points_m, tolerance_m)
+
     def with_limits(self, limit_ids: tuple[str, ...]) -> Scenario:
         """A copy assessing other limits."""
         return replace(self, limit_ids=limit_ids)
+
+
+def inside_source_mask(
+    scenario: Scenario, points_m: ArrayLike, tolerance_m: float = INSIDE_SOURCE_TOLERANCE_M
+) -> NDArray[np.bool_]:
+    """Which points lie inside any source of a scenario, or on its metal.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    points_m : array_like, shape (N, 3)
+        Points in scenario coordinates [m].
+    tolerance_m : float
+        Distance from a wire or a plate within which a point counts as on it [m]
+        (default 1 mm).
+
+    Returns
+    -------
+    ndarray of bool, shape (N,)
+        True inside a guide, a horn, a box or within ``tolerance_m`` of a wire or a plate
+        of any source (:meth:`keepclear.antennas.base.Radiator.inside_or_on`): not a place
+        where anyone stands.  Its fields are computed as anywhere else, but the outputs
+        mark it and count it as over every limit.
+    """
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    mask = np.zeros(pts.shape[0], dtype=bool)
+    for source in scenario.sources:
+        mask |= source.radiator.inside_or_on(pts, tolerance_m)
+    return mask
 
 
 # ----------------------------------------------------------------- sources
@@ -266,9 +329,82 @@ def _build_wire(t: Table, f: float, p: float, kind: str) -> Radiator:
     length = t.number(
         "length_m", None, unit="m", minimum=0.0, exclusive_minimum=True, maximum=100.0
     )
+    if kind == "monopole" and t.string("ground", "infinite", choices=GROUND_KINDS) != "infinite":
+        return _build_grounded_monopole(t, f, p, length)
+    for key in ("ground_size_m", "ground_up", "ground_offset_m", "box_depth_m"):
+        if kind == "monopole" and t.has(key):
+            raise t.error(key, 'applies to ground = "plate" or "box" only, not to "infinite"')
     placement = _placement(t, "axis", polarization=False)
     cls = wire.Dipole if kind == "dipole" else wire.Monopole
     return t.build(cls, f, p, length_m=length, placement=placement)
+
+
+def _pair(t: Table, key: str, default: Any, positive: bool) -> tuple[float, float]:
+    """Two finite numbers [a, b] in metres; ``positive`` asks both to be > 0."""
+    value = t.raw(key, default)
+    what = "two sizes > 0 [w, h] [m]" if positive else "two numbers [along width, along up] [m]"
+    if (
+        not isinstance(value, (list, tuple))
+        or len(value) != 2
+        or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in value)
+    ):
+        raise t.error(key, f"must be {what}, got {value!r}")
+    try:
+        a, b = float(value[0]), float(value[1])
+    except OverflowError:
+        raise t.error(key, f"must be {what}, got {value!r}") from None
+    if not (np.isfinite(a) and np.isfinite(b)) or max(abs(a), abs(b)) > 1e3:
+        raise t.error(key, f"must be {what}, finite and within 1000 m, got {value!r}")
+    if positive and min(a, b) <= 0.0:
+        raise t.error(key, f"must be {what}, got {value!r}")
+    return a, b
+
+
+def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None) -> Radiator:
+    """A monopole on a finite plate or through the face of a box (contract: Additions)."""
+    from keepclear.antennas.finite_ground import FiniteGroundMonopole
+
+    ground = t.string("ground")
+    if not t.has("ground_size_m"):
+        raise t.error(
+            "ground_size_m", f'is required for ground = "{ground}": [width, height] in metres'
+        )
+    size = _pair(t, "ground_size_m", None, positive=True)
+    offset = _pair(t, "ground_offset_m", [0.0, 0.0], positive=False)
+    depth = None
+    if ground == "box":
+        if not t.has("box_depth_m"):
+            raise t.error("box_depth_m", 'is required for ground = "box": the depth in metres')
+        depth = t.number("box_depth_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=1e3)
+    elif t.has("box_depth_m"):
+        raise t.error("box_depth_m", 'applies to ground = "box" only, not to a plate')
+    position = t.vector("position_m", np.zeros(3), unit="m")
+    axis = t.vector("axis", np.array([0.0, 0.0, 1.0]), nonzero=True)
+    a = axis / np.linalg.norm(axis)
+    up = t.vector("ground_up", None, nonzero=True)
+    if up is None:
+        # +z, or +y when the probe is vertical; made perpendicular for a tilted probe.
+        up = np.array([0.0, 0.0, 1.0]) if abs(a[2]) < 0.99 else np.array([0.0, 1.0, 0.0])
+        up = up - np.dot(up, a) * a
+    elif abs(float(np.dot(up / np.linalg.norm(up), a))) > 1e-6:
+        raise t.error(
+            "ground_up",
+            f"must be perpendicular to axis (the direction of the face's height edges); "
+            f"the angle between them is "
+            f"{np.degrees(np.arccos(np.clip(np.dot(up / np.linalg.norm(up), a), -1, 1))):.4g} deg",
+        )
+    placement = t.build(Placement.from_axes, position, axis, up)
+    return t.build(
+        FiniteGroundMonopole,
+        f,
+        p,
+        length,
+        ground=ground,
+        ground_size_m=size,
+        ground_offset_m=offset,
+        box_depth_m=depth,
+        placement=placement,
+    )
 
 
 def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
@@ -351,13 +487,54 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
 
 
 # --------------------------------------------------------------- top level
-def _read_limits(root: Table, frequency_hz: float) -> tuple[str, ...]:
+def _read_thresholds(exposure: Table) -> tuple[limits_mod.Limit, ...]:
+    """``[[exposure.threshold]]``: user thresholds, ids ``custom/NAME``."""
+    out: list[limits_mod.Limit] = []
+    names: dict[str, int] = {}
+    for i, t in enumerate(exposure.tables("threshold")):
+        name = t.string("name")
+        if not re.fullmatch(r"[a-z0-9][a-z0-9.\-]*", name):
+            raise t.error(
+                "name",
+                f"must be lower-case letters, digits, '.' or '-' (not empty), got {name!r}",
+            )
+        if name in names:
+            raise t.error(
+                "name",
+                f"'{name}' is used by exposure.threshold[{names[name]}]; names must be unique",
+            )
+        names[name] = i
+        basis = t.string("basis", choices=limits_mod.BASES)
+        e_v_m = t.number("e_v_m", None, unit="V/m", minimum=0.0, exclusive_minimum=True)
+        s_w_m2 = t.number(
+            "power_density_w_m2", None, unit="W/m^2", minimum=0.0, exclusive_minimum=True
+        )
+        if e_v_m is not None and s_w_m2 is not None:
+            raise t.error("power_density_w_m2", "give either e_v_m or power_density_w_m2, not both")
+        if e_v_m is None and s_w_m2 is None:
+            raise ScenarioError(
+                "needs e_v_m [V/m] or power_density_w_m2 [W/m^2] (one of them)",
+                t.source,
+                t.path,
+            )
+        t.finish()
+        out.append(
+            limits_mod.custom_threshold(name, basis=basis, e_v_m=e_v_m, power_density_w_m2=s_w_m2)
+        )
+    return tuple(out)
+
+
+def _read_limits(
+    root: Table, frequency_hz: float
+) -> tuple[tuple[str, ...], tuple[limits_mod.Limit, ...]]:
     exposure = root.table("exposure", None)
+    thresholds: tuple[limits_mod.Limit, ...] = ()
     if exposure is None:
         ids = list(DEFAULT_LIMIT_IDS)
     else:
+        thresholds = _read_thresholds(exposure)
         ids = exposure.string_list("limits")
-        exposure.finish(["limits"])
+        exposure.finish(["limits", "threshold"])
         if not ids:
             raise exposure.error(
                 "limits", "must name at least one limit id; see `keepclear limits`"
@@ -369,11 +546,11 @@ def _read_limits(root: Table, frequency_hz: float) -> tuple[str, ...]:
             raise root.error(f"exposure.{key}", f"'{limit_id}' is listed twice")
         seen.add(limit_id)
         try:
-            limit = limits_mod.get_limit(limit_id)
+            limit = limits_mod.resolve_limit(limit_id, thresholds)
             limit.at(frequency_hz)
         except LimitError as exc:
             raise ScenarioError(exc.message, root.source, f"exposure.{key}") from None
-    return tuple(ids)
+    return tuple(ids), thresholds
 
 
 def _read_points(root: Table) -> tuple[PointOfInterest, ...]:
@@ -457,7 +634,7 @@ def _read_reflectors(root: Table, frequency_hz: float) -> tuple[Any, ...]:
     tables = root.tables("reflector")
     if not tables:
         return ()
-    from .reflection import reflector_from_table
+    from .scenario_tables import reflector_from_table
 
     return tuple(reflector_from_table(t, frequency_hz) for t in tables)
 
@@ -466,7 +643,7 @@ def _read_shields(root: Table, frequency_hz: float) -> tuple[Any, ...]:
     tables = root.tables("shield")
     if not tables:
         return ()
-    from .shield import shield_from_table
+    from .scenario_tables import shield_from_table
 
     return tuple(shield_from_table(t, frequency_hz) for t in tables)
 
@@ -475,7 +652,7 @@ def _read_enclosure(root: Table, frequency_hz: float, sources: tuple[Source, ...
     t = root.table("enclosure", None)
     if t is None:
         return None
-    from .enclosure import enclosure_from_table
+    from .scenario_tables import enclosure_from_table
 
     enclosure = enclosure_from_table(t, frequency_hz)
     positions = np.array([s.position_m for s in sources])
@@ -550,7 +727,7 @@ def _scenario_from_document(document: dict[str, Any], source: str, allow_options
                 f"source[{i}].id",
                 f"'{sid}' is used by source[{ids.index(sid)}]; ids must be unique",
             )
-    limit_ids = _read_limits(root, frequency)
+    limit_ids, thresholds = _read_limits(root, frequency)
     reflectors = _read_reflectors(root, frequency)
     shields = _read_shields(root, frequency)
     enclosure = _read_enclosure(root, frequency, sources)
@@ -571,6 +748,7 @@ def _scenario_from_document(document: dict[str, Any], source: str, allow_options
         points=points,
         document=document,
         uncertainty=uncertainty,
+        thresholds=thresholds,
     )
     if allow_options and "option" in document:
         scenario = replace(scenario, options=_read_options(root, document, source))

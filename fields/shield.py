@@ -50,7 +50,6 @@ from keepclear.antennas.base import C_M_S, ModelInputError, as_points, unit_vect
 
 from . import diffraction
 from . import shielding as sh
-from .validate import Table
 
 #: Shield types a scenario file may give as ``type``.
 SHIELD_TYPES: Final[tuple[str, ...]] = ("sheet", "perforated", "mesh", "slot", "rated")
@@ -75,7 +74,10 @@ def _oblique_and_near(
 class ShieldSpec(Protocol):
     """What a shield is made of: its power transmission for a ray."""
 
-    kind: str
+    @property
+    def kind(self) -> str:
+        """The shield type (``"sheet"``, ``"perforated"``, ...)."""
+        ...
 
     def power_transmission(
         self,
@@ -475,7 +477,11 @@ class Shield:
         )
 
     def outline(self) -> NDArray[np.float64]:
-        """Corners (4, 3) for drawing [m]."""
+        """Corners (4, 3) of the sheet, in order around it, for drawing [m].
+
+        The same form as every drawable object (radiators, reflectors, the enclosure):
+        points whose convex hull is the object.
+        """
         return self.corners()
 
     def normal_incidence_se_db(self) -> float:
@@ -563,100 +569,6 @@ class Shield:
         return out
 
 
-def _spec_from_table(table: Table, kind: str) -> ShieldSpec:
-    def metal(default: str | None) -> sh.Metal | None:
-        name = table.string("metal", default, choices=sh.METAL_CHOICES)
-        return None if name is None else sh.metal_from_name(name)
-
-    if kind == "sheet":
-        m = sh.metal_from_name(table.string("metal", choices=sh.METAL_CHOICES))
-        thickness = table.number(
-            "thickness_m", unit="m", minimum=0, exclusive_minimum=True, maximum=1.0
-        )
-        return table.build(SheetSpec, m, thickness)
-    if kind == "perforated":
-        return table.build(
-            PerforatedSpec,
-            table.number("hole_size_m", unit="m", minimum=0, exclusive_minimum=True),
-            table.number("pitch_m", unit="m", minimum=0, exclusive_minimum=True),
-            table.number("thickness_m", unit="m", minimum=0, exclusive_minimum=True, maximum=1.0),
-            table.string("hole_shape", "round", choices=HOLE_SHAPES),
-            table.string("lattice", "triangular", choices=LATTICES),
-            metal(sh.WORST_METAL),
-        )
-    if kind == "mesh":
-        return table.build(
-            MeshSpec,
-            table.number("pitch_m", unit="m", minimum=0, exclusive_minimum=True),
-            table.number("wire_diameter_m", unit="m", minimum=0, exclusive_minimum=True),
-            metal(sh.WORST_METAL),
-        )
-    if kind == "slot":
-        length = table.number("slot_length_m", unit="m", minimum=0, exclusive_minimum=True)
-        count = table.number("slot_count", 1, minimum=1, maximum=1e9)
-        if float(count) != int(count):
-            raise table.error("slot_count", f"must be a whole number >= 1, got {count!r}")
-        m = metal(None)
-        thickness = table.number(
-            "thickness_m", None, unit="m", minimum=0, exclusive_minimum=True, maximum=1.0
-        )
-        if thickness is not None and m is None:
-            m = sh.METALS[sh.WORST_METAL]
-        return table.build(SlotSpec, length, int(count), m, thickness)
-    shielding_db = table.number("shielding_db", unit="dB", minimum=0, maximum=300)
-    return table.build(RatedSpec, shielding_db)
-
-
-def shield_from_table(table: Table, frequency_hz: float) -> Shield:
-    """Read one ``[[shield]]`` table.
-
-    Parameters
-    ----------
-    table : Table
-        The table, with its key path (``shield[0]``).
-    frequency_hz : float
-        Scenario frequency [Hz].
-
-    Returns
-    -------
-    Shield
-
-    Raises
-    ------
-    ScenarioError
-        For a missing, unknown or out-of-range key, located at its key path.
-
-    Notes
-    -----
-    Keys: ``id``, ``center_m``, ``normal``, ``width_m``, ``height_m``, ``up``,
-    ``edge_margin_m`` and ``type`` = ``"sheet"`` (``metal``, ``thickness_m``) |
-    ``"perforated"`` (``hole_size_m``, ``pitch_m``, ``thickness_m``, ``hole_shape``,
-    ``lattice``, ``metal``) | ``"mesh"`` (``pitch_m``, ``wire_diameter_m``, ``metal``) |
-    ``"slot"`` (``slot_length_m``, ``slot_count``, ``metal``, ``thickness_m``) |
-    ``"rated"`` (``shielding_db``).  ``type`` may be left out when ``shielding_db`` is
-    given.
-    """
-    label = table.string("id", table.path or "shield")
-    center = table.vector("center_m", unit="m")
-    normal = table.vector("normal", nonzero=True)
-    up = table.vector("up", None, nonzero=True)
-    width = table.number("width_m", unit="m", minimum=0, exclusive_minimum=True, maximum=1e4)
-    height = table.number("height_m", unit="m", minimum=0, exclusive_minimum=True, maximum=1e4)
-    margin = table.number("edge_margin_m", None, unit="m", minimum=0, maximum=1e4)
-    kind = table.string("type", None, choices=SHIELD_TYPES)
-    if kind is None:
-        if not table.has("shielding_db"):
-            raise table.error(
-                "type", f"is required here: one of {', '.join(repr(k) for k in SHIELD_TYPES)}"
-            )
-        kind = "rated"
-    spec = _spec_from_table(table, kind)
-    table.finish()
-    return table.build(
-        Shield, center, normal, width, height, spec, float(frequency_hz), up, margin, label
-    )
-
-
 __all__ = [
     "HOLE_SHAPES",
     "LATTICES",
@@ -668,5 +580,4 @@ __all__ = [
     "Shield",
     "ShieldSpec",
     "SlotSpec",
-    "shield_from_table",
 ]

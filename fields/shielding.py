@@ -49,7 +49,7 @@ from skrf.media import CircularWaveguide, DefinedGammaZ0, Freespace, Rectangular
 
 from keepclear.antennas.base import C_M_S, ETA0_OHM, ModelInputError, ModelRangeWarning
 
-from .validate import suggest
+from .errors import suggest
 
 #: 20 / ln(10): decibels per neper of field amplitude.
 DB_PER_NEPER: Final[float] = 20.0 / math.log(10.0)

@@ -151,7 +151,7 @@ def gain_sigma_db(spec: UncertaintySpec, term: RadiatingTerm) -> float:
     """One sigma of a term's gain [dB]: the table's, else the model's stated figure."""
     if spec.gain_db is not None:
         return float(spec.gain_db)
-    return float(getattr(term.radiator, "gain_uncertainty_db", 0.0))
+    return float(term.radiator.gain_uncertainty_db)
 
 
 @dataclass(frozen=True)
@@ -541,6 +541,10 @@ def sample_quotients(
         if pk not in cache:
             cache[pk] = sample_squares(dec, draws, rows, peak=pk)
         e2, h2 = cache[pk]
+        if v.kind == "device" and v.power_density_derived and v.e_v_m is not None:
+            # a device threshold given as an E field compares E alone (limits.quotient)
+            out.append(e2 * (1.0 / v.e_v_m**2))
+            continue
         q = np.maximum(
             e2 * (1.0 / (ETA0_OHM * v.power_density_w_m2)), h2 * (ETA0_OHM / v.power_density_w_m2)
         )
@@ -587,7 +591,7 @@ def _ray_set(
     """Rays of the keep-out search: lattice, axes, along each plane, caps about the hints."""
     from .keepout import PLANE_AZIMUTHS, _cap, _plane_rays, _Search, _special_directions
 
-    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in scenario.limit_ids[:1]]
+    values = [scenario.limit_value(i) for i in scenario.limit_ids[:1]]
     from .keepout import _Row
 
     search = _Search(scenario, values, [_Row(0, 1.0, False)])
@@ -742,7 +746,7 @@ def keepout_spread(
     from .keepout import _radii
 
     draws = draw_samples(scenario, spec) if draws is None else draws
-    values = [limits_mod.get_limit(r.limit_id).at(scenario.frequency_hz) for r in nominal]  # type: ignore[attr-defined]
+    values = [scenario.limit_value(r.limit_id) for r in nominal]  # type: ignore[attr-defined]
     origins, directions = _ray_set(scenario, [r.direction for r in nominal], n_directions)  # type: ignore[attr-defined]
     coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
     radii = _radii(_reach_m(scenario, values, draws), scenario.wavelength_m, coherent)
@@ -840,7 +844,7 @@ def quotient_percentile(
         Limit id -> (N,) percentile of the quotient.
     """
     draws = draw_samples(scenario, spec) if draws is None else draws
-    values = [limits_mod.get_limit(i).at(scenario.frequency_hz) for i in limit_ids]
+    values = [scenario.limit_value(i) for i in limit_ids]
     pts = np.asarray(points_m, dtype=float)
     n = pts.shape[0]
     out = {i: np.zeros(n) for i in limit_ids}

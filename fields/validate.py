@@ -14,23 +14,16 @@ Model code stays free of file handling: it raises
 
 from __future__ import annotations
 
-import difflib
 import math
 from collections.abc import Callable, Iterable, Sequence
 from typing import Any, TypeVar
 
 import numpy as np
 
-from .errors import ModelInputError, ScenarioError
+from .errors import ModelInputError, ScenarioError, suggest
 
 T = TypeVar("T")
 _MISSING = object()
-
-
-def suggest(word: str, choices: Iterable[str]) -> str:
-    """Return ``" (did you mean 'x'?)"`` for the closest choice, or ``""``."""
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
 
 
 def _describe(value: Any) -> str:

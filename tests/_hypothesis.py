@@ -3,8 +3,13 @@
 ``ci`` (the default) is fast and deterministic, so a CI run is reproducible; ``long``
 runs ten times the examples of every test, at random, for a deeper fuzz run::
 
-    KEEPCLEAR_HYPOTHESIS_PROFILE=long .venv/bin/python -m pytest tests/test_properties.py \
-        tests/test_fuzz.py -q
+    KEEPCLEAR_HYPOTHESIS_PROFILE=long .venv/bin/python -m pytest -q tests/test_field.py \
+        tests/test_keepout_search.py tests/test_aperture.py tests/test_reflection.py \
+        tests/test_shield.py tests/test_scenario_input.py tests/test_maps.py \
+        tests/test_assess.py tests/test_cli.py
+
+The strategies live in ``tests/_property_strategies.py`` and ``tests/_fuzz_strategies.py``;
+the tests that use them sit in the test module of the area they test.
 
 Each test states its CI example count with ``@settings(max_examples=examples(n))``.
 """

@@ -19,10 +19,22 @@ from pathlib import Path
 import matplotlib.image as mpimg
 import numpy as np
 import pytest
+from hypothesis import given, note, settings
 from typer.testing import CliRunner
 
 from keepclear.fields.cli import app
 
+from ._cli import assert_clean_exit, strict_json, validate
+from ._cli import one_error_line as cli_one_error_line
+from ._cli import run as cli_run
+from ._fuzz_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
+    FUNCTION_FIXTURE,
+    _keepout_is_bounded,
+    toml_document,
+    valid_documents,
+)
+from ._hypothesis import examples
 from .conftest import ISOTROPIC
 
 runner = CliRunner()
@@ -310,3 +322,49 @@ def test_installed_entry_point_maps(tmp_path, write_scenario):
     assert done.returncode == 0, done.stderr
     assert json.loads(done.stdout)["schema_version"] == 1
     assert json.loads(zones.read_text(encoding="utf-8"))["type"] == "FeatureCollection"
+
+
+# ------------------------------------------------------------
+# Fuzzing with random and broken input (hypothesis). What is checked, and against
+# what, is listed in tests/_fuzz_strategies.py.
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+@settings(max_examples=examples(2), suppress_health_check=FUNCTION_FIXTURE)
+@given(doc=valid_documents())
+def test_assess_on_valid_scenarios(tmp_path, doc):
+    """The whole assessment on a 5 x 5 grid: exit 0 or 2, schema-valid JSON, and on exit 2
+    no output folder at all (assess stages its outputs and moves them in when complete)."""
+    path = tmp_path / "assess.toml"
+    path.write_text(toml_document(doc), encoding="utf-8")
+    note(toml_document(doc))
+    if not _keepout_is_bounded(path):
+        return
+    out = tmp_path / "report"
+    if out.exists():
+        for old in out.iterdir():
+            old.unlink()
+        out.rmdir()
+    result = cli_run("assess", path, "--out", out, "--pixels", "5", "--json")
+    assert_clean_exit(result)
+    if result.exit_code == 0:
+        validate("assessment", strict_json(result.stdout))
+    else:
+        assert not out.exists()
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+def test_assess_never_overwrites_its_scenario(tmp_path):
+    # An output folder that holds the scenario under an output's own name.
+    for name in ("scenario-input.toml", "report.html", "assessment.json"):
+        path = tmp_path / name
+        path.write_text(ISOTROPIC, encoding="utf-8")
+        line = cli_one_error_line(cli_run("assess", path, "--out", tmp_path, "--pixels", "5"))
+        assert "overwrite" in line and name in line
+        assert path.read_text(encoding="utf-8") == ISOTROPIC
+        path.unlink()
+    assert list(tmp_path.iterdir()) == []

@@ -7,17 +7,27 @@ from __future__ import annotations
 
 import json
 import os
+import pathlib
 import shutil
 import subprocess
 import sys
 from pathlib import Path
 
+import hypothesis.strategies as st
 import numpy as np
 import pytest
+from hypothesis import given, settings
 from typer.testing import CliRunner
 
+from keepclear.fields import outputs
 from keepclear.fields.cli import app
 
+from ._cli import assert_clean_exit, strict_json
+from ._cli import one_error_line as cli_one_error_line
+from ._cli import run as cli_run
+from ._edge_cases import DIPOLE, probe
+from ._fuzz_strategies import EXPECTED_PLAUSIBILITY_WARNING, FUNCTION_FIXTURE
+from ._hypothesis import examples
 from .conftest import ISOTROPIC, SCENARIOS
 
 runner = CliRunner()
@@ -284,3 +294,89 @@ def test_installed_entry_point_subprocess(tmp_path):
         [exe, "keepout", str(tmp_path / "missing.toml")], capture_output=True, text=True, timeout=60
     )
     assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1
+
+
+# ------------------------------------------------------------
+# Fuzzing with random and broken input (hypothesis). What is checked, and against
+# what, is listed in tests/_fuzz_strategies.py.
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+@settings(max_examples=examples(40), suppress_health_check=FUNCTION_FIXTURE)
+@given(
+    args=st.lists(st.text(max_size=20) | st.sampled_from(["--at", "--json", "--csv"]), max_size=5)
+)
+def test_random_probe_arguments(tmp_path, args):
+    path = tmp_path / "ok.toml"
+    path.write_text('[[source]]\nantenna = "isotropic"\npower_w = 1.0\n', encoding="utf-8")
+    # Arguments are written as the shell would pass them; "--csv" targets land in tmp_path.
+    args = [str(tmp_path / "out.csv") if a == "" else a for a in args]
+    result = cli_run("probe", path, *args)
+    assert_clean_exit(result)
+    if result.exit_code == 0 and "--json" in args and "--csv" not in args:
+        strict_json(result.stdout)
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+def test_extreme_but_allowed_coordinates(write_scenario):
+    # Scenario vectors may be as large as 1e6 m (Table.vector); probe points as far.
+    path = write_scenario(ISOTROPIC.replace("[0.0, 0.0, 0.0]", "[1e6, -1e6, 1e6]"))
+    points = probe(path, (-1e6, 1e6, -1e6), (1e6, -1e6, 1e6), (5e-324, -0.0, 1e-300))
+    assert points[1]["power_density_w_m2"] > 0
+
+
+@pytest.mark.parametrize("at", ["1e308,0,0", "1e200,0,0"])
+def test_probe_at_beyond_the_coordinate_bound_is_refused(write_scenario, at):
+    path = write_scenario(DIPOLE)
+    assert "--at" in cli_one_error_line(cli_run("probe", path, "--at", at, "--json"))
+
+
+# -------------------------------------------------------------------- bounds
+def test_point_file_over_the_bound_is_refused_before_it_is_read(
+    write_scenario, tmp_path, monkeypatch
+):
+    path = write_scenario(ISOTROPIC)
+    inp = tmp_path / "many.csv"
+    inp.write_text("x_m,y_m,z_m\n" + "1,0,0\n" * 6)
+    monkeypatch.setattr(outputs, "MAX_POINTS", 5)
+
+    def no_parse(*args, **kwargs):
+        raise AssertionError("the file was parsed before its size was checked")
+
+    monkeypatch.setattr(outputs.np, "loadtxt", no_parse)
+    original_read_bytes = pathlib.Path.read_bytes
+
+    def guarded_read_bytes(self):
+        if self.name == "many.csv":
+            raise AssertionError("the whole file was read before its size was checked")
+        return original_read_bytes(self)
+
+    monkeypatch.setattr(pathlib.Path, "read_bytes", guarded_read_bytes)
+    out = tmp_path / "out.csv"
+    line = cli_one_error_line(cli_run("probe", path, "--points", inp, "--csv", out))
+    assert "6 points" in line and "at most 5" in line and "--points" in line
+    assert not out.exists()
+
+
+def test_point_file_at_the_bound_is_accepted(write_scenario, tmp_path, monkeypatch):
+    path = write_scenario(ISOTROPIC)
+    inp = tmp_path / "five.csv"
+    inp.write_text("x_m,y_m,z_m\n" + "1,0,0\n" * 4 + "1e6,-1e6,1e6")  # no final newline
+    monkeypatch.setattr(outputs, "MAX_POINTS", 5)
+    out = tmp_path / "out.csv"
+    result = cli_run("probe", path, "--points", inp, "--csv", out)
+    assert_clean_exit(result, allowed=(0,))
+    assert len(out.read_text().splitlines()) == 6
+
+
+@pytest.mark.parametrize("bad", ["1e7,0,0", "0,-1.5e6,0", "0,0,1e308"])
+def test_point_file_coordinates_are_bounded(write_scenario, tmp_path, bad):
+    path = write_scenario(ISOTROPIC)
+    inp = tmp_path / "far.csv"
+    inp.write_text(f"x_m,y_m,z_m\n1,0,0\n{bad}\n")
+    line = cli_one_error_line(cli_run("probe", path, "--points", inp, "--json"))
+    assert "row 3" in line and "1e+06 m" in line

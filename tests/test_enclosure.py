@@ -17,7 +17,6 @@ from keepclear.fields.enclosure import (
     Enclosure,
     Opening,
     aperture_transmission_cross_section_m2,
-    enclosure_from_table,
     hill_wall_cross_section_m2,
     matched_antenna_cross_section_m2,
     water_load_cross_section_m2,
@@ -25,7 +24,10 @@ from keepclear.fields.enclosure import (
     weyl_mode_count,
 )
 from keepclear.fields.errors import ScenarioError
+from keepclear.fields.scenario_tables import enclosure_from_table
 from keepclear.fields.validate import Table
+
+from ._edge_cases import ENCLOSED, probe
 
 F = 2.45e9
 LAM = C_M_S / F
@@ -566,3 +568,27 @@ def test_scenario_with_enclosure_and_shield_end_to_end() -> None:
             "oven.toml",
         )
     assert "source[0].position_m" in str(err.value)
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+def test_points_inside_on_and_in_the_walls_of_an_enclosure(write_scenario):
+    path = write_scenario(ENCLOSED)
+    points = probe(
+        path,
+        (0.1, 0.0, 1.0),  # on the source, inside the cavity
+        (0.0, 0.0, 1.0),  # cavity centre
+        (0.25, 0.0, 1.0),  # inner face of the +x wall, at the slot
+        (0.251, 0.0, 1.0),  # inside the wall
+        (0.252, 0.0, 1.0),  # outer face, at the slot
+        (0.302, 0.0, 1.0),  # 5 cm outside the slot
+        (0.0, 0.2011, 1.0),  # inside the -y/+y wall, no opening there
+        (1e5, 0.0, 1.0),  # far away
+    )
+    assert all(p["power_density_w_m2"] >= 0 for p in points)
+    cavity, outside_5cm = points[1], points[5]
+    # A nearly closed steel box holds far more than leaks out through a 3 cm slot.
+    assert cavity["power_density_w_m2"] > outside_5cm["power_density_w_m2"]

@@ -15,6 +15,10 @@ from scipy import constants
 
 from keepclear.fields import limits as L
 from keepclear.fields.errors import InputError, LimitError
+from keepclear.fields.limits import get_limit
+
+from ._cli import assert_clean_exit, one_error_line, run, strict_json, validate
+from ._edge_cases import OUTER_EDGES, _fda_scenario, probe
 
 ETA0 = math.sqrt(constants.mu_0 / constants.epsilon_0)  # 376.73 ohm, scipy.constants
 MHZ, GHZ = 1e6, 1e9
@@ -33,6 +37,12 @@ CONTRACT_IDS = (
     "sc6-2015/controlled",
     "fda-1030.10/before-purchase",
     "fda-1030.10/in-service",
+    # contract, "Additions": device thresholds (equipment, not people)
+    "iec-61000-4-3/level-1",
+    "iec-61000-4-3/level-2",
+    "iec-61000-4-3/level-3",
+    "iec-61000-4-3/level-4",
+    "iec-60601-1-2/wireless-2450",
 )
 
 
@@ -125,6 +135,28 @@ PUBLISHED = [
     ("fda-1030.10/in-service", 915 * MHZ, "S", 50.0, 0.5),
     ("fda-1030.10/in-service", 2.45 * GHZ, "S", 50.0, 0.5),
     ("fda-1030.10/in-service", 5.8 * GHZ, "S", 50.0, 0.5),
+    # --- IEC 61000-4-3:2020 (Ed. 4.0) Table 1 test levels, 80 MHz-6 GHz (band from memory):
+    # levels 1, 2, 3 = 1, 3, 10 V/m FOUND (secondary, IEEE EMC Society PSTC list,
+    # mail-archive.com msg21560); level 4 = 30 V/m from memory
+    ("iec-61000-4-3/level-1", 100 * MHZ, "E", 1.0, 0.005),
+    ("iec-61000-4-3/level-1", 2.45 * GHZ, "E", 1.0, 0.005),
+    ("iec-61000-4-3/level-1", 5.8 * GHZ, "E", 1.0, 0.005),
+    ("iec-61000-4-3/level-2", 100 * MHZ, "E", 3.0, 0.005),
+    ("iec-61000-4-3/level-2", 2.45 * GHZ, "E", 3.0, 0.005),
+    ("iec-61000-4-3/level-2", 5.8 * GHZ, "E", 3.0, 0.005),
+    ("iec-61000-4-3/level-3", 100 * MHZ, "E", 10.0, 0.05),
+    ("iec-61000-4-3/level-3", 2.45 * GHZ, "E", 10.0, 0.05),
+    ("iec-61000-4-3/level-3", 5.8 * GHZ, "E", 10.0, 0.05),
+    ("iec-61000-4-3/level-4", 100 * MHZ, "E", 30.0, 0.05),
+    ("iec-61000-4-3/level-4", 2.45 * GHZ, "E", 30.0, 0.05),
+    ("iec-61000-4-3/level-4", 5.8 * GHZ, "E", 30.0, 0.05),
+    # --- IEC 60601-1-2:2014 Table 9, 2 450 MHz (band 2 400-2 570 MHz): 28 V/m, FOUND
+    # (secondary: Table 9 reproduced in equipment manuals; see limits_provenance.md)
+    ("iec-60601-1-2/wireless-2450", 2.40 * GHZ, "E", 28.0, 0.5),
+    ("iec-60601-1-2/wireless-2450", 2.45 * GHZ, "E", 28.0, 0.5),
+    ("iec-60601-1-2/wireless-2450", 2.57 * GHZ, "E", 28.0, 0.5),
+    # Its plane-wave equivalent S = E^2/eta0 = 784/376.73 = 2.081 W/m2 (contract, Additions)
+    ("iec-60601-1-2/wireless-2450", 2.45 * GHZ, "S", 2.081, 0.0005),
 ]
 
 _QUANTITY = {"S": "power_density_w_m2", "E": "e_v_m", "H": "h_a_m"}
@@ -146,18 +178,25 @@ def test_every_id_is_checked_at_three_or_more_frequencies():
 def test_fields_are_null_where_the_table_gives_none_at_2_45_ghz(limit_id):
     # ICNIRP 2020 Tables 5/6 (>2 GHz: "NA"), FCC Table 1 (above 300 MHz: "-"), the
     # recalled IEEE ERLs and 1030.10 give S only; SC6 gives E, H and S (from memory).
+    # The device thresholds (IEC 61000-4-3 Table 1, IEC 60601-1-2 Table 9) are E fields.
     v = L.get_limit(limit_id).at(2.45 * GHZ)
     gives_fields = limit_id.startswith("sc6-2015/")
-    assert (v.e_v_m is not None) == gives_fields
+    device = limit_id.startswith("iec-")
+    assert (v.e_v_m is not None) == (gives_fields or device)
     assert (v.h_a_m is not None) == gives_fields
-    assert not v.power_density_derived
+    assert v.power_density_derived == device
 
 
 def test_every_entry_has_source_unit_tags_and_averaging_or_reason():
     for lim in L.all_limits():
         assert lim.source and lim.reference and lim.document and lim.edition, lim.id
-        assert lim.tier in ("whole-body", "local", "product-emission")
-        assert lim.population in ("general-public", "occupational")
+        if lim.kind == "exposure":
+            assert lim.tier in ("whole-body", "local", "product-emission")
+            assert lim.population in ("general-public", "occupational")
+            assert lim.basis == "time-averaged"
+        else:  # device thresholds: equipment, compared while the sources radiate
+            assert (lim.kind, lim.tier, lim.population) == ("device", "device", "equipment")
+            assert lim.basis == "while-on"
         assert lim.averaging_tag in ("FOUND", "MEMORY")
         # an averaging time, or a reason why there is none
         assert lim.averaging_time_s is not None or "none" in lim.averaging_reason
@@ -382,15 +421,22 @@ def test_unknown_id_raises_with_suggestion_and_known_ids():
 
 def test_values_at_partitions_the_ids():
     covered, missing = L.values_at(10 * GHZ)
-    assert missing == ["fda-1030.10/before-purchase", "fda-1030.10/in-service"]
-    assert [v.id for v in covered] == list(CONTRACT_IDS[:-2])
+    # 21 CFR 1030.10 ends at 6 GHz, IEC 61000-4-3 levels at 6 GHz (from memory), and
+    # IEC 60601-1-2 Table 9's 2 450 MHz row covers 2 400-2 570 MHz only.
+    assert missing == [
+        "fda-1030.10/before-purchase",
+        "fda-1030.10/in-service",
+        *CONTRACT_IDS[-5:],
+    ]
+    assert [v.id for v in covered] == list(CONTRACT_IDS[:-7])
     covered, missing = L.values_at(2.45e9, ["sc6-2015/controlled", "fcc-1.1310/occupational"])
     assert [v.id for v in covered] == ["sc6-2015/controlled", "fcc-1.1310/occupational"]
     assert missing == []
     # 2.45 GHz: every limit covers it; SC6 uncontrolled is the lowest (5.42 W/m2)
     covered, missing = L.values_at(2.45e9)
     assert missing == []
-    assert min(covered, key=lambda v: v.power_density_w_m2).id == "sc6-2015/uncontrolled"
+    people = [v for v in covered if v.kind == "exposure"]
+    assert min(people, key=lambda v: v.power_density_w_m2).id == "sc6-2015/uncontrolled"
 
 
 def test_contract_json_entry():
@@ -448,3 +494,170 @@ def test_limits_are_immutable():
         lim.averaging_time_s = 1.0
     with pytest.raises(AttributeError):
         lim.at(2.45e9).power_density_w_m2 = 1.0
+
+
+# ------------------------------------------------------------ the data files
+_GOOD_FILE = """
+[document]
+document = "A document"
+edition = "2020"
+source = "A document"
+reference = "A document, 2020"
+
+[text]
+READ = "read in a copy"
+
+[[limit]]
+id = "x/one"
+title = "one"
+tier = "whole-body"
+population = "general-public"
+averaging_time_s = 360
+averaging_tag = "FOUND"
+averaging_reason = "6 min"
+rows = '''
+  start_MHz | end_MHz | printed range | table   | page | S  | S unit | S tag | E  | E tag | H  | H tag | avg min | avg tag | where | note
+  >2000     | 300000  | >2-300 GHz    | Table 1 | 12   | 10 | W/m^2  | FOUND | NA | FOUND | NA | FOUND | -       | -       | READ  | -
+'''
+"""
+
+
+def test_a_data_file_reads_into_the_dataclasses():
+    (lim,) = L.limits_from_toml(_GOOD_FILE, "x.toml")
+    (band,) = lim.bands
+    assert (band.low_hz, band.high_hz) == (2e9, 3e11)
+    assert (band.low_inclusive, band.high_inclusive) == (False, True)
+    assert band.page == "12" and band.where == "read in a copy"
+    assert lim.at(2.45e9).power_density_w_m2 == 10.0
+    assert not lim.covers(2e9)
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "fragment"),
+    [
+        ("| FOUND | NA | FOUND |", "| FOUND | NA | SEEN |", "'E tag' must be one of"),
+        ("start_MHz |", "start |", "header must be"),
+        ("| READ  |", "| NOPE  |", "names 'NOPE'"),
+        ("| 10 | W/m^2", "| 10+ | W/m^2", "column 'S'"),
+        ("| 10 | W/m^2", "| __import__('os') | W/m^2", "column 'S'"),
+        ("| 10 | W/m^2", "| NA | W/m^2", "all NA"),
+        ("  >2000     |", "  2 GHz     |", "band edge"),
+        ("W/m^2  |", "W/cm^2 |", "'S unit'"),
+        ("| -       | -       |", "| 6       | -       |", "go together"),
+        ('tier = "whole-body"', 'tier = "partial"', "tier must be one of"),
+        ("averaging_time_s = 360", "averaging_time_s = -1", "averaging_time_s"),
+        ('title = "one"', 'title = "one"\ncolour = "red"', "unknown key"),
+        ("| READ  | -\n", "| READ  | - | extra\n", "cells"),
+    ],
+)
+def test_a_bad_data_file_raises_naming_the_file_limit_and_problem(old, new, fragment):
+    # Problems in the shipped tables raise errors (not assert, which python -O strips).
+    assert old in _GOOD_FILE
+    with pytest.raises(L.LimitDataError, match="x.toml") as info:
+        L.limits_from_toml(_GOOD_FILE.replace(old, new), "x.toml")
+    assert fragment in str(info.value)
+    assert "x/one" in str(info.value) or fragment == "unknown key"
+
+
+def test_the_shipped_data_files_hold_every_limit_once():
+    ids = [lim.id for name in L.LIMIT_FILES for lim in _read_shipped(name)]
+    assert tuple(ids) == L.LIMIT_IDS
+
+
+def _read_shipped(name):
+    from importlib import resources
+
+    text = (resources.files("keepclear.fields") / "data" / "limits" / name).read_text("utf-8")
+    return L.limits_from_toml(text, name)
+
+
+# ------------------------------------------------- verification in plain words
+def test_verification_text_says_recalled_values_in_plain_words():
+    # IEEE C95.1-2019 Table 7 at 2.45 GHz: every value from memory (not found in a copy).
+    tags = L.get_limit("ieee-c95.1-2019/unrestricted").at(2.45 * GHZ).verification
+    text = L.verification_text(tags)
+    assert "value recalled, not checked against the printed standard" in text
+    assert "MEMORY" not in text and "FOUND" not in text
+    assert text.startswith("Power density, averaging time and the absence of E and H values")
+
+
+def test_verification_text_splits_checked_and_recalled():
+    # ICNIRP 2020 Table 5 public row: S FOUND (secondary), E/H "NA" from memory.
+    text = L.verification_text("S FOUND; E NA MEMORY; H NA MEMORY; averaging FOUND")
+    assert text == (
+        "The absence of E and H values: value recalled, not checked against the printed "
+        "standard. Power density and averaging time: checked against the published table "
+        "(or a faithful copy of it)."
+    )
+    assert L.verification_text("S FOUND; E NA FOUND; H NA FOUND; averaging FOUND") == (
+        "Power density and averaging time: checked against the published table "
+        "(or a faithful copy of it)."
+    )
+    assert L.verification_text("") == ""
+    for bad in ("S SEEN", "Q FOUND", "S XX FOUND", "S"):
+        with pytest.raises(ValueError, match="verification tag"):
+            L.verification_text(bad)
+
+
+def test_limits_text_never_shows_a_bare_tag():
+    from keepclear.fields.assessment import limits_data
+    from keepclear.fields.report_text import limits_table
+
+    text = limits_table(limits_data(2.45 * GHZ)).replace("\n  ", " ")  # unwrap
+    assert "MEMORY" not in text and "FOUND" not in text
+    for limit_id in ("ieee-c95.1-2019/restricted", "sc6-2015/uncontrolled"):
+        line = next(x for x in text.splitlines() if x.startswith(f"- {limit_id}:"))
+        assert "value recalled" in line
+    assert "checked against the published table" in text
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+@pytest.mark.parametrize("limit_id", sorted(OUTER_EDGES))
+def test_outer_band_edges_are_inclusive(limit_id):
+    low, high = OUTER_EDGES[limit_id]
+    for f, inside in (
+        (low, True),
+        (high, True),
+        (math.nextafter(low, 0.0), False),
+        (math.nextafter(high, math.inf), False),
+    ):
+        result = run("limits", "--frequency-hz", repr(f), "--json")
+        assert result.exit_code == 0, result.stderr
+        data = strict_json(result.stdout)
+        validate("limits", data)
+        covered = {v["id"] for v in data["limits"]}
+        assert (limit_id in covered) is inside, (f, inside)
+        assert (limit_id in data["not_covering_frequency"]) is not inside
+
+
+@pytest.mark.parametrize(
+    ("frequency_hz", "ok"),
+    [(8.9e8, True), (6e9, True), (math.nextafter(8.9e8, 0), False), (6.000000001e9, False)],
+)
+def test_scenario_at_the_fda_band_edges(write_scenario, frequency_hz, ok):
+    # 21 CFR 1030.10(b): a microwave oven works in the ISM bands 890-6000 MHz (FOUND).
+    path = write_scenario(_fda_scenario(frequency_hz))
+    result = run("probe", path, "--at", "0.05,0,0", "--json")
+    if ok:
+        assert_clean_exit(result, allowed=(0,))
+    else:
+        line = one_error_line(result)
+        assert "exposure.limits[0]" in line and "890 MHz" in line
+
+
+def test_icnirp_local_row_change_at_6_ghz(write_scenario):
+    # ICNIRP 2020 Table 6 (local, general public): ">2-6 GHz" S = 40 W/m^2 (closed at 6 GHz);
+    # ">6 to <300 GHz" S = 55 / fG^0.177 (open at 6 GHz: 40.05 W/m^2 just above).
+    limit = "icnirp-2020/general-public-local"
+    for f, s_lim in ((6e9, 40.0), (6.000001e9, 55 / 6.000001**0.177)):
+        path = write_scenario(
+            f'frequency_hz = {f!r}\n[[source]]\nantenna = "isotropic"\npower_w = 10.0\n'
+            f'[exposure]\nlimits = ["{limit}"]\n'
+        )
+        (p,) = probe(path, (0.3, 0.0, 0.0))
+        assert p["quotients"][limit] == pytest.approx(p["power_density_w_m2"] / s_lim, rel=1e-12)
+        assert get_limit(limit).at(f).power_density_w_m2 == pytest.approx(s_lim, rel=1e-12)

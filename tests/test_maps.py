@@ -9,10 +9,12 @@ from __future__ import annotations
 
 import json
 import math
+import textwrap
 import tracemalloc
 
 import numpy as np
 import pytest
+from hypothesis import given, note, settings
 
 from keepclear.fields import limits as limits_mod
 from keepclear.fields import maps
@@ -20,6 +22,10 @@ from keepclear.fields.errors import InputError, ResourceError
 from keepclear.fields.keepout import keepout_distances
 from keepclear.fields.scenario import load_scenario
 
+from ._cli import one_error_line, run
+from ._edge_cases import _no_evaluation
+from ._fuzz_strategies import EXPECTED_PLAUSIBILITY_WARNING, FUNCTION_FIXTURE, MAP_ARGS, check_map
+from ._hypothesis import examples
 from .conftest import ISOTROPIC
 
 # ICNIRP 2020, Table 5: 10 W/m^2 (general public) and 50 W/m^2 (occupational) above 2 GHz.
@@ -274,7 +280,7 @@ material = "concrete"
 def test_a_singular_sample_counts_as_exceeding(iso, monkeypatch):
     """A model that returns NaN on its own source point must not crash or hide an exceedance."""
     scenario, keepouts = iso
-    import keepclear.fields.maps as maps_mod
+    import keepclear.fields.maps.evaluation as maps_mod
 
     real = maps_mod.evaluate
 
@@ -290,3 +296,78 @@ def test_a_singular_sample_counts_as_exceeding(iso, monkeypatch):
         result = maps.evaluate_map(scenario, grid)
     assert np.all(np.isfinite(result.quotients))
     assert result.quotients[:, 10, 10].min() > 1e9
+
+
+# ------------------------------------------------------------
+# Fuzzing with random and broken input (hypothesis). What is checked, and against
+# what, is listed in tests/_fuzz_strategies.py.
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+@settings(max_examples=examples(12), suppress_health_check=FUNCTION_FIXTURE)
+@given(args=MAP_ARGS)
+def test_map_arguments(tmp_path, args):
+    """Map options at their edges (coordinates within the 1e6 m bound; beyond it is a known
+    fault, see the edge-case tests), always on a tiny grid; --pixels comes first so a later --step-m
+    meets it (refused as 'not both')."""
+    path = tmp_path / "ok.toml"
+    path.write_text(
+        '[[source]]\nantenna = "dipole"\npower_w = 10.0\nposition_m = [0.0, 0.0, 1.0]\n',
+        encoding="utf-8",
+    )
+    out = tmp_path / "out"
+    out.mkdir(exist_ok=True)
+    for old in out.iterdir():
+        old.unlink()
+    note(repr(args))
+    check_map(path, out, args)
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+@pytest.mark.parametrize(
+    "args",
+    [["--pixels", "4001"], ["--pixels", "100000"], ["--step-m", "1e-9", "--extent-m", "100"]],
+    ids=["4001 a side", "over the side bound", "tiny step"],
+)
+@pytest.mark.parametrize("command", ["map", "assess"])
+def test_a_grid_too_large_is_refused_with_estimate_and_bound(
+    write_scenario, tmp_path, monkeypatch, command, args
+):
+    path = write_scenario(ISOTROPIC)
+    _no_evaluation(monkeypatch)
+    out = tmp_path / "out"
+    line = one_error_line(run(command, path, *args, "--out", out))
+    assert args[0] in line
+    assert "MiB" in line or "samples a side" in line  # the estimate ...
+    assert "allowed" in line or "refused" in line  # ... and the bound
+    assert not out.exists()
+
+
+@pytest.mark.parametrize(
+    "args",
+    [["--extent-m", "1e300"], ["--height-m", "1e300"], ["--through", "1e300,0,0"]],
+    ids=["extent", "height", "through"],
+)
+def test_map_coordinates_beyond_the_bound_are_refused(write_scenario, tmp_path, args):
+    path = write_scenario(ISOTROPIC)
+    one_error_line(run("map", path, "--pixels", "5", *args, "--csv", tmp_path / "m.csv"))
+
+
+def test_map_extent_too_small_for_a_step_is_refused(write_scenario, tmp_path):
+    path = write_scenario(ISOTROPIC)
+    line = one_error_line(
+        run("map", path, "--pixels", "5", "--extent-m", "5e-324", "--csv", tmp_path / "m.csv")
+    )
+    assert "--extent-m" in line
+
+
+def test_map_outputs_never_overwrite_the_scenario(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    for option in ("--png", "--svg", "--csv", "--npz", "--geojson"):
+        line = one_error_line(run("map", path, "--pixels", "5", option, path))
+        assert "overwrite" in line
+    assert path.read_text(encoding="utf-8").strip() == textwrap.dedent(ISOTROPIC).strip()

@@ -18,6 +18,8 @@ from keepclear.fields import maps, plots
 from keepclear.fields.keepout import keepout_distances
 from keepclear.fields.scenario import load_scenario
 
+from ._cli import assert_clean_exit, run
+from ._edge_cases import load_scenario_name
 from .conftest import ISOTROPIC
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # ISO/IEC 15948:2004, sec. 5.2
@@ -69,16 +71,28 @@ def test_quotient_map_says_what_it_is_against(iso_run):
 
 
 class _Sheet:
-    """A shield-like object that offers only centre, normal and size."""
+    """A shield-like object that offers only centre, normal, size and its outline()."""
 
     center_m = np.array([0.4, 0.0, 0.0])
     normal = np.array([1.0, 0.0, 0.0])
     width_m = 0.6
     height_m = 0.5
 
+    def outline(self):
+        across, up = np.array([0.0, 1.0, 0.0]), np.array([0.0, 0.0, 1.0])
+        w, h = self.width_m / 2, self.height_m / 2
+        return np.array(
+            [
+                self.center_m + a * w * across + b * h * up
+                for a, b in ((-1, -1), (1, -1), (1, 1), (-1, 1))
+            ]
+        )
+
 
 class _Box:
-    """An enclosure-like object with an outline() of corners."""
+    """An enclosure-like object with an outline() of corners and no openings."""
+
+    openings = ()
 
     def outline(self):
         return np.array(
@@ -161,3 +175,16 @@ def test_letters_of_nearby_places_do_not_overlap(write_scenario):
             overlap_x = min(a.x1, b.x1) - max(a.x0, b.x0)
             overlap_y = min(a.y1, b.y1) - max(a.y0, b.y0)
             assert overlap_x <= 0.5 or overlap_y <= 0.5, (a, b)
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+def test_control_characters_in_the_name_draw_without_warnings(write_scenario, tmp_path):
+    text = ISOTROPIC.replace('name = "test point source"', 'name = "bench \\u001b[31m B2"')
+    path = write_scenario(text)
+    assert "\x1b" in load_scenario_name(path)
+    result = run("assess", path, "--out", tmp_path / "out", "--pixels", "5", "--json")
+    assert_clean_exit(result, allowed=(0,))

@@ -4,8 +4,10 @@ from __future__ import annotations
 
 import math
 
+import hypothesis.strategies as st
 import numpy as np
 import pytest
+from hypothesis import assume, given, settings
 
 from keepclear.antennas.base import (
     C_M_S,
@@ -17,6 +19,7 @@ from keepclear.antennas.base import (
 )
 from keepclear.antennas.isotropic import IsotropicSource
 from keepclear.fields.errors import ScenarioError
+from keepclear.fields.field import evaluate
 from keepclear.fields.materials import relative_permittivity_itu_p2040
 from keepclear.fields.reflection import (
     Reflector,
@@ -25,10 +28,21 @@ from keepclear.fields.reflection import (
     fresnel_coefficients,
     image_labels,
     reflected_fields,
-    reflector_from_table,
     transmission_power_factor,
 )
+from keepclear.fields.scenario_tables import reflector_from_table
 from keepclear.fields.validate import Table
+
+from ._edge_cases import FLOOR, probe
+from ._hypothesis import examples
+from ._property_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
+    HAS_REFLECTION,
+    build,
+    documents,
+    field_points,
+)
+from .conftest import ISOTROPIC
 
 F_HZ = 2.45e9
 LAMBDA_M = C_M_S / F_HZ
@@ -632,3 +646,59 @@ def test_vertical_element_on_a_conductor_doubles_its_field():
     e, h = src.fields(pts)
     ((ei, hi),) = reflected_fields(src, [metal([0, 0, 0], [0, 0, 1])], pts, F_HZ)
     assert np.allclose(ei, e, rtol=1e-12, atol=0) and np.allclose(hi, h, rtol=1e-12, atol=0)
+
+
+# ------------------------------------------------------------
+# Physical properties over random scenarios (hypothesis). The laws and their sources
+# are listed in tests/_property_strategies.py.
+
+
+# ---------------------------------------------------------- envelope >= coherent
+@EXPECTED_PLAUSIBILITY_WARNING
+@pytest.mark.skipif(not HAS_REFLECTION, reason="reflection model not present")
+@settings(max_examples=examples(25))
+@given(doc=documents(max_sources=2, reflector=True), pts=field_points(), wall=st.booleans())
+def test_reflection_envelope_is_never_below_coherent(doc, pts, wall):
+    if wall:
+        east = max(s["position_m"][0] for s in doc["source"]) + 0.5
+        doc["reflector"].append(
+            {"point_m": [east, 0, 0], "normal": [-1.0, 0, 0], "material": "metal"}
+        )
+    envelope = build({**doc, "reflections": "envelope"})
+    coherent = build({**doc, "reflections": "coherent"})
+    assume(envelope is not None and coherent is not None)
+    r_env, r_coh = evaluate(envelope, pts), evaluate(coherent, pts)
+    for name in ("e_v_m", "h_a_m", "power_density_w_m2", "peak_power_density_w_m2"):
+        env, coh = getattr(r_env, name), getattr(r_coh, name)
+        assert np.all(env >= coh * (1 - 1e-12)), name
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+@pytest.mark.parametrize("material", ["metal", "concrete", "wet-ground"])
+def test_on_and_behind_a_reflector(write_scenario, material):
+    path = write_scenario(
+        ISOTROPIC.replace("[0.0, 0.0, 0.0]", "[0.0, 0.0, 1.0]") + FLOOR.format(material=material)
+    )
+    points = probe(
+        path,
+        (0.0, 0.0, 0.0),  # on the plane below the source
+        (1.0, 0.0, 0.0),  # on the plane, oblique
+        (0.0, 0.0, -0.05),  # inside the floor
+        (0.0, 0.0, -1e5),  # far inside
+        (1e5, 0.0, 1e-9),  # far along the plane, grazing
+    )
+    assert all(p["power_density_w_m2"] >= 0 for p in points)
+    direct = 100.0 / (4 * math.pi * 1.0**2)  # OET 65 eq. (3) at 1 m below the source
+    if material == "metal":
+        # Envelope mode adds the reflection in its worst phase, (1 + |Gamma|)^2 = 4 times the
+        # direct density for a perfect reflector (contract; OET 65 sec. 2, factor 4).
+        assert points[0]["power_density_w_m2"] == pytest.approx(4 * direct, rel=1e-9)
+        # Nothing passes a perfect conductor (Balanis, Advanced Engineering
+        # Electromagnetics, 2nd ed., sec. 7.4).
+        assert points[2]["power_density_w_m2"] == 0.0
+    else:
+        assert direct < points[0]["power_density_w_m2"] < 4 * direct

@@ -11,7 +11,7 @@ subsample of them, with ``method="direct"`` (one fine rule for every point, doub
 precision).  ``extra_info`` reports points per second, the direct time per point
 extrapolated to the whole map, their ratio, and the worst difference in dB between the
 two on the points both computed (|E|, |H| and the plane-wave-equivalent density).
-The CPU time of the adaptive run (all threads) is reported beside the wall time: on a
+The CPU time of the adaptive run is reported beside the wall time: on a
 shared machine the wall time mostly measures the neighbours.  Nothing is asserted about
 speed; accuracy is asserted at 0.1 dB.
 """
@@ -60,9 +60,7 @@ def _db(a: np.ndarray, b: np.ndarray) -> float:
     return float(np.max(np.abs(10 * np.log10(a / b))))
 
 
-def _run_case(benchmark, radiator, n_points: int, threads: int | None = None) -> None:
-    if threads is not None:
-        radiator.threads = threads
+def _run_case(benchmark, radiator, n_points: int) -> None:
     points = h_plane_map(n_points)
     local = radiator.apply_standoff(radiator.placement.to_local(points))
     orders = radiator.adaptive_orders(local)
@@ -97,7 +95,6 @@ def _run_case(benchmark, radiator, n_points: int, threads: int | None = None) ->
         {
             "model": type(radiator).__name__,
             "points": int(points.shape[0]),
-            "threads": radiator.threads,
             "adaptive_s": adaptive_s,
             "adaptive_cpu_s": min(cpu_s),
             "points_per_s": points.shape[0] / adaptive_s,
@@ -113,7 +110,7 @@ def _run_case(benchmark, radiator, n_points: int, threads: int | None = None) ->
         }
     )
     print(
-        f"\n{type(radiator).__name__} {points.shape[0]} points, {radiator.threads} threads: "
+        f"\n{type(radiator).__name__} {points.shape[0]} points: "
         f"adaptive {adaptive_s:.3f} s (cpu {min(cpu_s):.3f} s, "
         f"{points.shape[0] / adaptive_s:.3g} points/s), direct "
         f"{direct_total_s:.3g} s (timed on {n_direct}), x{direct_total_s / adaptive_s:.1f}, "
@@ -132,9 +129,3 @@ def test_bench_open_waveguide_map(benchmark, n_points):
 def test_bench_horn_map(benchmark, n_points):
     benchmark.group = "horn 3 x 2 wavelengths"
     _run_case(benchmark, horn_3x2(), n_points)
-
-
-@pytest.mark.parametrize("threads", [1, 2])
-def test_bench_horn_threads(benchmark, threads):
-    benchmark.group = "horn 3 x 2 wavelengths, threads"
-    _run_case(benchmark, horn_3x2(), 100_000, threads=threads)

@@ -7,7 +7,7 @@ Run every benchmark with (they are skipped in normal runs by ``--benchmark-skip`
 Each case times the engine (pytest-benchmark) and, in the same run, a direct
 integration of the same model on the same points: for the apertures the engine's
 ``method="direct"`` (one fixed fine Gauss rule, every node for every point, every kernel
-written out in double precision, no far zone, no folding, no threads tricks); for the wire
+written out in double precision, no far zone, no folding); for the wire
 antennas the sinusoidal current summed as 2 x 200 Gauss-Legendre current elements with the
 complete dipole fields.  Where the direct integration of every point would take minutes it
 is timed on a fixed random subsample and scaled to all points (its cost per point does not
@@ -342,37 +342,6 @@ def test_bench_aperture_size(benchmark, width_wl, height_wl, length_m):
         rounds=1,
         adaptive_mean_nodes=float(np.mean(orders[:, 0] * orders[:, 1])),
         direct_nodes=nx * ny,
-    )
-
-
-# ------------------------------------------------------------------ threads
-@pytest.mark.parametrize("threads", [1, 2])
-def test_bench_threads(benchmark, threads):
-    """One core or two on the demo horn map (250 000 points); the load average is recorded."""
-    benchmark.group = "threads, demo horn map 500 x 500"
-    fast, _ = _demo_scenarios()
-    for source in fast.sources:
-        source.radiator.threads = threads
-    grid = _front_grid(500, 0.7)
-    ids = list(fast.limit_ids)
-    maps.evaluate_map(fast, _front_grid(16), ids)
-    cpu: list[float] = []
-
-    def run():
-        _, _, c = timed(maps.evaluate_map, fast, grid, ids)
-        cpu.append(c)
-
-    benchmark.pedantic(run, rounds=3, iterations=1)
-    seconds = benchmark.stats.stats.min
-    record(
-        benchmark,
-        f"demo map 500x500, {threads} thread(s)",
-        points=grid.s_m.size * grid.t_m.size,
-        seconds=seconds,
-        points_per_s=grid.s_m.size * grid.t_m.size / seconds,
-        cpu_s=min(cpu),
-        cores=os.cpu_count(),
-        load_average_1min=os.getloadavg()[0],
     )
 
 

@@ -1,0 +1,151 @@
+"""Scenario input: random, broken and oversized scenario files are refused cleanly or run."""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import math
+
+import hypothesis.strategies as st
+import pytest
+from hypothesis import given, note, settings
+
+from ._cli import assert_clean_exit, one_error_line, run, strict_json
+from ._fuzz_strategies import (
+    EXPECTED_PLAUSIBILITY_WARNING,
+    FUNCTION_FIXTURE,
+    RAW_TEXTS,
+    _keepout_is_bounded,
+    at_points,
+    check_keepout,
+    check_map,
+    check_probe,
+    mutated_documents,
+    toml_document,
+    valid_documents,
+)
+from ._hypothesis import examples
+
+# ------------------------------------------------------------
+# Fuzzing with random and broken input (hypothesis). What is checked, and against
+# what, is listed in tests/_fuzz_strategies.py.
+
+
+# ---------------------------------------------------------------------- tests
+@EXPECTED_PLAUSIBILITY_WARNING
+@settings(max_examples=examples(35), suppress_health_check=FUNCTION_FIXTURE)
+@given(data=st.data())
+def test_mutated_scenarios(tmp_path, data):
+    doc = data.draw(mutated_documents(), label="scenario")
+    path = tmp_path / "fuzz.toml"
+    text = toml_document(doc)
+    path.write_text(text, encoding="utf-8")
+    note(text)
+    points = data.draw(at_points(doc), label="points")
+    probe = check_probe(path, points)
+    if _keepout_is_bounded(path):
+        keepout = check_keepout(path)
+        # Both load the same file the same way: both succeed or both refuse it.
+        assert probe.exit_code == keepout.exit_code, (probe.stderr, keepout.stderr)
+        if data.draw(st.integers(0, 3), label="map too") == 0:
+            out = tmp_path / "map"
+            out.mkdir(exist_ok=True)
+            for old in out.iterdir():
+                old.unlink()
+            check_map(path, out, [])
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+@settings(max_examples=examples(10), suppress_health_check=FUNCTION_FIXTURE)
+@given(doc=valid_documents())
+def test_valid_scenarios_run(tmp_path, doc):
+    """Generated valid scenarios mostly load; those that do give finite, schema-valid JSON."""
+    path = tmp_path / "valid.toml"
+    path.write_text(toml_document(doc), encoding="utf-8")
+    note(toml_document(doc))
+    probe = check_probe(path, [[0.3, -0.2, 0.1], doc["source"][0]["position_m"]])
+    if probe.exit_code == 2:
+        # Refusals of generated valid input must be physical, e.g. a waveguide below cutoff
+        # at a random frequency or a limit not published there, never a key or type error.
+        line = probe.stderr
+        assert "is not a known" not in line and "must be a" not in line, line
+    if _keepout_is_bounded(path):
+        check_keepout(path)
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+@settings(max_examples=examples(60), suppress_health_check=FUNCTION_FIXTURE)
+@given(case=RAW_TEXTS)
+def test_raw_junk_files(tmp_path, case):
+    label, raw = case
+    path = tmp_path / "junk.toml"
+    path.write_bytes(raw)
+    note(f"{label}: {raw[:200]!r}")
+    for command in (["probe", path, "--at", "1,0,0", "--json"], ["keepout", path, "--json"]):
+        result = run(*command)
+        assert_clean_exit(result)
+        if result.exit_code == 0:
+            strict_json(result.stdout)
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+@pytest.mark.parametrize(
+    "name",
+    ["x" * 1_900_000, "\U0001f4a5" * 400_000, "line1\nline2\u2028line3\x85line4"],
+    ids=["1.9 MB name", "1.6 MB of emoji", "line separators"],
+)
+def test_very_long_and_odd_strings(tmp_path, name):
+    path = tmp_path / "long.toml"
+    doc = {"name": name, "source": [{"antenna": "isotropic", "power_w": 1.0}]}
+    path.write_text(toml_document(doc), encoding="utf-8")
+    result = run("keepout", path, "--json")
+    assert_clean_exit(result)
+    if result.exit_code == 0:
+        assert strict_json(result.stdout)["scenario"] == name
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+def test_file_over_2_mb_is_refused(tmp_path):
+    path = tmp_path / "big.toml"
+    path.write_text(toml_document({"name": "x" * 2_100_000, "source": []}), encoding="utf-8")
+    result = run("keepout", path)
+    assert_clean_exit(result, allowed=(2,))
+    assert "2 MB" in result.stderr
+
+
+@EXPECTED_PLAUSIBILITY_WARNING
+def test_toml_writer_round_trips():
+    # The writer must produce TOML that tomllib reads back as the same document; otherwise the
+    # fuzzer would only ever test the TOML parser.
+    import tomllib
+
+    doc = {
+        "name": 'q"uote\\ \n\t\x7f \U0001f4a5',
+        "frequency_hz": -0.0,
+        "n": 10**30,
+        "source": [{"power_w": 5e-324, "position_m": [1e308, -1.5, 0]}, {"a": {"b": [True]}}],
+        "when": dt.datetime(1979, 5, 27, 7, 32, tzinfo=dt.UTC),
+    }
+    assert tomllib.loads(toml_document(doc)) == doc
+    assert json.dumps(tomllib.loads(toml_document({"x": math.nan}))) == '{"x": NaN}'
+
+
+# ------------------------------------------------------------
+# Numerical and file-system edges (singular points, band edges, bounds, atomic outputs).
+# What is checked, and against what, is listed in tests/_edge_cases.py.
+
+
+# ------------------------------------------------------------ source counts
+def test_no_source_is_refused(write_scenario):
+    for text in (
+        'name = "empty"\n',
+        "source = []\n",
+        "[exposure]\nlimits = ['icnirp-2020/occupational']\n",
+    ):
+        line = one_error_line(run("keepout", write_scenario(text), "--json"))
+        assert "source" in line and "at least one [[source]]" in line
+
+
+def test_more_than_200_sources_is_refused(write_scenario):
+    text = '[[source]]\nantenna = "isotropic"\npower_w = 1.0\n' * 201
+    assert "at most 200" in one_error_line(run("keepout", write_scenario(text)))
