@@ -42,6 +42,7 @@ References
 from __future__ import annotations
 
 import abc
+import copy
 from dataclasses import dataclass, field
 from typing import Final
 
@@ -49,7 +50,9 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import constants
 
-from .errors import InputError
+# Defined beside InputError (no numpy or scipy there: the command line starts fast);
+# re-exported here, where the models use them.
+from .errors import InputError, ModelInputError, ModelRangeWarning  # noqa: F401
 
 #: Characteristic impedance of free space [ohm] (from CODATA mu0 and eps0).
 ETA0_OHM: Final[float] = float(np.sqrt(constants.mu_0 / constants.epsilon_0))
@@ -58,35 +61,6 @@ C_M_S: Final[float] = float(constants.c)
 
 #: Default memory budget for one evaluation chunk [bytes].
 DEFAULT_CHUNK_BYTES: Final[int] = 64 * 1024**2
-
-
-class ModelInputError(InputError, ValueError):
-    """A source model was given parameters it cannot represent.
-
-    An :class:`~keepclear.antennas.errors.InputError` whose key is the model parameter:
-    the message names the parameter, the value and what is allowed; the scenario loader
-    relocates it to the file and key path, and raised at run time it is still bad input
-    (exit status 2 on the command line).
-
-    Parameters
-    ----------
-    parameter : str
-        The model parameter (the scenario key where they coincide).
-    message : str
-        What is wrong and what is allowed.
-    """
-
-    def __init__(self, parameter: str, message: str) -> None:
-        super().__init__(message, None, parameter)
-        self.parameter = parameter
-
-    def located(self, source: str | None = None, key: str | None = None) -> InputError:
-        """An :class:`InputError` with the file and/or key filled in where still missing."""
-        return InputError(self.message, self.source or source, self.key or key)
-
-
-class ModelRangeWarning(UserWarning):
-    """A model is used close to (but not past) the edge of its validity."""
 
 
 def unit_vector(vector: ArrayLike, name: str = "vector") -> NDArray[np.float64]:
@@ -181,15 +155,36 @@ class Placement:
 
     def to_local(self, points_m: NDArray[np.float64]) -> NDArray[np.float64]:
         """Scenario coordinates (N, 3) to local coordinates (N, 3) [m]."""
-        return (points_m - self.position_m) @ self.rotation
+        return _rotate(points_m - self.position_m, self.rotation)
 
     def vectors_to_global(self, vectors: NDArray) -> NDArray:
         """Rotate local vectors (N, 3), real or complex, into scenario axes."""
-        return vectors @ self.rotation.T
+        return _rotate(vectors, self.rotation.T)
 
     def directions_to_local(self, directions: NDArray[np.float64]) -> NDArray[np.float64]:
         """Rotate scenario directions (N, 3) into local axes."""
-        return directions @ self.rotation
+        return _rotate(directions, self.rotation)
+
+
+def _rotate(vectors: NDArray, matrix: NDArray[np.float64]) -> NDArray:
+    """``vectors @ matrix`` for (N, 3) rows and a 3 x 3 matrix, as three column sums.
+
+    Written out rather than a BLAS product: each row's result is then the same whatever
+    the number of rows, the threads and the BLAS kernel (the same answer on every
+    machine), at about the same speed.  Zero entries (axis-aligned placements) are skipped.
+    """
+    v = np.asarray(vectors)
+    out = np.empty(v.shape, dtype=np.result_type(v, matrix))
+    for j in range(3):
+        terms = [(i, matrix[i, j]) for i in range(3) if matrix[i, j] != 0.0]
+        if not terms:
+            out[..., j] = 0.0
+            continue
+        i0, c0 = terms[0]
+        np.multiply(v[..., i0], c0, out=out[..., j])
+        for i, c in terms[1:]:
+            out[..., j] += v[..., i] * c
+    return out
 
 
 def as_points(points_m: ArrayLike) -> NDArray[np.float64]:
@@ -263,6 +258,30 @@ class Radiator(abc.ABC):
         self.placement = placement if placement is not None else Placement()
 
     # ------------------------------------------------------------------ model
+    def with_power(self, power_w: float) -> Radiator:
+        """The same model radiating ``power_w``: a copy that shares the model's caches.
+
+        Every model here is linear in the field amplitude, so the copy's fields are this
+        radiator's times sqrt(power_w / self.power_w); building it costs nothing, and
+        inside :func:`keepclear.antennas.memo.shared_field_evaluations` it shares this
+        radiator's field evaluations.
+
+        Parameters
+        ----------
+        power_w : float
+            Radiated power of the copy [W].
+        """
+        if not (np.isfinite(power_w) and power_w >= 0):
+            raise ModelInputError("power_w", f"power_w must be >= 0, got {power_w!r}")
+        other = copy.copy(self)
+        other.power_w = float(power_w)
+        other._power_changed()
+        return other
+
+    def _power_changed(self) -> None:
+        """Update what depends on ``power_w`` after :meth:`with_power` (models that keep any)."""
+        return None
+
     @abc.abstractmethod
     def _local_fields(
         self, points_local_m: NDArray[np.float64]

@@ -50,4 +50,33 @@ class InputError(Exception):
         return type(self)(self.message, self.source or source, self.key or key)
 
 
-__all__ = ["InputError", "one_line"]
+class ModelInputError(InputError, ValueError):
+    """A source model was given parameters it cannot represent.
+
+    An :class:`~keepclear.antennas.errors.InputError` whose key is the model parameter:
+    the message names the parameter, the value and what is allowed; the scenario loader
+    relocates it to the file and key path, and raised at run time it is still bad input
+    (exit status 2 on the command line).
+
+    Parameters
+    ----------
+    parameter : str
+        The model parameter (the scenario key where they coincide).
+    message : str
+        What is wrong and what is allowed.
+    """
+
+    def __init__(self, parameter: str, message: str) -> None:
+        super().__init__(message, None, parameter)
+        self.parameter = parameter
+
+    def located(self, source: str | None = None, key: str | None = None) -> InputError:
+        """An :class:`InputError` with the file and/or key filled in where still missing."""
+        return InputError(self.message, self.source or source, self.key or key)
+
+
+class ModelRangeWarning(UserWarning):
+    """A model is used close to (but not past) the edge of its validity."""
+
+
+__all__ = ["InputError", "ModelInputError", "ModelRangeWarning", "one_line"]

@@ -237,9 +237,8 @@ class FiniteGroundMonopole(Radiator):
         # The moment-method solution and its outgoing-wave table depend only on the
         # geometry, the frequency and the power: a scenario loaded again (an option, a
         # second command in the same process) reuses them.
-        key = (
+        self._geometry_key = (
             self.frequency_hz,
-            self.power_w,
             ground,
             length,
             radius,
@@ -250,18 +249,8 @@ class FiniteGroundMonopole(Radiator):
             depth,
             float(max_segment_wavelengths),
         )
-        solved = _SOLVED.get(key)
-        if solved is None:
-            structure = self._structure(max_segment_wavelengths * lam)
-            solution = moment.solve_structure(structure, self.frequency_hz)
-            solved = _Solved(structure, solution, solution.elements(self.power_w))
-            _SOLVED[key] = solved
-            while len(_SOLVED) > _SOLVED_CACHE_SIZE:
-                _SOLVED.pop(next(iter(_SOLVED)))
-        self._solved = solved
-        self.structure = solved.structure
-        self.solution = solved.solution
-        self.elements = solved.elements
+        self._max_segment_m = max_segment_wavelengths * lam
+        self._use_solved()
         # Both paths bound their own scratch (the kernel by pairs, the expansion by its
         # table): a chunk of points costs about this much each.
         self.bytes_per_point = 32 * 1024
@@ -347,6 +336,30 @@ class FiniteGroundMonopole(Radiator):
         zc = np.clip(z, 0.0, self.length_m)
         wire = np.hypot(np.hypot(x, y), z - zc) <= self.wire_radius_m + tol
         return np.asarray(metal | wire)
+
+    def _use_solved(self) -> None:
+        """Take the solved structure for this geometry and power (solved once, then kept)."""
+        key = (*self._geometry_key, self.power_w)
+        solved = _SOLVED.get(key)
+        if solved is None:
+            structure = self._structure(self._max_segment_m)
+            solution = moment.solve_structure(structure, self.frequency_hz)
+            solved = _Solved(structure, solution, solution.elements(self.power_w))
+            _SOLVED[key] = solved
+            while len(_SOLVED) > _SOLVED_CACHE_SIZE:
+                _SOLVED.pop(next(iter(_SOLVED)))
+        self._solved = solved
+        self.structure = solved.structure
+        self.solution = solved.solution
+        self.elements = solved.elements
+
+    def _power_changed(self) -> None:
+        """Follow a new ``power_w`` (:meth:`Radiator.with_power`): the currents scale."""
+        self._use_solved()
+        feed = self.elements.start_currents_a[self.structure.feed_segment]
+        self.radiation_resistance_ohm = (
+            self.power_w / abs(feed) ** 2 if self.power_w > 0 and abs(feed) > 0 else math.nan
+        )
 
     @property
     def expansion(self) -> moment.OutgoingExpansion:

@@ -446,6 +446,22 @@ class WalledAperture(Radiator):
             if hasattr(aperture, name):
                 setattr(self, name, getattr(aperture, name))
 
+    def _power_changed(self) -> None:
+        """Follow a new ``power_w`` (:meth:`Radiator.with_power`).
+
+        The aperture and the rim's drive follow; the rim's share of the power
+        (``power_ratio``) does not change with the power.
+        """
+        self.aperture = self.aperture.with_power(self.power_w)
+        if self.flange_m is None:
+            self.edges = self._bare_rim_edges(np.radians(self.flare_half_angles_deg))
+        else:
+            self.edges = self._flange_edges(*self.flange_m)
+        if self.power_ratio == 1.0 and self.power_w > 0.0:
+            self.power_ratio = self._radiated_power(self.wavenumber_rad_m) / self.power_w
+            if self.normalize == "total":
+                self.rim_scale = float(np.sqrt(1.0 / self.power_ratio))
+
     # ----------------------------------------------------------- edges
     def _aperture_e_y(self, x: NDArray, y: NDArray) -> NDArray[np.complex128]:
         e_t, _ = self.aperture.distribution.field_function(x, y)

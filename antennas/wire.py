@@ -433,6 +433,9 @@ class _SinusoidalWireRadiator(Radiator):
             ETA0_OHM * f_max * f_max / (np.pi * self.radiation_resistance_ohm)
         )
 
+    def _power_changed(self) -> None:
+        self.current_max_a = math.sqrt(self.power_w / self.radiation_resistance_ohm)
+
     # ------------------------------------------------------------ derived numbers
     @property
     def feed_current_a(self) -> float:

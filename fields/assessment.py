@@ -15,6 +15,7 @@ parses, calls these functions and prints.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import math
 from collections.abc import Callable, Mapping, Sequence
@@ -24,6 +25,8 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
+
+from keepclear.antennas import memo
 
 from . import limits as limits_mod
 from . import maps
@@ -1510,13 +1513,19 @@ def _assess(
     rank_by: str = "keepout",
 ) -> AssessmentResult:
     scenario = prepare(scenario).scenario
-    keepouts = step_keepout(scenario, ids, progress)
-    runs = step_maps(scenario, keepouts, grid, height_m, progress)
-    cylinders = step_zones(scenario, keepouts, runs, progress)
-    places = step_places(scenario, ids)
-    spread = step_uncertainty(scenario, ids, keepouts, progress)
-    readings_block = readings_data(scenario.with_limits(ids), readings) if readings else None
-    comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress, rank_by)
+    # The options' searches reuse the base search's field evaluations (antennas/memo.py);
+    # the steps in between evaluate points no option repeats, so they keep none.
+    with memo.shared_field_evaluations() if scenario.options else contextlib.nullcontext():
+        keepouts = step_keepout(scenario, ids, progress)
+        with memo.paused():
+            runs = step_maps(scenario, keepouts, grid, height_m, progress)
+            cylinders = step_zones(scenario, keepouts, runs, progress)
+            places = step_places(scenario, ids)
+            spread = step_uncertainty(scenario, ids, keepouts, progress)
+            readings_block = (
+                readings_data(scenario.with_limits(ids), readings) if readings else None
+            )
+        comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress, rank_by)
     data, files = step_report(
         scenario,
         ids,

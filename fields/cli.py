@@ -14,21 +14,23 @@ import os
 import sys
 import warnings
 from enum import StrEnum
-from importlib import metadata
 from pathlib import Path
 from typing import Annotated, Any
 
-import numpy as np
 import typer
 from typer.core import TyperGroup
 
-from keepclear.antennas.base import ModelRangeWarning
+from keepclear.antennas.errors import ModelRangeWarning
 
-from . import assessment as api
-from .assessment import COORDINATE_BOUND_M, GridSettings
+from ._lazy import lazy_module
 from .cautions import caution_block
 from .errors import InputError
 from .progress import Progress
+
+# numpy and the API (and through it scipy, matplotlib, scikit-rf and the models) are
+# imported when a command first uses them, never for --help or a refused argument.
+np = lazy_module("numpy")
+api = lazy_module("keepclear.fields.assessment")
 
 PANEL_OUTPUT = "Output"
 PANEL_POINTS = "Points"
@@ -113,6 +115,8 @@ def _flush_warnings() -> None:
 
 def _version(value: bool) -> None:
     if value:
+        from importlib import metadata
+
         try:
             version = metadata.version("keepclear")
         except metadata.PackageNotFoundError:  # pragma: no cover - running from a checkout
@@ -276,6 +280,8 @@ def _print_with_caution(text: str) -> None:
 
 
 def _load(path: Path):  # noqa: ANN202
+    if not Path(path).exists():  # refused before numpy and the models are imported
+        raise InputError("no such file", str(path))
     from .scenario import load_scenario
 
     return load_scenario(path)
@@ -302,9 +308,9 @@ def parse_vector(text: str, option: str) -> np.ndarray:
             "argument",
             option,
         )
-    if max(abs(c) for c in xyz) > COORDINATE_BOUND_M:
+    if max(abs(c) for c in xyz) > api.COORDINATE_BOUND_M:
         raise InputError(
-            f"coordinates must lie within +-{COORDINATE_BOUND_M:g} m, got '{text}'",
+            f"coordinates must lie within +-{api.COORDINATE_BOUND_M:g} m, got '{text}'",
             "argument",
             option,
         )
@@ -435,7 +441,8 @@ def keepout_command(
     ] = False,
 ) -> None:
     """Keep-out distance about the first source for each limit of the scenario."""
-    result = api.keepout(_load(scenario), limits=limit, option=option)
+    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    result = api.keepout(loaded, limits=limit, option=option)
     data = result.to_dict()
     if json_out:
         _emit_json(data)
@@ -476,7 +483,8 @@ def readings_command(
     reading is compared with the time-averaged prediction (duty cycle applied).  A
     reading more than 3 dB above the prediction is flagged as under-predicted.
     """
-    data = api.readings(_load(scenario), csv_in, limits=limit).to_dict()
+    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    data = api.readings(loaded, csv_in, limits=limit).to_dict()
     if json_out:
         _emit_json(data)
         return
@@ -615,13 +623,14 @@ def map_command(
         )
     api.check_height(height_m)
     through_m = None if through is None else parse_vector(through, "--through")
-    grid = GridSettings(extent_m, step_m, pixels)
+    grid = api.GridSettings(extent_m, step_m, pixels)
     for path in [p for p in singles.values() if p is not None]:
         refuse_overwriting(path, [scenario])
         folder = path.parent if str(path.parent) else Path(".")
         if not folder.is_dir():
             raise InputError(f"cannot be written: folder '{folder}' does not exist", str(path))
-    loaded = api.select_option(_load(scenario), option)
+    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    loaded = api.select_option(loaded, option)
     ids = api.select_limits(loaded, limit)
     if custom:
         the_plane = maps.custom_plane(
@@ -723,7 +732,7 @@ def compare_command(
     from .plots import figure_bytes
 
     api.check_height(height_m)
-    grid = GridSettings(extent_m, step_m, pixels)
+    grid = api.GridSettings(extent_m, step_m, pixels)
     from .compare import check_rank_by
 
     loaded = _load(scenario)
@@ -822,7 +831,7 @@ def assess_command(
     from .report import summary_text
 
     api.check_height(height_m)
-    grid = GridSettings(extent_m, step_m, pixels)
+    grid = api.GridSettings(extent_m, step_m, pixels)
     readings = None
     if readings_csv is not None:
         from .readings import read_readings_csv

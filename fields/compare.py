@@ -44,6 +44,8 @@ from typing import Any
 
 import numpy as np
 
+from keepclear.antennas.memo import sharing_evaluations
+
 from . import maps
 from .cautions import CAUTION_TEXT
 from .field import evaluate
@@ -417,6 +419,7 @@ class Comparison:
         return comparison_figure(panels, f"Options compared: {self.base.name}", note=note)
 
 
+@sharing_evaluations
 def compare_options(
     scenario: Scenario,
     limit_ids: Sequence[str] | None = None,

@@ -12,8 +12,7 @@ from __future__ import annotations
 import difflib
 from collections.abc import Iterable
 
-from keepclear.antennas.base import ModelInputError
-from keepclear.antennas.errors import InputError, one_line
+from keepclear.antennas.errors import InputError, ModelInputError, one_line
 
 
 class ScenarioError(InputError):

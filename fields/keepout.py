@@ -476,7 +476,9 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
         new_o, new_d, new_kind = [], [], []
         starts: list[int] = []
         for k in range(len(search.rows)):
-            for j in np.argsort(dist[k])[::-1][:3]:
+            # a stable sort: among equal distances the last ray wins on every machine
+            # (an unstable sort orders ties by the processor's vector unit)
+            for j in np.argsort(dist[k], kind="stable")[::-1][:3]:
                 if dist[k, j] > 0 and int(j) not in starts:
                     starts.append(int(j))
         for j in starts:

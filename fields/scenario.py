@@ -23,6 +23,7 @@ import copy
 import re
 import tomllib
 from collections.abc import Callable
+from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
@@ -459,6 +460,15 @@ _BUILDERS: dict[str, Callable[[Table, float, float], Radiator]] = {
 }
 
 
+#: Source keys that do not define the radiator model: a source that differs from another
+#: only in these reuses its radiator (the same object, or a copy with another power).
+_NOT_MODEL = ("id", "power_w", "duty_cycle")
+#: The radiators built while one scenario and its options are read, by model keys.
+_RADIATORS: ContextVar[dict[tuple, Radiator] | None] = ContextVar(
+    "keepclear_radiators", default=None
+)
+
+
 def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
     # Refuse unknown keys first, so a typo is named before any value error it causes.
     for key in t.data:
@@ -484,7 +494,15 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
         raise t.error("id", "must not be empty")
     power = t.number("power_w", unit="W", minimum=0.0, exclusive_minimum=True, maximum=1e7)
     duty = t.number("duty_cycle", 1.0, minimum=0.0, exclusive_minimum=True, maximum=1.0)
-    radiator = _BUILDERS[kind](t, frequency_hz, power)
+    pool = _RADIATORS.get()
+    model = (kind, frequency_hz, repr(sorted(i for i in t.data.items() if i[0] not in _NOT_MODEL)))
+    known = pool.get(model) if pool is not None else None
+    if known is not None:  # an option's source whose model keys are the base's: no new model
+        radiator = known if known.power_w == power else known.with_power(power)
+    else:
+        radiator = _BUILDERS[kind](t, frequency_hz, power)
+        if pool is not None:
+            pool[model] = radiator
     t.finish(allowed)
     return Source(source_id, kind, power, duty, radiator, dict(t.data))
 
@@ -685,6 +703,17 @@ def scenario_from_document(
     ScenarioError
         For the first problem found, located by file and key path.
     """
+    if _RADIATORS.get() is not None:
+        return _scenario_from_document(document, source, allow_options)
+    # The base and its options share the radiators whose model keys agree (see _read_source).
+    token = _RADIATORS.set({})
+    try:
+        return _scenario_from_document(document, source, allow_options)
+    finally:
+        _RADIATORS.reset(token)
+
+
+def _scenario_from_document(document: dict[str, Any], source: str, allow_options: bool) -> Scenario:
     root = Table(document, "", source)
     for key in root.data:
         allowed = (

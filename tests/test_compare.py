@@ -15,7 +15,12 @@ import pytest
 from typer.testing import CliRunner
 
 from keepclear.fields.cli import app
-from keepclear.fields.compare import _largest, compare_options, comparison_table
+from keepclear.fields.compare import (
+    RANK_TOLERANCE,
+    _largest,
+    compare_options,
+    comparison_table,
+)
 from keepclear.fields.scenario import load_scenario
 
 from .conftest import ISOTROPIC, SCENARIOS
@@ -196,7 +201,11 @@ def test_demo_options_scenario_ranks_and_renders():
     ranked = [r["name"] for r in data["options"]]
     assert len(ranked) == 1 + len(scenario.options)
     keepouts = [r["largest_keepout_m"] for r in data["options"]]
-    assert keepouts == sorted(keepouts)
+    # Ranked by keep-out within the stated tie tolerance, not to the last bit: the base
+    # and the moved bench need the same radius, equal only to rounding (which may differ
+    # between machines), and a tie keeps the scenario's order.
+    tie_m = RANK_TOLERANCE["keepout_m"][0]
+    assert all(a <= b + tie_m for a, b in zip(keepouts, keepouts[1:], strict=False))
     # Half the power: R / sqrt(2) by OET 65 eq. (3).
     half = next(r for r in data["options"] if r["name"] == "half power")
     base = next(r for r in data["options"] if r["is_base"])

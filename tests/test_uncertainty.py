@@ -81,6 +81,7 @@ def test_same_seed_same_answer_and_another_seed_another(isotropic):
         scenario, unc.UncertaintySpec(power_db=1.0, samples=300, seed=2), nominal
     )
     for x, y, z in zip(a, b, c, strict=True):
+        # exact: the same seed repeats the same computation in the same process
         assert np.array_equal(x.samples_m, y.samples_m)
         assert not np.array_equal(x.samples_m, z.samples_m)
 
@@ -89,6 +90,7 @@ def test_zero_spread_gives_exactly_the_nominal_distance(isotropic):
     scenario, nominal = isotropic
     spec = unc.UncertaintySpec(gain_db=0.0, samples=50)
     for s, r in zip(unc.keepout_spread(scenario, spec, nominal), nominal, strict=True):
+        # exact by construction: with no spread every sample is the nominal value itself
         assert np.all(s.samples_m == r.distance_m)
         assert s.p95_m == r.distance_m and s.median_m == r.distance_m
 

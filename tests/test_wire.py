@@ -315,7 +315,10 @@ def test_chunked_evaluation_matches_single_pass():
     pts = np.random.default_rng(5).normal(size=(5000, 3))
     e1, h1 = d.fields(pts)
     e2, h2 = d.fields(pts, chunk_bytes=100 * d.bytes_per_point)
-    assert np.array_equal(e1, e2) and np.array_equal(h1, h2)
+    # Not bit for bit: the rotation to scenario axes is a matrix product, whose rounding
+    # may depend on the block size and the BLAS kernel.
+    np.testing.assert_allclose(e1, e2, rtol=1e-13, atol=1e-13 * np.abs(e1).max())
+    np.testing.assert_allclose(h1, h2, rtol=1e-13, atol=1e-13 * np.abs(h1).max())
 
 
 @pytest.mark.parametrize("cls", [Dipole, Monopole])

@@ -88,6 +88,7 @@ from ..base import (
     as_points,
     fibonacci_sphere,
 )
+from ..memo import active_memo
 from .distribution import GROUND_PLANE, ApertureDistribution, equivalent_currents
 from .kernel import (
     BLOCK_PAIRS,
@@ -233,6 +234,8 @@ class ApertureRadiator(Radiator):
         self.back_fraction = float(unit_back / unit_front)
         self._unit_power = float(unit_front + unit_back)
         self._scale = float(np.sqrt(self.power_w / self._unit_power))
+        #: The model's identity, shared by the copies of :meth:`with_power` (antennas/memo.py).
+        self._model = object()
         #: Orthonormal basis (4, S) of the current columns (J_x, J_y, M_x, M_y) at the nodes.
         self._basis_vectors = self._current_basis()
         self._mixing = np.ascontiguousarray(self._basis_vectors.conj().T)
@@ -240,6 +243,9 @@ class ApertureRadiator(Radiator):
         self.mirror_parities = self._mirror_parities()
         #: Memory one field point costs outside the kernel blocks (outputs, indices, sums).
         self.bytes_per_point = 640 + 320 * int(self._basis_vectors.shape[1])
+
+    def _power_changed(self) -> None:
+        self._scale = float(np.sqrt(self.power_w / self._unit_power))
 
     # ----------------------------------------------------------- geometry
     @property
@@ -544,8 +550,20 @@ class ApertureRadiator(Radiator):
         method = self.method if method is None else method
         if method not in METHODS:
             raise ModelInputError("method", f"method must be one of {METHODS}, got {method!r}")
-        chunk_bytes = int(min(max(chunk_bytes, self.bytes_per_point), MAX_BUDGET_BYTES))
         pts = as_points(points_m)
+        memo = active_memo()
+        if memo is not None and method == self.method:
+            # variants of one scenario share this model's evaluations (antennas/memo.py)
+            return memo.fields(
+                self._model, self._scale, pts, lambda p: self._fields(p, chunk_bytes, method)
+            )
+        return self._fields(pts, chunk_bytes, method)
+
+    def _fields(
+        self, pts: NDArray[np.float64], chunk_bytes: int, method: str
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        """:meth:`fields` of points (N, 3), every one evaluated."""
+        chunk_bytes = int(min(max(chunk_bytes, self.bytes_per_point), MAX_BUDGET_BYTES))
         local = self.placement.to_local(pts)
         folded = self._fold(local) if method == "adaptive" else None
         if folded is not None:

@@ -17,25 +17,29 @@ An estimate, not a measurement: verify with a calibrated survey meter (see
 
 from __future__ import annotations
 
-from keepclear.fields.assessment import (
-    AssessmentResult,
-    ComparisonResult,
-    FieldMap,
-    GridSettings,
-    KeepoutReport,
-    LimitsResult,
-    ProbeResult,
-    ReadingsResult,
-    assess,
-    compare,
-    field_map,
-    keepout,
-    limits,
-    probe,
-    readings,
-)
-from keepclear.fields.errors import InputError, LimitError, ResourceError, ScenarioError
-from keepclear.fields.scenario import Scenario, load_scenario
+import importlib
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:  # the names, for type checkers and readers; imported on first use
+    from keepclear.fields.assessment import (
+        AssessmentResult,
+        ComparisonResult,
+        FieldMap,
+        GridSettings,
+        KeepoutReport,
+        LimitsResult,
+        ProbeResult,
+        ReadingsResult,
+        assess,
+        compare,
+        field_map,
+        keepout,
+        limits,
+        probe,
+        readings,
+    )
+    from keepclear.fields.errors import InputError, LimitError, ResourceError, ScenarioError
+    from keepclear.fields.scenario import Scenario, load_scenario
 
 __all__ = [
     "AssessmentResult",
@@ -60,3 +64,24 @@ __all__ = [
     "probe",
     "readings",
 ]
+
+#: The module each name of the API comes from.  ``import keepclear`` alone imports none of
+#: them (PEP 562 module ``__getattr__``), so the command line starts without numpy, scipy,
+#: matplotlib or scikit-rf; the first use of a name imports its module.
+_HOMES = {
+    **dict.fromkeys(("InputError", "LimitError", "ResourceError", "ScenarioError"), "errors"),
+    **dict.fromkeys(("Scenario", "load_scenario"), "scenario"),
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name not in __all__:
+        raise AttributeError(f"module 'keepclear' has no attribute {name!r}")
+    module = importlib.import_module(f"keepclear.fields.{_HOMES.get(name, 'assessment')}")
+    value = getattr(module, name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})

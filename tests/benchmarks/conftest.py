@@ -10,6 +10,7 @@ from _common import SUMMARY
 _COLUMNS = (
     ("points", "points"),
     ("seconds", "fast s"),
+    ("cpu_s", "cpu s"),
     ("points_per_s", "points/s"),
     ("direct_s", "direct s"),
     ("speedup", "x direct"),

@@ -1,0 +1,184 @@
+"""Field evaluations shared between the variants of one scenario.
+
+The options of a scenario (``[[option]]``, ``[[sweep]]``) mostly keep the base's
+radiators: a shield, a reflector or the duty cycle changes nothing in a source model, and
+a new ``power_w`` only scales its fields by sqrt(P'/P) (every model here is linear in the
+field amplitude).  The scenario loader gives such an option the base's radiator itself, or
+a copy made with :meth:`~keepclear.antennas.base.Radiator.with_power` that shares its
+caches.  Inside :func:`shared_field_evaluations` an aperture radiator then evaluates each
+field point once for all of them: the keep-out searches of the variants sample the same
+rays at the same radii, and their maps share one grid, so an option's search or map is
+mostly looked up.
+
+What is shared is the complex E and H of the radiator alone at a point, before shields,
+images (an image is the radiator evaluated at the mirrored point, which is shared too) and
+the duty cycle are applied.  A point is the same only when its three coordinates are equal
+to the last bit.  A copy with another power gets the stored fields times
+sqrt(P'/P), which differs from evaluating afresh in the last bit or two only.
+
+Memory: at most :data:`MAX_POINTS` points are kept (E and H, 96 bytes, and an index entry,
+about 100 bytes, a point: about 150 MiB in all); beyond that, new points are evaluated and
+not kept.  Everything is dropped when the outermost ``with`` block ends.
+"""
+
+from __future__ import annotations
+
+import functools
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from contextvars import ContextVar
+from typing import Any, ParamSpec, TypeVar
+
+import numpy as np
+from numpy.typing import NDArray
+
+#: Points kept at most, over every radiator of a :func:`shared_field_evaluations` block.
+MAX_POINTS = 800_000
+
+_VOID_POINT = np.dtype((np.void, 24))
+_ACTIVE: ContextVar[FieldMemo | None] = ContextVar("keepclear_field_memo", default=None)
+
+Fields = tuple[NDArray[np.complex128], NDArray[np.complex128]]
+
+
+class _Store:
+    """The E and H of one radiator model at the points seen, at the power ``scale`` stands for."""
+
+    def __init__(self, scale: float) -> None:
+        self.scale = scale
+        self.index: dict[bytes, int] = {}
+        self.e = np.empty((0, 3), dtype=complex)
+        self.h = np.empty((0, 3), dtype=complex)
+        self.size = 0
+
+    def append(self, keys: list[bytes], e: NDArray, h: NDArray) -> NDArray[np.intp]:
+        n = len(keys)
+        if self.size + n > self.e.shape[0]:
+            capacity = max(2 * self.e.shape[0], self.size + n, 4096)
+            for name in ("e", "h"):
+                grown = np.empty((capacity, 3), dtype=complex)
+                grown[: self.size] = getattr(self, name)[: self.size]
+                setattr(self, name, grown)
+        rows = np.arange(self.size, self.size + n)
+        self.e[rows] = e
+        self.h[rows] = h
+        self.index.update(zip(keys, rows.tolist(), strict=True))
+        self.size += n
+        return rows
+
+
+class FieldMemo:
+    """E and H of radiator models at points, by model and exact point (see the module notes)."""
+
+    def __init__(self, max_points: int = MAX_POINTS) -> None:
+        self.max_points = int(max_points)
+        self.kept = 0
+        self.looked_up = 0
+        self.evaluated = 0
+        self._stores: dict[int, tuple[Any, _Store]] = {}
+
+    def fields(
+        self,
+        model: object,
+        scale: float,
+        points_m: NDArray[np.float64],
+        evaluate: Callable[[NDArray[np.float64]], Fields],
+    ) -> Fields:
+        """E and H at points for the model ``model`` at amplitude ``scale``.
+
+        Parameters
+        ----------
+        model : object
+            The model's identity: the same object for a radiator and its copies with other
+            powers.
+        scale : float
+            The radiator's field amplitude relative to the model (sqrt of its power) [1].
+        points_m : ndarray, shape (N, 3)
+            Field points [m].
+        evaluate : callable
+            ``evaluate(points)`` -> (E, H) of the radiator itself at points not seen yet.
+        """
+        entry = self._stores.get(id(model))
+        if entry is None or entry[0] is not model:
+            entry = (model, _Store(scale))
+            self._stores[id(model)] = entry
+        store = entry[1]
+        pts = np.ascontiguousarray(points_m, dtype=np.float64)
+        keys = pts.view(_VOID_POINT).ravel().tolist()
+        get = store.index.get
+        rows = np.fromiter((get(k, -1) for k in keys), dtype=np.intp, count=len(keys))
+        miss = np.flatnonzero(rows < 0)
+        self.looked_up += len(keys) - miss.size
+        self.evaluated += miss.size
+        factor = scale / store.scale if store.scale != scale else None
+        if miss.size == 0:
+            e, h = store.e[rows], store.h[rows]
+            return (e, h) if factor is None else (e * factor, h * factor)
+        e_new, h_new = evaluate(pts[miss])
+        e = np.empty((len(keys), 3), dtype=complex)
+        h = np.empty((len(keys), 3), dtype=complex)
+        hit = np.flatnonzero(rows >= 0)
+        if hit.size:
+            e[hit], h[hit] = store.e[rows[hit]], store.h[rows[hit]]
+            if factor is not None:
+                e[hit] *= factor
+                h[hit] *= factor
+        e[miss], h[miss] = e_new, h_new
+        if self.kept + miss.size <= self.max_points:
+            missing = [keys[i] for i in miss.tolist()]
+            back = None if factor is None else 1.0 / factor
+            store.append(
+                missing,
+                e_new if back is None else e_new * back,
+                h_new if back is None else h_new * back,
+            )
+            self.kept += miss.size
+        return e, h
+
+
+def active_memo() -> FieldMemo | None:
+    """The memo of the innermost :func:`shared_field_evaluations` block, or None."""
+    return _ACTIVE.get()
+
+
+@contextmanager
+def shared_field_evaluations(max_points: int = MAX_POINTS) -> Iterator[FieldMemo]:
+    """Share aperture field evaluations between radiators of one model inside the block.
+
+    Nested blocks use the outermost one's memo; it is dropped when that block ends.
+    """
+    memo = _ACTIVE.get()
+    if memo is not None:
+        yield memo
+        return
+    memo = FieldMemo(max_points)
+    token = _ACTIVE.set(memo)
+    try:
+        yield memo
+    finally:
+        _ACTIVE.reset(token)
+
+
+@contextmanager
+def paused() -> Iterator[None]:
+    """No sharing inside the block (evaluations that no variant repeats: keep memory free)."""
+    token = _ACTIVE.set(None)
+    try:
+        yield
+    finally:
+        _ACTIVE.reset(token)
+
+
+P = ParamSpec("P")
+R = TypeVar("R")
+
+
+def sharing_evaluations(function: Callable[P, R]) -> Callable[P, R]:
+    """Decorator: run ``function`` inside :func:`shared_field_evaluations`."""
+
+    @functools.wraps(function)
+    def run(*args: P.args, **kwargs: P.kwargs) -> R:
+        with shared_field_evaluations():
+            return function(*args, **kwargs)
+
+    return run

@@ -1,0 +1,101 @@
+"""Speed of ``assess`` with six options, and of the command line's start-up.
+
+Run with ``.venv/bin/python -m pytest tests/benchmarks --benchmark-only``.  Each command
+runs in a process of its own (the installed ``keepclear``), several times; the figures are
+the medians of the wall time and of the processor time (user + system) of the child.  On a
+machine shared with other jobs the wall time measures the neighbours too: the processor
+time is what the command itself costs.  Nothing is asserted about speed.
+"""
+
+from __future__ import annotations
+
+import resource
+import statistics
+import subprocess
+import tempfile
+import time
+from pathlib import Path
+
+import pytest
+from _common import keepclear_executable, record
+
+pytest.importorskip("pytest_benchmark")
+
+SIX_OPTIONS = Path(__file__).parent / "data" / "horn-bench-six-options.toml"
+
+
+def _timed(args: list[str], expect: int = 0) -> tuple[float, float, str]:
+    """Wall time [s], processor time of the child [s] and stderr of one run."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    t = time.perf_counter()
+    done = subprocess.run([str(a) for a in args], capture_output=True, text=True, check=False)
+    wall = time.perf_counter() - t
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    if done.returncode != expect:
+        raise AssertionError(f"{args[1:]} exited {done.returncode}: {done.stderr[-2000:]}")
+    return wall, cpu, done.stderr
+
+
+def _exe() -> Path:
+    exe = keepclear_executable()
+    if exe is None:
+        pytest.skip("the keepclear console script is not installed beside this interpreter")
+    return exe
+
+
+def test_bench_assess_six_options(benchmark):
+    exe = _exe()
+    benchmark.group = "assess with six options"
+    walls: list[float] = []
+    cpus: list[float] = []
+
+    def run():
+        with tempfile.TemporaryDirectory() as tmp:
+            folder = Path(tmp) / "out"
+            wall, cpu, _ = _timed([exe, "assess", SIX_OPTIONS, "--out", folder])
+            assert (folder / "report.html").exists()
+            walls.append(wall)
+            cpus.append(cpu)
+
+    benchmark.pedantic(run, rounds=3, iterations=1)
+    record(
+        benchmark,
+        "assess horn bench, six options (process)",
+        seconds=statistics.median(walls),
+        cpu_s=statistics.median(cpus),
+        note="median of 3; keep-out of the base and six options, maps, report, start-up",
+    )
+
+
+STARTUP = {
+    "help": (["--help"], 0),
+    "command-help": (["assess", "--help"], 0),
+    "refused-option": (["keepout", "--no-such-option"], 2),
+    "missing-file": (["keepout", "no-such-file.toml"], 2),
+}
+
+
+@pytest.mark.parametrize("case", list(STARTUP))
+def test_bench_cli_startup(benchmark, case: str):
+    exe = _exe()
+    args, expect = STARTUP[case]
+    benchmark.group = "command-line start-up"
+    walls: list[float] = []
+    cpus: list[float] = []
+
+    def run():
+        wall, cpu, err = _timed([exe, *args], expect)
+        if expect == 2:
+            assert err.startswith("keepclear: ") and err.count("\n") == 1
+        walls.append(wall)
+        cpus.append(cpu)
+
+    benchmark.pedantic(run, rounds=7, iterations=1)
+    record(
+        benchmark,
+        f"keepclear {' '.join(args)} (process)",
+        seconds=statistics.median(walls),
+        cpu_s=statistics.median(cpus),
+        note=f"median of 7; exit status {expect}",
+    )

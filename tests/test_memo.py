@@ -1,0 +1,121 @@
+"""Options share the base's radiators and, inside a comparison, its field evaluations.
+
+Identity checks of our own (no published number applies): every model is linear in the
+field amplitude, so a radiator at power P' has the fields of the same model at P times
+sqrt(P'/P) (Balanis, *Antenna Theory*, 4th ed., sec. 2.3: radiated power is quadratic in
+the fields).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from keepclear.antennas.horn import PyramidalHorn
+from keepclear.antennas.memo import shared_field_evaluations
+from keepclear.antennas.wire import Dipole
+from keepclear.fields.keepout import keepout_distances
+from keepclear.fields.scenario import load_scenario
+
+SIX = Path(__file__).parent / "benchmarks" / "data" / "horn-bench-six-options.toml"
+F_HZ = 2.45e9
+
+
+def _points(n: int = 300, seed: int = 2) -> np.ndarray:
+    rng = np.random.default_rng(seed)
+    return rng.uniform(-2.0, 2.0, (n, 3)) + np.array([0.3, 0.0, 0.0])
+
+
+def _horn(power_w: float) -> PyramidalHorn:
+    return PyramidalHorn(F_HZ, power_w, 0.08636, 0.04318, 0.24, 0.18, 0.30)
+
+
+@pytest.mark.parametrize(
+    "make", [_horn, lambda p: Dipole(F_HZ, p, length_m=0.0612)], ids=["horn", "dipole"]
+)
+def test_with_power_equals_a_radiator_built_at_that_power(make):
+    base = make(800.0)
+    copy = base.with_power(50.0)
+    fresh = make(50.0)
+    pts = _points()
+    for got, want in zip(copy.fields(pts), fresh.fields(pts), strict=True):
+        np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-15 * np.abs(want).max())
+    assert copy.power_w == 50.0 and base.power_w == 800.0
+
+
+def test_with_power_refuses_a_negative_power():
+    with pytest.raises(ValueError, match="power_w"):
+        _horn(1.0).with_power(-1.0)
+
+
+def test_memo_gives_the_fields_of_a_fresh_evaluation():
+    horn = _horn(800.0)
+    half = horn.with_power(400.0)
+    pts = _points()
+    plain_e, plain_h = horn.fields(pts)
+    half_e, _ = half.fields(pts)
+    with shared_field_evaluations() as memo:
+        e1, h1 = horn.fields(pts[:200])
+        e2, h2 = horn.fields(pts)  # 200 of them looked up
+        e3, _ = half.fields(pts)  # all looked up, scaled by sqrt(1/2)
+        assert memo.looked_up == 200 + 300
+        assert memo.evaluated == 300
+    tol = dict(rtol=1e-12, atol=1e-15 * np.abs(plain_e).max())
+    np.testing.assert_allclose(e2, plain_e, **tol)
+    np.testing.assert_allclose(h2, plain_h, rtol=1e-12, atol=1e-15 * np.abs(plain_h).max())
+    np.testing.assert_allclose(e1, plain_e[:200], **tol)
+    np.testing.assert_allclose(e3, half_e, **tol)
+
+
+def test_options_reuse_the_base_radiator_unless_the_model_changes():
+    scenario = load_scenario(SIX)
+    base = scenario.sources[0].radiator
+    by_name = {o.name: o.scenario.sources[0].radiator for o in scenario.options}
+    assert by_name["30 dB screen across the beam"] is base
+    assert by_name["pulsed at 20 %"] is base
+    half = by_name["half power"]
+    assert half is not base and _model(half) is _model(base) and half.power_w == 400.0
+    turned = by_name["horn turned down to the load"]
+    assert _model(turned) is not _model(base)
+
+
+def _model(radiator):
+    """The aperture model's shared state (inside the rim wrapper of a guide or horn)."""
+    return getattr(radiator, "aperture", radiator)._model
+
+
+def test_shared_evaluations_leave_the_keepout_unchanged():
+    scenario = load_scenario(SIX)
+    option = scenario.options[2].scenario  # half power: a copy of the base radiator
+    alone = keepout_distances(option)
+    with shared_field_evaluations():
+        keepout_distances(scenario)
+        shared = keepout_distances(option)
+    for a, b in zip(alone, shared, strict=True):
+        assert b.distance_m == pytest.approx(a.distance_m, rel=1e-9)
+
+
+def test_with_power_scales_every_bundled_source_model():
+    # Every radiator the loader builds (the rim-wrapped guides and horns, the finite-ground
+    # monopole, wires, point sources): half the power is half the density everywhere.
+    scenarios = Path(__file__).parent.parent / "scenarios"
+    pts = _points(60, seed=3) + np.array([0.0, 0.0, 1.0])
+    seen = set()
+    for path in sorted(scenarios.glob("*.toml")):
+        for source in load_scenario(path).sources:
+            radiator = source.radiator
+            if type(radiator).__name__ in seen or radiator.power_w <= 0:
+                continue
+            seen.add(type(radiator).__name__)
+            pts_here = pts + radiator.position_m - np.array([0.3, 0.0, 1.0])
+            outside = ~radiator.inside_or_on(pts_here, 0.01)
+            e_full, h_full = radiator.fields(pts_here[outside])
+            e_half, h_half = radiator.with_power(0.5 * radiator.power_w).fields(pts_here[outside])
+            for half, full in ((e_half, e_full), (h_half, h_full)):
+                np.testing.assert_allclose(
+                    np.abs(half) ** 2, 0.5 * np.abs(full) ** 2, rtol=1e-9,
+                    atol=1e-12 * float(np.max(np.abs(full) ** 2)), err_msg=path.name,
+                )  # fmt: skip
+    assert {"WalledAperture", "FiniteGroundMonopole"} <= seen
