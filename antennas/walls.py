@@ -446,6 +446,22 @@ class WalledAperture(Radiator):
             if hasattr(aperture, name):
                 setattr(self, name, getattr(aperture, name))
 
+    # ------------------------------------------------------------- the body
+    @property
+    def boresight(self) -> NDArray[np.float64] | None:
+        """The aperture's boresight in scenario axes [1]."""
+        return self.aperture.boresight
+
+    def _local_outline(self) -> NDArray[np.float64] | None:
+        """The aperture's body (guide or flare); a flange is drawn by its own plate."""
+        return self.aperture._local_outline()
+
+    def _local_inside_or_on(
+        self, points_local_m: NDArray[np.float64], tolerance_m: float
+    ) -> NDArray[np.bool_]:
+        """Inside the guide or the flare, or on their metal: the aperture's own test."""
+        return self.aperture._local_inside_or_on(points_local_m, tolerance_m)
+
     def _power_changed(self) -> None:
         """Follow a new ``power_w`` (:meth:`Radiator.with_power`).
 
