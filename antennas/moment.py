@@ -130,6 +130,8 @@ from .base import C_M_S, ETA0_OHM, ModelInputError
 
 #: Largest number of segments accepted (NEC-2's dense matrix: 16 N^2 bytes, N^3/3 steps).
 MAX_SEGMENTS = 4000
+#: The same for a structure solved from its quarter (four blocks of N/4: 1/16 the steps).
+MAX_SYMMETRIC_SEGMENTS = 6000
 #: Longest grid segment, in wavelengths (Burke & Poggio, part III).
 MAX_SEGMENT_WAVELENGTHS = 0.1
 #: Finest grid spacing at a feed, in wavelengths.
@@ -574,6 +576,114 @@ def solve_structure(structure: WireStructure, frequency_hz: float) -> MomentSolu
     return MomentSolution(structure, float(frequency_hz), currents, z)
 
 
+# ------------------------------------------------------------- two symmetry planes
+#: Mirror factors of the four quarters, in NEC-2's order after reflecting the first
+#: quarter in the plane y = 0 and then everything in the plane x = 0 (GX card, IX = IY = 1):
+#: the quarter, its y-mirror, its x-mirror, and both.
+QUARTER_MIRRORS = (
+    np.array([1.0, 1.0, 1.0]),
+    np.array([1.0, -1.0, 1.0]),
+    np.array([-1.0, 1.0, 1.0]),
+    np.array([-1.0, -1.0, 1.0]),
+)
+
+
+def mirrored_structure(quarter: WireStructure) -> WireStructure:
+    """The whole structure of a quarter and its three mirror images, in NEC-2's order.
+
+    Each image keeps its segments' start -> end order (the mirrored end points), so a
+    current along an image segment is the mirror of the same current in the quarter.
+    The feed index is the quarter's.
+    """
+    starts = np.vstack([quarter.starts_m * m for m in QUARTER_MIRRORS])
+    ends = np.vstack([quarter.ends_m * m for m in QUARTER_MIRRORS])
+    radii = np.concatenate([quarter.radii_m] * 4)
+    return WireStructure.from_segments(starts, ends, radii, quarter.feed_segment)
+
+
+def _nec_run_quarter(
+    quarter: WireStructure, frequency_hz: float, voltages: tuple[float, ...]
+) -> NDArray[np.complex128]:
+    """NEC-2 with the planes x = 0 and y = 0 as symmetry planes (GX card).
+
+    The quarter (every segment in x >= 0, y >= 0, none in or across a plane) is reflected
+    by NEC-2, which then factorises four blocks of a quarter's size instead of the whole
+    matrix (Burke & Poggio [1]_, part III, GX card).  The quarter's feed segment and its
+    three images are fed with ``voltages`` (one per quarter, :data:`QUARTER_MIRRORS`
+    order; the excitation need not be symmetric).  Returns the centre currents of the
+    whole structure in :func:`mirrored_structure`'s order.
+    """
+    import PyNEC
+
+    q = quarter
+    if 4 * q.segment_count > MAX_SYMMETRIC_SEGMENTS:
+        raise ModelInputError(
+            "length_m",
+            f"the wire-grid model needs {4 * q.segment_count} segments, more than "
+            f"{MAX_SYMMETRIC_SEGMENTS}",
+        )
+    ctx = PyNEC.nec_context()
+    geo = ctx.get_geometry()
+    for i in range(q.segment_count):
+        a, b = q.starts_m[i], q.ends_m[i]
+        geo.wire(i + 1, 1, a[0], a[1], a[2], b[0], b[1], b[2], float(q.radii_m[i]), 1.0, 1.0)
+    geo.reflect(1, 1, 0, 0)  # x and y planes; tags unchanged
+    ctx.geometry_complete(0)
+    ctx.fr_card(0, 1, frequency_hz / 1e6, 0.0)
+    for k, v in enumerate(voltages):
+        if v != 0.0:
+            segment = q.feed_segment + 1 + k * q.segment_count  # absolute number (tag 0)
+            ctx.ex_card(0, 0, segment, 0, float(v), 0.0, 0.0, 0.0, 0.0, 0.0)
+    ctx.xq_card(0)
+    currents = np.asarray(ctx.get_structure_currents(0).get_current(), dtype=complex)
+    if currents.shape != (4 * q.segment_count,) or not np.all(np.isfinite(currents)):
+        raise RuntimeError("NEC-2 returned no finite segment currents")
+    return currents
+
+
+@functools.lru_cache(maxsize=8)
+def _solve_quarter_cached(
+    key: tuple, frequency_hz: float, voltages: tuple[float, ...]
+) -> NDArray[np.complex128]:
+    starts, ends, radii, feed = key
+    quarter = WireStructure(
+        np.frombuffer(starts).reshape(-1, 3),
+        np.frombuffer(ends).reshape(-1, 3),
+        np.frombuffer(radii),
+        feed,
+    )
+    currents = _nec_run_quarter(quarter, frequency_hz, voltages)
+    currents.setflags(write=False)
+    return currents
+
+
+def solve_symmetric(
+    quarter: WireStructure, frequency_hz: float, voltages: tuple[float, float, float, float]
+) -> MomentSolution:
+    """Solve a structure symmetric about the planes x = 0 and y = 0 from its quarter (cached).
+
+    Parameters
+    ----------
+    quarter : WireStructure
+        The segments in x >= 0, y >= 0 (ends may lie on a plane, no segment in one); its
+        ``feed_segment`` is the fed segment of the quarter.
+    frequency_hz : float
+    voltages : 4 floats
+        Delta-gap voltages [V] at the feed and its images (:data:`QUARTER_MIRRORS` order).
+
+    Returns
+    -------
+    MomentSolution
+        On the whole structure (:func:`mirrored_structure`); ``input_impedance_ohm`` is
+        the quarter feed's voltage over its current.
+    """
+    currents = _solve_quarter_cached(quarter.key(), float(frequency_hz), tuple(voltages))
+    whole = mirrored_structure(quarter)
+    feed = complex(currents[quarter.feed_segment])
+    z = complex(voltages[0]) / feed if feed != 0 else complex("nan")
+    return MomentSolution(whole, float(frequency_hz), currents, z)
+
+
 # --------------------------------------------------------------------------- radiation
 def _gauss_sphere(n_theta: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Directions and weights for integrals over the unit sphere (Gauss x trapezoid)."""
@@ -917,7 +1027,11 @@ class OutgoingExpansion:
         e_phi = np.exp(1j * np.outer(phi, self._freq))
         e_theta = np.exp(1j * np.outer(theta, self._freq))
         cheb = np.cos(np.outer(np.arccos(x), np.arange(self._q)))
-        w = (e_phi @ self._coeff_m).reshape(pts.shape[0], self._q, self._n, 6)
-        w = np.einsum("plnc,pn->plc", w, e_theta)
-        a = np.einsum("plc,pl->pc", w, cheb)
+        p = pts.shape[0]
+        w = (e_phi @ self._coeff_m).reshape(p, self._q, self._n * 6)
+        # Chebyshev sum first, then the theta series: two stacked matrix products (the
+        # same sums in another order; numpy's einsum over complex stacks is several times
+        # slower).
+        w = np.matmul(cheb.astype(complex)[:, None, :], w).reshape(p, self._n, 6)
+        a = np.matmul(e_theta[:, None, :], w).reshape(p, 6)
         return a * (np.exp(-1j * self.wavenumber_rad_m * r) / r)[:, None]

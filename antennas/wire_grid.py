@@ -17,7 +17,8 @@ it), and evaluates the fields:
   (the exact sums cancel there; the 1/r^2 terms are below 1e-3 of it).
 
 The currents are scaled so that the power they radiate (their far field integrated
-over the sphere) is ``power_w``.
+over the sphere) is ``power_w``: solved and tabulated once at 1 W, then multiplied by
+sqrt(power_w) (the fields are linear in the feed).
 """
 
 from __future__ import annotations
@@ -54,7 +55,7 @@ class _Solved:
         return moment.OutgoingExpansion(self.elements, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
 
 
-#: Solved structures by model, geometry, frequency and power (the most recent few).
+#: Solved structures (at 1 W) by model, geometry and frequency (the most recent few).
 _SOLVED: dict[tuple[Any, ...], _Solved] = {}
 _SOLVED_CACHE_SIZE = 8
 
@@ -74,20 +75,31 @@ class SolvedWireRadiator(Radiator):
         raise NotImplementedError
 
     def _use_solved(self) -> None:
-        """Take the solved structure for this geometry and power (solved once, then kept)."""
-        key = (type(self).__name__, *self._geometry_key, self.power_w)
+        """Take the solved structure for this geometry (solved once at 1 W, then kept).
+
+        The currents are linear in the feed: the fields at ``power_w`` are those at 1 W
+        times sqrt(power_w), so another power (an option, :meth:`Radiator.with_power`)
+        reuses the solution, its outgoing-wave table and its peak search.
+        """
+        key = (type(self).__name__, *self._geometry_key)
         solved = _SOLVED.get(key)
         if solved is None:
             structure = self._structure()
-            solution = moment.solve_structure(structure, self.frequency_hz)
-            solved = _Solved(structure, solution, solution.elements(self.power_w))
+            solution = self._solve(structure)
+            solved = _Solved(solution.structure, solution, solution.elements(1.0))
             _SOLVED[key] = solved
             while len(_SOLVED) > _SOLVED_CACHE_SIZE:
                 _SOLVED.pop(next(iter(_SOLVED)))
         self._solved = solved
         self.structure = solved.structure
         self.solution = solved.solution
-        self.elements = solved.elements
+        self._amplitude = math.sqrt(max(self.power_w, 0.0))
+        #: The segment currents at ``power_w`` (RMS) [A].
+        self.elements = solved.elements.scaled(self._amplitude)
+
+    def _solve(self, structure: moment.WireStructure) -> Any:
+        """NEC-2's solution of the structure (a subclass may solve it another way)."""
+        return moment.solve_structure(structure, self.frequency_hz)
 
     def _power_changed(self) -> None:
         """Follow a new ``power_w`` (:meth:`Radiator.with_power`): the currents scale."""
@@ -114,26 +126,24 @@ class SolvedWireRadiator(Radiator):
         h = np.empty_like(e)
         outer = ~far & self.expansion.covers(points_local_m)
         near = ~far & ~outer
+        unit = self._solved.elements
         if near.any():
-            e[near], h[near] = self.elements.fields(points_local_m[near])
+            e[near], h[near] = unit.fields(points_local_m[near])
         if outer.any():
             e[outer], h[outer] = self.expansion.fields(points_local_m[outer])
         if far.any():
             u = points_local_m[far] / r[far, None]
             phase = np.exp(-1j * self.wavenumber_rad_m * r[far]) / r[far]
-            e[far] = self._local_far_field(u) * phase[:, None]
+            e[far] = unit.far_field(u) * phase[:, None]
             h[far] = np.cross(u, e[far]) / ETA0_OHM
-        return e, h
+        return e * self._amplitude, h * self._amplitude
 
     def _local_far_field(self, directions_local: NDArray[np.float64]) -> NDArray[np.complex128]:
-        return self.elements.far_field(directions_local)
+        return self._solved.elements.far_field(directions_local) * self._amplitude
 
     def _peak(self) -> tuple[float, NDArray[np.float64]]:
         """Peak gain and its local direction: 6000 directions refined by Nelder-Mead."""
         if self._solved.max_gain is None:
-            if self.power_w <= 0:
-                self._solved.max_gain = (0.0, np.array([0.0, 0.0, 1.0]))
-                return self._solved.max_gain
             dirs = fibonacci_sphere(6000)
             g = self._local_gain(dirs)
             best = dirs[int(np.argmax(g))]
@@ -152,8 +162,9 @@ class SolvedWireRadiator(Radiator):
         return self._solved.max_gain
 
     def _local_gain(self, directions_local: NDArray[np.float64]) -> NDArray[np.float64]:
-        f = self._local_far_field(directions_local)
-        return 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / (ETA0_OHM * self.power_w)
+        """Gain (linear): the 1 W solution's pattern, so the same at any power."""
+        f = self._solved.elements.far_field(directions_local)
+        return 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / ETA0_OHM
 
     def max_gain(self, samples: int = 0) -> float:
         """Peak gain (linear): a 6000-direction search refined by Nelder-Mead (cached)."""

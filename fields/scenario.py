@@ -471,8 +471,17 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
 
     placement = _placement(t, "boresight", polarization=True)
     horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
+    flange = _flange(t)
+    if flange is None:
+        from keepclear.antennas import guide_grid, moment
+
+        needed = guide_grid.horn_segments_needed(broad, narrow, width, height, length, f)
+        if needed <= moment.MAX_SYMMETRIC_SEGMENTS:
+            # The horn solved with its flare, feed and probes (validated all around).
+            return t.build(guide_grid.GridHorn, horn)
+    # A flanged horn, or one too large for the wire grid: the aperture and its rim.
     flare = horn.geometry.flare_half_angles_deg
-    return t.build(WalledAperture, horn, _flange(t), flare_half_angles_deg=flare)
+    return t.build(WalledAperture, horn, flange, flare_half_angles_deg=flare)
 
 
 _BUILDERS: dict[str, Callable[[Table, float, float], Radiator]] = {

@@ -40,21 +40,19 @@ _PROBE_AXIS_NULL = (
     "0.7 dB (box) and 3.2 dB (plate) at 0.3 m on the axis, and the model's wire grid refined "
     "from lambda/10 to lambda/15 moves the plate's figure from +1.70 to -0.48 dB"
 )
-_RIM_FRONT = (
-    "rim term (antennas/walls.py) on top of the aperture's scaling: +1.3 dB at E 60 deg "
-    "0.2 m, on the safe side; the rest of the front within -0.3/+0.4 dB"
-)
-_NO_WALL_CURRENTS = (
-    "rim term (antennas/walls.py): beside and behind within -4.1/+6.4 dB of openEMS "
-    "(worst: the 125 deg diagonal at 0.2 m, -4.1 dB)"
+_HORN_BEHIND = (
+    "horn solved with its walls (antennas/guide_grid.py GridHorn): beside and behind never "
+    "more than 1.7 dB under openEMS, but up to +10.1 dB over it in the H plane 120-150 deg "
+    "behind the mouth (H 135 deg 0.3 m), where the field is 33-38 dB under the beam's peak; "
+    "a lambda/12 grid gives the same (+9.6 dB): a property of the thin-wall grid there, on "
+    "the safe side"
 )
 
 #: (case, region) -> reason, for regions that do not meet the rule yet (measured errors).
 KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("box-probe", "front"): _PROBE_AXIS_NULL,
     ("plate-probe", "front"): _PROBE_AXIS_NULL,
-    ("horn-wr340", "elsewhere"): _NO_WALL_CURRENTS,
-    ("horn-wr340", "front"): _RIM_FRONT,
+    ("horn-wr340", "elsewhere"): _HORN_BEHIND,
 }
 
 
@@ -119,6 +117,19 @@ def test_elsewhere_between_3_db_under_and_6_db_over_openems(name: str) -> None:
     assert not bad.any(), _table(case, err, bad)
 
 
+@pytest.mark.parametrize("name", CASES)
+def test_nowhere_more_than_3_db_under_openems(name: str) -> None:
+    """Issue 12's "done when": no point outside the metal more than 3 dB under full wave.
+
+    Every stored point of every case, in front, beside and behind, with no known gap: the
+    regions listed in KNOWN_GAPS miss the window only on the safe side.
+    """
+    case = vd.load(name)
+    err = _errors_db(case)
+    bad = ~(err >= -3.0)
+    assert not bad.any(), _table(case, err, bad)
+
+
 @pytest.mark.parametrize("name", _params("peak"))
 def test_peak_directivity_within_1_db_of_openems(name: str) -> None:
     """The model's peak gain (lossless: its directivity) against the openEMS nf2ff peak."""
@@ -152,30 +163,32 @@ def test_probe_margin_covers_the_largest_error_in_front(name: str) -> None:
     )
 
 
-_GUIDE_CASES = [n for n in CASES if n.startswith("guide-")]
+_GUIDE_CASES = [n for n in CASES if n.startswith(("guide-", "horn-"))]
 
 
 @pytest.mark.parametrize("name", _GUIDE_CASES)
-def test_guide_margin_covers_the_largest_error_in_front(name: str) -> None:
-    """The open guide's keep-out margin is at least its largest error in front.
+def test_guide_and_horn_margin_covers_the_largest_error_in_front(name: str) -> None:
+    """The open guide's and the horn's keep-out margin is at least their largest error in front.
 
-    Issue 12, item 5: GridOpenWaveguide's ``gain_uncertainty_db`` (0.9 dB) comes from the
-    largest error in front found against openEMS v0.0.35 (guide-wr430, -0.86 dB at the time
-    of writing).  The margin is stated to 0.1 dB, so 0.05 dB of rounding is allowed.
+    Issue 12, item 5: ``gain_uncertainty_db`` of GridOpenWaveguide and GridHorn (0.9 dB
+    each) comes from the largest error in front found against openEMS v0.0.35 (guide-wr430,
+    -0.86 dB; horn-wr340, -0.89 dB at the time of writing).  The margin is stated to 0.1 dB,
+    so 0.05 dB of rounding is allowed.
     """
-    from keepclear.antennas.guide_grid import GAIN_UNCERTAINTY_DB, GridOpenWaveguide
+    from keepclear.antennas.guide_grid import GridHorn, GridOpenWaveguide
 
     case = vd.load(name)
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / f"{case.name}.toml"
         path.write_text(case.scenario_text(), encoding="utf-8")
         radiator = load_scenario(path).sources[0].radiator
-    assert isinstance(radiator, GridOpenWaveguide)
-    assert radiator.gain_uncertainty_db == GAIN_UNCERTAINTY_DB
+    assert isinstance(radiator, (GridOpenWaveguide, GridHorn))
+    margin_db = radiator.gain_uncertainty_db
+    assert margin_db == 0.9
     err = np.max(np.abs(_errors_db(case)[case.front()]))
-    assert err <= GAIN_UNCERTAINTY_DB + 0.05, (
+    assert err <= margin_db + 0.05, (
         f"{case.name} ({case.engine}): largest error in front {err:.2f} dB, "
-        f"margin {GAIN_UNCERTAINTY_DB} dB"
+        f"margin {margin_db} dB"
     )
 
 

@@ -86,8 +86,16 @@ def _model(radiator):
     return getattr(radiator, "aperture", radiator)._model
 
 
-def test_shared_evaluations_leave_the_keepout_unchanged():
-    scenario = load_scenario(SIX)
+def test_shared_evaluations_leave_the_keepout_unchanged(tmp_path):
+    # The memo's machinery, on the flanged horn (the rim model: the unflanged horn's wire
+    # grid would make this a minute-long test of the same code path).
+    text = SIX.read_text(encoding="utf-8")
+    anchor = "length_m = 0.30"
+    assert anchor in text
+    flanged = tmp_path / "six-flanged.toml"
+    flanged.write_text(text.replace(anchor, anchor + "\nflange_m = [0.40, 0.30]", 1), "utf-8")
+    scenario = load_scenario(flanged)
+    assert type(scenario.sources[0].radiator).__name__ == "WalledAperture"
     option = scenario.options[2].scenario  # half power: a copy of the base radiator
     alone = keepout_distances(option)
     with shared_field_evaluations():
@@ -97,13 +105,29 @@ def test_shared_evaluations_leave_the_keepout_unchanged():
         assert b.distance_m == pytest.approx(a.distance_m, rel=1e-9)
 
 
-def test_with_power_scales_every_bundled_source_model():
-    # Every radiator the loader builds (the rim-wrapped guides and horns, the finite-ground
-    # monopole, wires, point sources): half the power is half the density everywhere.
+FLANGED_GUIDE = """
+name = "flanged guide (rim model)"
+[[source]]
+antenna = "open-waveguide"
+power_w = 100.0
+waveguide = "WR-340"
+flange_m = [0.3, 0.3]
+position_m = [0.0, 0.0, 1.0]
+boresight = [1.0, 0.0, 0.0]
+"""
+
+
+def test_with_power_scales_every_bundled_source_model(tmp_path):
+    # Every radiator the loader builds (the guides and horns solved with their walls, the
+    # finite-ground monopole, wires, point sources; a flanged guide's rim model below): half
+    # the power is half the density everywhere.
     scenarios = Path(__file__).parent.parent / "scenarios"
     pts = _points(60, seed=3) + np.array([0.0, 0.0, 1.0])
     seen = set()
-    for path in sorted(scenarios.glob("*.toml")):
+    flanged = tmp_path / "flanged.toml"
+    flanged.write_text(FLANGED_GUIDE, encoding="utf-8")
+    paths = sorted(scenarios.glob("*.toml"))
+    for path in [*paths, flanged]:
         for source in load_scenario(path).sources:
             radiator = source.radiator
             if type(radiator).__name__ in seen or radiator.power_w <= 0:
@@ -118,4 +142,4 @@ def test_with_power_scales_every_bundled_source_model():
                     np.abs(half) ** 2, 0.5 * np.abs(full) ** 2, rtol=1e-9,
                     atol=1e-12 * float(np.max(np.abs(full) ** 2)), err_msg=path.name,
                 )  # fmt: skip
-    assert {"WalledAperture", "FiniteGroundMonopole"} <= seen
+    assert {"GridOpenWaveguide", "GridHorn", "WalledAperture", "FiniteGroundMonopole"} <= seen
