@@ -14,7 +14,6 @@ import pytest
 
 import keepclear as kc
 from keepclear.antennas.aperture import OpenWaveguide
-from keepclear.antennas.aperture.open_waveguide import feed_guide_length_m
 from keepclear.antennas.base import C_M_S, Placement
 from keepclear.antennas.horn import PyramidalHorn
 from keepclear.antennas.isotropic import IsotropicSource
