@@ -256,6 +256,11 @@ class Radiator(abc.ABC):
         self.frequency_hz = float(frequency_hz)
         self.power_w = float(power_w)
         self.placement = placement if placement is not None else Placement()
+        #: The model's identity for shared field evaluations (antennas/memo.py): the same
+        #: object for this radiator and its :meth:`with_power` copies (same model, same
+        #: placement, fields in proportion to sqrt(power_w)), a new one for every model
+        #: built.  None: never shared.
+        self.field_identity: object | None = object()
 
     # ------------------------------------------------------------------ model
     def with_power(self, power_w: float) -> Radiator:

@@ -22,7 +22,8 @@ from __future__ import annotations
 import copy
 import re
 import tomllib
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -682,6 +683,28 @@ def _read_enclosure(root: Table, frequency_hz: float, sources: tuple[Source, ...
     except InputError as exc:
         raise exc.located(root.source, "enclosure") from None
     return enclosure
+
+
+@contextmanager
+def shared_radiators() -> Iterator[None]:
+    """Scenarios loaded inside the block share the radiators whose model keys agree.
+
+    A scenario and its options always do (see :func:`scenario_from_document`); inside
+    this block so do scenarios loaded one after another, e.g. the same file read by
+    several commands of one run.  A source then gets the radiator already built for its
+    model keys (all keys but ``id``, ``power_w`` and ``duty_cycle``), or its
+    :meth:`~keepclear.antennas.base.Radiator.with_power` copy, and inside
+    :func:`keepclear.antennas.memo.shared_field_evaluations` their field evaluations are
+    shared too.  Nested blocks use the outermost one's radiators.
+    """
+    if _RADIATORS.get() is not None:
+        yield
+        return
+    token = _RADIATORS.set({})
+    try:
+        yield
+    finally:
+        _RADIATORS.reset(token)
 
 
 def scenario_from_document(

@@ -122,7 +122,24 @@ def limits_output() -> dict[str, Any]:
 
 
 def scenario_outputs(path: Path) -> dict[str, Any]:
-    """Every recorded output of one scenario."""
+    """Every recorded output of one scenario.
+
+    The commands run one after another inside one
+    :func:`~keepclear.fields.scenario.shared_radiators` and
+    :func:`~keepclear.antennas.memo.shared_field_evaluations` block: each loads the file
+    afresh, but gets the radiators the first load built, and a field point of a radiator
+    is evaluated once for all of them (the keep-out search of the base runs in
+    ``keepout``, ``map``, ``compare`` and ``assess``).  Every other step (images,
+    shields, limits, the search, maps, the report) runs in each command as a user gets it.
+    """
+    from keepclear.antennas.memo import shared_field_evaluations
+    from keepclear.fields.scenario import shared_radiators
+
+    with shared_radiators(), shared_field_evaluations():
+        return _scenario_outputs(path)
+
+
+def _scenario_outputs(path: Path) -> dict[str, Any]:
     out: dict[str, Any] = {}
     at = [f"--at={x!r},{y!r},{z!r}" for x, y, z in probe_points(path)]
     out["probe"] = strip(json.loads(_run("probe", path, *at, "--json")))
