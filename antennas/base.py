@@ -275,6 +275,11 @@ class Radiator(abc.ABC):
         ----------
         power_w : float
             Radiated power of the copy [W].
+
+        Raises
+        ------
+        NotImplementedError
+            For a model that does not implement ``_power_changed`` (build it anew instead).
         """
         if not (np.isfinite(power_w) and power_w >= 0):
             raise ModelInputError("power_w", f"power_w must be >= 0, got {power_w!r}")
@@ -284,8 +289,18 @@ class Radiator(abc.ABC):
         return other
 
     def _power_changed(self) -> None:
-        """Update what depends on ``power_w`` after :meth:`with_power` (models that keep any)."""
-        return None
+        """Update what depends on ``power_w`` after :meth:`with_power`.
+
+        Every model says how (a model that keeps nothing power-dependent returns at once);
+        the default refuses, so a new model that keeps power-dependent state is never
+        silently left at the old power (its copy would carry the base's fields).
+
+        Raises
+        ------
+        NotImplementedError
+            For a model that does not override it.
+        """
+        raise NotImplementedError(f"{type(self).__name__} cannot change its power in place")
 
     @abc.abstractmethod
     def _local_fields(

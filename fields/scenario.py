@@ -498,11 +498,15 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
     pool = _RADIATORS.get()
     model = (kind, frequency_hz, repr(sorted(i for i in t.data.items() if i[0] not in _NOT_MODEL)))
     known = pool.get(model) if pool is not None else None
+    radiator = None
     if known is not None:  # an option's source whose model keys are the base's: no new model
-        radiator = known if known.power_w == power else known.with_power(power)
-    else:
+        try:
+            radiator = known if known.power_w == power else known.with_power(power)
+        except NotImplementedError:  # a model that cannot change its power: build it anew
+            radiator = None
+    if radiator is None:
         radiator = _BUILDERS[kind](t, frequency_hz, power)
-        if pool is not None:
+        if pool is not None and model not in pool:
             pool[model] = radiator
     t.finish(allowed)
     return Source(source_id, kind, power, duty, radiator, dict(t.data))

@@ -108,7 +108,7 @@ def test_field_map_to_dict_is_the_command_json(tmp_path):
     assert result.run.result.power_density_w_m2.shape == (9, 9)
 
 
-def test_compare_to_dict_is_the_command_json():
+def test_compare_to_dict_is_the_command_json(shared_models):
     scenario = kc.load_scenario(HORN)
     result = kc.compare(scenario, grid=GRID)
     cli = strict_json(run("compare", HORN, "--extent-m", "2", "--pixels", "9", "--json").stdout)
