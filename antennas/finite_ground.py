@@ -70,18 +70,15 @@ References
 
 from __future__ import annotations
 
-import functools
 import math
-from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import minimize
 
 from . import moment
-from .base import ETA0_OHM, ModelInputError, Placement, Radiator, fibonacci_sphere
+from .base import ModelInputError, Placement
 from .wire import _validate_wire
+from .wire_grid import FAR_ZONE_FACTOR, SolvedWireRadiator  # noqa: F401 (re-exported)
 
 #: Ground descriptions this model handles (``"infinite"`` is :class:`wire.Monopole`).
 GROUND_KINDS = ("plate", "box")
@@ -90,8 +87,6 @@ PROBE_SEGMENT_WAVELENGTHS = 1.0 / 20.0
 #: Keep-out margin [dB]: the largest error in front against the openEMS v0.0.35 cases
 #: (plate-probe, +1.70 dB on the probe axis at 0.3 m; see FiniteGroundMonopole).
 GAIN_UNCERTAINTY_DB = 1.7
-#: Distance, in units of max(D, lambda), beyond which the radiation field is used.
-FAR_ZONE_FACTOR = 1000.0
 
 
 def _pair(value: ArrayLike, name: str, positive: bool) -> tuple[float, float]:
@@ -111,28 +106,7 @@ def _face_count(lines_u: NDArray[np.float64], lines_v: NDArray[np.float64]) -> i
     return int(lines_u.size * (lines_v.size - 1) + lines_v.size * (lines_u.size - 1))
 
 
-@dataclass
-class _Solved:
-    """A solved structure: its currents scaled to the power, and its outgoing-wave table."""
-
-    structure: moment.WireStructure
-    solution: Any
-    elements: moment.CurrentElements
-    #: The peak gain and its local direction, once searched.
-    max_gain: tuple[float, NDArray[np.float64]] | None = field(default=None)
-
-    @functools.cached_property
-    def expansion(self) -> moment.OutgoingExpansion:
-        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
-        return moment.OutgoingExpansion(self.elements, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
-
-
-#: Solved structures by geometry, frequency and power (the most recent few).
-_SOLVED: dict[tuple[Any, ...], _Solved] = {}
-_SOLVED_CACHE_SIZE = 8
-
-
-class FiniteGroundMonopole(Radiator):
+class FiniteGroundMonopole(SolvedWireRadiator):
     """Base-fed monopole on a finite plate or through the face of a closed box.
 
     Parameters
@@ -266,8 +240,9 @@ class FiniteGroundMonopole(Radiator):
         (w, h), (ow, oh) = self.ground_size_m, self.ground_offset_m
         return -ow - 0.5 * w, -ow + 0.5 * w, -oh - 0.5 * h, -oh + 0.5 * h
 
-    def _structure(self, max_step_m: float) -> moment.WireStructure:
+    def _structure(self) -> moment.WireStructure:
         lam = self.wavelength_m
+        max_step_m = self._max_segment_m
         x0, x1, y0, y1 = self._face_bounds()
         fine = min(moment.FEED_SPACING_WAVELENGTHS * lam, max_step_m)
         xs = moment.graded_lines(x0, x1, 0.0, max_step_m, fine)
@@ -303,16 +278,6 @@ class FiniteGroundMonopole(Radiator):
             feed,
         )
 
-    @property
-    def largest_dimension_m(self) -> float:
-        """Diagonal of the box (or plate) together with the probe [m].
-
-        The diagonal of the smallest axis-aligned box holding the metal and the
-        probe: for the box, sqrt(w^2 + h^2 + (depth + length)^2).
-        """
-        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
-        return float(np.linalg.norm(pts.max(axis=0) - pts.min(axis=0)))
-
     def _local_outline(self) -> NDArray[np.float64]:
         """The plate's four corners, or the box's eight (front face, then back) [m]."""
         x0, x1, y0, y1 = self._face_bounds()
@@ -337,86 +302,10 @@ class FiniteGroundMonopole(Radiator):
         wire = np.hypot(np.hypot(x, y), z - zc) <= self.wire_radius_m + tol
         return np.asarray(metal | wire)
 
-    def _use_solved(self) -> None:
-        """Take the solved structure for this geometry and power (solved once, then kept)."""
-        key = (*self._geometry_key, self.power_w)
-        solved = _SOLVED.get(key)
-        if solved is None:
-            structure = self._structure(self._max_segment_m)
-            solution = moment.solve_structure(structure, self.frequency_hz)
-            solved = _Solved(structure, solution, solution.elements(self.power_w))
-            _SOLVED[key] = solved
-            while len(_SOLVED) > _SOLVED_CACHE_SIZE:
-                _SOLVED.pop(next(iter(_SOLVED)))
-        self._solved = solved
-        self.structure = solved.structure
-        self.solution = solved.solution
-        self.elements = solved.elements
-
     def _power_changed(self) -> None:
         """Follow a new ``power_w`` (:meth:`Radiator.with_power`): the currents scale."""
-        self._use_solved()
+        super()._power_changed()
         feed = self.elements.start_currents_a[self.structure.feed_segment]
         self.radiation_resistance_ohm = (
             self.power_w / abs(feed) ** 2 if self.power_w > 0 and abs(feed) > 0 else math.nan
         )
-
-    @property
-    def expansion(self) -> moment.OutgoingExpansion:
-        """The tabulated outgoing-wave expansion used beyond 2.5 times the metal's radius."""
-        return self._solved.expansion
-
-    # --------------------------------------------------------------------- model
-    def _local_fields(
-        self, points_local_m: NDArray[np.float64]
-    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
-        r = np.linalg.norm(points_local_m, axis=1)
-        far = r > FAR_ZONE_FACTOR * max(self.largest_dimension_m, self.wavelength_m)
-        e = np.empty((points_local_m.shape[0], 3), dtype=complex)
-        h = np.empty_like(e)
-        outer = ~far & self.expansion.covers(points_local_m)
-        near = ~far & ~outer
-        if near.any():
-            e[near], h[near] = self.elements.fields(points_local_m[near])
-        if outer.any():
-            e[outer], h[outer] = self.expansion.fields(points_local_m[outer])
-        if far.any():
-            # Far out the exact sums cancel: the radiation field (1/r^2 terms < 1e-3).
-            u = points_local_m[far] / r[far, None]
-            phase = np.exp(-1j * self.wavenumber_rad_m * r[far]) / r[far]
-            e[far] = self._local_far_field(u) * phase[:, None]
-            h[far] = np.cross(u, e[far]) / ETA0_OHM
-        return e, h
-
-    def _local_far_field(self, directions_local: NDArray[np.float64]) -> NDArray[np.complex128]:
-        return self.elements.far_field(directions_local)
-
-    def _peak(self) -> tuple[float, NDArray[np.float64]]:
-        if self._solved.max_gain is None:
-            if self.power_w <= 0:
-                self._solved.max_gain = (0.0, np.array([0.0, 0.0, 1.0]))
-                return self._solved.max_gain
-            dirs = fibonacci_sphere(6000)
-            g = self._local_gain(dirs)
-            best = dirs[int(np.argmax(g))]
-
-            def neg(angles: NDArray[np.float64]) -> float:
-                t, p = angles
-                u = np.array([[math.sin(t) * math.cos(p), math.sin(t) * math.sin(p), math.cos(t)]])
-                return -float(self._local_gain(u)[0])
-
-            start = np.array([math.acos(np.clip(best[2], -1, 1)), math.atan2(best[1], best[0])])
-            res = minimize(neg, start, method="Nelder-Mead", options={"xatol": 1e-6, "fatol": 1e-9})
-            t, p = res.x
-            u = np.array([math.sin(t) * math.cos(p), math.sin(t) * math.sin(p), math.cos(t)])
-            g_best = max(-float(res.fun), float(np.max(g)))
-            self._solved.max_gain = (g_best, u if -res.fun >= np.max(g) else best)
-        return self._solved.max_gain
-
-    def _local_gain(self, directions_local: NDArray[np.float64]) -> NDArray[np.float64]:
-        f = self._local_far_field(directions_local)
-        return 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / (ETA0_OHM * self.power_w)
-
-    def max_gain(self, samples: int = 0) -> float:
-        """Peak gain (linear): a 6000-direction search refined by Nelder-Mead (cached)."""
-        return self._peak()[0]

@@ -61,7 +61,15 @@ _KIND_KEYS: dict[str, tuple[str, ...]] = {
         "ground_offset_m",
         "box_depth_m",
     ),
-    "open-waveguide": ("boresight", "polarization", "waveguide", "broad_m", "narrow_m", "flange_m"),
+    "open-waveguide": (
+        "boresight",
+        "polarization",
+        "waveguide",
+        "broad_m",
+        "narrow_m",
+        "flange_m",
+        "guide_length_m",
+    ),
     "horn": (
         "flange_m",
         "boresight",
@@ -416,7 +424,23 @@ def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
     broad, narrow = _feed_dimensions(t)
     placement = _placement(t, "boresight", polarization=True)
     guide = t.build(OpenWaveguide, f, p, broad, narrow, placement=placement)
-    return t.build(WalledAperture, guide, _flange(t))
+    flange = _flange(t)
+    length = None
+    if t.has("guide_length_m"):
+        length = t.number(
+            "guide_length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0
+        )
+    if flange is None:
+        from keepclear.antennas import guide_grid
+
+        needed = guide_grid.segments_needed(
+            broad, narrow, f, length or guide_grid.default_guide_length_m(broad, f)
+        )
+        if needed <= guide_grid.MAX_SEGMENTS:
+            # The guide solved with its walls (validated all around against full wave).
+            return t.build(guide_grid.GridOpenWaveguide, guide, length)
+    # A flanged guide, or one too large for the wire grid: the aperture and its rim.
+    return t.build(WalledAperture, guide, flange)
 
 
 def _flange(t: Table) -> Any:

@@ -20,7 +20,6 @@ Run longer with ``KEEPCLEAR_HYPOTHESIS_PROFILE=long`` (see tests/_hypothesis.py)
 from __future__ import annotations
 
 import datetime as dt
-import importlib
 import math
 import warnings
 from pathlib import Path
@@ -48,28 +47,18 @@ EXPECTED_PLAUSIBILITY_WARNING = pytest.mark.filterwarnings(
 FUNCTION_FIXTURE = [HealthCheck.function_scoped_fixture]
 
 
-def _available(module: str, name: str) -> bool:
-    """Whether ``module`` defines ``name`` (a model still being written counts as absent)."""
-    try:
-        return hasattr(importlib.import_module(module), name)
-    except ImportError:
-        return False
+# Every feature is imported directly: a renamed model or reader fails here, loudly, instead
+# of silently dropping out of the fuzz.
+from keepclear.antennas.aperture import OpenWaveguide  # noqa: E402, F401
+from keepclear.antennas.horn import PyramidalHorn  # noqa: E402, F401
+from keepclear.fields.scenario_tables import (  # noqa: E402, F401
+    enclosure_from_table,
+    reflector_from_table,
+    shield_from_table,
+)
 
-
-KINDS = ["isotropic", "dipole", "monopole"]
-
-
-if _available("keepclear.antennas.aperture", "OpenWaveguide"):
-    KINDS.append("open-waveguide")
-
-
-if _available("keepclear.antennas.horn", "PyramidalHorn"):
-    KINDS.append("horn")
-
-
-HAS_REFLECTION = _available("keepclear.fields.scenario_tables", "reflector_from_table")
-HAS_SHIELD = _available("keepclear.fields.scenario_tables", "shield_from_table")
-HAS_ENCLOSURE = _available("keepclear.fields.scenario_tables", "enclosure_from_table")
+KINDS = ["isotropic", "dipole", "monopole", "open-waveguide", "horn"]
+HAS_REFLECTION = HAS_SHIELD = HAS_ENCLOSURE = True
 MATERIALS = ["concrete", "metal", "wet-ground", "glass", "wood", "plasterboard", "brick"]
 
 
@@ -254,8 +243,14 @@ def valid_documents(draw) -> dict:
     # Aperture models cost seconds to build far above their feed's band (a WR-340 horn: 15 s
     # at 71 GHz, 39 s at 100 GHz, where the TE10-only model warns anyway): keep them below
     # 6 GHz; the wires and the point source take the whole accepted range.
-    top = 6e9 if {"open-waveguide", "horn"} & set(kinds) else 1e11
-    frequency = draw(st.sampled_from([2.45e9, 2.45e9, 9.15e8, 5.8e9]) | st.floats(1e8, top))
+    # An open guide is solved with its walls (a NEC-2 wire grid, seconds per geometry and
+    # frequency, then kept): guides take a few fixed frequencies, so the examples reuse them.
+    fixed = st.sampled_from([2.45e9, 2.45e9, 9.15e8, 5.8e9])
+    if "open-waveguide" in kinds:
+        frequency = draw(fixed | st.sampled_from([2.2e9, 3.0e9]))
+    else:
+        top = 6e9 if "horn" in kinds else 1e11
+        frequency = draw(fixed | st.floats(1e8, top))
     if frequency != 2.45e9 or draw(st.booleans()):
         doc["frequency_hz"] = frequency
     if draw(st.booleans()):

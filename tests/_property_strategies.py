@@ -35,7 +35,6 @@ Run longer with ``KEEPCLEAR_HYPOTHESIS_PROFILE=long`` (see tests/_hypothesis.py)
 from __future__ import annotations
 
 import copy
-import importlib
 import math
 import warnings
 
@@ -58,33 +57,17 @@ EXPECTED_PLAUSIBILITY_WARNING = pytest.mark.filterwarnings(
 )
 
 
-def _available(module: str, name: str) -> bool:
-    """Whether ``module`` defines ``name`` (a model still being written counts as absent)."""
-    try:
-        return hasattr(importlib.import_module(module), name)
-    except ImportError:
-        return False
+# Every feature is imported directly: a renamed model or reader fails here, loudly, instead
+# of silently dropping out of the properties.
+from keepclear.antennas.aperture import OpenWaveguide  # noqa: E402, F401
+from keepclear.antennas.horn import PyramidalHorn  # noqa: E402, F401
+from keepclear.fields.scenario_tables import (  # noqa: E402, F401
+    reflector_from_table,
+    shield_from_table,
+)
 
-
-HAS_APERTURE = _available("keepclear.antennas.aperture", "OpenWaveguide")
-
-
-HAS_HORN = _available("keepclear.antennas.horn", "PyramidalHorn")
-
-
-HAS_REFLECTION = _available("keepclear.fields.scenario_tables", "reflector_from_table")
-
-
-HAS_SHIELD = _available("keepclear.fields.scenario_tables", "shield_from_table")
-
-
-KINDS = ["isotropic", "dipole", "monopole"]
-
-
-KINDS += ["open-waveguide"] if HAS_APERTURE else []
-
-
-KINDS += ["horn"] if HAS_HORN else []
+HAS_APERTURE = HAS_HORN = HAS_REFLECTION = HAS_SHIELD = True
+KINDS = ["isotropic", "dipole", "monopole", "open-waveguide", "horn"]
 
 
 #: Kinds, power and reflection modes for the keep-out properties.  A coherent-reflection

@@ -40,27 +40,19 @@ _PROBE_AXIS_NULL = (
     "0.7 dB (box) and 3.2 dB (plate) at 0.3 m on the axis, and the model's wire grid refined "
     "from lambda/10 to lambda/15 moves the plate's figure from +1.70 to -0.48 dB"
 )
-_FRONT_WITHOUT_WALLS = (
-    "aperture model with the rim term: in front 0.0 to +2.2 dB (H 60 deg 0.3 m; E 45 deg "
-    "0.1 m +1.2), never under; the rim on top of the aperture's scaling leans high"
-)
 _RIM_FRONT = (
     "rim term (antennas/walls.py) on top of the aperture's scaling: +1.3 dB at E 60 deg "
     "0.2 m, on the safe side; the rest of the front within -0.3/+0.4 dB"
 )
 _NO_WALL_CURRENTS = (
-    "rim term (antennas/walls.py): beside and behind within -3.3/+6.8 dB (guide) and "
-    "-4.1/+6.4 dB (horn, worst: the 125 deg diagonal at 0.2 m, -4.1 dB) of openEMS"
+    "rim term (antennas/walls.py): beside and behind within -4.1/+6.4 dB of openEMS "
+    "(worst: the 125 deg diagonal at 0.2 m, -4.1 dB)"
 )
 
 #: (case, region) -> reason, for regions that do not meet the rule yet (measured errors).
 KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("box-probe", "front"): _PROBE_AXIS_NULL,
     ("plate-probe", "front"): _PROBE_AXIS_NULL,
-    ("guide-wr340", "front"): _FRONT_WITHOUT_WALLS,
-    ("guide-wr340", "elsewhere"): _NO_WALL_CURRENTS,
-    ("guide-wr430", "front"): _FRONT_WITHOUT_WALLS,
-    ("guide-wr430", "elsewhere"): _NO_WALL_CURRENTS,
     ("horn-wr340", "elsewhere"): _NO_WALL_CURRENTS,
     ("horn-wr340", "front"): _RIM_FRONT,
 }
@@ -153,6 +145,33 @@ def test_probe_margin_covers_the_largest_error_in_front(name: str) -> None:
     from keepclear.antennas.finite_ground import GAIN_UNCERTAINTY_DB
 
     case = vd.load(name)
+    err = np.max(np.abs(_errors_db(case)[case.front()]))
+    assert err <= GAIN_UNCERTAINTY_DB + 0.05, (
+        f"{case.name} ({case.engine}): largest error in front {err:.2f} dB, "
+        f"margin {GAIN_UNCERTAINTY_DB} dB"
+    )
+
+
+_GUIDE_CASES = [n for n in CASES if n.startswith("guide-")]
+
+
+@pytest.mark.parametrize("name", _GUIDE_CASES)
+def test_guide_margin_covers_the_largest_error_in_front(name: str) -> None:
+    """The open guide's keep-out margin is at least its largest error in front.
+
+    Issue 12, item 5: GridOpenWaveguide's ``gain_uncertainty_db`` (0.9 dB) comes from the
+    largest error in front found against openEMS v0.0.35 (guide-wr430, -0.86 dB at the time
+    of writing).  The margin is stated to 0.1 dB, so 0.05 dB of rounding is allowed.
+    """
+    from keepclear.antennas.guide_grid import GAIN_UNCERTAINTY_DB, GridOpenWaveguide
+
+    case = vd.load(name)
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / f"{case.name}.toml"
+        path.write_text(case.scenario_text(), encoding="utf-8")
+        radiator = load_scenario(path).sources[0].radiator
+    assert isinstance(radiator, GridOpenWaveguide)
+    assert radiator.gain_uncertainty_db == GAIN_UNCERTAINTY_DB
     err = np.max(np.abs(_errors_db(case)[case.front()]))
     assert err <= GAIN_UNCERTAINTY_DB + 0.05, (
         f"{case.name} ({case.engine}): largest error in front {err:.2f} dB, "

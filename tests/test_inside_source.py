@@ -177,9 +177,11 @@ def test_a_map_sample_inside_a_source_counts_over_every_limit(write_scenario):
     for q in result.quotients:
         assert np.all(q[inside] > 1.0)  # over every limit
         assert np.all(q[~inside] < 1.0)  # and nothing else is
-    # The zones hold the guide's section (A wide, one guide wavelength long behind the
-    # opening) and nothing else, to within a grid step all round.
-    length = feed_guide_length_m(scenario.sources[0].radiator.mode)
+    # The zones hold the guide's section (A wide, as long as the modelled guide behind the
+    # opening: 0.30 m by default, the length solved with its walls) and nothing else, to
+    # within a grid step all round.
+    length = scenario.sources[0].radiator.guide_length_m
+    assert length == pytest.approx(0.30)
     perimeter = 2 * (A + length)
     for limit_id in result.limit_ids:
         zone = maps.zone_of(result, limit_id)

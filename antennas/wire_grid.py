@@ -1,0 +1,160 @@
+"""Radiators whose fields are those of NEC-2-solved currents on a wire structure.
+
+Shared by the models that describe their metal as a wire grid and solve it with the
+method of moments (:mod:`keepclear.antennas.moment`): a monopole on a finite plate or
+box (:mod:`keepclear.antennas.finite_ground`) and an open waveguide with its walls,
+short and launcher probe (:mod:`keepclear.antennas.guide_grid`).  A subclass
+describes its structure; this base solves it once per geometry, frequency and power
+(kept in a small cache, so an option or a second command in the same process reuses
+it), and evaluates the fields:
+
+* within 2.5 times the metal's radius of its centre, by the exact closed-form kernel
+  of the piecewise-sinusoidal segments
+  (:meth:`keepclear.antennas.moment.CurrentElements.fields`);
+* beyond that, by the tabulated outgoing-wave expansion of the same currents
+  (:class:`keepclear.antennas.moment.OutgoingExpansion`, within 1e-4 of the kernel);
+* beyond :data:`FAR_ZONE_FACTOR` times max(size, wavelength), by the radiation field
+  (the exact sums cancel there; the 1/r^2 terms are below 1e-3 of it).
+
+The currents are scaled so that the power they radiate (their far field integrated
+over the sphere) is ``power_w``.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+from scipy.optimize import minimize
+
+from . import moment
+from .base import ETA0_OHM, Radiator, fibonacci_sphere
+
+#: Distance, in units of max(D, lambda), beyond which the radiation field is used.
+FAR_ZONE_FACTOR = 1000.0
+
+
+@dataclass
+class _Solved:
+    """A solved structure: its currents scaled to the power, and its outgoing-wave table."""
+
+    structure: moment.WireStructure
+    solution: Any
+    elements: moment.CurrentElements
+    #: The peak gain and its local direction, once searched.
+    max_gain: tuple[float, NDArray[np.float64]] | None = field(default=None)
+
+    @functools.cached_property
+    def expansion(self) -> moment.OutgoingExpansion:
+        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
+        return moment.OutgoingExpansion(self.elements, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
+
+
+#: Solved structures by model, geometry, frequency and power (the most recent few).
+_SOLVED: dict[tuple[Any, ...], _Solved] = {}
+_SOLVED_CACHE_SIZE = 8
+
+
+class SolvedWireRadiator(Radiator):
+    """Base of the wire-grid models: solve once, radiate the currents anywhere.
+
+    A subclass sets ``self._geometry_key`` (a hashable description of everything its
+    structure depends on, the frequency included) and implements :meth:`_structure`,
+    then calls :meth:`_use_solved` at the end of its ``__init__``.
+    """
+
+    _geometry_key: tuple[Any, ...]
+
+    def _structure(self) -> moment.WireStructure:
+        """The wire structure in the local frame (called once per geometry)."""
+        raise NotImplementedError
+
+    def _use_solved(self) -> None:
+        """Take the solved structure for this geometry and power (solved once, then kept)."""
+        key = (type(self).__name__, *self._geometry_key, self.power_w)
+        solved = _SOLVED.get(key)
+        if solved is None:
+            structure = self._structure()
+            solution = moment.solve_structure(structure, self.frequency_hz)
+            solved = _Solved(structure, solution, solution.elements(self.power_w))
+            _SOLVED[key] = solved
+            while len(_SOLVED) > _SOLVED_CACHE_SIZE:
+                _SOLVED.pop(next(iter(_SOLVED)))
+        self._solved = solved
+        self.structure = solved.structure
+        self.solution = solved.solution
+        self.elements = solved.elements
+
+    def _power_changed(self) -> None:
+        """Follow a new ``power_w`` (:meth:`Radiator.with_power`): the currents scale."""
+        self._use_solved()
+
+    @property
+    def expansion(self) -> moment.OutgoingExpansion:
+        """The tabulated outgoing-wave expansion used beyond 2.5 times the metal's radius."""
+        return self._solved.expansion
+
+    @property
+    def largest_dimension_m(self) -> float:
+        """Diagonal of the smallest axis-aligned box (local frame) holding the metal [m]."""
+        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
+        return float(np.linalg.norm(pts.max(axis=0) - pts.min(axis=0)))
+
+    # --------------------------------------------------------------------- model
+    def _local_fields(
+        self, points_local_m: NDArray[np.float64]
+    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+        r = np.linalg.norm(points_local_m, axis=1)
+        far = r > FAR_ZONE_FACTOR * max(self.largest_dimension_m, self.wavelength_m)
+        e = np.empty((points_local_m.shape[0], 3), dtype=complex)
+        h = np.empty_like(e)
+        outer = ~far & self.expansion.covers(points_local_m)
+        near = ~far & ~outer
+        if near.any():
+            e[near], h[near] = self.elements.fields(points_local_m[near])
+        if outer.any():
+            e[outer], h[outer] = self.expansion.fields(points_local_m[outer])
+        if far.any():
+            u = points_local_m[far] / r[far, None]
+            phase = np.exp(-1j * self.wavenumber_rad_m * r[far]) / r[far]
+            e[far] = self._local_far_field(u) * phase[:, None]
+            h[far] = np.cross(u, e[far]) / ETA0_OHM
+        return e, h
+
+    def _local_far_field(self, directions_local: NDArray[np.float64]) -> NDArray[np.complex128]:
+        return self.elements.far_field(directions_local)
+
+    def _peak(self) -> tuple[float, NDArray[np.float64]]:
+        """Peak gain and its local direction: 6000 directions refined by Nelder-Mead."""
+        if self._solved.max_gain is None:
+            if self.power_w <= 0:
+                self._solved.max_gain = (0.0, np.array([0.0, 0.0, 1.0]))
+                return self._solved.max_gain
+            dirs = fibonacci_sphere(6000)
+            g = self._local_gain(dirs)
+            best = dirs[int(np.argmax(g))]
+
+            def neg(angles: NDArray[np.float64]) -> float:
+                t, p = angles
+                u = np.array([[math.sin(t) * math.cos(p), math.sin(t) * math.sin(p), math.cos(t)]])
+                return -float(self._local_gain(u)[0])
+
+            start = np.array([math.acos(np.clip(best[2], -1, 1)), math.atan2(best[1], best[0])])
+            res = minimize(neg, start, method="Nelder-Mead", options={"xatol": 1e-6, "fatol": 1e-9})
+            t, p = res.x
+            u = np.array([math.sin(t) * math.cos(p), math.sin(t) * math.sin(p), math.cos(t)])
+            g_best = max(-float(res.fun), float(np.max(g)))
+            self._solved.max_gain = (g_best, u if -res.fun >= np.max(g) else best)
+        return self._solved.max_gain
+
+    def _local_gain(self, directions_local: NDArray[np.float64]) -> NDArray[np.float64]:
+        f = self._local_far_field(directions_local)
+        return 4 * np.pi * np.sum(np.abs(f) ** 2, axis=1) / (ETA0_OHM * self.power_w)
+
+    def max_gain(self, samples: int = 0) -> float:
+        """Peak gain (linear): a 6000-direction search refined by Nelder-Mead (cached)."""
+        return self._peak()[0]

@@ -1,0 +1,101 @@
+"""The open guide solved with its walls (antennas/guide_grid.py): scenario keys and physics.
+
+The comparison with the full-wave data is in tests/test_fullwave.py (openEMS v0.0.35, cases
+guide-wr340 and guide-wr430); here the scenario side and the identities the model must keep.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from keepclear.antennas.base import ETA0_OHM, fibonacci_sphere
+from keepclear.antennas.guide_grid import GridOpenWaveguide, segments_needed
+from keepclear.antennas.walls import WalledAperture
+from keepclear.fields.scenario import ScenarioError, load_scenario
+
+GUIDE = """
+name = "open guide"
+[[source]]
+antenna = "open-waveguide"
+power_w = 10.0
+waveguide = "WR-340"
+position_m = [0.0, 0.0, 1.0]
+boresight = [1.0, 0.0, 0.0]
+polarization = [0.0, 0.0, 1.0]
+{extra}
+"""
+
+
+def _guide(write_scenario, extra: str = ""):
+    return load_scenario(write_scenario(GUIDE.format(extra=extra))).sources[0].radiator
+
+
+def test_an_unflanged_guide_is_solved_with_its_walls(write_scenario):
+    radiator = _guide(write_scenario)
+    assert isinstance(radiator, GridOpenWaveguide)
+    assert radiator.guide_length_m == pytest.approx(0.30)
+    assert radiator.structure.segment_count == segments_needed(0.08636, 0.04318, 2.45e9, 0.30)
+
+
+def test_a_flanged_guide_keeps_the_rim_model(write_scenario):
+    radiator = _guide(write_scenario, "flange_m = [0.3, 0.3]")
+    assert isinstance(radiator, WalledAperture)
+
+
+def test_radiated_power_is_power_w(write_scenario):
+    """Lossless metal: the far field integrated over the sphere is power_w (within 1 %).
+
+    Poynting's theorem (Balanis, *Antenna Theory*, 4th ed., eq. (2-13)): P = the integral
+    of |F|^2 / eta0 over the unit sphere for the far-field amplitude F.
+    """
+    radiator = _guide(write_scenario)
+    u = fibonacci_sphere(20000)
+    f = radiator._local_far_field(u)
+    power = 4 * np.pi * np.mean(np.sum(np.abs(f) ** 2, axis=1)) / ETA0_OHM
+    assert power == pytest.approx(10.0, rel=0.01)
+
+
+def test_behind_the_guide_is_not_zero_and_the_guide_is_inside(write_scenario):
+    """Behind the short a hand meets the walls' field; inside the guide is flagged."""
+    scenario = load_scenario(write_scenario(GUIDE.format(extra="")))
+    radiator = scenario.sources[0].radiator
+    behind = np.array([[-0.5, 0.0, 1.0], [-0.15, 0.2, 1.0], [-0.15, 0.0, 1.2]])
+    e, _ = radiator.fields(behind)
+    assert np.all(np.linalg.norm(e, axis=1) > 1.0)  # V/m at 10 W: not a silent zero
+    inside = scenario.inside_source(np.array([[-0.1, 0.0, 1.0], [-0.29, 0.03, 1.0]]))
+    assert inside.all()
+    assert not scenario.inside_source(np.array([[-0.32, 0.0, 1.0]])).any()
+
+
+def test_the_guide_length_moves_the_back_of_the_guide(write_scenario):
+    radiator = _guide(write_scenario, "guide_length_m = 0.2")
+    assert radiator.guide_length_m == pytest.approx(0.2)
+    corners = radiator.outline()
+    assert corners[:, 0].min() == pytest.approx(-0.2)
+
+
+@pytest.mark.parametrize(
+    ("extra", "fragment"),
+    [
+        ("guide_length_m = 0.05", "at least 0.75 guide wavelengths"),
+        ("guide_length_m = -1.0", "guide_length_m"),
+        ('guide_length_m = "long"', "guide_length_m"),
+    ],
+)
+def test_a_bad_guide_length_is_refused_naming_the_key(write_scenario, extra, fragment):
+    with pytest.raises(ScenarioError) as err:
+        _guide(write_scenario, extra)
+    text = str(err.value)
+    assert "scenario.toml" in text and "guide_length_m" in text and fragment in text
+
+
+def test_cli_exits_2_on_a_bad_guide_length(tmp_path):
+    from ._cli import run
+
+    path = tmp_path / "bad.toml"
+    path.write_text(GUIDE.format(extra="guide_length_m = 0.01"), encoding="utf-8")
+    res = run("probe", path, "--at", "1,0,1")
+    assert res.exit_code == 2
+    assert "bad.toml" in res.stderr and "guide_length_m" in res.stderr
+    assert "Traceback" not in res.stderr
