@@ -217,8 +217,11 @@ def test_prepared_parts_go_with_their_scenario():
     assert key not in field._PREPARED
 
 
-def test_readme_example_runs():
-    """The README's "Python API" example, run as written (from the repository root)."""
+def test_readme_example_runs(shared_models):
+    """The README's "Python API" example, run as written (from the repository root).
+
+    (The option's search shares the base's radiator evaluations: ``shared_models``.)
+    """
     readme = (SCENARIOS.parent / "README.md").read_text(encoding="utf-8")
     section = readme.split("## Python API", 1)[1]
     code = re.search(r"```python\n(.*?)```", section, re.S)
