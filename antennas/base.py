@@ -256,6 +256,11 @@ class Radiator(abc.ABC):
         self.frequency_hz = float(frequency_hz)
         self.power_w = float(power_w)
         self.placement = placement if placement is not None else Placement()
+        #: The model's identity for shared field evaluations (antennas/memo.py): the same
+        #: object for this radiator and its :meth:`with_power` copies (same model, same
+        #: placement, fields in proportion to sqrt(power_w)), a new one for every model
+        #: built.  None: never shared.
+        self.field_identity: object | None = object()
 
     # ------------------------------------------------------------------ model
     def with_power(self, power_w: float) -> Radiator:
@@ -270,6 +275,11 @@ class Radiator(abc.ABC):
         ----------
         power_w : float
             Radiated power of the copy [W].
+
+        Raises
+        ------
+        NotImplementedError
+            For a model that does not implement ``_power_changed`` (build it anew instead).
         """
         if not (np.isfinite(power_w) and power_w >= 0):
             raise ModelInputError("power_w", f"power_w must be >= 0, got {power_w!r}")
@@ -279,8 +289,18 @@ class Radiator(abc.ABC):
         return other
 
     def _power_changed(self) -> None:
-        """Update what depends on ``power_w`` after :meth:`with_power` (models that keep any)."""
-        return None
+        """Update what depends on ``power_w`` after :meth:`with_power`.
+
+        Every model says how (a model that keeps nothing power-dependent returns at once);
+        the default refuses, so a new model that keeps power-dependent state is never
+        silently left at the old power (its copy would carry the base's fields).
+
+        Raises
+        ------
+        NotImplementedError
+            For a model that does not override it.
+        """
+        raise NotImplementedError(f"{type(self).__name__} cannot change its power in place")
 
     @abc.abstractmethod
     def _local_fields(

@@ -65,6 +65,10 @@ class IsotropicSource(Radiator):
         self.gain_dbi = float(gain_dbi)
         self.gain_linear = 10.0 ** (self.gain_dbi / 10.0)
 
+    def _power_changed(self) -> None:
+        """Nothing to update: the amplitude follows ``power_w`` on every call."""
+        return None
+
     @property
     def largest_dimension_m(self) -> float:
         """An ideal point source has no size [m]."""

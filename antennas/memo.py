@@ -5,10 +5,13 @@ radiators: a shield, a reflector or the duty cycle changes nothing in a source m
 a new ``power_w`` only scales its fields by sqrt(P'/P) (every model here is linear in the
 field amplitude).  The scenario loader gives such an option the base's radiator itself, or
 a copy made with :meth:`~keepclear.antennas.base.Radiator.with_power` that shares its
-caches.  Inside :func:`shared_field_evaluations` an aperture radiator then evaluates each
-field point once for all of them: the keep-out searches of the variants sample the same
-rays at the same radii, and their maps share one grid, so an option's search or map is
-mostly looked up.
+caches.  Inside :func:`shared_field_evaluations` each field point is evaluated once for
+all of them: the keep-out searches of the variants sample the same rays at the same
+radii, and their maps share one grid, so an option's search or map is mostly looked up.
+The field orchestrator asks through :func:`radiator_fields`, which shares the whole model
+of any radiator (an aperture with its rim, a wire, a monopole on its plate) by its
+:attr:`~keepclear.antennas.base.Radiator.field_identity`; an aperture radiator asked
+directly shares its aperture integration the same way.
 
 What is shared is the complex E and H of the radiator alone at a point, before shields,
 images (an image is the radiator evaluated at the mirrored point, which is shared too) and
@@ -24,6 +27,7 @@ not kept.  Everything is dropped when the outermost ``with`` block ends.
 from __future__ import annotations
 
 import functools
+import math
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -167,6 +171,41 @@ def paused() -> Iterator[None]:
         yield
     finally:
         _ACTIVE.reset(token)
+
+
+def radiator_fields(
+    radiator: Any, points_m: NDArray[np.float64], chunk_bytes: int | None = None
+) -> Fields:
+    """E and H of a radiator at points, shared between its copies inside a sharing block.
+
+    Outside :func:`shared_field_evaluations`, for a radiator without a
+    ``field_identity`` (None) and at zero power this is ``radiator.fields(points_m,
+    chunk_bytes)``.  Inside, the fields are kept under the radiator's ``field_identity``
+    (the same object for a radiator and its :meth:`with_power` copies, which differ only
+    by the factor sqrt(P'/P)) and ``sqrt(power_w)``; a point not seen yet is evaluated
+    with the inner sharing paused (it is kept once, here).
+
+    Parameters
+    ----------
+    radiator : Radiator
+        Any source model.
+    points_m : ndarray, shape (N, 3)
+        Field points in scenario coordinates [m].
+    chunk_bytes : int, optional
+        The radiator's memory budget for one chunk [bytes] (default: the radiator's own).
+    """
+    args = () if chunk_bytes is None else (chunk_bytes,)
+    memo = _ACTIVE.get()
+    identity = getattr(radiator, "field_identity", None)
+    power_w = float(radiator.power_w)
+    if memo is None or identity is None or not power_w > 0.0:
+        return radiator.fields(points_m, *args)
+
+    def evaluate(points: NDArray[np.float64]) -> Fields:
+        with paused():
+            return radiator.fields(points, *args)
+
+    return memo.fields(identity, math.sqrt(power_w), points_m, evaluate)
 
 
 P = ParamSpec("P")

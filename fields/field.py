@@ -62,6 +62,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import ETA0_OHM, Radiator, as_points
+from keepclear.antennas.memo import radiator_fields
 
 from .scenario import Scenario, Source
 
@@ -380,7 +381,7 @@ def _term_squares(
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """|E|^2 and |H|^2 of one term at points, reflections and shields included."""
     radiator = term.radiator
-    e, h = radiator.fields(points_m, chunk_bytes)
+    e, h = radiator_fields(radiator, points_m, chunk_bytes)
     image_factors: list[NDArray[np.float64]] = []
     from . import reflection
 
@@ -502,7 +503,7 @@ def _cavity_squares(  # noqa: ANN202
     inner = pts[mask]
     direct = [np.zeros(inner.shape[0]) for _ in range(4)]
     for s in cavity.enclosed:
-        e, h = s.radiator.fields(inner, chunk_bytes)
+        e, h = radiator_fields(s.radiator, inner, chunk_bytes)
         e2, h2 = np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
         direct[0] += s.duty_cycle * e2
         direct[1] += s.duty_cycle * h2

@@ -32,7 +32,11 @@ values where the standard gives them.
    the costly ones, close to the sources.
 3. Around the three farthest rays of every limit, three levels of denser rays follow
    (direction caps for rays from the centre, finer azimuths for rays along a plane),
-   so a narrow beam is not missed between lattice directions.
+   so a narrow beam is not missed between lattice directions.  Rays within twice the
+   bracket of the farthest count as equally far and are taken in the order they were
+   laid out; the reported direction is the first of them.  Their distances differ only
+   in bits that depend on the processor and the BLAS build, so the starts and the
+   direction are the same on every machine.
 4. The outer end of the sampling is set from the far-field screening bound of
    every term (with the reflection envelope) and doubled until the quotient at
    the end of every ray is below one.
@@ -345,6 +349,28 @@ class _Search:
         return np.where(free.any(axis=1), np.argmax(free, axis=1), len(radii))
 
 
+#: Rays whose distances differ by less than this fraction of the farthest count as equally
+#: far (twice the bracket: each end is known to RADIUS_TOLERANCE).
+TIE_TOLERANCE = 2 * RADIUS_TOLERANCE
+
+
+def _tied_first(dist: NDArray[np.float64], count: int) -> list[int]:
+    """The ``count`` farthest rays, ties (within :data:`TIE_TOLERANCE`) in the rays' order.
+
+    Distances come from a bisection known to :data:`RADIUS_TOLERANCE`: rays equally far
+    (an isotropic source, a ring about a wire) differ in their last bits, and those bits
+    depend on the processor and the BLAS build.  Every ray within the tie tolerance of
+    the farthest is taken first, in the order the rays were laid out (the same on every
+    machine), then the rest by falling distance (a stable sort).
+    """
+    top = float(dist.max()) if dist.size else 0.0
+    if top <= 0:
+        return []
+    tied = np.flatnonzero(dist >= top * (1.0 - TIE_TOLERANCE))
+    rest = [int(j) for j in np.argsort(-dist, kind="stable") if dist[j] < top * (1 - TIE_TOLERANCE)]
+    return [int(j) for j in tied[:count]] + rest[: max(0, count - len(tied))]
+
+
 class _Best:
     """The farthest exceedance found so far for each row, and every ray's end point."""
 
@@ -359,12 +385,22 @@ class _Best:
         ends = origins[None, :, :] + directions[None, :, :] * radius[:, :, None]
         dist = np.where(radius > 0, np.linalg.norm(ends - self.centre, axis=2), 0.0)
         for k in range(dist.shape[0]):
-            j = int(np.argmax(dist[k]))
-            if dist[k, j] > self.distance[k]:
-                self.distance[k] = dist[k, j]
-                self.point[k] = ends[k, j]
+            self.distance[k] = max(self.distance[k], float(dist[k].max(initial=0.0)))
             self.ends[k].append(ends[k][radius[k] > 0])
         return dist
+
+    def settle(self) -> None:
+        """Set each row's point: the first ray end within the tie tolerance of the farthest.
+
+        The ends are taken in the order the rays were laid out, so that equally far rays
+        give the same direction on every machine (see :func:`_tied_first`).
+        """
+        for k in range(len(self.distance)):
+            if self.distance[k] <= 0:
+                continue
+            pts = np.vstack(self.ends[k])
+            dist = np.linalg.norm(pts - self.centre, axis=1)
+            self.point[k] = pts[_tied_first(dist, 1)[0]]
 
 
 def _special_directions(search: _Search) -> NDArray[np.float64]:
@@ -476,11 +512,11 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
         new_o, new_d, new_kind = [], [], []
         starts: list[int] = []
         for k in range(len(search.rows)):
-            # a stable sort: among equal distances the last ray wins on every machine
-            # (an unstable sort orders ties by the processor's vector unit)
-            for j in np.argsort(dist[k], kind="stable")[::-1][:3]:
-                if dist[k, j] > 0 and int(j) not in starts:
-                    starts.append(int(j))
+            # equally far rays (to the bracket) in the order they were laid out: the same
+            # starts on every machine, whatever the last bits of their distances
+            for j in _tied_first(dist[k], 3):
+                if dist[k, j] > 0 and j not in starts:
+                    starts.append(j)
         for j in starts:
             if kind[j] < 0:
                 cap = _cap(d[j], 1.5 * spacing * shrink, 24)
@@ -500,6 +536,7 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
             break
         o, d, kind = np.vstack(new_o), np.vstack(new_d), np.concatenate(new_kind)
         dist = best.add(o, d, search.rays(o, d))
+    best.settle()
     return best
 
 

@@ -166,6 +166,7 @@ from keepclear.antennas.base import (
     as_points,
     unit_vector,
 )
+from keepclear.antennas.memo import radiator_fields
 
 from . import diffraction
 from .materials import (
@@ -935,7 +936,11 @@ def reflected_fields(
         return np.zeros((n_pts, 3), dtype=complex), np.zeros((n_pts, 3), dtype=complex)
 
     images: list[tuple[NDArray, NDArray]] = []
-    first_ops = [_image_operator(radiator.fields, source, r, frequency_hz) for r in refl]
+    def field(points: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
+        # shared between the variants of a scenario (antennas/memo.py)
+        return radiator_fields(radiator, points)
+
+    first_ops = [_image_operator(field, source, r, frequency_hz) for r in refl]
     first_refs = [r.mirror_points(source[None, :]) for r in refl]
 
     for j, rj in enumerate(refl):

@@ -22,7 +22,8 @@ from __future__ import annotations
 import copy
 import re
 import tomllib
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -530,11 +531,15 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
     pool = _RADIATORS.get()
     model = (kind, frequency_hz, repr(sorted(i for i in t.data.items() if i[0] not in _NOT_MODEL)))
     known = pool.get(model) if pool is not None else None
+    radiator = None
     if known is not None:  # an option's source whose model keys are the base's: no new model
-        radiator = known if known.power_w == power else known.with_power(power)
-    else:
+        try:
+            radiator = known if known.power_w == power else known.with_power(power)
+        except NotImplementedError:  # a model that cannot change its power: build it anew
+            radiator = None
+    if radiator is None:
         radiator = _BUILDERS[kind](t, frequency_hz, power)
-        if pool is not None:
+        if pool is not None and model not in pool:
             pool[model] = radiator
     t.finish(allowed)
     return Source(source_id, kind, power, duty, radiator, dict(t.data))
@@ -715,6 +720,28 @@ def _read_enclosure(root: Table, frequency_hz: float, sources: tuple[Source, ...
     except InputError as exc:
         raise exc.located(root.source, "enclosure") from None
     return enclosure
+
+
+@contextmanager
+def shared_radiators() -> Iterator[None]:
+    """Scenarios loaded inside the block share the radiators whose model keys agree.
+
+    A scenario and its options always do (see :func:`scenario_from_document`); inside
+    this block so do scenarios loaded one after another, e.g. the same file read by
+    several commands of one run.  A source then gets the radiator already built for its
+    model keys (all keys but ``id``, ``power_w`` and ``duty_cycle``), or its
+    :meth:`~keepclear.antennas.base.Radiator.with_power` copy, and inside
+    :func:`keepclear.antennas.memo.shared_field_evaluations` their field evaluations are
+    shared too.  Nested blocks use the outermost one's radiators.
+    """
+    if _RADIATORS.get() is not None:
+        yield
+        return
+    token = _RADIATORS.set({})
+    try:
+        yield
+    finally:
+        _RADIATORS.reset(token)
 
 
 def scenario_from_document(

@@ -21,6 +21,25 @@ def run(*args: str):
     return runner.invoke(app, [str(a) for a in args])
 
 
+#: Options that make a command write files: such runs are never shared.
+_WRITES = ("--out", "--csv", "--npz", "--png", "--svg", "--geojson")
+_ONCE: dict[tuple[str, ...], Any] = {}
+
+
+def run_once(*args: str):
+    """:func:`run`, shared by every test of the session that runs the same command.
+
+    For commands that only print (``probe``, ``keepout``, ``compare`` with ``--json``):
+    the golden test and the checks of every bundled scenario run the same heavy commands,
+    and one run feeds them all.  The result is the same whichever test runs first.
+    """
+    key = tuple(str(a) for a in args)
+    assert not any(k.split("=", 1)[0] in _WRITES for k in key), f"writes files: {key}"
+    if key not in _ONCE:
+        _ONCE[key] = run(*key)
+    return _ONCE[key]
+
+
 def _reject_constant(name: str) -> Any:
     raise ValueError(f"non-finite JSON constant {name} in output")
 

@@ -40,6 +40,12 @@ if PROFILE not in _SCALE:
 settings.load_profile(PROFILE)
 
 
-def examples(n: int) -> int:
-    """The example count of a test: ``n`` in CI, more in the long profile."""
+def examples(n: int, long: int | None = None) -> int:
+    """The example count of a test: ``n`` in CI, ``long`` (default ten times ``n``) in the
+    long profile.
+
+    A test whose examples are costly keeps a small CI count and states its deep count.
+    """
+    if PROFILE == "long" and long is not None:
+        return long
     return n * _SCALE[PROFILE]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import textwrap
+from contextlib import ExitStack
 from pathlib import Path
 
 import pytest
@@ -21,6 +22,23 @@ def write_scenario(tmp_path: Path):
         return path
 
     return _write
+
+
+@pytest.fixture
+def shared_models():
+    """Scenarios loaded in the test share their radiators and those radiators' evaluations.
+
+    For a test that runs the same scenario twice (the Python API and the command line):
+    the second run gets the first one's radiators (:func:`keepclear.fields.scenario.
+    shared_radiators`) and looks their fields up (:func:`keepclear.antennas.memo.
+    shared_field_evaluations`); everything else runs again.
+    """
+    from keepclear.antennas.memo import shared_field_evaluations
+    from keepclear.fields.scenario import shared_radiators
+
+    with ExitStack() as stack:
+        stack.enter_context(shared_radiators())
+        yield stack.enter_context(shared_field_evaluations())
 
 
 ISOTROPIC = """

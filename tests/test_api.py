@@ -108,7 +108,7 @@ def test_field_map_to_dict_is_the_command_json(tmp_path):
     assert result.run.result.power_density_w_m2.shape == (9, 9)
 
 
-def test_compare_to_dict_is_the_command_json():
+def test_compare_to_dict_is_the_command_json(shared_models):
     scenario = kc.load_scenario(HORN)
     result = kc.compare(scenario, grid=GRID)
     cli = strict_json(run("compare", HORN, "--extent-m", "2", "--pixels", "9", "--json").stdout)
@@ -217,8 +217,11 @@ def test_prepared_parts_go_with_their_scenario():
     assert key not in field._PREPARED
 
 
-def test_readme_example_runs():
-    """The README's "Python API" example, run as written (from the repository root)."""
+def test_readme_example_runs(shared_models):
+    """The README's "Python API" example, run as written (from the repository root).
+
+    (The option's search shares the base's radiator evaluations: ``shared_models``.)
+    """
     readme = (SCENARIOS.parent / "README.md").read_text(encoding="utf-8")
     section = readme.split("## Python API", 1)[1]
     code = re.search(r"```python\n(.*?)```", section, re.S)

@@ -136,7 +136,7 @@ def test_uncertainty_margin_never_shrinks_the_answer(write_scenario):
 
 
 @EXPECTED_PLAUSIBILITY_WARNING
-@settings(max_examples=examples(8))
+@settings(max_examples=examples(5, long=80))
 @given(
     doc=documents(KEEPOUT_KINDS, 2, max_power_w=KEEPOUT_POWER_W, modes=KEEPOUT_MODES),
     k=st.floats(1.05, 10.0),
@@ -184,7 +184,7 @@ def test_keepout_shrinks_as_the_limit_rises(doc, frequency_hz):
 
 # ------------------------------------------------------ screening in free space
 @EXPECTED_PLAUSIBILITY_WARNING
-@settings(max_examples=examples(8))
+@settings(max_examples=examples(5, long=80))
 @given(
     doc=documents(KEEPOUT_KINDS, max_sources=2, reflector=False, max_power_w=KEEPOUT_POWER_W),
     gain_boost=st.floats(0.0, 20.0),

@@ -33,7 +33,7 @@ from ._hypothesis import examples
 
 # ---------------------------------------------------------------------- tests
 @EXPECTED_PLAUSIBILITY_WARNING
-@settings(max_examples=examples(35), suppress_health_check=FUNCTION_FIXTURE)
+@settings(max_examples=examples(20, long=350), suppress_health_check=FUNCTION_FIXTURE)
 @given(data=st.data())
 def test_mutated_scenarios(tmp_path, data):
     doc = data.draw(mutated_documents(), label="scenario")
@@ -56,7 +56,7 @@ def test_mutated_scenarios(tmp_path, data):
 
 
 @EXPECTED_PLAUSIBILITY_WARNING
-@settings(max_examples=examples(10), suppress_health_check=FUNCTION_FIXTURE)
+@settings(max_examples=examples(6, long=100), suppress_health_check=FUNCTION_FIXTURE)
 @given(doc=valid_documents())
 def test_valid_scenarios_run(tmp_path, doc):
     """Generated valid scenarios mostly load; those that do give finite, schema-valid JSON."""

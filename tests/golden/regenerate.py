@@ -37,6 +37,33 @@ ATOL = 1e-30
 #: that sits on a rounding boundary is allowed (one unit in the 7th digit, relative).
 CSV_RTOL = 1.1e-6
 
+#: Values the keep-out search defines only to its bracket (``RADIUS_TOLERANCE``, 1e-4
+#: relative, in fields/keepout.py): the distances and what is derived from them (the
+#: uncertainty percentiles, the mark-out, the cylinder about the zone), compared to
+#: :data:`BRACKET_RTOL`.  Their last bits, and so which of two equally far rays ends a
+#: bisection on the outer side, follow the processor and the BLAS build.
+BRACKET_KEYS = frozenset(
+    {
+        "distance_m",
+        "distance_with_uncertainty_m",
+        "recommended_distance_m",
+        "mark_out_m",
+        "keepout_distance_m",
+        "keepout_sphere_section_radius_m",
+        "largest_keepout_m",
+        "clearance_from_enclosure_m",
+        "distance_median_m",
+        "distance_p95_m",
+        "cylinder",
+    }
+)
+#: Two brackets: each of two runs places a crossing within one bracket of the true one.
+BRACKET_RTOL = 2e-4
+#: Unit vectors to the farthest exceedance (``direction``) agree to this in each component
+#: (absolute): the direction of a ray's end moves with its radius where the ray does not
+#: start at the centre (rays along a reflector).
+DIRECTION_ATOL = 2e-4
+
 #: Keys dropped before recording or comparing: paths, versions, the list of written files,
 #: and prose that is not a result (the caution, the assumption sentences).
 VOLATILE_KEYS = frozenset(
@@ -122,7 +149,24 @@ def limits_output() -> dict[str, Any]:
 
 
 def scenario_outputs(path: Path) -> dict[str, Any]:
-    """Every recorded output of one scenario."""
+    """Every recorded output of one scenario.
+
+    The commands run one after another inside one
+    :func:`~keepclear.fields.scenario.shared_radiators` and
+    :func:`~keepclear.antennas.memo.shared_field_evaluations` block: each loads the file
+    afresh, but gets the radiators the first load built, and a field point of a radiator
+    is evaluated once for all of them (the keep-out search of the base runs in
+    ``keepout``, ``map``, ``compare`` and ``assess``).  Every other step (images,
+    shields, limits, the search, maps, the report) runs in each command as a user gets it.
+    """
+    from keepclear.antennas.memo import shared_field_evaluations
+    from keepclear.fields.scenario import shared_radiators
+
+    with shared_radiators(), shared_field_evaluations():
+        return _scenario_outputs(path)
+
+
+def _scenario_outputs(path: Path) -> dict[str, Any]:
     out: dict[str, Any] = {}
     at = [f"--at={x!r},{y!r},{z!r}" for x, y, z in probe_points(path)]
     out["probe"] = strip(json.loads(_run("probe", path, *at, "--json")))
@@ -182,7 +226,12 @@ def differences(expected: Any, actual: Any, where: str = "$", rtol: float = RTOL
             if key not in actual:
                 out.append(f"{where}.{key}: missing")
                 continue
+            if key == "direction" and isinstance(value, list) and isinstance(actual[key], list):
+                out += _direction_differences(value, actual[key], f"{where}.{key}")
+                continue
             tol = CSV_RTOL if key == "csv_rows" else rtol
+            if key in BRACKET_KEYS:
+                tol = max(tol, BRACKET_RTOL)
             out += differences(value, actual[key], f"{where}.{key}", tol)
         return out
     if isinstance(expected, list):
@@ -207,6 +256,16 @@ def differences(expected: Any, actual: Any, where: str = "$", rtol: float = RTOL
             out.append(f"{where}: {actual!r}, expected {expected!r} (relative {rel:.2e})")
         return out
     return [f"{where}: unexpected value {expected!r}"]
+
+
+def _direction_differences(expected: list, actual: list, where: str) -> list[str]:
+    """A recorded unit vector against a computed one, component by component."""
+    if len(expected) != len(actual):
+        return [f"{where}: length {len(actual)}, expected {len(expected)}"]
+    for e, a in zip(expected, actual, strict=True):
+        if not isinstance(a, int | float) or isinstance(a, bool) or abs(a - e) > DIRECTION_ATOL:
+            return [f"{where}: {actual!r}, expected {expected!r} (to {DIRECTION_ATOL:g} each)"]
+    return []
 
 
 def _dump(data: Any) -> str:
