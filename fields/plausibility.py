@@ -94,6 +94,15 @@ def plausibility_messages(scenario: Any) -> list[str]:
                 f"source[{i}].position_m is {distance(s.position_m):.0f} m from the first "
                 "source; positions are in metres (not centimetres)"
             )
+    for i, s in enumerate(scenario.sources):
+        if type(s.radiator).__name__ == "WalledAperture":
+            out.append(
+                f"source[{i}] ({s.antenna}) is modelled as its aperture with the rim's edge "
+                "currents (it has a flange_m, or is too large for the wire grid of its walls): "
+                "that model is held against full-wave data in front only, and on bare guides "
+                "and horns it was 3-4 dB low at some points beside and behind; keep extra "
+                "distance there and measure"
+            )
     for i, p in enumerate(scenario.points):
         if distance(p.position_m) > far:
             out.append(

@@ -12,6 +12,7 @@ import pytest
 from keepclear.antennas.base import ETA0_OHM, fibonacci_sphere
 from keepclear.antennas.guide_grid import GridOpenWaveguide, segments_needed
 from keepclear.antennas.walls import WalledAperture
+from keepclear.fields.plausibility import PlausibilityWarning
 from keepclear.fields.scenario import ScenarioError, load_scenario
 
 GUIDE = """
@@ -38,8 +39,9 @@ def test_an_unflanged_guide_is_solved_with_its_walls(write_scenario):
     assert radiator.structure.segment_count == segments_needed(0.08636, 0.04318, 2.45e9, 0.30)
 
 
-def test_a_flanged_guide_keeps_the_rim_model(write_scenario):
-    radiator = _guide(write_scenario, "flange_m = [0.3, 0.3]")
+def test_a_flanged_guide_keeps_the_rim_model_and_says_so(write_scenario):
+    with pytest.warns(PlausibilityWarning, match="front only"):
+        radiator = _guide(write_scenario, "flange_m = [0.3, 0.3]")
     assert isinstance(radiator, WalledAperture)
 
 
@@ -135,8 +137,9 @@ def test_the_demo_horn_is_solved_with_its_walls_and_radiates_power_w(write_scena
     assert inside.tolist() == [True, True, False]
 
 
-def test_a_flanged_horn_keeps_the_rim_model(write_scenario):
-    radiator = load_scenario(write_scenario(HORN.format(extra="flange_m = [0.4, 0.3]")))
+def test_a_flanged_horn_keeps_the_rim_model_and_says_so(write_scenario):
+    with pytest.warns(PlausibilityWarning, match="3-4 dB low"):
+        radiator = load_scenario(write_scenario(HORN.format(extra="flange_m = [0.4, 0.3]")))
     assert isinstance(radiator.sources[0].radiator, WalledAperture)
 
 

@@ -87,6 +87,7 @@ def _model(radiator):
     return getattr(radiator, "aperture", radiator)._model
 
 
+@pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
 def test_shared_evaluations_leave_the_keepout_unchanged(tmp_path):
     # The memo's machinery, on the flanged horn (the rim model: the unflanged horn's wire
     # grid would make this a minute-long test of the same code path). The sharing is per
@@ -126,6 +127,7 @@ boresight = [1.0, 0.0, 0.0]
 """
 
 
+@pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
 def test_with_power_scales_every_bundled_source_model(tmp_path):
     # Every radiator the loader builds (the guides and horns solved with their walls, the
     # finite-ground monopole, wires, point sources; a flanged guide's rim model below): half
