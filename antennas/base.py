@@ -345,8 +345,18 @@ class Radiator(abc.ABC):
         2 D^2/lambda is the Fraunhofer distance (Balanis [1]_, eq. 2-1 context);
         the second term keeps small radiators out of their reactive region.
         """
-        d = self.largest_dimension_m
+        d = self.radiating_dimension_m
         return max(2.0 * d * d / self.wavelength_m, 10.0 * self.wavelength_m / (2 * np.pi))
+
+    @property
+    def radiating_dimension_m(self) -> float:
+        """D of the Fraunhofer distance 2 D^2 / lambda: the size of what radiates [m].
+
+        The largest dimension of the model, except where it solves metal behind an
+        opening that sets the pattern (a guide's or horn's walls and feed: the opening's
+        diagonal, Balanis, *Antenna Theory*, 4th ed., sec. 2.2.4).
+        """
+        return self.largest_dimension_m
 
     def fields(
         self, points_m: ArrayLike, chunk_bytes: int = DEFAULT_CHUNK_BYTES

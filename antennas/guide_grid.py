@@ -290,6 +290,15 @@ class GridOpenWaveguide(SolvedWireRadiator):
         """The opening's normal in scenario axes [1]."""
         return self.aperture.boresight
 
+    @property
+    def radiating_dimension_m(self) -> float:
+        """The opening's size, as the aperture model gives it (the Fraunhofer distance's D).
+
+        The walls and feed solved behind it (in ``largest_dimension_m``, which bounds the
+        sources for the field evaluation) do not set the far-field distance.
+        """
+        return self.aperture.radiating_dimension_m
+
     def _local_outline(self) -> NDArray[np.float64]:
         """The guide's eight corners: the opening, then the short [m]."""
         a, b = 0.5 * self.broad_m, 0.5 * self.narrow_m
@@ -542,6 +551,15 @@ class GridHorn(SolvedWireRadiator):
     def boresight(self) -> NDArray[np.float64]:
         """The mouth's normal in scenario axes [1]."""
         return self.aperture.boresight
+
+    @property
+    def radiating_dimension_m(self) -> float:
+        """The opening's size, as the aperture model gives it (the Fraunhofer distance's D).
+
+        The walls and feed solved behind it (in ``largest_dimension_m``, which bounds the
+        sources for the field evaluation) do not set the far-field distance.
+        """
+        return self.aperture.radiating_dimension_m
 
     def _local_outline(self) -> NDArray[np.float64] | None:
         """The horn's body, as the aperture model draws it."""

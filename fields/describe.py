@@ -52,7 +52,7 @@ def describe_source(source: Source) -> dict[str, Any]:
     direction = radiator.peak_direction()
     gain_along = float(radiator.gain(direction[None, :])[0])
     peak = max(float(radiator.max_gain()), gain_along)
-    d_m = float(radiator.largest_dimension_m)
+    d_m = float(radiator.radiating_dimension_m)
     return {
         "id": source.id,
         "antenna": source.antenna,
