@@ -78,7 +78,7 @@ from numpy.typing import ArrayLike, NDArray
 from . import moment
 from .base import ModelInputError, Placement
 from .wire import _validate_wire
-from .wire_grid import FAR_ZONE_FACTOR, SolvedWireRadiator  # noqa: F401 (re-exported)
+from .wire_grid import SolvedWireRadiator
 
 #: Ground descriptions this model handles (``"infinite"`` is :class:`wire.Monopole`).
 GROUND_KINDS = ("plate", "box")

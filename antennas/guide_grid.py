@@ -81,6 +81,7 @@ from . import moment
 from .aperture import OpenWaveguide
 from .aperture.radiator import inside_guide
 from .base import ModelInputError
+from .horn import PyramidalHorn, inside_horn
 from .wire_grid import SolvedWireRadiator
 
 #: Default length of the guide behind the opening [m]: the validated full-wave length
@@ -339,6 +340,10 @@ HORN_PROBE_LENGTH_PER_NARROW: Final[float] = 0.4
 #: (0.12 m for WR-340 at 2.45 GHz, the validated case; the probes stand lambda_g / 4 from
 #: the short, 0.45 lambda_g before the throat).
 HORN_FEED_GUIDE_WAVELENGTHS: Final[float] = 0.7
+#: Largest horn grid this model solves, by :func:`horn_segments_needed` (NEC-2 from the
+#: quarter: about 7 s of CPU at 5,000; the engine's own bound,
+#: :data:`keepclear.antennas.moment.MAX_SYMMETRIC_SEGMENTS`, leaves room above it).
+HORN_MAX_SEGMENTS: Final[int] = 6000
 #: Keep-out margin [dB] of the horn: the largest error in front against openEMS v0.0.35
 #: (horn-wr340, -0.89 dB at the time of writing).
 HORN_GAIN_UNCERTAINTY_DB: Final[float] = 0.9
@@ -409,7 +414,7 @@ class GridHorn(SolvedWireRadiator):
     Raises
     ------
     ModelInputError
-        The grid would exceed :data:`keepclear.antennas.moment.MAX_SYMMETRIC_SEGMENTS`.
+        The grid would exceed :data:`HORN_MAX_SEGMENTS`.
 
     Notes
     -----
@@ -435,7 +440,7 @@ class GridHorn(SolvedWireRadiator):
 
     kind = "horn"
 
-    def __init__(self, horn: Any) -> None:
+    def __init__(self, horn: PyramidalHorn) -> None:
         super().__init__(horn.frequency_hz, horn.power_w, horn.placement)
         self.aperture = horn
         self.geometry = horn.geometry
@@ -450,11 +455,11 @@ class GridHorn(SolvedWireRadiator):
             g.length_m,
             self.frequency_hz,
         )
-        if not (math.isfinite(lg) and needed <= moment.MAX_SYMMETRIC_SEGMENTS):
+        if not (math.isfinite(lg) and needed <= HORN_MAX_SEGMENTS):
             raise ModelInputError(
                 "length_m",
                 f"the horn's wire grid needs about {needed} segments, more than "
-                f"{moment.MAX_SYMMETRIC_SEGMENTS}",
+                f"{HORN_MAX_SEGMENTS}",
             )
         self.feed_length_m = HORN_FEED_GUIDE_WAVELENGTHS * lg
         self._guide_wavelength_m = lg
@@ -569,12 +574,4 @@ class GridHorn(SolvedWireRadiator):
         self, points_local_m: NDArray[np.float64], tolerance_m: float
     ) -> NDArray[np.bool_]:
         """Inside the flare or the modelled feed guide, or within ``tolerance_m`` of the walls."""
-        g = self.geometry
-        p = points_local_m
-        z = p[:, 2]
-        back = g.length_m + self.feed_length_m + tolerance_m
-        along = np.clip((z + g.length_m) / g.length_m, 0.0, 1.0)  # 0 at the throat, 1 at the mouth
-        half_x = 0.5 * (g.broad_m + (g.aperture_width_m - g.broad_m) * along)
-        half_y = 0.5 * (g.narrow_m + (g.aperture_height_m - g.narrow_m) * along)
-        inside = inside_guide(p, half_x, half_y, tolerance_m)
-        return np.asarray((z <= tolerance_m) & (z >= -back) & inside)
+        return inside_horn(points_local_m, self.geometry, self.feed_length_m, tolerance_m)

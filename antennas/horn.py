@@ -180,6 +180,28 @@ def check_horn_geometry(geometry: HornGeometry) -> None:
         )
 
 
+def inside_horn(
+    points_local_m: NDArray[np.float64],
+    geometry: HornGeometry,
+    feed_length_m: float,
+    tolerance_m: float,
+) -> NDArray[np.bool_]:
+    """Points inside a horn's flare or its feed guide, or within ``tolerance_m`` of the walls.
+
+    Local frame: mouth in z = 0, throat at z = -L.  Between them the cross-section grows
+    linearly from a x b to A x B; behind the throat the feed guide (a x b) runs back
+    ``feed_length_m``.  The tolerance widens each cross-section for the walls' metal.
+    """
+    g = geometry
+    p = points_local_m
+    z = p[:, 2]
+    back = g.length_m + feed_length_m + tolerance_m
+    along = np.clip((z + g.length_m) / g.length_m, 0.0, 1.0)  # 0 at the throat, 1 at the mouth
+    half_x = 0.5 * (g.broad_m + (g.aperture_width_m - g.broad_m) * along)
+    half_y = 0.5 * (g.narrow_m + (g.aperture_height_m - g.narrow_m) * along)
+    return np.asarray((z <= 0.0) & (z >= -back) & inside_guide(p, half_x, half_y, tolerance_m))
+
+
 def horn_distribution(
     geometry: HornGeometry, wavelength_m: float, phase: str = "exact"
 ) -> ApertureDistribution:
@@ -388,14 +410,8 @@ class PyramidalHorn(ApertureRadiator):
         :func:`~keepclear.antennas.aperture.open_waveguide.feed_guide_length_m`.  The
         tolerance widens each cross-section for the walls' metal.
         """
-        g = self.geometry
-        p = points_local_m
-        z = p[:, 2]
-        back = g.length_m + feed_guide_length_m(self.mode) + tolerance_m
-        along = np.clip((z + g.length_m) / g.length_m, 0.0, 1.0)  # 0 at the throat, 1 at the mouth
-        half_x = 0.5 * (g.broad_m + (g.aperture_width_m - g.broad_m) * along)
-        half_y = 0.5 * (g.narrow_m + (g.aperture_height_m - g.narrow_m) * along)
-        return (z <= 0.0) & (z >= -back) & inside_guide(p, half_x, half_y, tolerance_m)
+        feed_m = feed_guide_length_m(self.mode)
+        return inside_horn(points_local_m, self.geometry, feed_m, tolerance_m)
 
     def balanis_directivity(self) -> float:
         """Balanis' closed-form directivity (13-52) of this geometry (linear)."""

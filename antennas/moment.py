@@ -131,7 +131,8 @@ from .base import C_M_S, ETA0_OHM, ModelInputError
 #: Largest number of segments accepted (NEC-2's dense matrix: 16 N^2 bytes, N^3/3 steps).
 MAX_SEGMENTS = 4000
 #: The same for a structure solved from its quarter (four blocks of N/4: 1/16 the steps).
-MAX_SYMMETRIC_SEGMENTS = 6000
+#: An engine bound; models choose their own, lower, size for the grid (GridHorn: 6,000).
+MAX_SYMMETRIC_SEGMENTS = 8000
 #: Longest grid segment, in wavelengths (Burke & Poggio, part III).
 MAX_SEGMENT_WAVELENGTHS = 0.1
 #: Finest grid spacing at a feed, in wavelengths.
@@ -466,6 +467,28 @@ class MomentSolution:
         return complex(self.centre_currents_a[self.structure.feed_segment])
 
 
+def _enter_wires(geo: object, structure: WireStructure) -> None:
+    """Enter every segment into a NEC-2 geometry as its own wire (tag = index + 1).
+
+    NEC-2 joins wires whose ends coincide, so the grid's junctions need no cards.
+    """
+    s = structure
+    for i in range(s.segment_count):
+        a, b = s.starts_m[i], s.ends_m[i]
+        geo.wire(i + 1, 1, *a, *b, float(s.radii_m[i]), 1.0, 1.0)  # type: ignore[attr-defined]
+
+
+def _structure_from_key(key: tuple) -> WireStructure:
+    """The structure back from :meth:`WireStructure.key` (for the solution caches)."""
+    starts, ends, radii, feed = key
+    return WireStructure(
+        np.frombuffer(starts).reshape(-1, 3),
+        np.frombuffer(ends).reshape(-1, 3),
+        np.frombuffer(radii),
+        feed,
+    )
+
+
 def _nec_run(structure: WireStructure, frequency_hz: float) -> tuple[NDArray, complex]:
     """Run NEC-2 (PyPI ``PyNEC``, the nec2++ engine): centre currents and impedance."""
     import PyNEC  # imported here: only models built on wire structures need it
@@ -479,10 +502,7 @@ def _nec_run(structure: WireStructure, frequency_hz: float) -> tuple[NDArray, co
         )
     ctx = PyNEC.nec_context()
     geo = ctx.get_geometry()
-    for i in range(s.segment_count):
-        a, b = s.starts_m[i], s.ends_m[i]
-        # One segment per wire (tag i + 1): NEC joins wires whose ends coincide.
-        geo.wire(i + 1, 1, a[0], a[1], a[2], b[0], b[1], b[2], float(s.radii_m[i]), 1.0, 1.0)
+    _enter_wires(geo, s)
     ctx.geometry_complete(0)  # no ground plane
     ctx.fr_card(0, 1, frequency_hz / 1e6, 0.0)  # frequency in MHz
     ctx.ex_card(0, s.feed_segment + 1, 1, 0, 1.0, 0.0, 0.0, 0.0, 0.0, 0.0)  # 1 V delta gap
@@ -520,10 +540,7 @@ def nec_near_fields(
     s = structure
     pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
     ctx = PyNEC.nec_context()
-    geo = ctx.get_geometry()
-    for i in range(s.segment_count):
-        a, b = s.starts_m[i], s.ends_m[i]
-        geo.wire(i + 1, 1, a[0], a[1], a[2], b[0], b[1], b[2], float(s.radii_m[i]), 1.0, 1.0)
+    _enter_wires(ctx.get_geometry(), s)
     ctx.geometry_complete(0)
     ctx.fr_card(0, 1, frequency_hz / 1e6, 0.0)
     ctx.ex_card(0, s.feed_segment + 1, 1, 0, 1.0, 0.0, 0.0, 0.0, 0.0, 0.0)
@@ -544,14 +561,7 @@ def nec_near_fields(
 
 @functools.lru_cache(maxsize=32)
 def _solve_cached(key: tuple, frequency_hz: float) -> tuple[NDArray, complex]:
-    starts, ends, radii, feed = key
-    structure = WireStructure(
-        np.frombuffer(starts).reshape(-1, 3),
-        np.frombuffer(ends).reshape(-1, 3),
-        np.frombuffer(radii),
-        feed,
-    )
-    currents, z = _nec_run(structure, frequency_hz)
+    currents, z = _nec_run(_structure_from_key(key), frequency_hz)
     currents.setflags(write=False)
     return currents, z
 
@@ -624,9 +634,7 @@ def _nec_run_quarter(
         )
     ctx = PyNEC.nec_context()
     geo = ctx.get_geometry()
-    for i in range(q.segment_count):
-        a, b = q.starts_m[i], q.ends_m[i]
-        geo.wire(i + 1, 1, a[0], a[1], a[2], b[0], b[1], b[2], float(q.radii_m[i]), 1.0, 1.0)
+    _enter_wires(geo, q)
     geo.reflect(1, 1, 0, 0)  # x and y planes; tags unchanged
     ctx.geometry_complete(0)
     ctx.fr_card(0, 1, frequency_hz / 1e6, 0.0)
@@ -645,14 +653,7 @@ def _nec_run_quarter(
 def _solve_quarter_cached(
     key: tuple, frequency_hz: float, voltages: tuple[float, ...]
 ) -> NDArray[np.complex128]:
-    starts, ends, radii, feed = key
-    quarter = WireStructure(
-        np.frombuffer(starts).reshape(-1, 3),
-        np.frombuffer(ends).reshape(-1, 3),
-        np.frombuffer(radii),
-        feed,
-    )
-    currents = _nec_run_quarter(quarter, frequency_hz, voltages)
+    currents = _nec_run_quarter(_structure_from_key(key), frequency_hz, voltages)
     currents.setflags(write=False)
     return currents
 

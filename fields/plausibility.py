@@ -94,8 +94,10 @@ def plausibility_messages(scenario: Any) -> list[str]:
                 f"source[{i}].position_m is {distance(s.position_m):.0f} m from the first "
                 "source; positions are in metres (not centimetres)"
             )
+    from keepclear.antennas.walls import WalledAperture  # loaded already if one is in use
+
     for i, s in enumerate(scenario.sources):
-        if type(s.radiator).__name__ == "WalledAperture":
+        if isinstance(s.radiator, WalledAperture):
             out.append(
                 f"source[{i}] ({s.antenna}) is modelled as its aperture with the rim's edge "
                 "currents (it has a flange_m, or is too large for the wire grid of its walls): "

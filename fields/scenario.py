@@ -427,6 +427,12 @@ def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
     flange = _flange(t)
     length = None
     if t.has("guide_length_m"):
+        if flange is not None:
+            raise t.error(
+                "guide_length_m",
+                "applies to a guide without flange_m (a flanged guide is modelled by its "
+                "opening and flange, not by the guide behind them)",
+            )
         length = t.number(
             "guide_length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0
         )
@@ -474,10 +480,10 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
     horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
     flange = _flange(t)
     if flange is None:
-        from keepclear.antennas import guide_grid, moment
+        from keepclear.antennas import guide_grid
 
         needed = guide_grid.horn_segments_needed(broad, narrow, width, height, length, f)
-        if needed <= moment.MAX_SYMMETRIC_SEGMENTS:
+        if needed <= guide_grid.HORN_MAX_SEGMENTS:
             # The horn solved with its flare, feed and probes (validated all around).
             return t.build(guide_grid.GridHorn, horn)
     # A flanged horn, or one too large for the wire grid: the aperture and its rim.

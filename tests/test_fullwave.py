@@ -163,10 +163,10 @@ def test_probe_margin_covers_the_largest_error_in_front(name: str) -> None:
     )
 
 
-_GUIDE_CASES = [n for n in CASES if n.startswith(("guide-", "horn-"))]
+_WALL_GRID_CASES = [n for n in CASES if n.startswith(("guide-", "horn-"))]
 
 
-@pytest.mark.parametrize("name", _GUIDE_CASES)
+@pytest.mark.parametrize("name", _WALL_GRID_CASES)
 def test_guide_and_horn_margin_covers_the_largest_error_in_front(name: str) -> None:
     """The open guide's and the horn's keep-out margin is at least their largest error in front.
 

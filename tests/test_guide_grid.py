@@ -48,8 +48,9 @@ def test_a_flanged_guide_keeps_the_rim_model_and_says_so(write_scenario):
 def test_radiated_power_is_power_w(write_scenario):
     """Lossless metal: the far field integrated over the sphere is power_w (within 1 %).
 
-    Poynting's theorem (Balanis, *Antenna Theory*, 4th ed., eq. (2-13)): P = the integral
-    of |F|^2 / eta0 over the unit sphere for the far-field amplitude F.
+    Radiated power as the radiation intensity integrated over the sphere (Balanis, *Antenna
+    Theory*, 4th ed., sec. 2.6; the equation number from memory): P = the integral of
+    |F|^2 / eta0 over the unit sphere for the far-field amplitude F.
     """
     radiator = _guide(write_scenario)
     u = fibonacci_sphere(20000)
@@ -83,6 +84,7 @@ def test_the_guide_length_moves_the_back_of_the_guide(write_scenario):
         ("guide_length_m = 0.05", "at least 0.75 guide wavelengths"),
         ("guide_length_m = -1.0", "guide_length_m"),
         ('guide_length_m = "long"', "guide_length_m"),
+        ("guide_length_m = 0.3\nflange_m = [0.3, 0.3]", "without flange_m"),
     ],
 )
 def test_a_bad_guide_length_is_refused_naming_the_key(write_scenario, extra, fragment):
@@ -121,7 +123,10 @@ polarization = [0.0, 0.0, 1.0]
 
 
 def test_the_demo_horn_is_solved_with_its_walls_and_radiates_power_w(write_scenario):
-    """GridHorn for the unflanged demo horn; its far field integrates to power_w (1 %)."""
+    """GridHorn for the unflanged demo horn; its far field integrates to power_w (1 %).
+
+    The same identity as for the guide above (Balanis, 4th ed., sec. 2.6).
+    """
     from keepclear.antennas.guide_grid import GridHorn
 
     radiator = load_scenario(write_scenario(HORN.format(extra=""))).sources[0].radiator
