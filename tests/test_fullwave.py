@@ -192,6 +192,35 @@ def test_guide_and_horn_margin_covers_the_largest_error_in_front(name: str) -> N
     )
 
 
+@pytest.mark.parametrize("name", _WALL_GRID_CASES)
+def test_rim_model_with_its_back_margin_is_never_far_under_openems(name: str, monkeypatch) -> None:
+    """The fallback for guides and horns no full-wave case covers leans high all around.
+
+    A flanged guide or horn, or one too large for the wall grid, is modelled by its
+    aperture and rim (antennas/walls.py WalledAperture) with a 7 dB back-region margin.
+    Held against the bare cases here (openEMS v0.0.35; the wall-grid models forced off):
+    never more than 1 dB under the full-wave field anywhere (0.86 dB at worst when
+    written, guide-wr430 H 60 deg 0.1 m), and in front never more than 2.5 dB over it.
+    """
+    from keepclear.antennas import guide_grid
+    from keepclear.antennas.walls import WalledAperture
+    from keepclear.fields.plausibility import PlausibilityWarning
+
+    monkeypatch.setattr(guide_grid, "MAX_SEGMENTS", 0)
+    monkeypatch.setattr(guide_grid, "HORN_MAX_SEGMENTS", 0)
+    case = vd.load(name)
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / f"{case.name}.toml"
+        path.write_text(case.scenario_text(), encoding="utf-8")
+        with pytest.warns(PlausibilityWarning, match="7 dB margin"):
+            scenario = load_scenario(path)
+    assert isinstance(scenario.sources[0].radiator, WalledAperture)
+    density = evaluate(scenario, case.positions_m).power_density_w_m2
+    err = 10 * np.log10(density / case.power_density_w_m2)
+    bad = ~(err >= -1.0) | (case.front() & ~(err <= 2.5))
+    assert not bad.any(), _table(case, err, bad)
+
+
 # ------------------------------------------------------------- the data themselves
 @pytest.mark.parametrize("name", CASES)
 def test_stored_case_is_complete_and_power_is_conserved(name: str) -> None:

@@ -10,7 +10,13 @@ import pytest
 from keepclear.antennas.aperture import OpenWaveguide, hemisphere_rule
 from keepclear.antennas.base import ETA0_OHM, ModelInputError, Placement
 from keepclear.antennas.horn import PyramidalHorn
-from keepclear.antennas.walls import WalledAperture, hard_fringe, soft_slope_fringe
+from keepclear.antennas.walls import (
+    BACK_MARGIN_DB,
+    WalledAperture,
+    back_margin,
+    hard_fringe,
+    soft_slope_fringe,
+)
 
 F_HZ = 2.45e9
 WR340 = (0.08636, 0.04318)  # EIA WR-340: 3.400 x 1.700 in
@@ -98,7 +104,8 @@ def test_issue_figures_open_guide_behind_and_beside():
     kirchhoff = guide.aperture
     h90 = _dirs("H", [90.0])
     fullwave_h90 = _db(kirchhoff.gain(h90)[0]) - 7.5
-    assert _db(guide.gain(h90)[0]) <= fullwave_h90 + 6.0
+    # the rim term itself; the back-region margin (BACK_MARGIN_DB) comes on top of it
+    assert _db(guide.gain(h90)[0]) - BACK_MARGIN_DB <= fullwave_h90 + 6.0
     behind = np.concatenate([_dirs("E", [120, 135, 150, 180]), _dirs("H", [120, 135, 150])])
     assert np.all(guide.gain(behind) > kirchhoff.gain(behind))
 
@@ -134,7 +141,9 @@ def test_power_conservation_over_sphere(make, normalize):
     total = 0.0
     for flip in (1.0, -1.0):
         d = dirs * np.array([1.0, 1.0, flip])
-        total += float(np.sum(np.abs(radiator.far_field(d)) ** 2, axis=1) @ weights) / ETA0_OHM
+        # the power of the model's currents: the back-region margin taken out
+        f = radiator.far_field(d) / back_margin(d)[:, None]
+        total += float(np.sum(np.abs(f) ** 2, axis=1) @ weights) / ETA0_OHM
     expected = radiator.power_w * (radiator.power_ratio if normalize == "aperture" else 1.0)
     assert abs(total / expected - 1.0) < 0.02
     # the near field far out agrees with the pattern (1/r^2 law, far field)
