@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import textwrap
 from contextlib import ExitStack
 from pathlib import Path
@@ -10,6 +11,19 @@ import pytest
 
 REPO = Path(__file__).resolve().parent.parent
 SCENARIOS = REPO / "scenarios"
+
+
+def pytest_configure(config: pytest.Config) -> None:
+    """With parallel workers (``-n``), each worker's BLAS runs on one thread.
+
+    The workers already use every core; BLAS threads on top of them only contend.  The
+    variables are read when numpy loads, in the workers, which start after this hook.
+    Results do not depend on the thread count (DEVELOPERS.md, "The same answer").
+    """
+    workers = getattr(config.option, "numprocesses", None)
+    if workers and not os.environ.get("PYTEST_XDIST_WORKER"):
+        for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+            os.environ.setdefault(name, "1")
 
 
 @pytest.fixture
