@@ -8,10 +8,12 @@ describes its structure; this base solves it once per geometry, frequency and po
 (kept in a small cache, so an option or a second command in the same process reuses
 it), and evaluates the fields:
 
-* within 2.5 times the metal's radius of its centre, by the exact closed-form kernel
-  of the piecewise-sinusoidal segments
-  (:meth:`keepclear.antennas.moment.CurrentElements.fields`);
-* beyond that, by the tabulated outgoing-wave expansion of the same currents
+* within 2.5 times the metal's radius of its centre, by the segments split into eight
+  clusters (:class:`keepclear.antennas.moment.ClusteredElements`): the exact closed-form
+  kernel of the piecewise-sinusoidal segments of the clusters near the point
+  (:meth:`keepclear.antennas.moment.CurrentElements.fields`), each other cluster's own
+  outgoing-wave table;
+* beyond that, by the tabulated outgoing-wave expansion of all the currents
   (:class:`keepclear.antennas.moment.OutgoingExpansion`, within 1e-4 of the kernel);
 * beyond :data:`FAR_ZONE_FACTOR` times max(size, wavelength), by the radiation field
   (the exact sums cancel there; the 1/r^2 terms are below 1e-3 of it).
@@ -46,13 +48,29 @@ class _Solved:
     structure: moment.WireStructure
     solution: Any
     elements: moment.CurrentElements
+    expansion: moment.OutgoingExpansion
     #: The peak gain and its local direction, once searched.
     max_gain: tuple[float, NDArray[np.float64]] | None = field(default=None)
 
     @functools.cached_property
-    def expansion(self) -> moment.OutgoingExpansion:
-        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
-        return moment.OutgoingExpansion(self.elements, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
+    def near(self) -> moment.ClusteredElements:
+        """The same currents for points near the metal: clusters, each with its table."""
+        return moment.ClusteredElements(self.elements)
+
+    @classmethod
+    def at_one_watt(cls, solution: Any) -> _Solved:
+        """The solution's currents and table, scaled so that they radiate 1 W.
+
+        The radiated power is integrated from the outgoing-wave table's far field (the
+        table is needed anyway), which costs nothing per segment: the same figure as the
+        elements' own radiation integral to about 1e-5.
+        """
+        raw = solution.feed_elements()
+        pts = np.vstack([raw.starts_m, raw.ends_m])
+        table = moment.OutgoingExpansion(raw, 0.5 * (pts.max(axis=0) + pts.min(axis=0)))
+        p = table.radiated_power_w()
+        scale = math.sqrt(1.0 / p) if p > 0 else 0.0
+        return cls(solution.structure, solution, raw.scaled(scale), table.scaled(scale))
 
 
 #: Solved structures (at 1 W) by model, geometry and frequency (the most recent few).
@@ -86,7 +104,7 @@ class SolvedWireRadiator(Radiator):
         if solved is None:
             structure = self._structure()
             solution = self._solve(structure)
-            solved = _Solved(solution.structure, solution, solution.elements(1.0))
+            solved = _Solved.at_one_watt(solution)
             _SOLVED[key] = solved
             while len(_SOLVED) > _SOLVED_CACHE_SIZE:
                 _SOLVED.pop(next(iter(_SOLVED)))
@@ -126,9 +144,8 @@ class SolvedWireRadiator(Radiator):
         h = np.empty_like(e)
         outer = ~far & self.expansion.covers(points_local_m)
         near = ~far & ~outer
-        unit = self._solved.elements
         if near.any():
-            e[near], h[near] = unit.fields(points_local_m[near])
+            e[near], h[near] = self._solved.near.fields(points_local_m[near])
         if outer.any():
             e[outer], h[outer] = self.expansion.fields(points_local_m[outer])
         if far.any():
