@@ -97,13 +97,25 @@ def plausibility_messages(scenario: Any) -> list[str]:
     from keepclear.antennas.walls import WalledAperture  # loaded already if one is in use
 
     for i, s in enumerate(scenario.sources):
-        if isinstance(s.radiator, WalledAperture):
+        if isinstance(s.radiator, WalledAperture) and s.radiator.flange_m is not None:
+            out.append(
+                f"source[{i}] ({s.antenna}) has a flange_m and is modelled as its aperture "
+                "with the flange's edge currents: held against one full-wave solution (an "
+                "open WR-340 guide on a 0.25 x 0.20 m flange), in front it was within "
+                "-2.4/+4.1 dB of it (its keep-out margin is "
+                f"{s.radiator.gain_uncertainty_db:g} dB), beside and behind it carries a "
+                f"back-region {s.radiator.back_margin_db:g} dB margin (the largest deficit "
+                "found there, rounded up); "
+                "measure before relying on it"
+            )
+        elif isinstance(s.radiator, WalledAperture):
             out.append(
                 f"source[{i}] ({s.antenna}) is modelled as its aperture with the rim's edge "
-                "currents (it has a flange_m, or is too large for the wire grid of its walls): "
-                "no full-wave solution covers it; beside and behind it carries a 7 dB "
-                "margin (the largest deficit found on bare guides and horns), in front it "
-                "was within -0.6/+2.2 dB of full wave; measure before relying on it"
+                "currents (it is too large for the wire grid of its walls): no full-wave "
+                f"solution covers it; beside and behind it carries a back-region "
+                f"{s.radiator.back_margin_db:g} dB margin (the largest deficit found on bare "
+                "guides and horns), in front it was within -0.6/+2.2 dB of full wave; "
+                "measure before relying on it"
             )
     for i, p in enumerate(scenario.points):
         if distance(p.position_m) > far:

@@ -21,12 +21,14 @@ from __future__ import annotations
 
 import functools
 import tempfile
+import warnings
 from pathlib import Path
 
 import numpy as np
 import pytest
 
 from keepclear.fields.field import evaluate
+from keepclear.fields.plausibility import PlausibilityWarning
 from keepclear.fields.scenario import load_scenario
 from tests import validation_data as vd
 
@@ -48,11 +50,28 @@ _HORN_BEHIND = (
     "the safe side"
 )
 
+_FLANGE_FRONT = (
+    "open guide on a flange, modelled by its aperture and the flange's edge currents "
+    "(antennas/walls.py WalledAperture): the flange's edges reshape the E plane (full wave "
+    "7.17 dBi at 30 deg, 4.74 dBi on boresight; the model's E plane is smooth, 5.9 dBi on "
+    "boresight), so in front the model is -2.38 dB (E 45 deg 0.3 m) to +4.06 dB (H 60 deg "
+    "0.3 m) from full wave; the under-prediction is covered by its keep-out margin "
+    "(FLANGE_GAIN_UNCERTAINTY_DB = 2.6 dB), never more than 3 dB under"
+)
+_FLANGE_BEHIND = (
+    "open guide on a flange, with its 8 dB back-region margin: from 90 deg on never under "
+    "full wave (+0.39 dB at least, H 135 deg 0.4 m), but up to +24.3 dB over it close behind "
+    "the plate (H 120 deg 0.1 m, where full wave is 33 dB under the front): on the safe "
+    "side; -2.53 dB at worst on the E plane's shoulder at 60.3 deg (E 60 deg 0.2 m)"
+)
+
 #: (case, region) -> reason, for regions that do not meet the rule yet (measured errors).
 KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("box-probe", "front"): _PROBE_AXIS_NULL,
     ("plate-probe", "front"): _PROBE_AXIS_NULL,
     ("horn-wr340", "elsewhere"): _HORN_BEHIND,
+    ("flanged-wr340", "front"): _FLANGE_FRONT,
+    ("flanged-wr340", "elsewhere"): _FLANGE_BEHIND,
 }
 
 
@@ -76,7 +95,10 @@ def _model(name: str) -> tuple[np.ndarray, float, float]:
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / f"{case.name}.toml"
         path.write_text(case.scenario_text(), encoding="utf-8")
-        scenario = load_scenario(path)
+        with warnings.catch_warnings():
+            # the flanged cases' rim model says what it is; its own test checks that
+            warnings.simplefilter("ignore", PlausibilityWarning)
+            scenario = load_scenario(path)
     radiator = scenario.sources[0].radiator
     density = evaluate(scenario, case.positions_m).power_density_w_m2
     peak = float(10 * np.log10(radiator.max_gain()))
@@ -196,14 +218,14 @@ def test_guide_and_horn_margin_covers_the_largest_error_in_front(name: str) -> N
 def test_rim_model_with_its_back_margin_is_never_far_under_openems(name: str, monkeypatch) -> None:
     """The fallback for guides and horns no full-wave case covers leans high all around.
 
-    A flanged guide or horn, or one too large for the wall grid, is modelled by its
-    aperture and rim (antennas/walls.py WalledAperture) with a 7 dB back-region margin.
-    Held against the bare cases here (openEMS v0.0.35; the wall-grid models forced off):
-    never more than 1 dB under the full-wave field anywhere (0.86 dB at worst when
-    written, guide-wr430 H 60 deg 0.1 m), and in front never more than 2.5 dB over it.
+    A guide or horn too large for the wall grid is modelled by its aperture and rim
+    (antennas/walls.py WalledAperture) with a 7 dB back-region margin.  Held against the
+    bare cases here (openEMS v0.0.35; the wall-grid models forced off): never more than
+    1 dB under the full-wave field anywhere (0.86 dB at worst when written, guide-wr430
+    H 60 deg 0.1 m), and in front never more than 2.5 dB over it.
     """
     from keepclear.antennas import guide_grid
-    from keepclear.antennas.walls import WalledAperture
+    from keepclear.antennas.walls import BACK_MARGIN_DB, WalledAperture
     from keepclear.fields.plausibility import PlausibilityWarning
 
     monkeypatch.setattr(guide_grid, "MAX_SEGMENTS", 0)
@@ -214,10 +236,53 @@ def test_rim_model_with_its_back_margin_is_never_far_under_openems(name: str, mo
         path.write_text(case.scenario_text(), encoding="utf-8")
         with pytest.warns(PlausibilityWarning, match="7 dB margin"):
             scenario = load_scenario(path)
-    assert isinstance(scenario.sources[0].radiator, WalledAperture)
+    radiator = scenario.sources[0].radiator
+    assert isinstance(radiator, WalledAperture)
+    assert radiator.back_margin_db == BACK_MARGIN_DB == 7.0
     density = evaluate(scenario, case.positions_m).power_density_w_m2
     err = 10 * np.log10(density / case.power_density_w_m2)
     bad = ~(err >= -1.0) | (case.front() & ~(err <= 2.5))
+    assert not bad.any(), _table(case, err, bad)
+
+
+_FLANGED_CASES = [n for n in CASES if n.startswith("flanged-")]
+
+
+@pytest.mark.parametrize("name", _FLANGED_CASES)
+def test_flanged_rim_model_margins_cover_its_deficits(name: str) -> None:
+    """A flanged guide's rim model, with its margins, against the flanged openEMS case.
+
+    A guide or horn with ``flange_m`` is modelled by its aperture and the flange's edge
+    currents (antennas/walls.py WalledAperture), with FLANGE_BACK_MARGIN_DB = 8 dB beside
+    and behind and FLANGE_GAIN_UNCERTAINTY_DB = 2.6 dB as its keep-out margin, both
+    derived from flanged-wr340 (openEMS v0.0.35: -7.61 dB behind without the margin at
+    H 135 deg 0.4 m; -2.53 dB at E 60 deg 0.2 m with it).  Checks: from 90 deg off
+    boresight on (where the back-region margin is whole) the model is never under full
+    wave; nowhere is it further under full wave than its keep-out margin.
+    """
+    from keepclear.antennas.walls import (
+        BACK_FULL_DEG,
+        FLANGE_BACK_MARGIN_DB,
+        FLANGE_GAIN_UNCERTAINTY_DB,
+        WalledAperture,
+    )
+    from keepclear.fields.plausibility import PlausibilityWarning
+
+    case = vd.load(name)
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / f"{case.name}.toml"
+        path.write_text(case.scenario_text(), encoding="utf-8")
+        with pytest.warns(PlausibilityWarning, match="8 dB margin"):
+            scenario = load_scenario(path)
+    radiator = scenario.sources[0].radiator
+    assert isinstance(radiator, WalledAperture) and radiator.flange_m is not None
+    assert radiator.back_margin_db == FLANGE_BACK_MARGIN_DB == 8.0
+    assert radiator.gain_uncertainty_db == FLANGE_GAIN_UNCERTAINTY_DB == 2.6
+    density = evaluate(scenario, case.positions_m).power_density_w_m2
+    err = 10 * np.log10(density / case.power_density_w_m2)
+    behind = case.angles_deg() >= BACK_FULL_DEG
+    assert behind.sum() >= 10
+    bad = ~(err >= -radiator.gain_uncertainty_db) | (behind & ~(err >= 0.0))
     assert not bad.any(), _table(case, err, bad)
 
 

@@ -40,7 +40,7 @@ def test_an_unflanged_guide_is_solved_with_its_walls(write_scenario):
 
 
 def test_a_flanged_guide_keeps_the_rim_model_and_says_so(write_scenario):
-    with pytest.warns(PlausibilityWarning, match="7 dB margin"):
+    with pytest.warns(PlausibilityWarning, match="8 dB margin"):
         radiator = _guide(write_scenario, "flange_m = [0.3, 0.3]")
     assert isinstance(radiator, WalledAperture)
 
@@ -143,7 +143,7 @@ def test_the_demo_horn_is_solved_with_its_walls_and_radiates_power_w(write_scena
 
 
 def test_a_flanged_horn_keeps_the_rim_model_and_says_so(write_scenario):
-    with pytest.warns(PlausibilityWarning, match="7 dB margin"):
+    with pytest.warns(PlausibilityWarning, match="8 dB margin"):
         radiator = load_scenario(write_scenario(HORN.format(extra="flange_m = [0.4, 0.3]")))
     assert isinstance(radiator.sources[0].radiator, WalledAperture)
 

@@ -105,7 +105,13 @@ def guide_case(name: str, size: str, flange: tuple[float, float] | None = None) 
         "description": (
             f"Open-ended {size} guide ({a * 1e3:.2f} x {b * 1e3:.2f} mm inner), "
             f"{WALL_M * 1e3:.0f} mm perfectly conducting walls, "
-            + (f"flange {flange[0]} x {flange[1]} m, " if flange else "no flange, ")
+            + (
+                f"flange {flange[0]} m (along the broad wall, y) x {flange[1]} m (along the "
+                f"E field, z), a {WALL_M * 1e3:.0f} mm perfectly conducting plate whose front "
+                "face is the aperture plane, "
+                if flange
+                else "no flange, "
+            )
             + f"{length:.2f} m long ({length / lam_g:.2f} guide wavelengths) and closed by a "
             "short at the back; TE10 fed by a current sheet a quarter guide wavelength in "
             "front of the short."
@@ -218,6 +224,7 @@ CASES = {
     "box-probe": lambda: probe_case("box-probe", "box", (0.20, 0.09), 0.15),
     "plate-probe": lambda: probe_case("plate-probe", "plate", (0.25, 0.25)),
     "guide-wr430": lambda: guide_case("guide-wr430", "WR-430"),
+    "flanged-wr340": lambda: guide_case("flanged-wr340", "WR-340", flange=(0.25, 0.20)),
     "box-probe-offset": lambda: probe_case(
         "box-probe-offset", "box", (0.20, 0.09), 0.15, offset=(0.05, 0.0)
     ),
@@ -270,6 +277,14 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     x, y, z = p
     if case["kind"] == "guide":
         a, b, L = case["a"], case["b"], case["length"]
+        if case["flange"]:
+            fw, fh = case["flange"]  # the plate: x from -WALL_M to 0, |y| <= fw/2, |z| <= fh/2
+            if (
+                -WALL_M - margin <= x <= margin
+                and abs(y) <= fw / 2 + margin
+                and abs(z) <= fh / 2 + margin
+            ):
+                return True
         return (
             -L - WALL_M - margin <= x <= margin
             and abs(y) <= a / 2 + WALL_M + margin
@@ -630,6 +645,7 @@ def run_logged(FDTD, sim_path: str) -> str:  # noqa: ANN001
     logname = sim_path + ".log"
     sys.stdout.flush()
     saved = os.dup(1)
+    cwd = os.getcwd()
     with open(logname, "w") as fh:
         os.dup2(fh.fileno(), 1)
         try:
@@ -638,6 +654,9 @@ def run_logged(FDTD, sim_path: str) -> str:  # noqa: ANN001
             sys.stdout.flush()
             os.dup2(saved, 1)
             os.close(saved)
+            # Run leaves the process in sim_path, which is removed after the run: a
+            # second run (the other mesh) would then fail on the missing working folder
+            os.chdir(cwd)
     return Path(logname).read_text(errors="replace")
 
 
