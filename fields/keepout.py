@@ -299,13 +299,16 @@ class _Search:
         The samples are evaluated from the outside in, :data:`RADIAL_BLOCK` radii a pass,
         and a ray is dropped once every row has found its outermost exceedance on it: the
         samples inside it cannot change the answer, and they are the costly ones (close to
-        the sources).  The result is the one a full evaluation of every sample gives.
+        the sources).  The result is the one a full evaluation of every sample gives,
+        except that a (row, ray) pair which :meth:`_outranked` shows cannot be among the
+        row's farthest rays of this batch is given up (-1, as if never reached).
         """
         n_rows, n_dirs, n_radii = len(self.rows), len(directions), len(radii)
         last = np.full((n_rows, n_dirs), -1, dtype=np.intp)
         closed = np.zeros((n_rows, n_dirs), dtype=bool)
         boxed_below = self._boxed_prefix(origins, directions, radii)
         outside_rows = np.array([row.outside_only for row in self.rows], dtype=bool)
+        offsets = np.linalg.norm(origins - self.centre, axis=1)
         open_rays = np.arange(n_dirs)
         stop = n_radii
         while stop > 0 and open_rays.size:
@@ -326,9 +329,50 @@ class _Search:
             # on the samples still below when all of them lie in the box or its walls
             shut |= outside_rows[:, None] & (start <= boxed_below[open_rays])[None, :]
             closed[:, open_rays] = shut
+            if start > 0:
+                closed |= self._outranked(last, closed, offsets, radii, start) & ~outside_rows[
+                    :, None
+                ]
+                shut = closed[:, open_rays]
             open_rays = open_rays[~shut.all(axis=0)]
             stop = start
         return last
+
+    @staticmethod
+    def _outranked(
+        last: NDArray[np.intp],
+        closed: NDArray[np.bool_],
+        offsets: NDArray[np.float64],
+        radii: NDArray[np.float64],
+        start: int,
+    ) -> NDArray[np.bool_]:
+        """Open (row, ray) pairs that cannot be among the row's farthest rays of the batch.
+
+        Of a batch of rays only the farthest ends of each row are used: the row's keep-out
+        is the largest of them, its direction the first within :data:`TIE_TOLERANCE` of
+        it, and the refinement starts from the three farthest (:func:`_tied_first`).  A
+        ray whose outermost exceedance has been found at sample ``i`` ends, once bisected,
+        at least ``radii[i] - |origin - centre|`` from the centre; a ray still open below
+        sample ``start`` ends at most ``|origin - centre| + radii[start]`` from it (its
+        bracket lies inside ``radii[start]``).  Where that upper bound is below the third
+        largest lower bound and below the largest lower bound less the tie tolerance, at
+        least three rays end strictly farther, none of them tied with it: the ray is
+        neither the farthest nor a refinement start, whatever its samples inside, and it
+        is not sampled further (the cheapest saving: those samples are near the sources).
+        Its ends would only be listed among the ray ends, which count for the farthest
+        point alone; rows limited to the outside of an enclosure (whose clearance uses
+        every end) are never given up.
+        """
+        safety = 1e-9  # rounding of the distances computed later from the bisected radii
+        found = last >= 0
+        lower = np.where(found, radii[np.maximum(last, 0)] - offsets[None, :], -np.inf)
+        if lower.shape[1] < 3:
+            return np.zeros_like(closed)
+        third = -np.partition(-lower, 2, axis=1)[:, 2]
+        top = lower.max(axis=1)
+        threshold = np.minimum(third, top * (1.0 - TIE_TOLERANCE)) * (1.0 - safety)
+        upper = (offsets + radii[start]) * (1.0 + safety)
+        return ~closed & (upper[None, :] < threshold[:, None]) & (threshold[:, None] > 0)
 
     def _boxed_prefix(
         self, origins: NDArray[np.float64], directions: NDArray[np.float64], radii: NDArray
