@@ -330,9 +330,9 @@ class _Search:
             shut |= outside_rows[:, None] & (start <= boxed_below[open_rays])[None, :]
             closed[:, open_rays] = shut
             if start > 0:
-                closed |= self._outranked(last, closed, offsets, radii, start) & ~outside_rows[
-                    :, None
-                ]
+                closed |= (
+                    self._outranked(last, closed, offsets, radii, start) & ~outside_rows[:, None]
+                )
                 shut = closed[:, open_rays]
             open_rays = open_rays[~shut.all(axis=0)]
             stop = start

@@ -339,6 +339,36 @@ class Decomposition:
         )
 
 
+def _concatenate(parts: Sequence[Decomposition]) -> Decomposition:
+    """One decomposition of the points of several, in their order (each point's parts kept)."""
+    first = parts[0]
+    terms = [
+        TermParts(
+            p.pairs,
+            np.concatenate([d.terms[t].e_gram for d in parts], axis=1),
+            np.concatenate([d.terms[t].h_gram for d in parts], axis=1),
+            None
+            if p.log_shield is None
+            else np.concatenate([d.terms[t].log_shield for d in parts], axis=2),  # type: ignore[misc]
+        )
+        for t, p in enumerate(first.terms)
+    ]
+    cavity = None
+    if first.cavity is not None:
+        cavity = tuple(
+            np.concatenate([d.cavity[c] for d in parts], axis=0)  # type: ignore[index]
+            for c in range(len(first.cavity))
+        )
+    return Decomposition(
+        np.vstack([d.points_m for d in parts]),
+        terms,
+        first.average_weight,
+        first.peak_weight,
+        cavity,
+        np.concatenate([d.dominant for d in parts]),
+    )
+
+
 def _gram(
     fields: list[NDArray[np.complex128]], mode: str
 ) -> tuple[list[tuple[int, int]], NDArray[np.float64]]:
@@ -540,20 +570,90 @@ def sample_quotients(
         pk = uses_peak(v)
         if pk not in cache:
             cache[pk] = sample_squares(dec, draws, rows, peak=pk)
-        e2, h2 = cache[pk]
-        if v.kind == "device" and v.power_density_derived and v.e_v_m is not None:
-            # a device threshold given as an E field compares E alone (limits.quotient)
-            out.append(e2 * (1.0 / v.e_v_m**2))
-            continue
-        q = np.maximum(
-            e2 * (1.0 / (ETA0_OHM * v.power_density_w_m2)), h2 * (ETA0_OHM / v.power_density_w_m2)
-        )
-        if v.e_v_m is not None:
-            q = np.maximum(q, e2 * (1.0 / v.e_v_m**2))
-        if v.h_a_m is not None:
-            q = np.maximum(q, h2 * (1.0 / v.h_a_m**2))
-        out.append(q)
+        out.append(_quotient(v, *cache[pk]))
     return out
+
+
+def _quotient(
+    v: limits_mod.LimitValue, e2: NDArray[np.float64], h2: NDArray[np.float64]
+) -> NDArray[np.float64]:
+    """The exposure quotient of one limit from |E|^2 and |H|^2 (see :func:`sample_quotients`).
+
+    Non-decreasing in both |E|^2 and |H|^2.
+    """
+    if v.kind == "device" and v.power_density_derived and v.e_v_m is not None:
+        # a device threshold given as an E field compares E alone (limits.quotient)
+        return e2 * (1.0 / v.e_v_m**2)
+    q = np.maximum(
+        e2 * (1.0 / (ETA0_OHM * v.power_density_w_m2)), h2 * (ETA0_OHM / v.power_density_w_m2)
+    )
+    if v.e_v_m is not None:
+        q = np.maximum(q, e2 * (1.0 / v.e_v_m**2))
+    if v.h_a_m is not None:
+        q = np.maximum(q, h2 * (1.0 / v.h_a_m**2))
+    return q
+
+
+#: Relative widening of the quotient bounds of :func:`bound_quotients` (rounding of sums).
+_BOUND_SAFETY = 1e-9
+
+
+def bound_quotients(
+    dec: Decomposition, draws: Draws, values: Sequence[limits_mod.LimitValue]
+) -> tuple[list[NDArray[np.float64]], list[NDArray[np.float64]]] | None:
+    """Pointwise bounds, over the samples and the nominal field, of each limit's quotient.
+
+    Every sample's |E|^2 (and |H|^2) is a sum over the terms and their component pairs of
+    ``weight * factor * amp_a * amp_b * gram`` (and the cavity's ``factor * c2``).  Where
+    every Gram entry is >= 0 (envelope mode or no reflector: the caller checks) and no
+    shield credit is spread, taking each coefficient's smallest (largest) value over the
+    samples and the nominal field (every factor one) gives a lower (upper) bound of
+    every sample's and of the nominal |E|^2 and |H|^2 at every point, and the quotient
+    is non-decreasing in both.  The bounds are widened by :data:`_BOUND_SAFETY` for the
+    rounding of the sums.  None where the bounds do not hold (a shield-credit spread).
+
+    Returns
+    -------
+    (lower, upper) : lists of ndarray, shape (N,) each
+        Per limit, in the order of ``values``.
+    """
+    if np.any(draws.shield_exponent != 1.0):
+        return None
+    amp = np.concatenate([np.ones((draws.samples, 1)), draws.image], axis=1)
+    lower: list[NDArray[np.float64]] = []
+    upper: list[NDArray[np.float64]] = []
+    cache: dict[bool, tuple[NDArray, NDArray, NDArray, NDArray]] = {}
+    n = dec.points_m.shape[0]
+    for v in values:
+        pk = uses_peak(v)
+        if pk not in cache:
+            weights = dec.peak_weight if pk else dec.average_weight
+            factors = draws.term_peak if pk else draws.term_average
+            e_lo, h_lo, e_hi, h_hi = (np.zeros(n) for _ in range(4))
+            for t, part in enumerate(dec.terms):
+                for p, (a, b) in enumerate(part.pairs):
+                    coef = factors[:, t] * amp[:, a] * amp[:, b]
+                    c_lo = weights[t] * min(1.0, float(coef.min(initial=1.0)))
+                    c_hi = weights[t] * max(1.0, float(coef.max(initial=1.0)))
+                    e_lo += c_lo * part.e_gram[p]
+                    h_lo += c_lo * part.h_gram[p]
+                    e_hi += c_hi * part.e_gram[p]
+                    h_hi += c_hi * part.h_gram[p]
+            if dec.cavity is not None:
+                mask, c2_avg, c2_peak, d_e_avg, d_h_avg, d_e_peak, d_h_peak = dec.cavity
+                idx = np.flatnonzero(mask)
+                f = draws.cavity_peak if pk else draws.cavity_average
+                f_lo = min(1.0, float(f.min(initial=1.0)))
+                f_hi = max(1.0, float(f.max(initial=1.0)))
+                c2, d_e, d_h = (c2_peak, d_e_peak, d_h_peak) if pk else (c2_avg, d_e_avg, d_h_avg)
+                for e2, h2, f_k in ((e_lo, h_lo, f_lo), (e_hi, h_hi, f_hi)):
+                    e2[idx] += f_k * (c2 + d_e)
+                    h2[idx] += f_k * (c2 / ETA0_OHM**2 + d_h)
+            cache[pk] = (e_lo, h_lo, e_hi, h_hi)
+        e_lo, h_lo, e_hi, h_hi = cache[pk]
+        lower.append(_quotient(v, e_lo, h_lo) * (1.0 - _BOUND_SAFETY))
+        upper.append(_quotient(v, e_hi, h_hi) * (1.0 + _BOUND_SAFETY))
+    return lower, upper
 
 
 # ---------------------------------------------------------------- keep-out samples
@@ -708,6 +808,133 @@ def _outermost_above(q: NDArray[np.float64]) -> NDArray[np.intp]:
     return np.where(above.any(axis=1), last, -1)
 
 
+@dataclass
+class _Swept:
+    """The nominal quotients and decomposed points of the spread's rays (see :func:`_sweep`).
+
+    ``dec`` holds the decomposed points; ``row[ray * n_r + i]`` is the position of the
+    ray's sample ``i`` in it (-1 where not decomposed); ``q0`` the nominal quotient of each
+    limit, (limits, rays, n_r), zero where not decomposed; ``lo`` and ``hi`` (limits,
+    rays) the outermost sample where the lower and the upper bound of the quotient reach
+    one (-1 where none), or None without bounds; ``dropped`` the (limit, ray) pairs that
+    cannot hold the farthest crossing of any sample.
+    """
+
+    dec: Decomposition
+    row: NDArray[np.intp]
+    q0: NDArray[np.float64]
+    lo: NDArray[np.intp] | None
+    hi: NDArray[np.intp] | None
+    dropped: NDArray[np.bool_]
+
+
+def _sweep(
+    scenario: Scenario,
+    origins: NDArray[np.float64],
+    directions: NDArray[np.float64],
+    radii: NDArray[np.float64],
+    values: Sequence[limits_mod.LimitValue],
+    draws: Draws,
+    coherent: bool,
+    bounded: bool = True,
+) -> _Swept:
+    """Decompose the rays' samples from the outside in, only as far in as the spread needs.
+
+    Where the quotient has pointwise bounds over the samples and the nominal field
+    (:func:`bound_quotients`: no coherent reflections, no shield-credit spread), on each
+    ray (index ``i`` along it):
+
+    * every sample's outermost exceedance, and the nominal one, lies between ``lo``, the
+      outermost ``i`` where the lower bound reaches one, and ``hi``, the outermost where
+      the upper bound does; its crossing lies between ``radii[lo]`` and ``radii[hi + 1]``.
+      Only the samples from ``lo`` outwards are read, so the samples inside ``lo`` are
+      never decomposed: the rays are decomposed :data:`keepout.RADIAL_BLOCK` radii a pass
+      from the outside in, and a ray is left once ``lo`` is found for every limit (the
+      samples inside are the costly ones, next to the sources).
+    * a sample's crossing on the ray ends at most ``|origin - centre| + radii[hi + 1] +
+      s`` from the centre (``s`` the largest position shift of any sample; while ``hi``
+      is not found, ``radii[start]``, the innermost radius decomposed, stands for
+      ``radii[hi + 1]``), and on a ray where ``lo`` is found at least ``radii[lo] -
+      |origin - centre| - s``.  Every sample's keep-out is the largest end over the rays,
+      so a ray whose upper bound is below some ray's lower bound is never the farthest
+      for any sample, nor for the nominal field: it is left for that limit (``dropped``).
+      A ray whose ``hi`` is the grid's last sample (where the crossing is extrapolated
+      beyond the grid) is never dropped.
+
+    The decomposition of a point does not depend on the other points decomposed with
+    it, so the answers are those of decomposing every sample of every ray.  Without the
+    bounds (or with ``bounded`` false: the reference the tests compare with) every sample
+    is decomposed.
+    """
+    from .keepout import RADIAL_BLOCK
+
+    n_rays, n_r, n_lim = len(directions), radii.size, len(values)
+    pts = (origins[:, None, :] + directions[:, None, :] * radii[None, :, None]).reshape(-1, 3)
+    neutral = _neutral_like(draws)
+    no_drop = np.zeros((n_lim, n_rays), dtype=bool)
+    if not bounded or coherent or np.any(draws.shield_exponent != 1.0):
+        dec = decompose(scenario, pts)
+        q0 = np.array([q[0] for q in sample_quotients(dec, neutral, slice(0, 1), values)])
+        return _Swept(
+            dec, np.arange(n_rays * n_r), q0.reshape(n_lim, n_rays, n_r), None, None, no_drop
+        )
+    shift_m = float(np.max(np.linalg.norm(draws.shift_m, axis=2), initial=0.0))
+    q0 = np.zeros((n_lim, n_rays, n_r))
+    lo = np.full((n_lim, n_rays), -1, dtype=np.intp)
+    hi = np.full((n_lim, n_rays), -1, dtype=np.intp)
+    dropped = no_drop.copy()
+    offsets = np.linalg.norm(origins - scenario.centre_m, axis=1)
+    safety = 1e-9  # rounding of the distances computed from the crossings
+    parts: list[Decomposition] = []
+    flats: list[NDArray[np.intp]] = []
+    open_rays = np.arange(n_rays)
+    stop = n_r
+    while stop > 0 and open_rays.size:
+        start = max(0, stop - RADIAL_BLOCK)
+        width = stop - start
+        flat = (open_rays[:, None] * n_r + np.arange(start, stop)[None, :]).ravel()
+        dec = decompose(scenario, pts[flat])
+        parts.append(dec)
+        flats.append(flat)
+        shape = (n_lim, open_rays.size, width)
+        block = np.array([q[0] for q in sample_quotients(dec, neutral, slice(0, 1), values)])
+        q0[:, open_rays, start:stop] = block.reshape(shape)
+        bounds = bound_quotients(dec, draws, values)
+        assert bounds is not None
+        for outer, bound in ((lo, bounds[0]), (hi, bounds[1])):
+            above = np.array(bound).reshape(shape) >= 1.0
+            index = start + width - 1 - np.argmax(above[:, :, ::-1], axis=2)
+            current = outer[:, open_rays]
+            outer[:, open_rays] = np.where((current < 0) & above.any(axis=2), index, current)
+        found = lo >= 0
+        lower = np.where(found, radii[np.maximum(lo, 0)] - offsets[None, :] - shift_m, -np.inf)
+        reach = np.where(hi >= 0, radii[np.minimum(hi + 1, n_r - 1)], radii[start])
+        upper = np.where(hi == n_r - 1, np.inf, offsets[None, :] + reach + shift_m)
+        best = lower.max(axis=1, initial=-np.inf)
+        dropped |= ~found & (upper * (1 + safety) < (best * (1 - safety))[:, None])
+        done = found | dropped
+        open_rays = open_rays[~done[:, open_rays].all(axis=0)]
+        stop = start
+    flat_all = np.concatenate(flats)
+    row = np.full(n_rays * n_r, -1, dtype=np.intp)
+    row[flat_all] = np.arange(flat_all.size)
+    return _Swept(_concatenate(parts), row, q0, lo, hi, dropped)
+
+
+def _neutral_like(draws: Draws) -> Draws:
+    """A single sample of the same shapes with every factor neutral (the nominal field)."""
+    return Draws(
+        np.ones((1, draws.term_average.shape[1])),
+        np.ones((1, draws.term_peak.shape[1])),
+        np.ones(1),
+        np.ones(1),
+        np.ones((1, draws.image.shape[1])),
+        np.ones((1, draws.shield_exponent.shape[1])),
+        np.zeros((1, draws.shift_m.shape[1], 3)),
+        np.ones(1, dtype=bool),
+    )
+
+
 def keepout_spread(
     scenario: Scenario,
     spec: UncertaintySpec,
@@ -737,11 +964,13 @@ def keepout_spread(
     Notes
     -----
     Where every Gram entry is non-negative (envelope mode or no reflector) and no shield
-    credit is spread, each sample's density lies between ``b_min`` and ``b_max`` times
-    the nominal one at every point (the extreme factors of the draws).  Then on each ray
-    only the radii between the outermost one where ``b_min q0 >= 1`` and the outermost
-    one where ``b_max q0 >= 1`` can hold a sample's crossing, and only those are
-    re-weighted (the same answer as the whole ray, for far less work).
+    credit is spread, each sample's quotient lies, at every point, between the bounds of
+    :func:`bound_quotients` (each coefficient's smallest and largest value over the
+    samples).  Then on each ray only the radii between the outermost one where the lower
+    bound reaches one and the outermost one where the upper bound does can hold a
+    sample's crossing: only those are decomposed and re-weighted, and a ray that cannot
+    hold any sample's farthest crossing is left out (:func:`_sweep`).  The answer is
+    the one of re-weighting every sample of every ray, for far less work.
     """
     from .keepout import _radii
 
@@ -751,38 +980,26 @@ def keepout_spread(
     coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
     radii = _radii(_reach_m(scenario, values, draws), scenario.wavelength_m, coherent)
     n_rays, n_r = len(directions), radii.size
-    pts = (origins[:, None, :] + directions[:, None, :] * radii[None, :, None]).reshape(-1, 3)
-    dec = decompose(scenario, pts)
+    swept = _sweep(scenario, origins, directions, radii, values, draws, coherent)
+    dec = swept.dec
     centre = scenario.centre_m
     m = draws.samples
-    neutral = Draws(
-        np.ones((1, draws.term_average.shape[1])),
-        np.ones((1, draws.term_peak.shape[1])),
-        np.ones(1),
-        np.ones(1),
-        np.ones((1, draws.image.shape[1])),
-        np.ones((1, draws.shield_exponent.shape[1])),
-        np.zeros((1, draws.shift_m.shape[1], 3)),
-        np.ones(1, dtype=bool),
-    )
-    q_nominal = sample_quotients(dec, neutral, slice(0, 1), values)
-    bounds = None if coherent else _factor_bounds(draws)
     last_full = np.broadcast_to(np.arange(n_r) == n_r - 1, (n_rays, n_r))
     shifted = draws.shift_m.shape[1] > 0 and bool(np.any(draws.shift_m != 0.0))
     out = []
     for i, (res, v) in enumerate(zip(nominal, values, strict=True)):
-        q0 = q_nominal[i].reshape(1, n_rays, n_r)
+        q0 = swept.q0[i].reshape(1, n_rays, n_r)
         r0, hit0, _ = _crossings(q0, np.broadcast_to(radii, (n_rays, n_r)), last_full)
+        kept = ~swept.dropped[i]
         ends0 = origins + directions * r0[0][:, None]
-        g0 = float(np.where(hit0[0], np.linalg.norm(ends0 - centre, axis=1), 0.0).max())
-        if bounds is None:
+        g0 = float(np.where(hit0[0] & kept, np.linalg.norm(ends0 - centre, axis=1), 0.0).max())
+        if swept.lo is None or swept.hi is None:
             lo = np.zeros(n_rays, dtype=np.intp)
             width = np.full(n_rays, n_r, dtype=np.intp)
             rays = np.arange(n_rays)
         else:
-            hi = _outermost_above(q0[0] * bounds[1])
-            lo = np.maximum(_outermost_above(q0[0] * bounds[0]), 0)
-            rays = np.flatnonzero(hi >= 0)
+            hi, lo = swept.hi[i], np.maximum(swept.lo[i], 0)
+            rays = np.flatnonzero((hi >= 0) & kept)
             width = np.minimum(hi - lo + 2, n_r - lo)
         grid = np.zeros(m)
         # rays in groups of similar window width, each as one array
@@ -798,7 +1015,9 @@ def keepout_spread(
         for g in groups:
             w = int(width[g].max())
             idx = np.minimum(lo[g][:, None] + np.arange(w)[None, :], n_r - 1)
-            sub = dec.subset((g[:, None] * n_r + idx).ravel())
+            at = swept.row[(g[:, None] * n_r + idx).ravel()]
+            assert np.all(at >= 0), "a window reaches a sample that was not decomposed"
+            sub = dec.subset(at)
             r_g, last_g = radii[idx], idx == n_r - 1
             dominant = sub.dominant.reshape(len(g), w)
             block = max(1, min(m, 2_000_000 // max(1, len(g) * w)))
