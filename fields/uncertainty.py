@@ -599,7 +599,11 @@ _BOUND_SAFETY = 1e-9
 
 
 def bound_quotients(
-    dec: Decomposition, draws: Draws, values: Sequence[limits_mod.LimitValue]
+    dec: Decomposition,
+    draws: Draws,
+    values: Sequence[limits_mod.LimitValue],
+    rows: NDArray[np.intp] | slice = slice(None),
+    with_nominal: bool = True,
 ) -> tuple[list[NDArray[np.float64]], list[NDArray[np.float64]]] | None:
     """Pointwise bounds, over the samples and the nominal field, of each limit's quotient.
 
@@ -611,6 +615,8 @@ def bound_quotients(
     every sample's and of the nominal |E|^2 and |H|^2 at every point, and the quotient
     is non-decreasing in both.  The bounds are widened by :data:`_BOUND_SAFETY` for the
     rounding of the sums.  None where the bounds do not hold (a shield-credit spread).
+    ``rows`` restricts the samples bounded; without ``with_nominal`` the nominal field is
+    left out of the bounds.
 
     Returns
     -------
@@ -619,7 +625,9 @@ def bound_quotients(
     """
     if np.any(draws.shield_exponent != 1.0):
         return None
-    amp = np.concatenate([np.ones((draws.samples, 1)), draws.image], axis=1)
+    image = draws.image[rows]
+    amp = np.concatenate([np.ones((image.shape[0], 1)), image], axis=1)
+    one = 1.0 if with_nominal else np.nan  # np.fmin/np.fmax ignore NaN
     lower: list[NDArray[np.float64]] = []
     upper: list[NDArray[np.float64]] = []
     cache: dict[bool, tuple[NDArray, NDArray, NDArray, NDArray]] = {}
@@ -628,13 +636,13 @@ def bound_quotients(
         pk = uses_peak(v)
         if pk not in cache:
             weights = dec.peak_weight if pk else dec.average_weight
-            factors = draws.term_peak if pk else draws.term_average
+            factors = (draws.term_peak if pk else draws.term_average)[rows]
             e_lo, h_lo, e_hi, h_hi = (np.zeros(n) for _ in range(4))
             for t, part in enumerate(dec.terms):
                 for p, (a, b) in enumerate(part.pairs):
                     coef = factors[:, t] * amp[:, a] * amp[:, b]
-                    c_lo = weights[t] * min(1.0, float(coef.min(initial=1.0)))
-                    c_hi = weights[t] * max(1.0, float(coef.max(initial=1.0)))
+                    c_lo = weights[t] * float(np.fmin(one, coef.min()))
+                    c_hi = weights[t] * float(np.fmax(one, coef.max()))
                     e_lo += c_lo * part.e_gram[p]
                     h_lo += c_lo * part.h_gram[p]
                     e_hi += c_hi * part.e_gram[p]
@@ -642,9 +650,9 @@ def bound_quotients(
             if dec.cavity is not None:
                 mask, c2_avg, c2_peak, d_e_avg, d_h_avg, d_e_peak, d_h_peak = dec.cavity
                 idx = np.flatnonzero(mask)
-                f = draws.cavity_peak if pk else draws.cavity_average
-                f_lo = min(1.0, float(f.min(initial=1.0)))
-                f_hi = max(1.0, float(f.max(initial=1.0)))
+                f = (draws.cavity_peak if pk else draws.cavity_average)[rows]
+                f_lo = float(np.fmin(one, f.min()))
+                f_hi = float(np.fmax(one, f.max()))
                 c2, d_e, d_h = (c2_peak, d_e_peak, d_h_peak) if pk else (c2_avg, d_e_avg, d_h_avg)
                 for e2, h2, f_k in ((e_lo, h_lo, f_lo), (e_hi, h_hi, f_hi)):
                     e2[idx] += f_k * (c2 + d_e)
@@ -935,6 +943,149 @@ def _neutral_like(draws: Draws) -> Draws:
     )
 
 
+#: Samples re-weighted together in the keep-out spread (each group has its own bounds).
+SAMPLE_GROUP = 64
+
+
+def _sample_blocks(draws: Draws, peak: bool) -> list[NDArray[np.intp]]:
+    """The samples in groups of :data:`SAMPLE_GROUP`, sorted by their overall term factor.
+
+    Samples of similar factors have tight bounds together (narrow bands along the rays);
+    the grouping changes the work, not the answers.
+    """
+    factors = draws.term_peak if peak else draws.term_average
+    key = factors.sum(axis=1) if factors.shape[1] else np.zeros(draws.samples)
+    order = np.argsort(key, kind="stable")
+    return [order[b : b + SAMPLE_GROUP] for b in range(0, draws.samples, SAMPLE_GROUP)]
+
+
+def _band_points(
+    rays: NDArray[np.intp], lo: NDArray[np.intp], width: NDArray[np.intp], n_r: int
+) -> NDArray[np.intp]:
+    """Flat indices (ray * n_r + i) of the samples ``lo .. lo + width - 1`` of each ray."""
+    if rays.size == 0:
+        return np.zeros(0, dtype=np.intp)
+    counts = width[rays]
+    starts = np.repeat(rays * n_r + lo[rays], counts)
+    steps = np.arange(counts.sum()) - np.repeat(np.cumsum(counts) - counts, counts)
+    return starts + steps
+
+
+def _farthest_in_block(
+    swept: _Swept,
+    sub: Decomposition,
+    band: NDArray[np.intp],
+    draws: Draws,
+    v: limits_mod.LimitValue,
+    block: NDArray[np.intp],
+    rays: NDArray[np.intp],
+    lo: NDArray[np.intp],
+    hi: NDArray[np.intp],
+    offsets: NDArray[np.float64],
+    origins: NDArray[np.float64],
+    directions: NDArray[np.float64],
+    radii: NDArray[np.float64],
+    centre: NDArray[np.float64],
+) -> NDArray[np.float64]:
+    """Keep-out of each sample of a group: :func:`_farthest` on the group's own bands.
+
+    The group's bounds (:func:`bound_quotients` over its samples alone) narrow each ray's
+    band to ``lo_b .. hi_b + 1`` (within the band of all samples: both bounds hold for
+    every sample of the group), and a ray whose farthest possible end for the group,
+    ``|origin - centre| + radii[hi_b + 1] + s_b``, is below some ray's nearest,
+    ``radii[lo_b] - |origin - centre| - s_b`` (``s_b`` the group's largest position
+    shift), is not the farthest for any of its samples and is left (see :func:`_sweep`
+    for the same argument over all samples).  The answers are those of :func:`_farthest`
+    on the bands of all samples.
+    """
+    n_rays, n_r = len(directions), radii.size
+    bounds = bound_quotients(sub, draws, [v], rows=block, with_nominal=False)
+    assert bounds is not None
+    lo_b, hi_b = lo.copy(), hi.copy()
+    if rays.size:
+        for out, bound, pick in (
+            (lo_b, bounds[0][0], np.maximum),
+            (hi_b, bounds[1][0], np.minimum),
+        ):
+            full = np.zeros(n_rays * n_r)
+            full[band] = bound
+            index = _outermost_above(full.reshape(n_rays, n_r)[rays])
+            out[rays] = np.where(index >= 0, pick(index, out[rays]), out[rays])
+    lo_b[rays] = np.minimum(lo_b[rays], hi_b[rays])  # (only ever widens a band)
+    kept = rays[hi_b[rays] >= 0]
+    shift = float(np.max(np.linalg.norm(draws.shift_m[block], axis=2), initial=0.0))
+    safety = 1e-9
+    nearest = radii[lo_b[kept]] - offsets[kept] - shift
+    farthest = np.where(
+        hi_b[kept] >= n_r - 1,
+        np.inf,
+        offsets[kept] + radii[np.minimum(hi_b[kept] + 1, n_r - 1)] + shift,
+    )
+    best = float(nearest.max(initial=-np.inf))
+    kept = kept[~(farthest * (1 + safety) < best * (1 - safety))]
+    width = np.minimum(hi_b - lo_b + 2, n_r - lo_b)
+    return _farthest(swept, draws, v, block, kept, lo_b, width, origins, directions, radii, centre)
+
+
+def _farthest(
+    swept: _Swept,
+    draws: Draws,
+    v: limits_mod.LimitValue,
+    samples: NDArray[np.intp],
+    rays: NDArray[np.intp],
+    lo: NDArray[np.intp],
+    width: NDArray[np.intp],
+    origins: NDArray[np.float64],
+    directions: NDArray[np.float64],
+    radii: NDArray[np.float64],
+    centre: NDArray[np.float64],
+) -> NDArray[np.float64]:
+    """Each sample's farthest crossing over the rays, each read on ``lo .. lo + width - 1``.
+
+    Zero for a sample that reaches the limit on none of them.  Rays are taken in groups
+    of similar window width, each group as one array (a wider window than a ray needs
+    holds no further exceedance: the answer does not depend on the grouping).
+    """
+    n_r = radii.size
+    m = samples.size
+    shifted = draws.shift_m.shape[1] > 0 and bool(np.any(draws.shift_m != 0.0))
+    grid = np.zeros(m)
+    order = rays[np.argsort(width[rays], kind="stable")]
+    groups: list[NDArray[np.intp]] = []
+    start = 0
+    while start < order.size:
+        w0 = width[order[start]]
+        stop = int(np.searchsorted(width[order], 2 * w0, side="left"))
+        stop = max(stop, start + 1)
+        groups.append(order[start:stop])
+        start = stop
+    for g in groups:
+        w = int(width[g].max())
+        idx = np.minimum(lo[g][:, None] + np.arange(w)[None, :], n_r - 1)
+        at = swept.row[(g[:, None] * n_r + idx).ravel()]
+        assert np.all(at >= 0), "a window reaches a sample that was not decomposed"
+        sub = swept.dec.subset(at)
+        r_g, last_g = radii[idx], idx == n_r - 1
+        dominant = sub.dominant.reshape(len(g), w)
+        step = max(1, min(m, 2_000_000 // max(1, len(g) * w)))
+        for b0 in range(0, m, step):
+            part = slice(b0, min(m, b0 + step))
+            rows = samples[part]
+            q = sample_quotients(sub, draws, rows, [v])[0].reshape(-1, len(g), w)  # type: ignore[arg-type]
+            r, hit, k = _crossings(q, r_g, last_g)
+            ends = origins[g][None] + directions[g][None] * r[..., None]
+            if shifted:
+                dom = np.take_along_axis(
+                    np.broadcast_to(dominant, k.shape[:1] + dominant.shape),
+                    k[..., None],
+                    axis=2,
+                )[..., 0]
+                ends = ends + np.take_along_axis(draws.shift_m[rows], dom[..., None], axis=1)
+            dist = np.where(hit, np.linalg.norm(ends - centre, axis=2), 0.0)
+            grid[part] = np.maximum(grid[part], dist.max(axis=1))
+    return grid
+
+
 def keepout_spread(
     scenario: Scenario,
     spec: UncertaintySpec,
@@ -985,7 +1136,6 @@ def keepout_spread(
     centre = scenario.centre_m
     m = draws.samples
     last_full = np.broadcast_to(np.arange(n_r) == n_r - 1, (n_rays, n_r))
-    shifted = draws.shift_m.shape[1] > 0 and bool(np.any(draws.shift_m != 0.0))
     out = []
     for i, (res, v) in enumerate(zip(nominal, values, strict=True)):
         q0 = swept.q0[i].reshape(1, n_rays, n_r)
@@ -996,45 +1146,44 @@ def keepout_spread(
         if swept.lo is None or swept.hi is None:
             lo = np.zeros(n_rays, dtype=np.intp)
             width = np.full(n_rays, n_r, dtype=np.intp)
-            rays = np.arange(n_rays)
+            grid = _farthest(
+                swept,
+                draws,
+                v,
+                np.arange(m),
+                np.arange(n_rays),
+                lo,
+                width,
+                origins,
+                directions,
+                radii,
+                centre,
+            )
         else:
             hi, lo = swept.hi[i], np.maximum(swept.lo[i], 0)
             rays = np.flatnonzero((hi >= 0) & kept)
             width = np.minimum(hi - lo + 2, n_r - lo)
-        grid = np.zeros(m)
-        # rays in groups of similar window width, each as one array
-        order = rays[np.argsort(width[rays], kind="stable")]
-        groups: list[NDArray[np.intp]] = []
-        start = 0
-        while start < order.size:
-            w0 = width[order[start]]
-            stop = int(np.searchsorted(width[order], 2 * w0, side="left"))
-            stop = max(stop, start + 1)
-            groups.append(order[start:stop])
-            start = stop
-        for g in groups:
-            w = int(width[g].max())
-            idx = np.minimum(lo[g][:, None] + np.arange(w)[None, :], n_r - 1)
-            at = swept.row[(g[:, None] * n_r + idx).ravel()]
-            assert np.all(at >= 0), "a window reaches a sample that was not decomposed"
-            sub = dec.subset(at)
-            r_g, last_g = radii[idx], idx == n_r - 1
-            dominant = sub.dominant.reshape(len(g), w)
-            block = max(1, min(m, 2_000_000 // max(1, len(g) * w)))
-            for b0 in range(0, m, block):
-                rows = slice(b0, min(m, b0 + block))
-                q = sample_quotients(sub, draws, rows, [v])[0].reshape(-1, len(g), w)
-                r, hit, k = _crossings(q, r_g, last_g)
-                ends = origins[g][None] + directions[g][None] * r[..., None]
-                if shifted:
-                    dom = np.take_along_axis(
-                        np.broadcast_to(dominant, k.shape[:1] + dominant.shape),
-                        k[..., None],
-                        axis=2,
-                    )[..., 0]
-                    ends = ends + np.take_along_axis(draws.shift_m[rows], dom[..., None], axis=1)
-                dist = np.where(hit, np.linalg.norm(ends - centre, axis=2), 0.0)
-                grid[rows] = np.maximum(grid[rows], dist.max(axis=1))
+            grid = np.zeros(m)
+            band = _band_points(rays, lo, width, n_r)
+            sub = dec.subset(swept.row[band])
+            offsets = np.linalg.norm(origins - centre, axis=1)
+            for block in _sample_blocks(draws, uses_peak(v)):
+                grid[block] = _farthest_in_block(
+                    swept,
+                    sub,
+                    band,
+                    draws,
+                    v,
+                    block,
+                    rays,
+                    lo,
+                    hi,
+                    offsets,
+                    origins,
+                    directions,
+                    radii,
+                    centre,
+                )
         d0 = float(res.distance_m)  # type: ignore[attr-defined]
         samples = grid * (d0 / g0) if (g0 > 0 and d0 > 0) else grid
         samples = np.where(draws.neutral, d0, samples)
