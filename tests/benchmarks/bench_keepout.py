@@ -3,8 +3,11 @@
 Run with ``.venv/bin/python -m pytest tests/benchmarks --benchmark-only``.  The search is
 timed from a freshly loaded scenario (no quadrature rule or derived term cached); the
 assessment runs the installed ``keepclear`` in a process of its own (start-up, maps,
-plots and report included), with its peak resident memory.  Nothing is asserted about
-speed; the answers are checked to be positive and finite.
+plots and report included), with its peak resident memory.  ``test_bench_keepout_stages``
+splits the work of ``keepclear keepout`` on each scenario into the model build (loading
+the scenario: a wire grid's NEC-2 solve), the search and the uncertainty spread; the
+target of the search is under a second per bundled scenario, model build excluded.
+Nothing is asserted about speed; the answers are checked to be positive and finite.
 """
 
 from __future__ import annotations
@@ -18,6 +21,7 @@ from pathlib import Path
 import pytest
 from _common import DEMO_ASSESS, SCENARIOS, keepclear_executable, record, run_measured
 
+from keepclear.fields.assessment import uncertainty_data
 from keepclear.fields.keepout import keepout_distances
 from keepclear.fields.scenario import load_scenario
 
@@ -51,6 +55,41 @@ def test_bench_keepout(benchmark, path: Path):
         note="median of 3; wall: loading the scenario afresh and the search, cpu: the search alone",
     )
     assert all(math.isfinite(d) and d >= 0 for d in distances.values())
+
+
+def _stage(fn, *args):
+    """Result, wall time [s] and processor time [s] of one call."""
+    wall, cpu = time.perf_counter(), time.process_time()
+    out = fn(*args)
+    return out, time.perf_counter() - wall, time.process_time() - cpu
+
+
+@pytest.mark.parametrize("path", SCENARIO_FILES, ids=[p.stem for p in SCENARIO_FILES])
+def test_bench_keepout_stages(benchmark, path: Path):
+    benchmark.group = "keepout command per scenario: build, search, spread"
+    load_scenario(path)  # warm-up of the process-wide tables (limits, Gauss rules)
+    stages: dict[str, list[float]] = {}
+
+    def command():
+        scenario, *build = _stage(load_scenario, path)
+        results, *search = _stage(keepout_distances, scenario)
+        _, *spread = _stage(uncertainty_data, scenario, results)
+        for name, (wall, cpu) in (("build", build), ("search", search), ("spread", spread)):
+            stages.setdefault(f"{name}_s", []).append(wall)
+            stages.setdefault(f"{name}_cpu_s", []).append(cpu)
+        return results
+
+    results = benchmark.pedantic(command, rounds=3, iterations=1)
+    medians = {key: round(statistics.median(v), 3) for key, v in stages.items()}
+    record(
+        benchmark,
+        f"keepout stages {path.stem}",
+        seconds=benchmark.stats.stats.median,
+        **medians,
+        note="median of 3; build: loading the scenario (model solve), search: keep-out "
+        "distances, spread: the [uncertainty] Monte Carlo (0 without the table)",
+    )
+    assert all(math.isfinite(r.recommended_distance_m) for r in results)
 
 
 def test_bench_assess_demo(benchmark):

@@ -16,6 +16,9 @@ _COLUMNS = (
     ("speedup", "x direct"),
     ("worst_db", "worst dB"),
     ("peak_rss_mib", "peak MiB"),
+    ("build_s", "build s"),
+    ("search_s", "search s"),
+    ("spread_s", "spread s"),
 )
 
 
