@@ -29,7 +29,10 @@ values where the standard gives them.
    from the outside in, a few radii a pass, and a ray is left once every
    question asked of it has found its outermost exceedance: the samples inside
    cannot change the answer (it is the one a full evaluation gives), and they are
-   the costly ones, close to the sources.
+   the costly ones, close to the sources.  A ray that can no longer be among a
+   limit's three farthest of its batch (nor tied with the farthest) is left early too,
+   inwards and in the bisection: those three, the farthest and its direction are all
+   the search uses of a batch.
 3. Around the three farthest rays of every limit, three levels of denser rays follow
    (direction caps for rays from the centre, finer azimuths for rays along a plane),
    so a narrow beam is not missed between lattice directions.  Rays within twice the
@@ -261,7 +264,13 @@ class _Search:
 
         Zero where the ray never reaches the limit.  The grid is sampled outward, the
         outermost sample at or above the limit kept, and the interval beyond it bisected;
-        the outer end of the final bracket is returned.
+        the outer end of the final bracket is returned.  Rows whose samples or bracket
+        cannot bring a ray among the row's farthest of the batch (:func:`_rank_threshold`)
+        leave it early: such a ray is given as zero (its samples inside are not taken) or
+        with the outer end of a wider bracket, in both cases below the row's three
+        farthest rays and not tied with the farthest, so neither the keep-out, its
+        direction nor the refinement starts change.  Rows that count only the outside of
+        an enclosure are never left early (their clearance uses every ray's end).
         """
         wavelength = self.scenario.wavelength_m
         reach = self.r_max + float(np.max(np.linalg.norm(origins - self.centre, axis=1)))
@@ -278,14 +287,30 @@ class _Search:
         last = np.maximum(last, 0)
         lo = np.where(any_above, radii[last], 0.0)
         hi = np.where(any_above, radii[np.minimum(last + 1, len(radii) - 1)], 0.0)
+        offsets = np.linalg.norm(origins - self.centre, axis=1)
+        prunable = ~np.array([row.outside_only for row in self.rows], dtype=bool)[:, None]
+        settled = np.zeros_like(any_above)
         while True:
-            todo = any_above & (hi - lo > RADIUS_TOLERANCE * np.maximum(hi, 1e-3))
+            todo = any_above & ~settled & (hi - lo > RADIUS_TOLERANCE * np.maximum(hi, 1e-3))
+            # a bracket wholly below the row's third farthest (and the tie tolerance) is
+            # not narrowed further: see _outranked; its outer end stays below them
+            lower = np.where(any_above, lo - offsets[None, :], -np.inf)
+            threshold = _rank_threshold(lower)
+            settled |= (
+                todo & prunable & ((hi + offsets[None, :]) * (1.0 + _SAFETY) < threshold[:, None])
+            )
+            todo &= ~settled
             if not todo.any():
                 break
             ri, di = np.nonzero(todo)
             mid = 0.5 * (lo[ri, di] + hi[ri, di])
-            q_all = self.quotients(origins[di] + directions[di] * mid[:, None])
-            up = q_all[ri, np.arange(len(ri))] >= 1.0
+            # rows with the same bracket on a ray ask for the same point: evaluate it once
+            key = np.column_stack([di.astype(np.float64), mid])
+            unique, inverse = np.unique(key, axis=0, return_inverse=True)
+            inverse = inverse.reshape(-1)
+            cols = unique[:, 0].astype(np.intp)
+            q_all = self.quotients(origins[cols] + directions[cols] * unique[:, 1:2])
+            up = q_all[ri, inverse] >= 1.0
             lo[ri[up], di[up]] = mid[up]
             hi[ri[~up], di[~up]] = mid[~up]
         return np.where(any_above, hi, 0.0)
@@ -363,16 +388,11 @@ class _Search:
         point alone; rows limited to the outside of an enclosure (whose clearance uses
         every end) are never given up.
         """
-        safety = 1e-9  # rounding of the distances computed later from the bisected radii
         found = last >= 0
         lower = np.where(found, radii[np.maximum(last, 0)] - offsets[None, :], -np.inf)
-        if lower.shape[1] < 3:
-            return np.zeros_like(closed)
-        third = -np.partition(-lower, 2, axis=1)[:, 2]
-        top = lower.max(axis=1)
-        threshold = np.minimum(third, top * (1.0 - TIE_TOLERANCE)) * (1.0 - safety)
-        upper = (offsets + radii[start]) * (1.0 + safety)
-        return ~closed & (upper[None, :] < threshold[:, None]) & (threshold[:, None] > 0)
+        threshold = _rank_threshold(lower)
+        upper = (offsets + radii[start]) * (1.0 + _SAFETY)
+        return ~closed & (upper[None, :] < threshold[:, None])
 
     def _boxed_prefix(
         self, origins: NDArray[np.float64], directions: NDArray[np.float64], radii: NDArray
@@ -396,6 +416,27 @@ class _Search:
 #: Rays whose distances differ by less than this fraction of the farthest count as equally
 #: far (twice the bracket: each end is known to RADIUS_TOLERANCE).
 TIE_TOLERANCE = 2 * RADIUS_TOLERANCE
+#: Relative margin of the bounds that leave a ray out (rounding of the distances computed
+#: from the bisected radii).
+_SAFETY = 1e-9
+
+
+def _rank_threshold(lower: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Per row, a distance below which a ray is neither the farthest nor a refinement start.
+
+    ``lower`` (rows, rays) holds a lower bound of each ray's final distance from the
+    centre (-inf where unknown).  A ray known to end below the returned value, which is
+    the smaller of the third largest lower bound and the largest one less the tie
+    tolerance (narrowed by :data:`_SAFETY`), has three rays strictly farther and is not
+    tied with the farthest: :func:`_tied_first` does not pick it, and it is not the
+    farthest.  Zero (nothing is below it) with fewer than three known rays.
+    """
+    if lower.shape[1] < 3:
+        return np.zeros(lower.shape[0])
+    third = -np.partition(-lower, 2, axis=1)[:, 2]
+    top = lower.max(axis=1)
+    threshold = np.minimum(third, top * (1.0 - TIE_TOLERANCE)) * (1.0 - _SAFETY)
+    return np.where(np.isfinite(threshold) & (threshold > 0), threshold, 0.0)
 
 
 def _tied_first(dist: NDArray[np.float64], count: int) -> list[int]:

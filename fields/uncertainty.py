@@ -495,7 +495,7 @@ def decompose(scenario: Scenario, points_m: NDArray[np.float64]) -> Decompositio
 
 
 def sample_squares(
-    dec: Decomposition, draws: Draws, rows: slice, *, peak: bool = False
+    dec: Decomposition, draws: Draws, rows: slice | NDArray[np.intp], *, peak: bool = False
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """|E|^2 and |H|^2 for a block of samples at every point, (block, N) each.
 
@@ -503,7 +503,7 @@ def sample_squares(
     ----------
     dec : Decomposition
     draws : Draws
-    rows : slice
+    rows : slice or ndarray of int
         The samples of the block.
     peak : bool
         While radiating (every source on) instead of time-averaged.
@@ -555,7 +555,7 @@ def uses_peak(value: limits_mod.LimitValue) -> bool:
 def sample_quotients(
     dec: Decomposition,
     draws: Draws,
-    rows: slice,
+    rows: slice | NDArray[np.intp],
     values: Sequence[limits_mod.LimitValue],
 ) -> list[NDArray[np.float64]]:
     """Exposure quotient of each limit for a block of samples, (block, N) each.
@@ -1071,7 +1071,7 @@ def _farthest(
         for b0 in range(0, m, step):
             part = slice(b0, min(m, b0 + step))
             rows = samples[part]
-            q = sample_quotients(sub, draws, rows, [v])[0].reshape(-1, len(g), w)  # type: ignore[arg-type]
+            q = sample_quotients(sub, draws, rows, [v])[0].reshape(-1, len(g), w)
             r, hit, k = _crossings(q, r_g, last_g)
             ends = origins[g][None] + directions[g][None] * r[..., None]
             if shifted:

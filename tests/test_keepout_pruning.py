@@ -1,11 +1,11 @@
 """The keep-out search and its spread skip samples that cannot change their answers.
 
-The search stops sampling a ray inwards once it cannot be among the farthest rays
-(``keepout._Search._outranked``), and the spread decomposes only the band of radii where a
-sample's crossing can lie and leaves rays that cannot hold any sample's farthest crossing
-(``uncertainty._sweep``).  Both are claimed exact: these checks run the same scenarios
-with every sample evaluated and compare.  The reference is the program's own full
-evaluation (the claim is about the work skipped, not about the physics).
+The search stops sampling a ray inwards, or narrowing its bracket, once the ray cannot be
+among the farthest (``keepout._rank_threshold``); the spread decomposes only the band of
+radii where a sample's crossing can lie and leaves rays that cannot hold any sample's
+farthest crossing (``uncertainty._sweep``).  Both are claimed exact: these checks run the
+same scenarios with every sample evaluated and compare.  The reference is the program's
+own full evaluation (the claim is about the work skipped, not about the physics).
 """
 
 from __future__ import annotations
@@ -92,9 +92,8 @@ def test_search_gives_up_only_rays_that_cannot_change_the_answer(scenario, monke
     n_pruned = sum(evaluated)
     evaluated.clear()
     run = 1
-    monkeypatch.setattr(
-        keepout_mod._Search, "_outranked", staticmethod(lambda last, closed, *_: closed & False)
-    )
+    # no threshold: no ray is left early, inwards or in the bisection
+    monkeypatch.setattr(keepout_mod, "_rank_threshold", lambda lower: np.zeros(lower.shape[0]))
     full = keepout_distances(scenario)
     n_full = sum(evaluated)
     assert n_pruned < 0.9 * n_full  # the pruning does skip samples here
