@@ -85,6 +85,9 @@ SCREENING_GROUND_FIELD_REFLECTION = 0.6
 RADIUS_TOLERANCE = 1e-4
 #: Radial samples evaluated per pass of the outside-in sweep along the rays.
 RADIAL_BLOCK = 8
+#: Points whose quotients one search keeps for a second asking (rows x 8 bytes each).
+SEEN_POINTS = 2_000_000
+_POINT_KEY = np.dtype((np.void, 24))
 
 
 @dataclass(frozen=True)
@@ -201,6 +204,9 @@ class _Search:
         self.centre = scenario.centre_m
         self.terms = radiating_terms(scenario)
         self.coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
+        self._seen: dict[bytes, int] = {}
+        self._kept = np.empty((len(self.rows), 4096))
+        self._size = 0
         self.uncertainty_db = max(
             (float(t.radiator.gain_uncertainty_db) for t in self.terms),
             default=0.0,
@@ -244,8 +250,41 @@ class _Search:
         """Exposure quotient times the row's margin, shape (rows, N), each on its basis.
 
         A ``"time-averaged"`` limit sees the duty-cycle-averaged fields; a ``"while-on"``
-        limit (a device threshold) the fields while every source radiates.
+        limit (a device threshold) the fields while every source radiates.  A point asked
+        for again (to the last bit of its coordinates: a refinement cap's central ray is
+        the ray it refines, rows with the same bracket bisect at the same point) is looked
+        up; up to :data:`SEEN_POINTS` points are kept.
         """
+        pts = np.ascontiguousarray(points, dtype=np.float64)
+        keys = pts.view(_POINT_KEY).ravel().tolist()
+        get = self._seen.get
+        at = np.fromiter((get(k, -1) for k in keys), dtype=np.intp, count=len(keys))
+        miss = np.flatnonzero(at < 0)
+        if miss.size == 0:
+            return self._kept[:, at]
+        first: dict[bytes, int] = {}
+        for i in miss.tolist():
+            first.setdefault(keys[i], i)
+        new = np.fromiter(first.values(), dtype=np.intp, count=len(first))
+        q_new = self._quotients(pts[new])
+        if self._size + new.size > SEEN_POINTS:
+            out = np.empty((len(self.rows), len(keys)))
+            out[:, at >= 0] = self._kept[:, at[at >= 0]]
+            position = {k: j for j, k in enumerate(first)}
+            out[:, miss] = q_new[:, [position[keys[i]] for i in miss.tolist()]]
+            return out
+        if self._size + new.size > self._kept.shape[1]:
+            grown = np.empty((len(self.rows), max(2 * self._kept.shape[1], self._size + new.size)))
+            grown[:, : self._size] = self._kept[:, : self._size]
+            self._kept = grown
+        self._kept[:, self._size : self._size + new.size] = q_new
+        self._seen.update(zip(first, range(self._size, self._size + new.size), strict=True))
+        self._size += new.size
+        at[miss] = [self._seen[keys[i]] for i in miss.tolist()]
+        return self._kept[:, at]
+
+    def _quotients(self, points: NDArray[np.float64]) -> NDArray[np.float64]:
+        """The quotients of :meth:`quotients`, evaluated."""
         res = evaluate(self.scenario, points)
         per_limit = [limits_mod.field_quotient(v, res) for v in self.values]
         q = np.empty((len(self.rows), points.shape[0]))
