@@ -114,7 +114,7 @@ footer { margin-top: 2.5rem; border-top: 1px solid var(--rule); padding-top: .6r
   h2 { break-after: avoid; page-break-after: avoid; }
   table, figure, .summary, .caution, pre, dl { break-inside: avoid; page-break-inside: avoid; }
   figure.map + figure.map { break-before: page; page-break-before: always; }
-  figure img { border: none; max-height: 24cm; width: auto; max-width: 100%; }
+  figure img { border: none; max-height: 19.5cm; width: auto; max-width: 100%; }
   a { color: inherit; text-decoration: none; }
   .noprint { display: none; }
 }
