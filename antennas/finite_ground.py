@@ -50,10 +50,14 @@ of the face (the probe centred on a plate or box face) the metal's currents canc
 there too, pair by mirror pair: the far field on the axis is zero and what is left
 at 0.1-0.3 m is the small longitudinal near field of the charges on the probe and
 the face (20-29 dB under the strongest sample at 0.3 m in the full-wave cases).  It
-is the difference of the probe's and the metal's contributions, each far larger
-than the result, so it depends on how well the grid resolves the current and
-charge on the fed face: near the probe's base, where the feed current spreads into
-the metal, and at the face's edges, where the current turns the corner or ends.
+is the sum of the probe's and the metal's contributions, which partly cancel (on
+the 0.25 m plate at 0.3 m: E_z of 2.1 V/m from each, 1.1 V/m together, per watt;
+found when written), so a small error in the metal's current shows large there: it
+depends on how well the grid resolves the current and charge on the fed face: near
+the probe's base, where the feed current spreads into the metal, and at the face's
+edges, where the current turns the corner or ends.
+With the probe off the face's centre (``box-probe-offset``) the mirror symmetry is
+broken along one direction, the axis carries some radiation and is less sensitive.
 The faces behind do not matter there (refining them to lambda/15 moves the
 ``box-probe`` axis by 0.01 dB; found when written).  Burke & Poggio's guideline
 ([1]_ part III) is an upper bound on the segment length, lambda/10, not a fineness
@@ -66,10 +70,16 @@ lambda/15 to its lambda/25 mesh lowered it by 3.2 dB); ``box-probe-offset`` +0.6
 +0.66, +0.62, +0.58 dB.  Lambda/13 is the coarsest fed face that puts every case's
 axis within 1 dB, and it stays on the high (safe) side of the full-wave value; it
 costs 2987 instead of 2311 segments for the 0.20 x 0.09 x 0.15 m box (NEC-2's time
-grows as the cube: 9.7 s instead of 5.2 s to build, 1.9 times), 1592 instead of
-1420 for the 0.12 x 0.10 x 0.10 m box of the bench scenario (1.3 times).  Off the
-axis the finer face changes the fields by a few tenths of a dB, towards the
-full-wave values.  A face too large for a lambda/13 grid within
+grows as the cube: about 10 s instead of 5 s to build, 1.9-2.0 times), 1592 instead
+of 1420 for the 0.12 x 0.10 x 0.10 m box of the bench scenario (1.3 times).  Off
+the axis the finer face changes the fields by a few tenths of a dB, towards the
+full-wave values.  Tried and not taken (found when written): a finer first cell at
+the probe (lambda/80) or a slower grading (1.5 -> 1.3 per line) leave the plate's
+axis at +2.0 and +1.3 dB; grading the fed face down to lambda/20-lambda/35 at its
+edges as well is cheaper (2459-2735 segments for the box) but not monotone (the
+box's axis +0.92 dB with lambda/30 at the edges, +1.09 dB with lambda/25), so no
+grid of that family is safely inside 1 dB.  Every wire keeps the equal-area radius,
+spacing / 2 pi.  A face too large for a lambda/13 grid within
 :data:`keepclear.antennas.moment.MAX_SEGMENTS` falls back to lambda/10, with the
 lambda/10 grid's margin (:data:`COARSE_GAIN_UNCERTAINTY_DB`).
 
