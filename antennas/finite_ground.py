@@ -92,10 +92,11 @@ centre is at (-w_off, -h_off, 0) with ``ground_offset_m = [w_off, h_off]``.
 Validity
 --------
 Perfect conductors, free space, a thin probe (radius below lambda/100).  The grid
-is limited to :data:`keepclear.antennas.moment.MAX_SEGMENTS` segments (plates up to
-about 4 wavelengths square at their finest); for larger metal the infinite ground
-plane is the better model anyway.  Inside the box the grid's leakage field is
-reported as computed; nobody stands there (:meth:`FiniteGroundMonopole.inside_or_on`).
+is limited to :data:`keepclear.antennas.moment.MAX_SEGMENTS` segments (square plates up
+to about 3 wavelengths with the fed face at lambda/13, up to about 4 at lambda/10);
+for larger metal the infinite ground plane is the better model anyway.  Inside the
+box the grid's leakage field is reported as computed; nobody stands there
+(:meth:`FiniteGroundMonopole.inside_or_on`).
 
 References
 ----------
