@@ -18,6 +18,9 @@ by the **method of moments**:
   at most lambda/10 (Burke & Poggio [1]_, part III), wire radius = spacing / 2 pi
   (the equal-area rule, Ludwig [2]_), graded to lambda/40 at the probe base where
   the feed current spreads into the metal (see :mod:`keepclear.antennas.moment`);
+  the **fed face** (the plate, or the box face the probe stands on) is finer, cells
+  at most lambda/13 (:data:`FED_FACE_SEGMENT_WAVELENGTHS`; why: "The probe's axis"
+  below), the other faces of a box keep lambda/10 between the fed face's lines;
 * NEC-2 ([1]_, the nec2++ engine through PyPI ``PyNEC``) solves the segment
   currents once per radiator (cached per geometry);
 * the solved currents, as piecewise-sinusoidal segments, are radiated by the exact
@@ -39,6 +42,47 @@ of surfaces is its documented way of modelling plates and boxes ([1]_ part III,
 [2]_).  Its far field of grid models agrees with measurements and surface-patch
 methods to within about 1 dB (Ludwig [2]_).
 
+The probe's axis
+----------------
+Straight out along the probe lies the monopole's pattern null.  A thin probe
+radiates nothing along its own axis, and where the probe stands on a symmetry centre
+of the face (the probe centred on a plate or box face) the metal's currents cancel
+there too, pair by mirror pair: the far field on the axis is zero and what is left
+at 0.1-0.3 m is the small longitudinal near field of the charges on the probe and
+the face (20-29 dB under the strongest sample at 0.3 m in the full-wave cases).  It
+is the sum of the probe's and the metal's contributions, which partly cancel (on
+the 0.25 m plate at 0.3 m: E_z of 2.1 V/m from each, 1.1 V/m together, per watt;
+found when written), so a small error in the metal's current shows large there: it
+depends on how well the grid resolves the current and charge on the fed face: near
+the probe's base, where the feed current spreads into the metal, and at the face's
+edges, where the current turns the corner or ends.
+With the probe off the face's centre (``box-probe-offset``) the mirror symmetry is
+broken along one direction, the axis carries some radiation and is less sensitive.
+The faces behind do not matter there (refining them to lambda/15 moves the
+``box-probe`` axis by 0.01 dB; found when written).  Burke & Poggio's guideline
+([1]_ part III) is an upper bound on the segment length, lambda/10, not a fineness
+that converges a null: against openEMS v0.0.35 (``validation/``) the axis at 0.3 m
+is, with the fed face at lambda/10, lambda/12, lambda/13, lambda/15 (others at
+lambda/10): ``box-probe`` +1.10, +1.07, +0.95, +0.93 dB (converged to about
++0.9 dB); ``plate-probe`` +1.72, +1.07, +0.49, -0.47 dB, and -2.16 dB at lambda/20
+(not converged: each refinement lowers it, as openEMS's own refinement from its
+lambda/15 to its lambda/25 mesh lowered it by 3.2 dB); ``box-probe-offset`` +0.63,
++0.66, +0.62, +0.58 dB.  Lambda/13 is the coarsest fed face that puts every case's
+axis within 1 dB, and it stays on the high (safe) side of the full-wave value; it
+costs 2987 instead of 2311 segments for the 0.20 x 0.09 x 0.15 m box (NEC-2's time
+grows as the cube: about 10 s instead of 5 s to build, 1.9-2.0 times), 1592 instead
+of 1420 for the 0.12 x 0.10 x 0.10 m box of the bench scenario (1.3 times).  Off
+the axis the finer face changes the fields by a few tenths of a dB, towards the
+full-wave values.  Tried and not taken (found when written): a finer first cell at
+the probe (lambda/80) or a slower grading (1.5 -> 1.3 per line) leave the plate's
+axis at +2.0 and +1.3 dB; grading the fed face down to lambda/20-lambda/35 at its
+edges as well is cheaper (2459-2735 segments for the box) but not monotone (the
+box's axis +0.92 dB with lambda/30 at the edges, +1.09 dB with lambda/25), so no
+grid of that family is safely inside 1 dB.  Every wire keeps the equal-area radius,
+spacing / 2 pi.  A face too large for a lambda/13 grid within
+:data:`keepclear.antennas.moment.MAX_SEGMENTS` falls back to lambda/10, with the
+lambda/10 grid's margin (:data:`COARSE_GAIN_UNCERTAINTY_DB`).
+
 Local frame
 -----------
 Base of the probe at the origin, probe along +z (= ``axis``, the face's outward
@@ -48,10 +92,11 @@ centre is at (-w_off, -h_off, 0) with ``ground_offset_m = [w_off, h_off]``.
 Validity
 --------
 Perfect conductors, free space, a thin probe (radius below lambda/100).  The grid
-is limited to :data:`keepclear.antennas.moment.MAX_SEGMENTS` segments (plates up to
-about 4 wavelengths square at their finest); for larger metal the infinite ground
-plane is the better model anyway.  Inside the box the grid's leakage field is
-reported as computed; nobody stands there (:meth:`FiniteGroundMonopole.inside_or_on`).
+is limited to :data:`keepclear.antennas.moment.MAX_SEGMENTS` segments (square plates up
+to about 3 wavelengths with the fed face at lambda/13, up to about 4 at lambda/10);
+for larger metal the infinite ground plane is the better model anyway.  Inside the
+box the grid's leakage field is reported as computed; nobody stands there
+(:meth:`FiniteGroundMonopole.inside_or_on`).
 
 References
 ----------
@@ -84,9 +129,15 @@ from .wire_grid import SolvedWireRadiator
 GROUND_KINDS = ("plate", "box")
 #: Largest probe segment, in wavelengths.
 PROBE_SEGMENT_WAVELENGTHS = 1.0 / 20.0
+#: Longest segment on the fed face (the plate, or the box face the probe stands on), in
+#: wavelengths: the coarsest that puts the probe's axis within 1 dB of full wave.
+FED_FACE_SEGMENT_WAVELENGTHS = 1.0 / 13.0
 #: Keep-out margin [dB]: the largest error in front against the openEMS v0.0.35 cases
-#: (plate-probe, +1.70 dB on the probe axis at 0.3 m; see FiniteGroundMonopole).
-GAIN_UNCERTAINTY_DB = 1.7
+#: (box-probe, +0.95 dB on the probe axis at 0.3 m; see FiniteGroundMonopole).
+GAIN_UNCERTAINTY_DB = 1.0
+#: Keep-out margin [dB] of a fed face gridded at lambda/10 (too large for lambda/13): the
+#: largest error in front of that grid (plate-probe, +1.72 dB on the probe axis at 0.3 m).
+COARSE_GAIN_UNCERTAINTY_DB = 1.8
 
 
 def _pair(value: ArrayLike, name: str, positive: bool) -> tuple[float, float]:
@@ -130,19 +181,28 @@ class FiniteGroundMonopole(SolvedWireRadiator):
         Probe base and axes: ``Placement.from_axes(position_m, axis, ground_up)``.
     wire_radius_m : float, optional
         Probe radius; default min(lambda/1000, length/50) [m].
+    max_segment_wavelengths : float, optional
+        Longest grid segment, in wavelengths; default lambda/10 (Burke & Poggio [1]_).
+    fed_face_segment_wavelengths : float, optional
+        Longest segment on the fed face, in wavelengths (at most
+        ``max_segment_wavelengths``); default :data:`FED_FACE_SEGMENT_WAVELENGTHS`.
 
     Attributes
     ----------
     gain_uncertainty_db : float
-        1.7 dB: the largest error in front (within 60 deg of the probe axis) against
-        the full-wave validation, case ``plate-probe`` (openEMS v0.0.35, 30 mm probe
-        on a 0.25 m square plate, validation/README.md): +1.70 dB at 0.3 m on the
-        probe's axis.  That largest error is an over-prediction in the monopole's axial
-        null, where neither solution is mesh-converged (openEMS's two meshes differ by
-        3.2 dB there).  Off the axis the errors in front lie within -0.5/+0.6 dB in the
-        three probe cases (``box-probe``, ``plate-probe``, ``box-probe-offset``) and the
-        peak directivities agree within 0.35 dB.  The margin is nevertheless the largest
-        error in front, as the project's rule for keep-out margins asks (tests/test_fullwave.py).
+        1.0 dB: the largest error in front (within 60 deg of the probe axis) against
+        the full-wave validation, case ``box-probe`` (openEMS v0.0.35, 30 mm probe
+        through the 0.20 x 0.09 m face of a 0.15 m deep box, validation/README.md):
+        +0.95 dB at 0.3 m on the probe's axis, an over-prediction in the monopole's
+        axial null (see "The probe's axis" above; openEMS's two meshes differ by 0.7 dB
+        there).  Off the axis the errors in front lie within -0.6/+0.6 dB in the three
+        probe cases (``box-probe``, ``plate-probe``, ``box-probe-offset``) and the peak
+        directivities agree within 0.35 dB.  The margin is the largest error in front,
+        as the project's rule for keep-out margins asks (tests/test_fullwave.py).  A
+        fed face gridded at lambda/10 (a face too large for lambda/13) carries
+        :data:`COARSE_GAIN_UNCERTAINTY_DB` instead.
+    fed_face_segment_m : float
+        Longest segment of the fed face as built [m].
     radiation_resistance_ohm : float
         2 P / |I_feed|^2 with the feed current of the scaled solution [ohm].
 
@@ -168,6 +228,7 @@ class FiniteGroundMonopole(SolvedWireRadiator):
         placement: Placement | None = None,
         wire_radius_m: float | None = None,
         max_segment_wavelengths: float = moment.MAX_SEGMENT_WAVELENGTHS,
+        fed_face_segment_wavelengths: float = FED_FACE_SEGMENT_WAVELENGTHS,
     ) -> None:
         super().__init__(frequency_hz, power_w, placement)
         if ground not in GROUND_KINDS:
@@ -208,6 +269,15 @@ class FiniteGroundMonopole(SolvedWireRadiator):
         self.ground_offset_m = (off_w, off_h)
         self.box_depth_m = depth if ground == "box" else None
         lam = self.wavelength_m
+        self._max_segment_m = max_segment_wavelengths * lam
+        # The fed face at its own (finer) grid if the whole structure then fits NEC-2's
+        # bound; otherwise at the grid of the other faces, with that grid's margin.
+        face_m = min(fed_face_segment_wavelengths, max_segment_wavelengths) * lam
+        self.gain_uncertainty_db = GAIN_UNCERTAINTY_DB
+        if self._segment_count(face_m) > moment.MAX_SEGMENTS:
+            face_m = self._max_segment_m
+            self.gain_uncertainty_db = COARSE_GAIN_UNCERTAINTY_DB
+        self.fed_face_segment_m = face_m
         # The moment-method solution and its outgoing-wave table depend only on the
         # geometry, the frequency and the power: a scenario loaded again (an option, a
         # second command in the same process) reuses them.
@@ -222,8 +292,8 @@ class FiniteGroundMonopole(SolvedWireRadiator):
             off_h,
             depth,
             float(max_segment_wavelengths),
+            face_m,
         )
-        self._max_segment_m = max_segment_wavelengths * lam
         self._use_solved()
         # Both paths bound their own scratch (the kernel by pairs, the expansion by its
         # table): a chunk of points costs about this much each.
@@ -232,7 +302,6 @@ class FiniteGroundMonopole(SolvedWireRadiator):
         self.radiation_resistance_ohm = (
             self.power_w / abs(feed) ** 2 if self.power_w > 0 and abs(feed) > 0 else math.nan
         )
-        self.gain_uncertainty_db = GAIN_UNCERTAINTY_DB
 
     # ------------------------------------------------------------------ geometry
     def _face_bounds(self) -> tuple[float, float, float, float]:
@@ -240,25 +309,40 @@ class FiniteGroundMonopole(SolvedWireRadiator):
         (w, h), (ow, oh) = self.ground_size_m, self.ground_offset_m
         return -ow - 0.5 * w, -ow + 0.5 * w, -oh - 0.5 * h, -oh + 0.5 * h
 
-    def _structure(self) -> moment.WireStructure:
-        lam = self.wavelength_m
-        max_step_m = self._max_segment_m
+    def _face_lines(self, face_step_m: float) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """Grid lines of the fed face: graded from lambda/40 at the probe to ``face_step_m``."""
+        fine = min(moment.FEED_SPACING_WAVELENGTHS * self.wavelength_m, face_step_m)
         x0, x1, y0, y1 = self._face_bounds()
-        fine = min(moment.FEED_SPACING_WAVELENGTHS * lam, max_step_m)
-        xs = moment.graded_lines(x0, x1, 0.0, max_step_m, fine)
-        ys = moment.graded_lines(y0, y1, 0.0, max_step_m, fine)
-        n_probe = max(4, math.ceil(self.length_m / (PROBE_SEGMENT_WAVELENGTHS * lam) - 1e-9))
+        xs = moment.graded_lines(x0, x1, 0.0, face_step_m, fine)
+        ys = moment.graded_lines(y0, y1, 0.0, face_step_m, fine)
+        return xs, ys
+
+    def _probe_count(self) -> int:
+        lam = self.wavelength_m
+        return max(4, math.ceil(self.length_m / (PROBE_SEGMENT_WAVELENGTHS * lam) - 1e-9))
+
+    def _segment_count(self, face_step_m: float) -> int:
+        """Segments of the probe and the grid with the fed face at ``face_step_m``."""
+        max_step_m = self._max_segment_m
+        xs, ys = self._face_lines(face_step_m)
         n_grid = _face_count(xs, ys)
         if self.ground == "box":
             assert self.box_depth_m is not None
             xt, yt = moment.thinned_lines(xs, max_step_m), moment.thinned_lines(ys, max_step_m)
             zs = moment.uniform_lines(-self.box_depth_m, 0.0, max_step_m)
             n_grid += _face_count(xt, yt) + 2 * _face_count(xt, zs) + 2 * _face_count(yt, zs)
-        if n_grid + n_probe > moment.MAX_SEGMENTS:
+        return n_grid + self._probe_count()
+
+    def _structure(self) -> moment.WireStructure:
+        max_step_m = self._max_segment_m
+        xs, ys = self._face_lines(self.fed_face_segment_m)
+        n_probe = self._probe_count()
+        n_total = self._segment_count(self.fed_face_segment_m)
+        if n_total > moment.MAX_SEGMENTS:
             raise ModelInputError(
                 "ground_size_m",
                 f"the {self.ground} is too large for the wire-grid model at "
-                f"{self.frequency_hz:g} Hz (about {n_grid + n_probe} segments, at most "
+                f"{self.frequency_hz:g} Hz (about {n_total} segments, at most "
                 f'{moment.MAX_SEGMENTS}); for metal this large use ground = "infinite"',
             )
         if self.ground == "plate":
