@@ -119,10 +119,17 @@ References
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import functools
+import hashlib
 import math
+import os
+import tempfile
+import zipfile
 from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -494,17 +501,32 @@ def _structure_from_key(key: tuple) -> WireStructure:
     )
 
 
+def _check_size(structure: WireStructure) -> None:
+    """Refuse a structure beyond :data:`MAX_SEGMENTS` (before any cache is consulted)."""
+    if structure.segment_count > MAX_SEGMENTS:
+        raise ModelInputError(
+            "ground_size_m",
+            f"the wire-grid model needs {structure.segment_count} segments, more than "
+            f"{MAX_SEGMENTS}; use a smaller structure",
+        )
+
+
+def _check_symmetric_size(quarter: WireStructure) -> None:
+    """Refuse a quarter whose whole structure is beyond :data:`MAX_SYMMETRIC_SEGMENTS`."""
+    if 4 * quarter.segment_count > MAX_SYMMETRIC_SEGMENTS:
+        raise ModelInputError(
+            "length_m",
+            f"the wire-grid model needs {4 * quarter.segment_count} segments, more than "
+            f"{MAX_SYMMETRIC_SEGMENTS}",
+        )
+
+
 def _nec_run(structure: WireStructure, frequency_hz: float) -> tuple[NDArray, complex]:
     """Run NEC-2 (PyPI ``PyNEC``, the nec2++ engine): centre currents and impedance."""
     import PyNEC  # imported here: only models built on wire structures need it
 
     s = structure
-    if s.segment_count > MAX_SEGMENTS:
-        raise ModelInputError(
-            "ground_size_m",
-            f"the wire-grid model needs {s.segment_count} segments, more than "
-            f"{MAX_SEGMENTS}; use a smaller structure",
-        )
+    _check_size(s)
     ctx = PyNEC.nec_context()
     geo = ctx.get_geometry()
     _enter_wires(geo, s)
@@ -564,17 +586,112 @@ def nec_near_fields(
     return e, h
 
 
+#: Environment variable naming the folder of kept NEC-2 solutions ("off" or empty: none).
+CACHE_ENV = "KEEPCLEAR_CACHE_DIR"
+
+
+def solution_cache_dir() -> Path | None:
+    """Folder where NEC-2 solutions are kept between runs, or None when switched off.
+
+    ``$KEEPCLEAR_CACHE_DIR`` if set ("off" or empty switches the store off), else
+    ``$XDG_CACHE_HOME/keepclear/nec`` (``~/.cache/keepclear/nec``).  A folder that cannot
+    be made switches it off too: keeping solutions only saves time.
+    """
+    value = os.environ.get(CACHE_ENV)
+    if value is not None:
+        if value.strip() in ("", "off"):
+            return None
+        folder = Path(value)
+    else:
+        base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
+        folder = Path(base) / "keepclear" / "nec"
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError:
+        return None
+    return folder
+
+
+@functools.cache
+def _engine_stamp() -> bytes:
+    """What a kept solution depends on besides its inputs.
+
+    The NEC-2 package's version and the code that enters the wires and the cards: a
+    change to either starts afresh.
+    """
+    import inspect
+    from importlib import metadata
+
+    try:
+        version = metadata.version("PyNEC")
+    except metadata.PackageNotFoundError:  # pragma: no cover - PyNEC is a dependency
+        version = "unknown"
+    parts = []
+    for f in (_enter_wires, _nec_run, _nec_run_quarter):
+        try:
+            parts.append(inspect.getsource(f).encode())
+        except (OSError, TypeError):  # installed without sources: the compiled code
+            parts.append(f.__code__.co_code + repr(f.__code__.co_consts).encode())
+    return f"{SOLUTION_FORMAT}|{version}|".encode() + b"|".join(parts)
+
+
+#: Layout of a kept solution file (raise it when the layout changes).
+SOLUTION_FORMAT = 1
+
+
+def _kept_solution(kind: str, parts: tuple, compute: Any) -> dict[str, NDArray]:
+    """``compute()`` (a dict of arrays), kept on disk under a digest of every input.
+
+    NEC-2 solves the same structure to the same currents every time: the digest covers
+    the structure's bytes, the frequency, the feed and :func:`_engine_stamp`, so a kept
+    file is only read back for exactly the same problem.  A file that cannot be read is
+    solved again and replaced; writing goes through a temporary file and an atomic
+    rename, so parallel runs never see half a file.
+    """
+    folder = solution_cache_dir()
+    if folder is None:
+        return compute()
+    digest = hashlib.sha256(_engine_stamp())
+    for part in (kind, *parts):
+        digest.update(part if isinstance(part, bytes) else repr(part).encode())
+        digest.update(b"|")
+    path = folder / f"{kind}-{digest.hexdigest()[:40]}.npz"
+    try:
+        with np.load(path, allow_pickle=False) as kept:
+            return {name: kept[name] for name in kept.files}
+    except (OSError, ValueError, KeyError, EOFError, zipfile.BadZipFile):
+        pass
+    result = compute()
+    name = None
+    try:
+        with tempfile.NamedTemporaryFile(dir=folder, suffix=".npz", delete=False) as tmp:
+            name = tmp.name
+            np.savez(tmp, **result)
+        os.replace(name, path)
+    except OSError:
+        if name is not None:
+            with contextlib.suppress(OSError):
+                os.unlink(name)
+    return result
+
+
 @functools.lru_cache(maxsize=32)
 def _solve_cached(key: tuple, frequency_hz: float) -> tuple[NDArray, complex]:
-    currents, z = _nec_run(_structure_from_key(key), frequency_hz)
+    def compute() -> dict[str, NDArray]:
+        currents, z = _nec_run(_structure_from_key(key), frequency_hz)
+        return {"currents": currents, "impedance": np.array([z])}
+
+    kept = _kept_solution("solve", (*key, frequency_hz), compute)
+    currents = np.array(kept["currents"], dtype=complex)
     currents.setflags(write=False)
-    return currents, z
+    return currents, complex(kept["impedance"][0])
 
 
 def solve_structure(structure: WireStructure, frequency_hz: float) -> MomentSolution:
     """Solve the segment currents with NEC-2 for a 1 V delta-gap feed (cached).
 
-    The same structure at the same frequency is solved once per process; NEC-2's
+    The same structure at the same frequency is solved once per process, and kept on
+    disk for later runs (:func:`solution_cache_dir`, :func:`_kept_solution`); NEC-2's
     solution is deterministic (a dense LU factorisation of the same matrix).
 
     Parameters
@@ -587,6 +704,7 @@ def solve_structure(structure: WireStructure, frequency_hz: float) -> MomentSolu
     -------
     MomentSolution
     """
+    _check_size(structure)
     currents, z = _solve_cached(structure.key(), float(frequency_hz))
     return MomentSolution(structure, float(frequency_hz), currents, z)
 
@@ -631,12 +749,7 @@ def _nec_run_quarter(
     import PyNEC
 
     q = quarter
-    if 4 * q.segment_count > MAX_SYMMETRIC_SEGMENTS:
-        raise ModelInputError(
-            "length_m",
-            f"the wire-grid model needs {4 * q.segment_count} segments, more than "
-            f"{MAX_SYMMETRIC_SEGMENTS}",
-        )
+    _check_symmetric_size(q)
     ctx = PyNEC.nec_context()
     geo = ctx.get_geometry()
     _enter_wires(geo, q)
@@ -658,7 +771,11 @@ def _nec_run_quarter(
 def _solve_quarter_cached(
     key: tuple, frequency_hz: float, voltages: tuple[float, ...]
 ) -> NDArray[np.complex128]:
-    currents = _nec_run_quarter(_structure_from_key(key), frequency_hz, voltages)
+    def compute() -> dict[str, NDArray]:
+        return {"currents": _nec_run_quarter(_structure_from_key(key), frequency_hz, voltages)}
+
+    kept = _kept_solution("quarter", (*key, frequency_hz, voltages), compute)
+    currents = np.array(kept["currents"], dtype=complex)
     currents.setflags(write=False)
     return currents
 
@@ -683,6 +800,7 @@ def solve_symmetric(
         On the whole structure (:func:`mirrored_structure`); ``input_impedance_ohm`` is
         the quarter feed's voltage over its current.
     """
+    _check_symmetric_size(quarter)
     currents = _solve_quarter_cached(quarter.key(), float(frequency_hz), tuple(voltages))
     whole = mirrored_structure(quarter)
     feed = complex(currents[quarter.feed_segment])

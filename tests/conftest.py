@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import os
+import shutil
+import tempfile
 import textwrap
 from contextlib import ExitStack
 from pathlib import Path
@@ -14,16 +16,37 @@ SCENARIOS = REPO / "scenarios"
 
 
 def pytest_configure(config: pytest.Config) -> None:
-    """With parallel workers (``-n``), each worker's BLAS runs on one thread.
+    """Parallel workers get one BLAS thread each; the run keeps NEC-2 solutions in a
+    folder of its own.
 
-    The workers already use every core; BLAS threads on top of them only contend.  The
-    variables are read when numpy loads, in the workers, which start after this hook.
-    Results do not depend on the thread count (DEVELOPERS.md, "The same answer").
+    With ``-n`` the workers already use every core; BLAS threads on top of them only
+    contend.  The variables are read when numpy loads, in the workers, which start after
+    this hook.  Results do not depend on the thread count (DEVELOPERS.md, "The same
+    answer").  NEC-2 solutions (``KEEPCLEAR_CACHE_DIR``) go to a temporary folder shared
+    by the workers and removed at the end, unless the variable is set already: the suite
+    neither reads nor fills the user's store.
     """
+    if os.environ.get("PYTEST_XDIST_WORKER"):
+        return
     workers = getattr(config.option, "numprocesses", None)
-    if workers and not os.environ.get("PYTEST_XDIST_WORKER"):
+    if workers:
         for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
             os.environ.setdefault(name, "1")
+    if "KEEPCLEAR_CACHE_DIR" not in os.environ:
+        folder = tempfile.mkdtemp(prefix="keepclear-nec-")
+        os.environ["KEEPCLEAR_CACHE_DIR"] = folder
+        config.stash[_STORE] = folder
+
+
+_STORE = pytest.StashKey[str]()
+
+
+def pytest_unconfigure(config: pytest.Config) -> None:
+    """Remove the run's folder of NEC-2 solutions."""
+    folder = config.stash.get(_STORE, None)
+    if folder is not None:
+        shutil.rmtree(folder, ignore_errors=True)
+        os.environ.pop("KEEPCLEAR_CACHE_DIR", None)
 
 
 @pytest.fixture
