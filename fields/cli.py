@@ -10,6 +10,7 @@ wrong; nothing written); 1 an unexpected fault.
 
 from __future__ import annotations
 
+import functools
 import os
 import sys
 import warnings
@@ -45,6 +46,7 @@ _MMAP_THRESHOLD_BYTES = 32 * 1024**2  # glibc's largest on 64-bit systems
 _TRIM_THRESHOLD_BYTES = 256 * 1024**2
 
 
+@functools.cache
 def _keep_freed_memory() -> None:
     """Let glibc's allocator reuse freed blocks instead of handing them back each time.
 
@@ -55,7 +57,7 @@ def _keep_freed_memory() -> None:
     (measured on the 2-core test machine).  A process that runs NEC-2 first happens to
     get the larger thresholds from its big frees; this sets them for every run.  Only
     speed changes, and a run keeps up to 256 MiB of freed memory for reuse.  Elsewhere
-    than glibc this does nothing.
+    than glibc this does nothing.  Once per process (every command run in it shares it).
     """
     if not sys.platform.startswith("linux"):
         return

@@ -596,6 +596,9 @@ def _quotient(
 
 #: Relative widening of the quotient bounds of :func:`bound_quotients` (rounding of sums).
 _BOUND_SAFETY = 1e-9
+#: Relative margin of the comparisons that leave a ray out of the spread (rounding of the
+#: distances computed from the crossings).
+_RAY_SAFETY = 1e-9
 
 
 def bound_quotients(
@@ -892,7 +895,6 @@ def _sweep(
     hi = np.full((n_lim, n_rays), -1, dtype=np.intp)
     dropped = no_drop.copy()
     offsets = np.linalg.norm(origins - scenario.centre_m, axis=1)
-    safety = 1e-9  # rounding of the distances computed from the crossings
     parts: list[Decomposition] = []
     flats: list[NDArray[np.intp]] = []
     open_rays = np.arange(n_rays)
@@ -919,7 +921,7 @@ def _sweep(
         reach = np.where(hi >= 0, radii[np.minimum(hi + 1, n_r - 1)], radii[start])
         upper = np.where(hi == n_r - 1, np.inf, offsets[None, :] + reach + shift_m)
         best = lower.max(axis=1, initial=-np.inf)
-        dropped |= ~found & (upper * (1 + safety) < (best * (1 - safety))[:, None])
+        dropped |= ~found & (upper * (1 + _RAY_SAFETY) < (best * (1 - _RAY_SAFETY))[:, None])
         done = found | dropped
         open_rays = open_rays[~done[:, open_rays].all(axis=0)]
         stop = start
@@ -1014,7 +1016,6 @@ def _farthest_in_block(
     lo_b[rays] = np.minimum(lo_b[rays], hi_b[rays])  # (only ever widens a band)
     kept = rays[hi_b[rays] >= 0]
     shift = float(np.max(np.linalg.norm(draws.shift_m[block], axis=2), initial=0.0))
-    safety = 1e-9
     nearest = radii[lo_b[kept]] - offsets[kept] - shift
     farthest = np.where(
         hi_b[kept] >= n_r - 1,
@@ -1022,7 +1023,7 @@ def _farthest_in_block(
         offsets[kept] + radii[np.minimum(hi_b[kept] + 1, n_r - 1)] + shift,
     )
     best = float(nearest.max(initial=-np.inf))
-    kept = kept[~(farthest * (1 + safety) < best * (1 - safety))]
+    kept = kept[~(farthest * (1 + _RAY_SAFETY) < best * (1 - _RAY_SAFETY))]
     width = np.minimum(hi_b - lo_b + 2, n_r - lo_b)
     return _farthest(swept, draws, v, block, kept, lo_b, width, origins, directions, radii, centre)
 

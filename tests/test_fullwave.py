@@ -29,7 +29,7 @@ import pytest
 
 from keepclear.fields.field import evaluate
 from keepclear.fields.plausibility import PlausibilityWarning
-from keepclear.fields.scenario import load_scenario
+from keepclear.fields.scenario import Scenario, load_scenario
 from tests import validation_data as vd
 
 CASES = vd.available()
@@ -75,6 +75,14 @@ def _params(region: str) -> list:
     return out
 
 
+def _load_case(case: vd.FullWaveCase) -> Scenario:
+    """The case's scenario (``[[source]]`` as stored), read as a scenario file is."""
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / f"{case.name}.toml"
+        path.write_text(case.scenario_text(), encoding="utf-8")
+        return load_scenario(path)
+
+
 @functools.cache
 def _model(name: str) -> tuple[np.ndarray, float, float]:
     """The model's power density at the case's points, peak gain and +x gain [dBi].
@@ -82,13 +90,10 @@ def _model(name: str) -> tuple[np.ndarray, float, float]:
     Computed once per case (a finite-ground model solves its currents once; three tests use it).
     """
     case = vd.load(name)
-    with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / f"{case.name}.toml"
-        path.write_text(case.scenario_text(), encoding="utf-8")
-        with warnings.catch_warnings():
-            # the flanged cases' rim model says what it is; its own test checks that
-            warnings.simplefilter("ignore", PlausibilityWarning)
-            scenario = load_scenario(path)
+    with warnings.catch_warnings():
+        # the flanged cases' rim model says what it is; its own test checks that
+        warnings.simplefilter("ignore", PlausibilityWarning)
+        scenario = _load_case(case)
     radiator = scenario.sources[0].radiator
     density = evaluate(scenario, case.positions_m).power_density_w_m2
     peak = float(10 * np.log10(radiator.max_gain()))
@@ -190,10 +195,7 @@ def test_guide_and_horn_margin_covers_the_largest_error_in_front(name: str) -> N
     from keepclear.antennas.guide_grid import GridHorn, GridOpenWaveguide
 
     case = vd.load(name)
-    with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / f"{case.name}.toml"
-        path.write_text(case.scenario_text(), encoding="utf-8")
-        radiator = load_scenario(path).sources[0].radiator
+    radiator = _load_case(case).sources[0].radiator
     assert isinstance(radiator, (GridOpenWaveguide, GridHorn))
     margin_db = radiator.gain_uncertainty_db
     assert margin_db == 0.9
@@ -216,16 +218,12 @@ def test_rim_model_with_its_back_margin_is_never_far_under_openems(name: str, mo
     """
     from keepclear.antennas import guide_grid
     from keepclear.antennas.walls import BACK_MARGIN_DB, WalledAperture
-    from keepclear.fields.plausibility import PlausibilityWarning
 
     monkeypatch.setattr(guide_grid, "MAX_SEGMENTS", 0)
     monkeypatch.setattr(guide_grid, "HORN_MAX_SEGMENTS", 0)
     case = vd.load(name)
-    with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / f"{case.name}.toml"
-        path.write_text(case.scenario_text(), encoding="utf-8")
-        with pytest.warns(PlausibilityWarning, match="7 dB margin"):
-            scenario = load_scenario(path)
+    with pytest.warns(PlausibilityWarning, match="7 dB margin"):
+        scenario = _load_case(case)
     radiator = scenario.sources[0].radiator
     assert isinstance(radiator, WalledAperture)
     assert radiator.back_margin_db == BACK_MARGIN_DB == 7.0
@@ -256,14 +254,10 @@ def test_flanged_rim_model_margins_cover_its_deficits(name: str) -> None:
         FLANGE_GAIN_UNCERTAINTY_DB,
         WalledAperture,
     )
-    from keepclear.fields.plausibility import PlausibilityWarning
 
     case = vd.load(name)
-    with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / f"{case.name}.toml"
-        path.write_text(case.scenario_text(), encoding="utf-8")
-        with pytest.warns(PlausibilityWarning, match="8 dB margin"):
-            scenario = load_scenario(path)
+    with pytest.warns(PlausibilityWarning, match="8 dB margin"):
+        scenario = _load_case(case)
     radiator = scenario.sources[0].radiator
     assert isinstance(radiator, WalledAperture) and radiator.flange_m is not None
     assert radiator.back_margin_db == FLANGE_BACK_MARGIN_DB == 8.0

@@ -187,8 +187,8 @@ def test_a_map_sample_inside_a_source_counts_over_every_limit(write_scenario):
         assert abs(zone.area_m2 - A * length) < perimeter * grid.step_m
 
 
-#: A horn too large for the wall grid: the rim model, which warns that it is validated in
-#: front only (the warning is tested in tests/test_guide_grid.py).
+#: A horn too large for the wall grid: the rim model, which warns that no full-wave case
+#: covers it and that it carries a back-region margin (tested in tests/test_guide_grid.py).
 HORN_BENCH = """
 name = "horn on a bench"
 [[source]]
