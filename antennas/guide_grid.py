@@ -328,19 +328,30 @@ class GridOpenWaveguide(_SolvedOpening):
 
 
 def _cap_radii(
-    starts_m: NDArray[np.float64], ends_m: NDArray[np.float64], radii_m: NDArray[np.float64]
+    starts_m: NDArray[np.float64],
+    ends_m: NDArray[np.float64],
+    radii_m: NDArray[np.float64],
+    neighbour_fraction: float = moment.MAX_RADIUS_PER_LENGTH,
 ) -> NDArray[np.float64]:
-    """Radii at most a quarter of the shortest segment meeting at either end.
+    """Radii capped against their own segment and the shortest neighbour at either end.
 
-    NEC-2's thin-wire kernel needs every segment several radii long, including the
-    neighbours at a junction (Burke & Poggio, part III).
+    At most a quarter of the segment's own length and ``neighbour_fraction`` of the
+    shortest segment meeting it.
+    NEC-2's thin-wire kernel needs every segment several radii long (a quarter: Burke &
+    Poggio, part III), and a neighbour at a junction must leave the wire's volume before
+    its own match point, its centre (``neighbour_fraction`` below 0.5; NEC-2 refuses a
+    segment whose centre lies inside another wire).  The open guide keeps a quarter for
+    both; the horn relaxes the neighbour's share (:data:`HORN_NEIGHBOUR_RADIUS_PER_LENGTH`).
     """
     n = starts_m.shape[0]
     length = np.linalg.norm(ends_m - starts_m, axis=1)
     node = moment.node_index(np.vstack([starts_m, ends_m]))
     shortest = np.full(int(node.max()) + 1, np.inf)
     np.minimum.at(shortest, node, np.concatenate([length, length]))
-    cap = moment.MAX_RADIUS_PER_LENGTH * np.minimum(shortest[node[:n]], shortest[node[n:]])
+    cap = np.minimum(
+        moment.MAX_RADIUS_PER_LENGTH * length,
+        neighbour_fraction * np.minimum(shortest[node[:n]], shortest[node[n:]]),
+    )
     return np.minimum(radii_m, cap)
 
 
@@ -352,11 +363,17 @@ HORN_PROBE_LENGTH_PER_NARROW: Final[float] = 0.4
 #: the short, 0.45 lambda_g before the throat).
 HORN_FEED_GUIDE_WAVELENGTHS: Final[float] = 0.7
 #: Largest horn grid this model solves, by :func:`horn_segments_needed` (NEC-2 from the
-#: quarter: about 7 s of CPU at 5,000; the engine's own bound,
+#: quarter; the engine's own bound,
 #: :data:`keepclear.antennas.moment.MAX_SYMMETRIC_SEGMENTS`, leaves room above it).
-HORN_MAX_SEGMENTS: Final[int] = 6000
+HORN_MAX_SEGMENTS: Final[int] = 10500
+#: Largest radius of a horn grid wire as a fraction of the shortest neighbour meeting it
+#: (its own segment: a quarter, :data:`keepclear.antennas.moment.MAX_RADIUS_PER_LENGTH`).
+#: The horn's grid has short segments at every junction (the ring wires split at the two
+#: symmetry planes, the throat's and the short's rings three times finer than the feed's);
+#: a quarter of those thinned the wires meeting them to a leaky grid (GridHorn, Notes).
+HORN_NEIGHBOUR_RADIUS_PER_LENGTH: Final[float] = 0.4
 #: Keep-out margin [dB] of the horn: the largest error in front against openEMS v0.0.35
-#: (horn-wr340, -0.89 dB at the time of writing).
+#: (horn-wr340, -0.85 dB).
 HORN_GAIN_UNCERTAINTY_DB: Final[float] = 0.9
 
 
@@ -381,6 +398,42 @@ def _split_at_planes(
     return starts, ends
 
 
+def _flare_lines(
+    flare_m: float,
+    feed_m: tuple[float, float],
+    mouth_m: tuple[float, float],
+    cells: tuple[int, int],
+    max_step_m: float,
+) -> NDArray[np.float64]:
+    """Ring positions of the flare, z from -flare_m (throat) to 0 (mouth) [m].
+
+    The axial step follows the cells round the ring (the larger of the two walls', each
+    wall's width over its number of cells), at most ``max_step_m``: near-square cells from
+    the throat, where the ring's cells are a third of the feed's, to the mouth.
+    """
+    z = np.linspace(-flare_m, 0.0, 2001)
+    t = (z + flare_m) / flare_m
+    width = feed_m[0] + (mouth_m[0] - feed_m[0]) * t
+    height = feed_m[1] + (mouth_m[1] - feed_m[1]) * t
+    step = np.minimum(max_step_m, np.maximum(width / cells[0], height / cells[1]))
+    inverse = 1.0 / step
+    u = np.concatenate([[0.0], np.cumsum(0.5 * (inverse[1:] + inverse[:-1]) * np.diff(z))])
+    n = max(1, math.ceil(u[-1] - 1e-9))
+    lines = np.interp(u[-1] * np.arange(n + 1) / n, u, z)
+    lines[0], lines[-1] = -flare_m, 0.0
+    return lines
+
+
+def _horn_cells(
+    broad_m: float, narrow_m: float, width_m: float, height_m: float, cell_m: float
+) -> tuple[int, int, int, int]:
+    """Cells across the feed's broad and narrow walls (odd) and the flare's factors (odd)."""
+    nx, ny = _odd(math.ceil(broad_m / cell_m - 1e-9)), _odd(math.ceil(narrow_m / cell_m - 1e-9))
+    mx = _odd(math.ceil(math.ceil(width_m / cell_m - 1e-9) / nx))
+    my = _odd(math.ceil(math.ceil(height_m / cell_m - 1e-9) / ny))
+    return nx, ny, mx, my
+
+
 def horn_segments_needed(
     broad_m: float,
     narrow_m: float,
@@ -392,17 +445,53 @@ def horn_segments_needed(
     """Segments of the whole horn grid (before the plane splits), without building it."""
     lam = moment.C_M_S / frequency_hz
     lg = _guide_wavelength_m(broad_m, frequency_hz)
-    if not math.isfinite(lg):
+    if not (math.isfinite(lg) and math.isfinite(length_m) and length_m > 0):
         return math.inf
     cell = CELL_WAVELENGTHS * lam
-    nx, ny = _odd(math.ceil(broad_m / cell - 1e-9)), _odd(math.ceil(narrow_m / cell - 1e-9))
-    mx = _odd(math.ceil(math.ceil(width_m / cell - 1e-9) / nx))
-    my = _odd(math.ceil(math.ceil(height_m / cell - 1e-9) / ny))
+    nx, ny, mx, my = _horn_cells(broad_m, narrow_m, width_m, height_m, cell)
     feed_rings = math.ceil(HORN_FEED_GUIDE_WAVELENGTHS * lg / cell) + 2
-    flare_rings = math.ceil(length_m / cell) + 1
+    flare_rings = _flare_lines(
+        length_m, (broad_m, narrow_m), (width_m, height_m), (nx * mx, ny * my), cell
+    ).size
     feed = 2 * (nx + ny) * (2 * feed_rings - 1)
     flare = 2 * (nx * mx + ny * my) * (2 * flare_rings - 1)
-    return feed + flare + nx * ny * 2 + 8 * _probe_segments(narrow_m, lam)
+    short = 2 * nx * mx * ny * my + 2 * (nx * mx + ny * my)
+    return feed + flare + short + 8 * _probe_segments(narrow_m, lam)
+
+
+def _horn_spacing(
+    starts_m: NDArray[np.float64],
+    ends_m: NDArray[np.float64],
+    rings_z_m: NDArray[np.float64],
+    shape_m: tuple[float, float, float, float, float],
+    cells: tuple[int, int, int, int],
+) -> NDArray[np.float64]:
+    """Spacing of the parallel wires at each segment of the horn grid [m].
+
+    Axial wires: the cell round the ring where they run (the wall's width over its cells:
+    the feed's, or the flare's three times finer ones).  Ring wires: the mean of the axial
+    gaps on either side.  The short's wires: the short's own cells, across them.
+    """
+    a, b, big_a, big_b, flare = shape_m
+    nx, ny, cx, cy = cells
+    d = ends_m - starts_m
+    mid = 0.5 * (starts_m + ends_m)
+    t = np.clip((mid[:, 2] + flare) / flare, 0.0, 1.0)
+    in_flare = mid[:, 2] > -flare + 1e-9
+    width = np.where(in_flare, a + (big_a - a) * t, a)
+    height = np.where(in_flare, b + (big_b - b) * t, b)
+    on_broad = np.abs(np.abs(mid[:, 1]) - 0.5 * height) < 1e-9
+    round_ring = np.where(
+        on_broad, width / np.where(in_flare, cx, nx), height / np.where(in_flare, cy, ny)
+    )
+    gaps = np.diff(rings_z_m)
+    both = 0.5 * (np.concatenate([[gaps[0]], gaps]) + np.concatenate([gaps, [gaps[-1]]]))
+    index = np.clip(np.searchsorted(rings_z_m, mid[:, 2] - 1e-9), 0, rings_z_m.size - 1)
+    axial_gap = both[index]
+    short = np.where(np.abs(d[:, 0]) > np.abs(d[:, 1]), b / cy, a / cx)
+    ring = np.abs(d[:, 2]) <= 1e-12
+    at_short = np.abs(mid[:, 2] - rings_z_m[0]) < 1e-9
+    return np.where(ring, np.where(at_short, short, axial_gap), round_ring)
 
 
 class GridHorn(_SolvedOpening):
@@ -437,17 +526,51 @@ class GridHorn(_SolvedOpening):
     a quarter guide wavelength in front of the short: symmetric about both planes as
     the mode is; the modes they excite besides TE10 are below cut-off and decay before
     the throat.  Cell counts across the walls are odd, so no wire lies in a symmetry
-    plane; the ring wires that cross one are split there.  The flare's walls are graded
-    from the feed's cells to at most lambda/10 at the mouth (each feed cell split into
-    an odd number of flare cells, so the wires meet at the throat).
+    plane; the ring wires that cross one are split there.  The flare's rings have three
+    times (an odd number of times) the feed's cells, so the wires meet at the throat; the
+    short has the same fine cells.
+
+    The grid must shield: the field behind the horn is 35-50 dB under the beam's peak,
+    while inside the feed and the throat the guided wave runs at the walls.  A wire grid
+    of spacing d and wire radius r is a sheet of inductive reactance
+    X / eta0 = (d / lambda) ln(1 / (1 - exp(-2 pi r / d))) (Marcuvitz [4]_ sec. 5.21, the
+    grating of round wires) and lets through about 2 X / eta0 of the field at it.  So:
+
+    * the flare's rings are spaced as its cells round the ring (near-square cells, at
+      most lambda/10), and every wire's radius is the equal-area value of *its own*
+      spacing (the parallel wires' distance over 2 pi);
+    * the short, where the guided wave's H (the wall current) is largest, has the
+      throat's fine cells;
+    * a radius is capped at a quarter of its own segment and 0.4 of the shortest
+      neighbour (:data:`HORN_NEIGHBOUR_RADIUS_PER_LENGTH`; a neighbour's centre, its
+      match point, stays outside the wire).
+
+    An earlier grid (rings every lambda/10 along the whole flare, one radius lambda/(20 pi)
+    for all wires, capped at a quarter of the shortest neighbour) had cells 4:1 at the
+    throat whose ring wires were capped to 0.4-0.8 mm at 12 mm spacing (X / eta0 about
+    0.14: -17 dB through the wall), and thinned wires where the split halves at the
+    symmetry planes meet the H plane's ring wires.  Its field beside and behind the horn
+    in the H plane was up to 10.1 dB over full wave (H 135 deg 0.3 m), falling with the
+    cell size (lambda/15: +8.7 dB, lambda/20: +6.5 dB): the leakage of the grid, not the
+    horn.  The feed guide closed by a second short at the throat (a box that should
+    radiate nothing) radiated 1e-3 of the horn's power through that grid, a field only
+    5 dB under the full-wave one at H 135 deg 0.3 m (checked when written).
 
     Validation (openEMS v0.0.35, case ``horn-wr340``: 0.24 x 0.18 m mouth, 0.30 m flare,
-    2 mm walls): in front (within 60 deg) -0.89 to +0.37 dB; beside and behind never
-    more than 1.7 dB under the full-wave field, and up to 10.1 dB over it in the H plane
-    120-150 deg behind the mouth, where the field is 33-38 dB under the beam's peak (the
-    same with a lambda/12 grid, and within 0.6 dB with twice the wire radius: not the
-    cell size nor the grid's transparency; the cause is not found).
-    Boresight directivity 14.68 against 14.64 dBi.
+    2 mm walls; 43 points 0.1-0.45 m): in front (within 60 deg) -0.85 to +0.29 dB; beside
+    and behind -1.67 to +4.33 dB (the highest at H 135 deg 0.3 m, where the field is 38 dB
+    under the beam's peak at that distance).  Boresight directivity 14.76 against
+    14.64 dBi.  The far-field H plane behind keeps a residue where full wave has a deep
+    null (-34 dBi at 125-130 deg; the model -28 to -22 dBi), and misses the full-wave
+    shallow lobes at 90 and 105 deg by -3.0 and -6.6 dB (directions 40 dB under the peak);
+    beyond 60 deg the E plane is within 1.7 dB of the full-wave pattern, the H plane
+    from 140 to 180 deg within 2.3 dB (nf2ff cuts, 5 deg steps).
+
+    References: module docstring, and
+
+    .. [4] N. Marcuvitz, *Waveguide Handbook*, MIT Radiation Laboratory Series vol. 10,
+       McGraw-Hill, 1951, sec. 5.21 (inductive obstacles: grating of round wires; from
+       memory of the edition).
     """
 
     kind = "horn"
@@ -502,36 +625,36 @@ class GridHorn(_SolvedOpening):
         )
         lam = self.wavelength_m
         cell = CELL_WAVELENGTHS * lam
-        nx, ny = _odd(math.ceil(a / cell - 1e-9)), _odd(math.ceil(b / cell - 1e-9))
-        mx = _odd(math.ceil(math.ceil(big_a / cell - 1e-9) / nx))
-        my = _odd(math.ceil(math.ceil(big_b / cell - 1e-9) / ny))
+        nx, ny, mx, my = _horn_cells(a, b, big_a, big_b, cell)
+        cx, cy = nx * mx, ny * my  # the flare's cells round the ring, and the short's
         z_short = -flare - self.feed_length_m
         probe_z = z_short + 0.25 * self._guide_wavelength_m
-        sections = [
-            (z_short, probe_z, a, b, a, b, nx, ny),
-            (probe_z, -flare, a, b, a, b, nx, ny),
-            (-flare, 0.0, a, b, big_a, big_b, nx * mx, ny * my),
-        ]
-        starts, ends = [], []
-        for k, (z0, z1, w0, h0, w1, h1, cx, cy) in enumerate(sections):
-            n = max(1, math.ceil(abs(z1 - z0) / cell - 1e-9))
-            rings = [
-                _ring(
-                    w0 + (w1 - w0) * i / n, h0 + (h1 - h0) * i / n, cx, cy, z0 + (z1 - z0) * i / n
-                )
-                for i in range(n + 1)
+        feed_z = np.concatenate(
+            [
+                moment.uniform_lines(z_short, probe_z, cell),
+                moment.uniform_lines(probe_z, -flare, cell)[1:-1],
             ]
-            finer_next = k + 1 < len(sections) and sections[k + 1][6] != cx
-            for i, ring in enumerate(rings):
-                if not (i == n and finer_next):  # the next section's finer ring replaces it
-                    starts.append(ring)
-                    ends.append(np.roll(ring, -1, axis=0))
-                if i < n:
-                    starts.append(ring)
-                    ends.append(rings[i + 1])
+        )
+        flare_z = _flare_lines(flare, (a, b), (big_a, big_b), (cx, cy), cell)
+        t = (flare_z + flare) / flare
+        widths = np.concatenate([np.full(feed_z.size, a), a + (big_a - a) * t])
+        heights = np.concatenate([np.full(feed_z.size, b), b + (big_b - b) * t])
+        zs = np.concatenate([feed_z, flare_z])
+        counts = [(nx, ny)] * feed_z.size + [(cx, cy)] * flare_z.size
+        starts, ends = [], []
+        for i, z in enumerate(zs):
+            # ring wires: the short's ring and the flare's rings at the fine cells
+            fine = i == 0 or counts[i][0] == cx
+            ring = _ring(widths[i], heights[i], *((cx, cy) if fine else counts[i]), z)
+            starts.append(ring)
+            ends.append(np.roll(ring, -1, axis=0))
+            if i + 1 < zs.size:  # axial wires at the coarser of the two rings' nodes
+                coarse = counts[i] if counts[i][0] <= counts[i + 1][0] else counts[i + 1]
+                starts.append(_ring(widths[i], heights[i], *coarse, z))
+                ends.append(_ring(widths[i + 1], heights[i + 1], *coarse, zs[i + 1]))
         ex, ey = np.eye(3)[0], np.eye(3)[1]
-        xs = -0.5 * a + a * np.arange(nx + 1) / nx
-        ys = -0.5 * b + b * np.arange(ny + 1) / ny
+        xs = -0.5 * a + a * np.arange(cx + 1) / cx
+        ys = -0.5 * b + b * np.arange(cy + 1) / cy
         short = moment.face_grid(
             np.array([0.0, 0.0, z_short]), ex, ey, xs, ys, ("u0", "u1", "v0", "v1")
         )
@@ -547,14 +670,15 @@ class GridHorn(_SolvedOpening):
         x = 0.5 * a / nx
         pa = np.column_stack([np.full(n_probe, x), y[:-1], np.full(n_probe, probe_z)])
         pb = np.column_stack([np.full(n_probe, x), y[1:], np.full(n_probe, probe_z)])
-        # Equal-area radii for the grid (cell / 2 pi), capped against the neighbours; the
-        # caps are taken on the whole structure so the images see the same junctions.
+        # Equal-area radii (the local spacing of the parallel wires over 2 pi), capped
+        # against the segment and its neighbours; the caps are taken on the whole structure
+        # so the images see the same junctions.
         whole_s = np.vstack([s, pa, pa * np.array([1.0, -1.0, 1.0])])
         whole_e = np.vstack([e, pb, pb * np.array([1.0, -1.0, 1.0])])
-        radii = np.concatenate(
-            [np.full(s.shape[0], cell / (2.0 * np.pi)), np.full(2 * n_probe, PROBE_RADIUS_M)]
-        )
-        radii = _cap_radii(whole_s, whole_e, radii)[: s.shape[0] + n_probe]
+        spacing = _horn_spacing(s, e, zs, (a, b, big_a, big_b, flare), (nx, ny, cx, cy))
+        radii = np.concatenate([spacing / (2.0 * np.pi), np.full(2 * n_probe, PROBE_RADIUS_M)])
+        radii = _cap_radii(whole_s, whole_e, radii, HORN_NEIGHBOUR_RADIUS_PER_LENGTH)
+        radii = radii[: s.shape[0] + n_probe]
         s, e = np.vstack([s, pa]), np.vstack([e, pb])
         quarter = (np.minimum(s[:, 0], e[:, 0]) >= -1e-12) & (
             np.minimum(s[:, 1], e[:, 1]) >= -1e-12

@@ -139,8 +139,9 @@ from .base import C_M_S, ETA0_OHM, ModelInputError
 #: Largest number of segments accepted (NEC-2's dense matrix: 16 N^2 bytes, N^3/3 steps).
 MAX_SEGMENTS = 4000
 #: The same for a structure solved from its quarter (four blocks of N/4: 1/16 the steps).
-#: An engine bound; models choose their own, lower, size for the grid (GridHorn: 6,000).
-MAX_SYMMETRIC_SEGMENTS = 8000
+#: An engine bound; models choose their own, lower, size for the grid (GridHorn: 10,500).
+#: Memory: four blocks of (N/4)^2 complex numbers, about 0.6 GB at this bound.
+MAX_SYMMETRIC_SEGMENTS = 12000
 #: Longest grid segment, in wavelengths (Burke & Poggio, part III).
 MAX_SEGMENT_WAVELENGTHS = 0.1
 #: Finest grid spacing at a feed, in wavelengths.
