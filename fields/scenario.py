@@ -484,7 +484,7 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
     if flange is not None:
         flange = t.build(check_flange, flange, width, height)
     needed = guide_grid.horn_segments_needed(broad, narrow, width, height, length, f, flange)
-    if flange is None and needed <= guide_grid.HORN_MAX_SEGMENTS:
+    if needed <= guide_grid.HORN_MAX_SEGMENTS:
         # The horn solved with its flare, feed and probes, and its flange if it has one
         # (validated all around against full wave).
         return t.build(guide_grid.GridHorn, horn, flange)

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import functools
 import tempfile
+import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -51,10 +52,21 @@ _FLANGE_BEHIND = (
     "it by 0.6 dB at most); on the safe side"
 )
 
+_FLANGED_HORN_BEHIND = (
+    "horn solved with its flange on the wall grid (antennas/guide_grid.py GridHorn): beside "
+    "and behind never more than 1.41 dB under openEMS (H 90 deg 0.2 m), but up to +12.9 dB "
+    "over it in the H plane 90-150 deg at 0.2-0.3 m (H 120 deg 0.2 m) and +9.1 dB straight "
+    "behind the feed guide (0.45 m), where full wave is 33-40 dB under boresight: the bare "
+    "horn's gap, with the plate shielding more of the true field; half the flare's and feed's "
+    "wire radius raises H 120 deg 0.2 m to +17.5 dB, half the plate's moves it by 0.1 dB, so "
+    "part of it is the walls' grid leaking the interior field; on the safe side"
+)
+
 #: (case, region) -> reason, for regions that do not meet the rule yet (measured errors).
 KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("horn-wr340", "elsewhere"): _HORN_BEHIND,
     ("flanged-wr340", "elsewhere"): _FLANGE_BEHIND,
+    ("flanged-horn-wr340", "elsewhere"): _FLANGED_HORN_BEHIND,
 }
 
 
@@ -77,13 +89,19 @@ def _load_case(case: vd.FullWaveCase) -> Scenario:
 
 
 @functools.cache
+def _scenario(name: str) -> Scenario:
+    """The case's scenario, loaded once per process (its wire-grid model built once)."""
+    return _load_case(vd.load(name))
+
+
+@functools.cache
 def _model(name: str) -> tuple[np.ndarray, float, float]:
     """The model's power density at the case's points, peak gain and +x gain [dBi].
 
     Computed once per case (a finite-ground model solves its currents once; three tests use it).
     """
     case = vd.load(name)
-    scenario = _load_case(case)
+    scenario = _scenario(name)
     radiator = scenario.sources[0].radiator
     density = evaluate(scenario, case.positions_m).power_density_w_m2
     peak = float(10 * np.log10(radiator.max_gain()))
@@ -188,7 +206,7 @@ def test_guide_and_horn_margin_covers_the_largest_error_in_front(name: str) -> N
     from keepclear.antennas.guide_grid import GridHorn, GridOpenWaveguide
 
     case = vd.load(name)
-    radiator = _load_case(case).sources[0].radiator
+    radiator = _scenario(name).sources[0].radiator
     assert isinstance(radiator, (GridOpenWaveguide, GridHorn))
     margin_db = radiator.gain_uncertainty_db
     expected = {
@@ -230,34 +248,68 @@ def test_rim_model_with_its_back_margin_is_never_far_under_openems(name: str, mo
 
 
 @pytest.mark.parametrize("name", _FLANGED_GRID_CASES)
+def test_a_flanged_case_is_solved_with_its_flange_and_radiates_power_w(name: str) -> None:
+    """The flanged guide and horn on the wall grid: the plate is there, power is conserved.
+
+    The far field integrated over the sphere is the radiated power (Balanis, *Antenna
+    Theory*, 4th ed., sec. 2.6): 1 W, within 1 %.  Points within 1 mm of the plate are
+    inside the source (the contract), points 3 mm off it are not.
+    """
+    from keepclear.antennas.base import ETA0_OHM, fibonacci_sphere
+    from keepclear.antennas.guide_grid import GridHorn, GridOpenWaveguide
+
+    case = vd.load(name)
+    scenario = _scenario(name)
+    radiator = scenario.sources[0].radiator
+    assert isinstance(radiator, (GridOpenWaveguide, GridHorn))
+    w, h = tomllib.loads(case.source_toml)["source"][0]["flange_m"]
+    assert radiator.flange_m == pytest.approx((w, h))
+    f = radiator._local_far_field(fibonacci_sphere(20000))
+    power = 4 * np.pi * np.mean(np.sum(np.abs(f) ** 2, axis=1)) / ETA0_OHM
+    assert power == pytest.approx(1.0, rel=0.01)
+    # the plate: aperture plane x = 0, w along +y, h along +z; near its corners
+    corner = np.array([0.0, 0.45 * w, 0.45 * h])
+    near = corner + np.array([[0.0005, 0.0, 0.0], [-0.0009, 0.0, 0.0]])
+    off = corner + np.array([[0.003, 0.0, 0.0], [-0.003, 0.0, 0.0], [0.0, 0.06 * w, 0.0]])
+    assert scenario.inside_source(near).all()
+    assert not scenario.inside_source(off).any()
+
+
+@pytest.mark.parametrize("name", _FLANGED_GRID_CASES)
 def test_flanged_rim_model_margins_cover_its_deficits(name: str, monkeypatch) -> None:
-    """The fallback for flanged guides too large for the wall grid, against a flanged case.
+    """The fallback for flanged guides and horns too large for the wall grid.
 
     A guide or horn with ``flange_m`` too large for the wire grid of its walls and flange
     is modelled by its aperture and the flange's edge currents (antennas/walls.py
-    WalledAperture; the wall-grid models forced off here), with FLANGE_BACK_MARGIN_DB =
-    8 dB beside and behind and FLANGE_GAIN_UNCERTAINTY_DB = 2.6 dB as its keep-out margin,
-    both derived from flanged-wr340 (openEMS v0.0.35: -7.61 dB behind without the margin at
-    H 135 deg 0.4 m; -2.53 dB at E 60 deg 0.2 m with it).  Checks: from 90 deg off
-    boresight on (where the back-region margin is whole) the model is never under full
-    wave; nowhere is it further under full wave than its keep-out margin.
+    WalledAperture; the wall-grid models forced off here), with a back-region margin
+    beside and behind and FLANGE_GAIN_UNCERTAINTY_DB = 2.6 dB as its keep-out margin,
+    derived from the flanged cases (openEMS v0.0.35): flanged-wr340, -7.61 dB behind
+    without the margin at H 135 deg 0.4 m, so FLANGE_BACK_MARGIN_DB = 8 dB for a guide;
+    -2.53 dB at E 60 deg 0.2 m with it; flanged-horn-wr340, -13.08 dB straight behind the
+    feed guide at 0.45 m, so FLANGED_HORN_BACK_MARGIN_DB = 14 dB for a horn.  Checks: from
+    90 deg off boresight on (where the back-region margin is whole) the model is never
+    under full wave; nowhere is it further under full wave than its keep-out margin.
     """
     from keepclear.antennas import guide_grid
     from keepclear.antennas.walls import (
         BACK_FULL_DEG,
         FLANGE_BACK_MARGIN_DB,
         FLANGE_GAIN_UNCERTAINTY_DB,
+        FLANGED_HORN_BACK_MARGIN_DB,
         WalledAperture,
     )
 
     monkeypatch.setattr(guide_grid, "MAX_SEGMENTS", 0)
     monkeypatch.setattr(guide_grid, "HORN_MAX_SEGMENTS", 0)
     case = vd.load(name)
-    with pytest.warns(PlausibilityWarning, match="8 dB margin"):
+    horn = "horn" in name
+    margin = FLANGED_HORN_BACK_MARGIN_DB if horn else FLANGE_BACK_MARGIN_DB
+    assert margin == (14.0 if horn else 8.0)
+    with pytest.warns(PlausibilityWarning, match=f"{margin:g} dB margin"):
         scenario = _load_case(case)
     radiator = scenario.sources[0].radiator
     assert isinstance(radiator, WalledAperture) and radiator.flange_m is not None
-    assert radiator.back_margin_db == FLANGE_BACK_MARGIN_DB == 8.0
+    assert radiator.back_margin_db == margin
     assert radiator.gain_uncertainty_db == FLANGE_GAIN_UNCERTAINTY_DB == 2.6
     density = evaluate(scenario, case.positions_m).power_density_w_m2
     err = 10 * np.log10(density / case.power_density_w_m2)

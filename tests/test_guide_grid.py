@@ -283,8 +283,16 @@ def test_the_demo_horn_is_solved_with_its_walls_and_radiates_power_w(write_scena
     assert inside.tolist() == [True, True, False]
 
 
-def test_a_flanged_horn_keeps_the_rim_model_and_says_so(write_scenario):
-    with pytest.warns(PlausibilityWarning, match="8 dB margin"):
+def test_a_flanged_horn_too_large_for_the_grid_keeps_the_rim_model_and_says_so(write_scenario):
+    """A flange that fits goes on the horn's grid (tests/test_fullwave.py, flanged-horn-wr340);
+    this one (0.40 x 0.30 m round the demo horn) would need more than HORN_MAX_SEGMENTS."""
+    from keepclear.antennas.guide_grid import HORN_MAX_SEGMENTS, horn_segments_needed
+
+    flange = (0.40, 0.30)
+    assert horn_segments_needed(0.08636, 0.04318, 0.24, 0.18, 0.30, 2.45e9, flange) > (
+        HORN_MAX_SEGMENTS
+    )
+    with pytest.warns(PlausibilityWarning, match="too large for the wire grid.*14 dB margin"):
         radiator = load_scenario(write_scenario(HORN.format(extra="flange_m = [0.4, 0.3]")))
     assert isinstance(radiator.sources[0].radiator, WalledAperture)
 
