@@ -89,9 +89,10 @@ def _model(radiator):
 
 @pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
 def test_shared_evaluations_leave_the_keepout_unchanged(tmp_path):
-    # The memo's machinery, on the flanged horn (the rim model: the unflanged horn's wire
-    # grid would make this a minute-long test of the same code path). The sharing is per
-    # field point, whatever the ray set: a coarse first pass (80 rays) shares as much.
+    # The memo's machinery, on the horn on a flange too large for its wire grid (the rim
+    # model: the horn's wire grid would make this a minute-long test of the same code path).
+    # The sharing is per field point, whatever the ray set: a coarse first pass (80 rays)
+    # shares as much.
     text = SIX.read_text(encoding="utf-8")
     anchor = "length_m = 0.30"
     assert anchor in text
