@@ -121,8 +121,6 @@ class Source:
         Fraction of time radiating, 0 < d <= 1.
     radiator : Radiator
         The field model, placed in the scenario.
-    given : dict
-        The keys as written in the file (for reports).
     """
 
     id: str
@@ -130,7 +128,6 @@ class Source:
     power_w: float
     duty_cycle: float
     radiator: Radiator
-    given: dict[str, Any] = field(default_factory=dict)
 
     @property
     def position_m(self) -> NDArray[np.float64]:
@@ -548,7 +545,7 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
         if pool is not None and model not in pool:
             pool[model] = radiator
     t.finish(allowed)
-    return Source(source_id, kind, power, duty, radiator, dict(t.data))
+    return Source(source_id, kind, power, duty, radiator)
 
 
 # --------------------------------------------------------------- top level
