@@ -648,7 +648,9 @@ def _kept_solution(
     the structure's bytes, the frequency, the feed and :func:`_engine_stamp`, so a kept
     file is only read back for exactly the same problem.  A file that cannot be read is
     solved again and replaced; writing goes through a temporary file and an atomic
-    rename, so parallel runs never see half a file.
+    rename, so parallel runs never see half a file.  ``stamp`` stands for
+    :func:`_engine_stamp` for what does not come from NEC-2 (the tables' samples,
+    :func:`_table_stamp`).
     """
     folder = solution_cache_dir()
     if folder is None:
