@@ -105,7 +105,10 @@ rising smoothly from 60 deg (:func:`back_margin`): with it the model is never mo
 over it.
 
 Opening in a flange (flanged-wr340: open WR-340, 2 mm walls, on a 0.25 x 0.20 m flange in
-the aperture plane).  The flange does not make the back region easier: behind the plate the
+the aperture plane).  A flanged guide or horn whose walls and flange fit the wall grid of
+:mod:`keepclear.antennas.guide_grid` is solved there (the flanged WR-340 guide within
+-0.60/+0.45 dB in front); this model serves the flanged ones too large for it, with the
+margins below.  The flange does not make the back region easier: behind the plate the
 model, without a margin, is up to 7.6 dB under full wave (H plane 135 deg, 0.3-0.4 m; the
 model drives every flange edge by the aperture's H along it, which is small on the edges
 along E, so those edges radiate little in the model), and the margin there is
@@ -117,8 +120,12 @@ flange's edges reshape the E-plane pattern: full wave peaks at 30-35 deg in the 
 smooth) misses: -2.4 to +4.1 dB in front, -2.5 dB at worst on the E plane's shoulder at 60
 deg.  Its keep-out margin is therefore :data:`FLANGE_GAIN_UNCERTAINTY_DB` = 2.6 dB.  The
 model's peak gain (7.9 dBi; full wave 7.2) lies in the margin's region, at grazing in the E
-plane.  A flanged horn takes the flanged guide's margins (its aperture is larger and the
-flange's edges are lit less: a physical argument, not a full-wave check).
+plane.  A horn in a flange (flanged-horn-wr340: the 0.24 x 0.18 m horn on WR-340 on a
+0.36 x 0.27 m flange) takes the same keep-out margin (the model is -2.16 to +0.83 dB from
+full wave in front), but straight behind, 3 cm behind its feed guide's short, the model
+without a margin is 13.1 dB under full wave (it leaves the feed guide's currents out; -4.9 dB
+at most elsewhere behind), so its back-region margin is :data:`FLANGED_HORN_BACK_MARGIN_DB`
+= 14 dB.
 
 Points on or inside the metal have no meaning (about the same as the aperture engine's:
 finite values, not a field anyone meets).
@@ -161,17 +168,25 @@ MIN_DELTA_WAVELENGTHS: Final[float] = 1.0 / 40.0
 #: -6.79 dB at 135 deg in the H plane, 0.1 m; openEMS v0.0.35), rounded up.
 BACK_MARGIN_DB: Final[float] = 7.0
 
-#: The same raise for an opening in a flange [dB]: the largest deficit of the flange's rim
+#: The same raise for an open guide in a flange [dB]: the largest deficit of the flange's rim
 #: model beside and behind against the flanged case of ``validation/`` (flanged-wr340: open
 #: WR-340 on a 0.25 x 0.20 m flange, -7.61 dB at 135 deg in the H plane, 0.4 m; openEMS
-#: v0.0.35), rounded up.  Taken for flanged horns too (no full-wave case of its own).
+#: v0.0.35), rounded up.
 FLANGE_BACK_MARGIN_DB: Final[float] = 8.0
+
+#: The same raise for a horn in a flange [dB]: the largest deficit of the flange's rim model
+#: beside and behind against flanged-horn-wr340 (the 0.24 x 0.18 m horn on WR-340 on a
+#: 0.36 x 0.27 m flange: -13.08 dB straight behind at 0.45 m, 3 cm behind the feed guide's
+#: short, whose currents the model leaves out; -4.9 dB at most elsewhere, E plane 135-150 deg
+#: 0.2 m; openEMS v0.0.35), rounded up.
+FLANGED_HORN_BACK_MARGIN_DB: Final[float] = 14.0
 
 #: Keep-out margin of an opening in a flange [dB]: the largest deficit of the flange's rim
 #: model (with its back-region margin) at any stored point of flanged-wr340 (-2.53 dB in the
 #: E plane at 60 deg, 0.2 m; in front of 60 deg -2.38 dB at 45 deg, 0.3 m: the E-plane lobe
 #: the flange's edges raise, which the model misses; openEMS v0.0.35), rounded up.  Taken
-#: for flanged horns too (no full-wave case of its own), unless their aperture states more.
+#: for flanged horns too, unless their aperture states more (on flanged-horn-wr340, with
+#: :data:`FLANGED_HORN_BACK_MARGIN_DB`, the model is -2.16 dB at worst, E 45 deg 0.3 m).
 FLANGE_GAIN_UNCERTAINTY_DB: Final[float] = 2.6
 
 #: The raise starts at this angle from boresight and is whole from :data:`BACK_FULL_DEG` on.
@@ -468,7 +483,8 @@ class WalledAperture(Radiator):
         :data:`FLANGE_GAIN_UNCERTAINTY_DB`.
     back_margin_db : float
         The back-region margin [dB]: :data:`BACK_MARGIN_DB` bare,
-        :data:`FLANGE_BACK_MARGIN_DB` with a flange.
+        :data:`FLANGE_BACK_MARGIN_DB` with a flange round a guide,
+        :data:`FLANGED_HORN_BACK_MARGIN_DB` round a horn (flared walls).
 
     Notes
     -----
@@ -504,7 +520,8 @@ class WalledAperture(Radiator):
         self.back_margin_db = BACK_MARGIN_DB
         if self.flange_m is not None:
             self.gain_uncertainty_db = max(self.gain_uncertainty_db, FLANGE_GAIN_UNCERTAINTY_DB)
-            self.back_margin_db = FLANGE_BACK_MARGIN_DB
+            horn = any(a > 0 for a in flare)
+            self.back_margin_db = FLANGED_HORN_BACK_MARGIN_DB if horn else FLANGE_BACK_MARGIN_DB
         k = self.wavenumber_rad_m
         if self.flange_m is None:
             self.edges = self._bare_rim_edges(np.radians(flare))

@@ -99,10 +99,11 @@ def plausibility_messages(scenario: Any) -> list[str]:
     for i, s in enumerate(scenario.sources):
         if isinstance(s.radiator, WalledAperture) and s.radiator.flange_m is not None:
             out.append(
-                f"source[{i}] ({s.antenna}) has a flange_m and is modelled as its aperture "
-                "with the flange's edge currents: held against one full-wave solution (an "
-                "open WR-340 guide on a 0.25 x 0.20 m flange), in front it was within "
-                "-2.4/+4.1 dB of it (its keep-out margin is "
+                f"source[{i}] ({s.antenna}) has a flange_m and is too large for the wire grid "
+                "of its walls and flange, so it is modelled as its aperture with the flange's "
+                "edge currents: held against two full-wave solutions (an open WR-340 guide on "
+                "a 0.25 x 0.20 m flange, a 0.24 x 0.18 m horn on a 0.36 x 0.27 m flange), in "
+                "front it was within -2.4/+4.1 dB of them (its keep-out margin is "
                 f"{s.radiator.gain_uncertainty_db:g} dB), beside and behind it carries a "
                 f"back-region {s.radiator.back_margin_db:g} dB margin (the largest deficit "
                 "found there, rounded up); "

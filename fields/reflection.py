@@ -731,14 +731,16 @@ class Reflector:
             return out
         start = np.broadcast_to(np.asarray(start_m, dtype=float).reshape(-1, 3), end.shape)
         axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
-        best = np.zeros(end.shape[0])
-        for offset in diffraction.cube_offsets(float(source_extent_m), axes):
-            geo = self._crossing(start + offset, end, frequency_hz)
-            f = np.ones(end.shape[0])
-            if geo.crossing.any():
-                f[geo.crossing] = diffraction.obstacle_factor(geo.nu[:, geo.crossing])
-            best = np.maximum(best, f)
-        return best
+        offsets = diffraction.cube_offsets(float(source_extent_m), axes)
+        # every corner's rays in one evaluation (the factor is computed ray by ray)
+        n = end.shape[0]
+        starts = (start[None, :, :] + offsets[:, None, :]).reshape(-1, 3)
+        ends = np.broadcast_to(end, (len(offsets), n, 3)).reshape(-1, 3)
+        geo = self._crossing(starts, ends, frequency_hz)
+        f = np.ones(starts.shape[0])
+        if geo.crossing.any():
+            f[geo.crossing] = diffraction.obstacle_factor(geo.nu[:, geo.crossing])
+        return f.reshape(len(offsets), n).max(axis=0)
 
 
 # ------------------------------------------------------------------ image method

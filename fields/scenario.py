@@ -424,25 +424,24 @@ def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
     flange = _flange(t)
     length = None
     if t.has("guide_length_m"):
-        if flange is not None:
-            raise t.error(
-                "guide_length_m",
-                "applies to a guide without flange_m (a flanged guide is modelled by its "
-                "opening and flange, not by the guide behind them)",
-            )
         length = t.number(
             "guide_length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0
         )
-    if flange is None:
-        from keepclear.antennas import guide_grid
+    from keepclear.antennas import guide_grid
+    from keepclear.antennas.walls import DEFAULT_WALL_M, check_flange
 
-        needed = guide_grid.segments_needed(
-            broad, narrow, f, length or guide_grid.default_guide_length_m(broad, f)
+    if flange is not None:
+        flange = t.build(
+            check_flange, flange, broad + 2 * DEFAULT_WALL_M, narrow + 2 * DEFAULT_WALL_M
         )
-        if needed <= guide_grid.MAX_SEGMENTS:
-            # The guide solved with its walls (validated all around against full wave).
-            return t.build(guide_grid.GridOpenWaveguide, guide, length)
-    # A flanged guide, or one too large for the wire grid: the aperture and its rim.
+    needed = guide_grid.segments_needed(
+        broad, narrow, f, length or guide_grid.default_guide_length_m(broad, f), flange
+    )
+    if needed <= guide_grid.MAX_SEGMENTS:
+        # The guide solved with its walls, and its flange if it has one (validated all
+        # around against full wave).
+        return t.build(guide_grid.GridOpenWaveguide, guide, length, flange)
+    # A guide too large for the wire grid: the aperture and its rim (or its flange's).
     return t.build(WalledAperture, guide, flange)
 
 
@@ -476,14 +475,17 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
     placement = _placement(t, "boresight", polarization=True)
     horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
     flange = _flange(t)
-    if flange is None:
-        from keepclear.antennas import guide_grid
+    from keepclear.antennas import guide_grid
+    from keepclear.antennas.walls import check_flange
 
-        needed = guide_grid.horn_segments_needed(broad, narrow, width, height, length, f)
-        if needed <= guide_grid.HORN_MAX_SEGMENTS:
-            # The horn solved with its flare, feed and probes (validated all around).
-            return t.build(guide_grid.GridHorn, horn)
-    # A flanged horn, or one too large for the wire grid: the aperture and its rim.
+    if flange is not None:
+        flange = t.build(check_flange, flange, width, height)
+    needed = guide_grid.horn_segments_needed(broad, narrow, width, height, length, f, flange)
+    if needed <= guide_grid.HORN_MAX_SEGMENTS:
+        # The horn solved with its flare, feed and probes, and its flange if it has one
+        # (validated all around against full wave).
+        return t.build(guide_grid.GridHorn, horn, flange)
+    # A horn too large for the wire grid: the aperture and its rim (or its flange's).
     flare = horn.geometry.flare_half_angles_deg
     return t.build(WalledAperture, horn, flange, flare_half_angles_deg=flare)
 

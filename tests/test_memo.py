@@ -111,9 +111,10 @@ def _model(radiator):
 
 @pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
 def test_shared_evaluations_leave_the_keepout_unchanged(tmp_path):
-    # The memo's machinery, on the flanged horn (the rim model: the unflanged horn's wire
-    # grid would make this a minute-long test of the same code path). The sharing is per
-    # field point, whatever the ray set: a coarse first pass (80 rays) shares as much.
+    # The memo's machinery, on the horn on a flange too large for its wire grid (the rim
+    # model: the horn's wire grid would make this a minute-long test of the same code path).
+    # The sharing is per field point, whatever the ray set: a coarse first pass (80 rays)
+    # shares as much.
     text = SIX.read_text(encoding="utf-8")
     anchor = "length_m = 0.30"
     assert anchor in text
@@ -138,11 +139,12 @@ def test_shared_evaluations_leave_the_keepout_unchanged(tmp_path):
 
 
 FLANGED_GUIDE = """
-name = "flanged guide (rim model)"
+name = "flanged guide (rim model: too long for the wire grid)"
 [[source]]
 antenna = "open-waveguide"
 power_w = 100.0
 waveguide = "WR-340"
+guide_length_m = 1.0
 flange_m = [0.3, 0.3]
 position_m = [0.0, 0.0, 1.0]
 boresight = [1.0, 0.0, 0.0]
@@ -152,8 +154,8 @@ boresight = [1.0, 0.0, 0.0]
 @pytest.mark.filterwarnings("ignore::keepclear.fields.plausibility.PlausibilityWarning")
 def test_with_power_scales_every_bundled_source_model(tmp_path):
     # Every radiator the loader builds (the guides and horns solved with their walls, the
-    # finite-ground monopole, wires, point sources; a flanged guide's rim model below): half
-    # the power is half the density everywhere.
+    # finite-ground monopole, wires, point sources; the rim model of a flanged guide too
+    # long for the grid, below): half the power is half the density everywhere.
     scenarios = Path(__file__).parent.parent / "scenarios"
     pts = _points(60, seed=3) + np.array([0.0, 0.0, 1.0])
     seen = set()

@@ -129,20 +129,41 @@ def guide_case(name: str, size: str, flange: tuple[float, float] | None = None) 
     }
 
 
-def horn_case() -> dict:
-    """The pyramidal horn on WR-340 (our own proportions)."""
+def horn_case(name: str = "horn-wr340", flange: tuple[float, float] | None = None) -> dict:
+    """The pyramidal horn on WR-340 (our own proportions), bare or on a flange."""
     a, b = WR["WR-340"]
     beta = np.sqrt((2 * np.pi / LAM) ** 2 - (np.pi / a) ** 2)
     lam_g = 2 * np.pi / beta
+    source = {
+        "antenna": "horn",
+        "power_w": 1.0,
+        "position_m": [0.0, 0.0, 0.0],
+        "boresight": [1.0, 0.0, 0.0],
+        "polarization": [0.0, 0.0, 1.0],
+        "waveguide": "WR-340",
+        "length_m": 0.30,
+        "aperture_width_m": 0.24,
+        "aperture_height_m": 0.18,
+    }
+    if flange is not None:
+        source["flange_m"] = list(flange)
     return {
-        "name": "horn-wr340",
+        "name": name,
         "kind": "horn",
         "description": (
             "Pyramidal horn on WR-340: aperture 0.24 m (broad, H-plane) x 0.18 m (E-plane), "
-            "axial length 0.30 m from throat to aperture, 2 mm perfectly conducting walls, no "
-            "flange; fed by a 0.12 m WR-340 section closed by a short, TE10 current sheet a "
+            "axial length 0.30 m from throat to aperture, 2 mm perfectly conducting walls, "
+            + (
+                f"flange {flange[0]} m (along the broad wall, y) x {flange[1]} m (along the "
+                f"E field, z), a {WALL_M * 1e3:.0f} mm perfectly conducting plate whose front "
+                "face is the aperture plane; "
+                if flange
+                else "no flange; "
+            )
+            + "fed by a 0.12 m WR-340 section closed by a short, TE10 current sheet a "
             "quarter guide wavelength in front of the short."
         ),
+        "flange": flange,
         "a": a,
         "b": b,
         "aperture": (0.24, 0.18),
@@ -154,17 +175,7 @@ def horn_case() -> dict:
         "extra_behind": [0.45],
         "symmetric": True,
         "fc": 0.6e9,
-        "source": {
-            "antenna": "horn",
-            "power_w": 1.0,
-            "position_m": [0.0, 0.0, 0.0],
-            "boresight": [1.0, 0.0, 0.0],
-            "polarization": [0.0, 0.0, 1.0],
-            "waveguide": "WR-340",
-            "length_m": 0.30,
-            "aperture_width_m": 0.24,
-            "aperture_height_m": 0.18,
-        },
+        "source": source,
     }
 
 
@@ -228,6 +239,7 @@ CASES = {
     "box-probe-offset": lambda: probe_case(
         "box-probe-offset", "box", (0.20, 0.09), 0.15, offset=(0.05, 0.0)
     ),
+    "flanged-horn-wr340": lambda: horn_case("flanged-horn-wr340", flange=(0.36, 0.27)),
 }
 
 
@@ -293,6 +305,14 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     if case["kind"] == "horn":
         a, b = case["a"], case["b"]
         A, B = case["aperture"]
+        if case["flange"]:
+            fw, fh = case["flange"]  # the plate: x from -WALL_M to 0, |y| <= fw/2, |z| <= fh/2
+            if (
+                -WALL_M - margin <= x <= margin
+                and abs(y) <= fw / 2 + margin
+                and abs(z) <= fh / 2 + margin
+            ):
+                return True
         L, Lf = case["horn_length"], case["feed_length"]
         if -L - Lf - WALL_M - margin <= x <= -L:
             return abs(y) <= a / 2 + WALL_M + margin and abs(z) <= b / 2 + WALL_M + margin
@@ -352,6 +372,10 @@ def fixed_lines(case: dict) -> list[list[float]]:
         L[0] += [-Lh - Lf - t, -Lh - Lf, -Lh - Lf + case["lam_g"] / 4, -Lh - 0.03, -Lh]
         L[1] += [a / 2, a / 2 + t]
         L[2] += [b / 2, b / 2 + t]
+        if case["flange"]:
+            L[1] += [case["flange"][0] / 2]
+            L[2] += [case["flange"][1] / 2]
+            L[0] += [-t]
     else:
         w, h = case["size"]
         oy, oz = case["offset"]
@@ -457,6 +481,12 @@ def add_geometry(case: dict, CSX, FDTD, lines) -> dict:  # noqa: ANN001
             air.AddBox([-t, -a / 2, -b / 2], [0.0, a / 2, b / 2], priority=20)
         if case["kind"] == "horn":
             add_horn_walls(case, pec, lines)
+            if case["flange"]:
+                fw, fh = case["flange"]
+                big_a, big_b = case["aperture"]
+                pec.AddBox([-t, -fw / 2, -fh / 2], [0.0, fw / 2, fh / 2], priority=10)
+                air = CSX.AddMaterial("opening", epsilon=1.0)
+                air.AddBox([-t, -big_a / 2, -big_b / 2], [0.0, big_a / 2, big_b / 2], priority=20)
         # TE10 current sheet a quarter guide wavelength in front of the short
         xs = x0 + case["lam_g"] / 4
         xs = float(lines[0][np.argmin(np.abs(lines[0] - xs))])
