@@ -592,7 +592,7 @@ CACHE_ENV = "KEEPCLEAR_CACHE_DIR"
 
 
 def solution_cache_dir() -> Path | None:
-    """Folder where NEC-2 solutions are kept between runs, or None when switched off.
+    """Folder where NEC-2 solutions (and table samples) are kept between runs, or None.
 
     ``$KEEPCLEAR_CACHE_DIR`` if set ("off" or empty switches the store off), else
     ``$XDG_CACHE_HOME/keepclear/nec`` (``~/.cache/keepclear/nec``).  A folder that cannot
@@ -640,19 +640,23 @@ def _engine_stamp() -> bytes:
 SOLUTION_FORMAT = 1
 
 
-def _kept_solution(kind: str, parts: tuple, compute: Any) -> dict[str, NDArray]:
+def _kept_solution(
+    kind: str, parts: tuple, compute: Any, stamp: bytes | None = None
+) -> dict[str, NDArray]:
     """``compute()`` (a dict of arrays), kept on disk under a digest of every input.
 
     NEC-2 solves the same structure to the same currents every time: the digest covers
     the structure's bytes, the frequency, the feed and :func:`_engine_stamp`, so a kept
     file is only read back for exactly the same problem.  A file that cannot be read is
     solved again and replaced; writing goes through a temporary file and an atomic
-    rename, so parallel runs never see half a file.
+    rename, so parallel runs never see half a file.  ``stamp`` stands for
+    :func:`_engine_stamp` for what does not come from NEC-2 (the tables' samples,
+    :func:`_table_stamp`).
     """
     folder = solution_cache_dir()
     if folder is None:
         return compute()
-    digest = hashlib.sha256(_engine_stamp())
+    digest = hashlib.sha256(_engine_stamp() if stamp is None else stamp)
     for part in (kind, *parts):
         digest.update(part if isinstance(part, bytes) else repr(part).encode())
         digest.update(b"|")
@@ -1088,6 +1092,10 @@ class OutgoingExpansion:
     The far field is the table at s = 0 (:meth:`far_field`): F about the centre, which
     costs the same per direction as a field point and nothing per segment.
 
+    The kernel's samples (nearly all of a build's time) are kept on disk beside NEC-2's
+    solutions (:func:`_kept_table_samples`) and read back by a later run for exactly the
+    same currents, centre and sampling: the same table, to the last bit.
+
     Parameters
     ----------
     elements : CurrentElements
@@ -1144,12 +1152,10 @@ class OutgoingExpansion:
                 np.cos(tt).ravel(),
             ]
         )
+        samples = _kept_table_samples(elements, self.centre_m, s, u)
         values = np.empty((q, n, n, 6), dtype=complex)
         for iq in range(q):
-            r = 1.0 / s[iq]
-            e, h = elements.fields(self.centre_m + r * u)
-            a = np.hstack([e, h]) * (r * np.exp(1j * k * r))
-            grid = a.reshape(half + 1, n, 6)
+            grid = samples[iq].reshape(half + 1, n, 6)
             values[iq, : half + 1] = grid
             # theta' = 2 pi - theta at phi is the point (theta, phi + pi).
             for i in range(half + 1, n):
@@ -1296,6 +1302,90 @@ class OutgoingExpansion:
         w = np.matmul(cheb.astype(complex)[:, None, :], w).reshape(p, self._n, 6)
         a = np.matmul(e_theta[:, None, :], w).reshape(p, 6)
         return a * (np.exp(-1j * self.wavenumber_rad_m * r) / r)[:, None]
+
+
+def _sample_table(
+    elements: CurrentElements,
+    centre_m: NDArray[np.float64],
+    s_m: NDArray[np.float64],
+    directions: NDArray[np.float64],
+) -> NDArray[np.complex128]:
+    """The kernel's r e^{jkr} (E, H) on spheres r = 1/s about the centre: a table's samples.
+
+    Shape (len(s), directions, 6): the exact kernel's values that an
+    :class:`OutgoingExpansion` is made from (the expensive part of building one).
+    """
+    k = elements.wavenumber_rad_m
+    out = np.empty((s_m.size, directions.shape[0], 6), dtype=complex)
+    for iq, s in enumerate(s_m):
+        r = 1.0 / s
+        e, h = elements.fields(centre_m + r * directions)
+        out[iq] = np.hstack([e, h]) * (r * np.exp(1j * k * r))
+    return out
+
+
+@functools.cache
+def _table_stamp() -> bytes | None:
+    """What a kept table depends on besides its inputs: the kernel and the sampling code.
+
+    None (nothing kept) when the code's source cannot be read.
+    """
+    import inspect
+
+    try:
+        parts = [
+            inspect.getsource(f).encode() for f in (CurrentElements, _sample_table, node_index)
+        ]
+    except (OSError, TypeError):  # installed without sources: built afresh every run
+        return None
+    return f"{TABLE_FORMAT}|{np.__version__}|".encode() + b"|".join(parts)
+
+
+#: Layout of a kept table file (raise it when the layout changes).
+TABLE_FORMAT = 1
+
+
+def _kept_table_samples(
+    elements: CurrentElements,
+    centre_m: NDArray[np.float64],
+    s_m: NDArray[np.float64],
+    directions: NDArray[np.float64],
+) -> NDArray[np.complex128]:
+    """:func:`_sample_table`, kept on disk next to the NEC-2 solutions.
+
+    The digest covers every input array's bytes (the segments, radii, currents,
+    wavenumber, centre, radii of the spheres and directions) and :func:`_table_stamp`, so a
+    kept file is read back only for exactly the same sources sampled the same way: the
+    table built from it is the one built afresh, to the last bit.  The same store,
+    atomic write and rebuild of an unreadable file as NEC-2's solutions
+    (:func:`_kept_solution`).
+    """
+    parts = (
+        elements.starts_m,
+        elements.ends_m,
+        elements.radii_m,
+        elements.start_currents_a,
+        elements.end_currents_a,
+        np.float64(elements.wavenumber_rad_m),
+        np.asarray(centre_m, dtype=np.float64),
+        np.asarray(s_m, dtype=np.float64),
+        np.asarray(directions, dtype=np.float64),
+    )
+    shape = (s_m.size, directions.shape[0], 6)
+
+    def compute() -> dict[str, NDArray]:
+        return {"samples": _sample_table(elements, centre_m, s_m, directions)}
+
+    stamp = _table_stamp()
+    if stamp is None:
+        return compute()["samples"]
+    byte_parts = tuple(
+        np.ascontiguousarray(p).tobytes() + repr((p.dtype.str, p.shape)).encode() for p in parts
+    )
+    samples = _kept_solution("table", byte_parts, compute, stamp).get("samples")
+    if samples is None or samples.shape != shape or samples.dtype != np.complex128:
+        samples = compute()["samples"]
+    return samples
 
 
 class ClusteredElements:

@@ -53,6 +53,12 @@ class _Solved:
     max_gain: tuple[float, NDArray[np.float64]] | None = field(default=None)
 
     @functools.cached_property
+    def largest_dimension_m(self) -> float:
+        """Diagonal of the smallest axis-aligned box (local frame) holding the metal [m]."""
+        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
+        return float(np.linalg.norm(pts.max(axis=0) - pts.min(axis=0)))
+
+    @functools.cached_property
     def near(self) -> moment.ClusteredElements:
         """The same currents for points near the metal: clusters, each with its table."""
         return moment.ClusteredElements(self.elements)
@@ -131,8 +137,7 @@ class SolvedWireRadiator(Radiator):
     @property
     def largest_dimension_m(self) -> float:
         """Diagonal of the smallest axis-aligned box (local frame) holding the metal [m]."""
-        pts = np.vstack([self.structure.starts_m, self.structure.ends_m])
-        return float(np.linalg.norm(pts.max(axis=0) - pts.min(axis=0)))
+        return self._solved.largest_dimension_m
 
     # --------------------------------------------------------------------- model
     def _local_fields(

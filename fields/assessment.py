@@ -1163,8 +1163,13 @@ def step_options(
     height_m: float,
     progress: ProgressFactory | None = None,
     rank_by: str = "keepout",
+    base_map: maps.MapRun | None = None,
 ) -> Comparison | None:
-    """Step 5, options: the ranked comparison of the ``[[option]]``s (None without)."""
+    """Step 5, options: the ranked comparison of the ``[[option]]``s (None without).
+
+    ``base_map`` (the floor map of step 2) serves as the base's map of the comparison
+    when it is on the same grid.
+    """
     if not scenario.options:
         return None
     from .compare import compare_options
@@ -1176,6 +1181,7 @@ def step_options(
         progress=lambda label: _callback(progress, label),
         base_keepouts=keepouts,
         rank_by=rank_by,
+        base_map=base_map,
         **grid.as_kwargs(),
     )
 
@@ -1525,7 +1531,9 @@ def _assess(
             readings_block = (
                 readings_data(scenario.with_limits(ids), readings) if readings else None
             )
-        comparison = step_options(scenario, ids, keepouts, grid, runs.height_m, progress, rank_by)
+        comparison = step_options(
+            scenario, ids, keepouts, grid, runs.height_m, progress, rank_by, runs.floor
+        )
     data, files = step_report(
         scenario,
         ids,

@@ -432,6 +432,7 @@ def compare_options(
     base_keepouts: Sequence[KeepoutResult] | None = None,
     rank_by: str = "keepout",
     own_panels: bool = True,
+    base_map: maps.MapRun | None = None,
 ) -> Comparison:
     """Assess the base and every option on a common floor grid and rank them.
 
@@ -455,6 +456,11 @@ def compare_options(
     own_panels : bool
         Give the figure's panel of an option whose own default extent is under
         :data:`OWN_PANEL_FRACTION` of the common one a map of its own extent.
+    base_map : MapRun, optional
+        A map of the base already made (the assessment's floor map): used as the
+        base's map when it is of this scenario and these keep-out answers, on the
+        same plane and the very same grid (the same samples, to the last bit), instead
+        of evaluating it again.
 
     Returns
     -------
@@ -492,16 +498,20 @@ def compare_options(
     out = []
     for order, ((name, description, s), k) in enumerate(zip(variants, keepouts, strict=True)):
         callback = progress(f"option {name}") if progress is not None else None
-        run = maps.run_map(
-            s,
-            plane,
-            k,
-            half_extent_m=half_extent_m,
-            step_m=step_m,
-            pixels=pixels,
-            centre_st_m=plane.centre_st_m,
-            progress=callback,
-        )
+        run = None
+        if order == 0 and base_map is not None:
+            run = _same_map(base_map, s, k, plane, half_extent_m, step_m, pixels)
+        if run is None:
+            run = maps.run_map(
+                s,
+                plane,
+                k,
+                half_extent_m=half_extent_m,
+                step_m=step_m,
+                pixels=pixels,
+                centre_st_m=plane.centre_st_m,
+                progress=callback,
+            )
         places, worst = place_values(s, ids)
         panel = None
         own_m = maps.default_half_extent_m(s, k, plane)
@@ -520,6 +530,50 @@ def compare_options(
             Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst, places, order, panel)
         )
     return Comparison(scenario, ids, height, tuple(rank_variants(out, rank_by)), rank_by)
+
+
+def _same_map(
+    run: maps.MapRun,
+    scenario: Scenario,
+    keepouts: Sequence[KeepoutResult],
+    plane: maps.Plane,
+    half_extent_m: float,
+    step_m: float | None,
+    pixels: int | None,
+) -> maps.MapRun | None:
+    """``run`` on ``plane``'s words if it is the map :func:`maps.run_map` would make, else None.
+
+    The same scenario object and keep-out answers, a plane of the same geometry and
+    a grid of the same samples (compared exactly: a map of other samples is made
+    afresh); the plane's description is this comparison's.
+    """
+    if run.scenario is not scenario or len(run.keepouts) != len(keepouts):
+        return None
+    if not all(a is b for a, b in zip(run.keepouts, keepouts, strict=True)):
+        return None
+    have = run.result.grid
+    same_plane = (
+        have.plane.kind == plane.kind
+        and have.plane.axis_names == plane.axis_names
+        and all(
+            np.array_equal(getattr(have.plane, name), getattr(plane, name))
+            for name in ("ref_m", "u", "v")
+        )
+    )
+    if not same_plane:
+        return None
+    want = maps.make_grid(
+        plane,
+        half_extent_m,
+        step_m=step_m,
+        pixels=pixels,
+        centre_st_m=plane.centre_st_m,
+        n_limits=len(keepouts),
+    )
+    if not (np.array_equal(want.s_m, have.s_m) and np.array_equal(want.t_m, have.t_m)):
+        return None
+    grid = replace(have, plane=plane)
+    return replace(run, result=replace(run.result, grid=grid))
 
 
 def check_rank_by(scenario: Scenario, rank_by: str) -> None:

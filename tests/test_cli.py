@@ -296,6 +296,23 @@ def test_installed_entry_point_subprocess(tmp_path):
     assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1
 
 
+def test_the_command_line_runs_blas_on_one_thread_unless_told(monkeypatch):
+    # Common practice, no source: small BLAS products lose to thread hand-offs
+    # (fields/cli.py ``_one_blas_thread`` gives the figures measured here).
+    from keepclear.fields import cli
+
+    for name in cli._BLAS_THREAD_VARIABLES:
+        monkeypatch.delenv(name, raising=False)
+    cli._one_blas_thread()
+    assert os.environ["OPENBLAS_NUM_THREADS"] == "1"
+    for name in cli._BLAS_THREAD_VARIABLES:
+        monkeypatch.delenv(name, raising=False)
+    monkeypatch.setenv("OMP_NUM_THREADS", "2")
+    cli._one_blas_thread()
+    assert "OPENBLAS_NUM_THREADS" not in os.environ
+    assert os.environ["OMP_NUM_THREADS"] == "2"
+
+
 # ------------------------------------------------------------
 # Fuzzing with random and broken input (hypothesis). What is checked, and against
 # what, is listed in tests/_fuzz_strategies.py.

@@ -320,3 +320,48 @@ def test_small_option_gets_its_own_lettered_panel(write_scenario):
     fig = comparison.figure()
     titles = [ax.get_title(loc="left") for ax in fig.axes if ax.get_title(loc="left")]
     assert titles[0].startswith("(a) 1. one watt") and titles[1].startswith("(b) 2. base")
+
+
+def test_the_assessment_floor_map_serves_as_the_base_map_only_on_the_same_grid(write_scenario):
+    # The base's map is reused when it has exactly the samples the comparison would
+    # take; the comparison is then the one made afresh (up to float rounding: the same
+    # evaluation either way), and a map on another grid is not used.
+    from dataclasses import replace
+
+    from keepclear.fields import maps
+    from keepclear.fields.keepout import keepout_distances
+
+    scenario = load_scenario(write_scenario(OPTIONS))
+    ids = scenario.limit_ids
+    keepouts = tuple(keepout_distances(scenario, ids))
+    fresh = compare_options(scenario, pixels=41, base_keepouts=keepouts)
+    base_fresh = next(v for v in fresh.variants if v.is_base).floor
+    height = float(scenario.centre_m[2])
+    plane = maps.principal_plane("xy", [*scenario.centre_m[:2], height])
+    extent = base_fresh.result.grid.extent_m[1] - base_fresh.result.grid.plane.centre_st_m[0]
+    ready = maps.run_map(
+        scenario,
+        replace(plane, description="a plane described otherwise"),
+        keepouts,
+        half_extent_m=extent,
+        pixels=41,
+    )
+    reused = compare_options(scenario, pixels=41, base_keepouts=keepouts, base_map=ready)
+    base = next(v for v in reused.variants if v.is_base).floor
+    assert base.result.power_density_w_m2 is ready.result.power_density_w_m2
+    assert base.plane.description == base_fresh.plane.description
+    np.testing.assert_allclose(
+        base.result.power_density_w_m2, base_fresh.result.power_density_w_m2, rtol=1e-12
+    )
+    assert [v.name for v in reused.variants] == [v.name for v in fresh.variants]
+    for a, b in zip(reused.variants, fresh.variants, strict=True):
+        assert a.zone_area_m2 == pytest.approx(b.zone_area_m2, rel=1e-9)
+        assert a.largest_keepout_m == pytest.approx(b.largest_keepout_m, rel=1e-9)
+    # Another grid (a coarser map of the same plane) is evaluated again.
+    coarse = maps.run_map(scenario, plane, keepouts, half_extent_m=extent, pixels=21)
+    other = compare_options(scenario, pixels=41, base_keepouts=keepouts, base_map=coarse)
+    base = next(v for v in other.variants if v.is_base).floor
+    assert base.result.grid.shape == (41, 41)
+    # Other keep-out answers than the map's: evaluated again too.
+    again = compare_options(scenario, pixels=41, base_map=ready)
+    assert next(v for v in again.variants if v.is_base).floor.result is not ready.result

@@ -70,6 +70,28 @@ def test_memo_gives_the_fields_of_a_fresh_evaluation():
     np.testing.assert_allclose(e3, half_e, **tol)
 
 
+def test_a_whole_array_asked_again_is_looked_up_and_a_changed_one_is_not_confused():
+    horn = _horn(800.0)
+    half = horn.with_power(400.0)
+    pts = _points(1500, seed=4)
+    plain_e, plain_h = horn.fields(pts)
+    moved = pts.copy()
+    moved[700, 2] += 1e-3
+    moved_e, _ = horn.fields(moved)
+    with shared_field_evaluations() as memo:
+        horn.fields(pts)
+        e2, h2 = horn.fields(pts.copy())  # the same points: found whole
+        e3, _ = half.fields(pts)  # found whole, scaled by sqrt(1/2)
+        assert (memo.looked_up, memo.evaluated) == (3000, 1500)
+        e4, _ = horn.fields(moved)  # one point differs: only it is evaluated
+        assert (memo.looked_up, memo.evaluated) == (3000 + 1499, 1501)
+    tol = dict(rtol=1e-12, atol=1e-15 * np.abs(plain_e).max())
+    np.testing.assert_allclose(e2, plain_e, **tol)
+    np.testing.assert_allclose(h2, plain_h, rtol=1e-12, atol=1e-15 * np.abs(plain_h).max())
+    np.testing.assert_allclose(e3, plain_e / np.sqrt(2.0), **tol)
+    np.testing.assert_allclose(e4, moved_e, **tol)
+
+
 def test_options_reuse_the_base_radiator_unless_the_model_changes():
     scenario = load_scenario(SIX)
     base = scenario.sources[0].radiator
