@@ -104,6 +104,15 @@ def test_a_flanged_guide_too_large_for_the_grid_keeps_the_rim_model_and_says_so(
     assert segments_needed(0.08636, 0.04318, 2.45e9, 1.0, FLANGE_M) > MAX_SEGMENTS
 
 
+@pytest.mark.parametrize("flange_m", [(0.35, 0.35), (0.40, 0.30)])
+def test_the_default_guide_on_a_usual_launcher_flange_fits_the_grid(flange_m):
+    # The sizes the README and the module docstring promise for the default 0.30 m WR-340
+    # guide (a flange of a few tens of centimetres is a launcher's usual mounting plate,
+    # common practice, no source); larger ones keep the rim model, as above.
+    assert segments_needed(0.08636, 0.04318, 2.45e9, 0.30, flange_m) <= MAX_SEGMENTS
+    assert segments_needed(0.08636, 0.04318, 2.45e9, 0.30, (0.45, 0.45)) > MAX_SEGMENTS
+
+
 def test_the_flanged_guide_radiates_power_w_through_a_closed_sphere():
     """Poynting's theorem: the near fields' flux through a sphere round the metal is power_w.
 
