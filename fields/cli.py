@@ -317,7 +317,14 @@ def _load(path: Path):  # noqa: ANN202
         raise InputError("no such file", str(path))
     from .scenario import load_scenario
 
-    return load_scenario(path)
+    # The first run of a new guide, horn or box solves it with NEC-2 (up to half a minute
+    # for the demo horn): a terminal shows that it is busy; later runs read it back.
+    with Progress() as progress:
+        stage = progress("solving the source models (kept for the next runs)")
+        if stage is None:
+            return load_scenario(path)
+        with stage.busy():
+            return load_scenario(path)
 
 
 def parse_vector(text: str, option: str) -> np.ndarray:

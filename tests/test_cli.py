@@ -397,3 +397,41 @@ def test_point_file_coordinates_are_bounded(write_scenario, tmp_path, bad):
     inp.write_text(f"x_m,y_m,z_m\n1,0,0\n{bad}\n")
     line = cli_one_error_line(cli_run("probe", path, "--points", inp, "--json"))
     assert "row 3" in line and "1e+06 m" in line
+
+
+def test_a_terminal_sees_the_source_models_being_solved(tmp_path):
+    """On a terminal, a model build of over a second shows a busy bar on stderr.
+
+    The bench's probe box, solved afresh (``KEEPCLEAR_CACHE_DIR=off``: NEC-2 runs, about
+    3 s), through a pseudo-terminal, as a user at a shell sees it; off a terminal (every
+    other test here) nothing is drawn.
+    """
+    pytest.importorskip("pty")  # POSIX pseudo-terminals
+    env = {k: v for k, v in os.environ.items() if k != "KEEPCLEAR_NO_PROGRESS"}
+    env["KEEPCLEAR_CACHE_DIR"] = "off"
+    script = (
+        "import os, pty, sys\n"
+        "pid, fd = pty.fork()\n"
+        "if pid == 0:\n"
+        "    os.execv(sys.executable, [sys.executable, '-m', 'keepclear.fields.cli', 'keepout',"
+        f" {str(SCENARIOS / 'bare-probe-bench.toml')!r}])\n"
+        "out = b''\n"
+        "while True:\n"
+        "    try:\n"
+        "        chunk = os.read(fd, 65536)\n"
+        "    except OSError:\n"
+        "        break\n"
+        "    if not chunk:\n"
+        "        break\n"
+        "    out += chunk\n"
+        "_, status = os.waitpid(pid, 0)\n"
+        "sys.stdout.write(str(os.waitstatus_to_exitcode(status)) + '\\n')\n"
+        "sys.stdout.write(out.decode(errors='replace'))\n"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", script], env=env, capture_output=True, text=True, timeout=300
+    )
+    status, _, screen = done.stdout.partition("\n")
+    assert status == "0", done.stdout + done.stderr
+    assert "solving the source models" in screen
+    assert "Keep people outside this radius" in screen
