@@ -76,6 +76,7 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Final
 
@@ -361,6 +362,25 @@ def cube_offsets(extent_m: float, axes: NDArray[np.float64]) -> NDArray[np.float
     return extent_m * signs @ axes.T
 
 
+def largest_over_corners(
+    factor: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.float64]],
+    start_m: NDArray[np.float64],
+    end_m: NDArray[np.float64],
+    offsets_m: NDArray[np.float64],
+) -> NDArray[np.float64]:
+    """The largest ``factor(start + offset, end)`` over the offsets (:func:`cube_offsets`).
+
+    ``start_m`` and ``end_m`` are (N, 3), one ray a row; ``factor`` works ray by ray, so
+    every corner's rays go to it in one call (the values are those of one call a corner).
+    """
+    if len(offsets_m) == 1:
+        return factor(start_m + offsets_m[0], end_m)
+    n = end_m.shape[0]
+    starts = (start_m[None, :, :] + offsets_m[:, None, :]).reshape(-1, 3)
+    ends = np.broadcast_to(end_m, (len(offsets_m), n, 3)).reshape(-1, 3)
+    return factor(starts, ends).reshape(len(offsets_m), n).max(axis=0)
+
+
 __all__ = [
     "K_INFINITY",
     "NU_LIMIT",
@@ -370,6 +390,7 @@ __all__ = [
     "fresnel_k",
     "knife_edge_loss_db",
     "knife_edge_loss_db_approximation",
+    "largest_over_corners",
     "obstacle_factor",
     "rectangle_aperture_factor",
     "rectangle_crossing",

@@ -732,15 +732,15 @@ class Reflector:
         start = np.broadcast_to(np.asarray(start_m, dtype=float).reshape(-1, 3), end.shape)
         axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
         offsets = diffraction.cube_offsets(float(source_extent_m), axes)
-        # every corner's rays in one evaluation (the factor is computed ray by ray)
-        n = end.shape[0]
-        starts = (start[None, :, :] + offsets[:, None, :]).reshape(-1, 3)
-        ends = np.broadcast_to(end, (len(offsets), n, 3)).reshape(-1, 3)
-        geo = self._crossing(starts, ends, frequency_hz)
-        f = np.ones(starts.shape[0])
-        if geo.crossing.any():
-            f[geo.crossing] = diffraction.obstacle_factor(geo.nu[:, geo.crossing])
-        return f.reshape(len(offsets), n).max(axis=0)
+
+        def factor(starts: NDArray[np.float64], ends: NDArray[np.float64]) -> NDArray:
+            geo = self._crossing(starts, ends, frequency_hz)
+            f = np.ones(starts.shape[0])
+            if geo.crossing.any():
+                f[geo.crossing] = diffraction.obstacle_factor(geo.nu[:, geo.crossing])
+            return f
+
+        return diffraction.largest_over_corners(factor, start, end, offsets)
 
 
 # ------------------------------------------------------------------ image method

@@ -538,13 +538,7 @@ class Shield:
             raise ValueError(f"source_extent_m must be >= 0, got {source_extent_m!r}")
         axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
         offsets = diffraction.cube_offsets(extent, axes)
-        if len(offsets) == 1:
-            return self._factor_from(src + offsets[0], pts)
-        # every corner's rays in one evaluation (the factor is computed ray by ray)
-        n = pts.shape[0]
-        starts = (src[None, :, :] + offsets[:, None, :]).reshape(-1, 3)
-        ends = np.broadcast_to(pts, (len(offsets), n, 3)).reshape(-1, 3)
-        return self._factor_from(starts, ends).reshape(len(offsets), n).max(axis=0)
+        return diffraction.largest_over_corners(self._factor_from, src, pts, offsets)
 
     def _factor_from(self, src: NDArray[np.float64], pts: NDArray[np.float64]) -> NDArray:
         hw = self.width_m / 2 - float(self.edge_margin_m or 0.0)
