@@ -193,13 +193,25 @@ def segments_needed(
     per_ring = 2 * (nx + ny)
     walls = per_ring * zs.size + per_ring * (zs.size - 1)
     short = nx * (ny - 1) + ny * (nx - 1)
-    flange = 0
-    if flange_m is not None:
-        xs, ys = _flange_lines(broad_m, narrow_m, nx, ny, flange_m, cell)
-        # The plate's whole grid less the opening's cells and its rim (the wall's ring).
-        flange = xs.size * (ys.size - 1) + ys.size * (xs.size - 1)
-        flange -= (nx + 1) * ny + (ny + 1) * nx
+    flange = _flange_segments(broad_m, narrow_m, nx, ny, flange_m, cell)
     return walls + short + flange + _probe_segments(narrow_m, lam)
+
+
+def _flange_segments(
+    broad_m: float,
+    narrow_m: float,
+    nx: int,
+    ny: int,
+    flange_m: tuple[float, float] | None,
+    cell_m: float,
+) -> int:
+    """Segments of the flange plate of :func:`_flange_grid` (0 without a flange)."""
+    if flange_m is None:
+        return 0
+    xs, ys = _flange_lines(broad_m, narrow_m, nx, ny, flange_m, cell_m)
+    # The plate's whole grid less the opening's cells and its rim (the walls' ring).
+    whole = xs.size * (ys.size - 1) + ys.size * (xs.size - 1)
+    return whole - ((nx + 1) * ny + (ny + 1) * nx)
 
 
 def _flange_lines(
@@ -606,12 +618,7 @@ def horn_segments_needed(
     feed = 2 * (nx + ny) * (2 * feed_rings - 1)
     flare = 2 * (nx * mx + ny * my) * (2 * flare_rings - 1)
     short = 2 * nx * mx * ny * my + 2 * (nx * mx + ny * my)
-    flange = 0
-    if flange_m is not None:
-        cx, cy = nx * mx, ny * my
-        xs, ys = _flange_lines(width_m, height_m, cx, cy, flange_m, cell)
-        flange = xs.size * (ys.size - 1) + ys.size * (xs.size - 1)
-        flange -= (cx + 1) * cy + (cy + 1) * cx
+    flange = _flange_segments(width_m, height_m, nx * mx, ny * my, flange_m, cell)
     return feed + flare + short + flange + 8 * _probe_segments(narrow_m, lam)
 
 

@@ -287,16 +287,16 @@ def nominal_points(case: dict) -> list[dict]:
 def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     """True for a point inside the source's metal or its interior, or within ``margin``."""
     x, y, z = p
+    if case["kind"] in ("guide", "horn") and case["flange"]:
+        fw, fh = case["flange"]  # the plate: x from -WALL_M to 0, |y| <= fw/2, |z| <= fh/2
+        if (
+            -WALL_M - margin <= x <= margin
+            and abs(y) <= fw / 2 + margin
+            and abs(z) <= fh / 2 + margin
+        ):
+            return True
     if case["kind"] == "guide":
         a, b, L = case["a"], case["b"], case["length"]
-        if case["flange"]:
-            fw, fh = case["flange"]  # the plate: x from -WALL_M to 0, |y| <= fw/2, |z| <= fh/2
-            if (
-                -WALL_M - margin <= x <= margin
-                and abs(y) <= fw / 2 + margin
-                and abs(z) <= fh / 2 + margin
-            ):
-                return True
         return (
             -L - WALL_M - margin <= x <= margin
             and abs(y) <= a / 2 + WALL_M + margin
@@ -305,14 +305,6 @@ def inside_metal(case: dict, p: np.ndarray, margin: float = 0.005) -> bool:
     if case["kind"] == "horn":
         a, b = case["a"], case["b"]
         A, B = case["aperture"]
-        if case["flange"]:
-            fw, fh = case["flange"]  # the plate: x from -WALL_M to 0, |y| <= fw/2, |z| <= fh/2
-            if (
-                -WALL_M - margin <= x <= margin
-                and abs(y) <= fw / 2 + margin
-                and abs(z) <= fh / 2 + margin
-            ):
-                return True
         L, Lf = case["horn_length"], case["feed_length"]
         if -L - Lf - WALL_M - margin <= x <= -L:
             return abs(y) <= a / 2 + WALL_M + margin and abs(z) <= b / 2 + WALL_M + margin
@@ -362,20 +354,12 @@ def fixed_lines(case: dict) -> list[list[float]]:
         L[0] += [-Lg - t, -Lg, -Lg + case["lam_g"] / 4, -0.15]
         L[1] += [a / 2, a / 2 + t]
         L[2] += [b / 2, b / 2 + t]
-        if case["flange"]:
-            L[1] += [case["flange"][0] / 2]
-            L[2] += [case["flange"][1] / 2]
-            L[0] += [-t]
     elif case["kind"] == "horn":
         a, b = case["a"], case["b"]
         Lh, Lf = case["horn_length"], case["feed_length"]
         L[0] += [-Lh - Lf - t, -Lh - Lf, -Lh - Lf + case["lam_g"] / 4, -Lh - 0.03, -Lh]
         L[1] += [a / 2, a / 2 + t]
         L[2] += [b / 2, b / 2 + t]
-        if case["flange"]:
-            L[1] += [case["flange"][0] / 2]
-            L[2] += [case["flange"][1] / 2]
-            L[0] += [-t]
     else:
         w, h = case["size"]
         oy, oz = case["offset"]
@@ -387,6 +371,10 @@ def fixed_lines(case: dict) -> list[list[float]]:
             L[0] += [-case["depth"]]
         L[1].remove(0.0)
         L[2].remove(0.0)
+    if case["kind"] in ("guide", "horn") and case["flange"]:
+        L[0] += [-t]  # the plate: x from -t to 0, its edges at |y| = w/2, |z| = h/2
+        L[1] += [case["flange"][0] / 2]
+        L[2] += [case["flange"][1] / 2]
     return L
 
 
