@@ -1324,6 +1324,10 @@ def _sample_table(
     return out
 
 
+#: Layout of a kept table file (raise it when the layout changes).
+TABLE_FORMAT = 1
+
+
 @functools.cache
 def _table_stamp() -> bytes | None:
     """What a kept table depends on besides its inputs: the kernel and the sampling code.
@@ -1339,10 +1343,6 @@ def _table_stamp() -> bytes | None:
     except (OSError, TypeError):  # installed without sources: built afresh every run
         return None
     return f"{TABLE_FORMAT}|{np.__version__}|".encode() + b"|".join(parts)
-
-
-#: Layout of a kept table file (raise it when the layout changes).
-TABLE_FORMAT = 1
 
 
 def _kept_table_samples(
@@ -1453,9 +1453,7 @@ class ClusteredElements:
             self._tables[i] = table
         return table
 
-    def fields(
-        self, points_m: ArrayLike
-    ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+    def fields(self, points_m: ArrayLike) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
         """E [V/m] and H [A/m] of all the elements at points (N, 3)."""
         pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
         e = np.zeros((pts.shape[0], 3), dtype=complex)

@@ -938,6 +938,7 @@ def reflected_fields(
         return np.zeros((n_pts, 3), dtype=complex), np.zeros((n_pts, 3), dtype=complex)
 
     images: list[tuple[NDArray, NDArray]] = []
+
     def field(points: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
         # shared between the variants of a scenario (antennas/memo.py)
         return radiator_fields(radiator, points)
