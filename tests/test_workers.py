@@ -161,3 +161,54 @@ def test_options_compared_in_workers_match_one_process(monkeypatch: pytest.Monke
         np.testing.assert_allclose(
             [p["power_density_w_m2"] for p in b], [p["power_density_w_m2"] for p in a], rtol=1e-12
         )
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+@pytest.mark.parametrize("name", ["plasma-bench", "drying-line-enclosure"])
+def test_keepout_rays_shared_between_workers_give_the_same_answers(
+    name: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A keep-out search whose ray batches are shared between two workers answers as one.
+
+    The distances, their margins, the directions and (with an enclosure) the clearance
+    from the box are compared; the shares must really have run.
+    """
+    from keepclear.fields import keepout
+
+    shared: list[int] = []
+    real = keepout.run_each
+
+    def counting(tasks, count=None):  # noqa: ANN001, ANN202
+        shared.append(len(tasks))
+        return real(tasks, count)
+
+    monkeypatch.setattr(keepout, "run_each", counting)
+    answers = []
+    for n in ("1", "2"):
+        monkeypatch.setenv(workers.WORKERS_VARIABLE, n)
+        found = keepout.keepout_distances(load_scenario(ROOT / "scenarios" / f"{name}.toml"))
+        answers.append(
+            [
+                (
+                    r.distance_m,
+                    r.distance_with_uncertainty_m,
+                    r.direction,
+                    None if r.outside_enclosure is None else r.outside_enclosure["distance_m"],
+                    None
+                    if r.outside_enclosure is None
+                    else r.outside_enclosure["clearance_from_enclosure_m"],
+                )
+                for r in found
+            ]
+        )
+    assert shared and set(shared) == {2}
+    for one, two in zip(*answers, strict=True):
+        assert one[0] == pytest.approx(two[0], rel=1e-12)
+        assert one[1] == pytest.approx(two[1], rel=1e-12)
+        if one[2] is None:
+            assert two[2] is None
+        else:
+            np.testing.assert_allclose(two[2], one[2], rtol=1e-12, atol=1e-15)
+        if one[3] is not None:
+            assert two[3] == pytest.approx(one[3], rel=1e-12)
+            assert two[4] == pytest.approx(one[4], rel=1e-12, abs=1e-15)
