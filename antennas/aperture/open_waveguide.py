@@ -237,8 +237,10 @@ class OpenWaveguide(ApertureRadiator):
         """
         p = points_local_m
         back = feed_guide_length_m(self.mode)
-        inside = (p[:, 2] <= 0.0) & (p[:, 2] >= -back - tolerance_m) & inside_guide(
-            p, 0.5 * self.broad_m, 0.5 * self.narrow_m, tolerance_m
+        inside = (
+            (p[:, 2] <= 0.0)
+            & (p[:, 2] >= -back - tolerance_m)
+            & inside_guide(p, 0.5 * self.broad_m, 0.5 * self.narrow_m, tolerance_m)
         )
         if self.model == "flange":
             inside |= np.abs(p[:, 2]) <= tolerance_m
