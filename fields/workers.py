@@ -160,7 +160,11 @@ class Pending(Generic[T]):
         self._children: dict[int, tuple[list[int], int, str]] = {}
         self._folder = ""
         if done is None:
-            self._start(n_children)
+            try:
+                self._start(n_children)
+            except OSError:  # no temporary folder, pipe or process to be had: run here
+                self.cancel()
+                self._done = [_isolated(task) for task in tasks]
 
     def _start(self, n_children: int) -> None:
         self._folder = tempfile.mkdtemp(prefix="keepclear-work-")

@@ -101,6 +101,15 @@ def test_cancelled_pieces_leave_no_child_behind() -> None:
             os.waitpid(pid, os.WNOHANG)
 
 
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_no_process_to_be_had_runs_the_pieces_here(monkeypatch: pytest.MonkeyPatch) -> None:
+    def refuse() -> int:
+        raise OSError(11, "Resource temporarily unavailable")
+
+    monkeypatch.setattr(workers.os, "fork", refuse)
+    assert workers.run_each([_pid, _pid], workers=2) == [os.getpid(), os.getpid()]
+
+
 @pytest.mark.parametrize("n", [1, 2])
 def test_a_failing_piece_raises_its_own_error(n: int) -> None:
     def bad() -> None:
