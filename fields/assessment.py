@@ -1416,8 +1416,12 @@ def step_report(
         name: _map_overlay(scenario, run, readings_block)
         for name, run in (("floor", floor), ("vertical", vertical))
     }
-    # The figures are drawn side by side (fields/workers.py): each is a piece of its own.
-    pieces: list[Callable[[], dict[str, bytes]]] = [
+    # The figures are drawn side by side (fields/workers.py): each is a piece of its own,
+    # the comparison's (the longest) first.
+    pieces: list[Callable[[], dict[str, bytes]]] = []
+    if comparison is not None:
+        pieces.append(functools.partial(_comparison_figures, comparison))
+    pieces += [
         functools.partial(
             map_files,
             floor,
@@ -1433,8 +1437,6 @@ def step_report(
             overlay=overlays["vertical"],
         ),
     ]
-    if comparison is not None:
-        pieces.append(functools.partial(_comparison_figures, comparison))
     for made in run_each(pieces):
         files.update(made)
     for level in runs.levels:

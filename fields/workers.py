@@ -100,8 +100,17 @@ def run_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> li
     list
         ``[task() for task in tasks]``, each computed from the state this process has
         when :func:`run_each` is called (see the module notes).
+
+    Notes
+    -----
+    Each piece gets a child of its own, forked when a place is free: this process only
+    waits meanwhile, so a child forked later sees the same state as the first.
     """
-    return start_each(tasks, workers).results()
+    tasks = list(tasks)
+    n_workers = worker_count() if workers is None else max(1, int(workers))
+    if len(tasks) <= 1 or n_workers <= 1 or not _can_fork():
+        return [_isolated(task) for task in tasks]
+    return Pending(tasks, [[i] for i in range(len(tasks))], n_workers).results()
 
 
 def start_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> Pending[T]:
@@ -109,14 +118,16 @@ def start_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> 
 
     This process may go on with other work meanwhile (that work does not reach the
     pieces: each sees the state at this call).  Without workers the pieces run here,
-    now.  ``workers`` children share the pieces (the first takes pieces 0, k, 2k, ...;
-    each piece inside :func:`keepclear.antennas.memo.isolated`); see :func:`run_each`.
+    now.  ``workers`` children, all forked now, share the pieces (the first takes pieces
+    0, k, 2k, ..., each inside :func:`keepclear.antennas.memo.isolated`); see
+    :func:`run_each`.
     """
     tasks = list(tasks)
     n_workers = worker_count() if workers is None else max(1, int(workers))
     if len(tasks) <= 1 or n_workers <= 1 or not _can_fork():
-        return Pending(tasks, [_isolated(task) for task in tasks])
-    return Pending(tasks, None, min(n_workers, len(tasks)))
+        return Pending(tasks, None)
+    k = min(n_workers, len(tasks))
+    return Pending(tasks, [list(range(j, len(tasks), k)) for j in range(k)], k)
 
 
 def _isolated(task: Callable[[], T]) -> T:
@@ -150,27 +161,39 @@ def _child(tasks: Sequence[Callable[[], Any]], path: str) -> None:  # pragma: no
 
 
 class Pending(Generic[T]):
-    """Pieces of work started by :func:`start_each`; :meth:`results` waits for them."""
+    """Pieces of work started by :func:`start_each`; :meth:`results` waits for them.
+
+    ``shares`` lists the pieces of each child; at most ``running`` children run at once
+    (the first ones are forked now, the others as places free up while :meth:`results`
+    waits).  Without ``shares`` the pieces run here, now.
+    """
 
     def __init__(
-        self, tasks: list[Callable[[], T]], done: list[T] | None, n_children: int = 0
+        self,
+        tasks: list[Callable[[], T]],
+        shares: list[list[int]] | None,
+        running: int = 1,
     ) -> None:
         self._tasks = tasks
-        self._done = done
+        self._done: list[T] | None = None
         self._children: dict[int, tuple[list[int], int, str]] = {}
+        self._waiting = list(shares or [])
+        self._running = max(1, running)
         self._folder = ""
-        if done is None:
-            try:
-                self._start(n_children)
-            except OSError:  # no temporary folder, pipe or process to be had: run here
-                self.cancel()
-                self._done = [_isolated(task) for task in tasks]
+        if shares is None:
+            self._done = [_isolated(task) for task in tasks]
+            return
+        try:
+            self._folder = tempfile.mkdtemp(prefix="keepclear-work-")
+            self._fork_while_free()
+        except OSError:  # no temporary folder, pipe or process to be had: run here
+            self.cancel()
+            self._done = [_isolated(task) for task in tasks]
 
-    def _start(self, n_children: int) -> None:
-        self._folder = tempfile.mkdtemp(prefix="keepclear-work-")
-        for j in range(n_children):
-            share = list(range(j, len(self._tasks), n_children))
-            path = os.path.join(self._folder, f"{j}.pickle")
+    def _fork_while_free(self) -> None:
+        while self._waiting and len(self._children) < self._running:
+            share = self._waiting.pop(0)
+            path = os.path.join(self._folder, f"{share[0]}.pickle")
             read_end, write_end = os.pipe()
             sys.stdout.flush()
             sys.stderr.flush()
@@ -178,7 +201,12 @@ class Pending(Generic[T]):
                 # Python 3.12 warns when a process with threads forks (a progress bar's
                 # thread, a test runner's): the child runs its pieces and exits at once
                 warnings.simplefilter("ignore", DeprecationWarning)
-                pid = os.fork()
+                try:
+                    pid = os.fork()
+                except OSError:
+                    os.close(read_end)
+                    os.close(write_end)
+                    raise
             if pid == 0:  # pragma: no cover - the child
                 os.close(read_end)
                 _child([self._tasks[i] for i in share], path)
@@ -192,7 +220,13 @@ class Pending(Generic[T]):
         n = len(self._tasks)
         got: list[Any] = [_FAILED] * n
         try:
-            while self._children:
+            while self._children or self._waiting:
+                try:
+                    self._fork_while_free()
+                except OSError:
+                    pass  # the pieces left are run here below
+                if not self._children:
+                    break
                 # a child's end of its pipe closes when it exits: wait for any of them
                 ready, _, _ = select.select(list(self._children), [], [])
                 for fd in ready:
@@ -232,6 +266,7 @@ class Pending(Generic[T]):
             except OSError:
                 pass
         self._children.clear()
+        self._waiting.clear()
         if self._folder:
             shutil.rmtree(self._folder, ignore_errors=True)
             self._folder = ""

@@ -33,8 +33,16 @@ def test_pieces_run_in_children_and_come_back_in_order() -> None:
     results = workers.run_each([lambda i=i: (i, os.getpid()) for i in range(5)], workers=2)
     assert [r[0] for r in results] == list(range(5))
     assert all(pid != os.getpid() for _, pid in results)
+    assert len({pid for _, pid in results}) == 5  # a child per piece, two at a time
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_started_pieces_are_shared_by_children_forked_at_once() -> None:
+    pending = workers.start_each([lambda i=i: (i, os.getpid()) for i in range(5)], workers=2)
+    results = pending.results()
+    assert [r[0] for r in results] == list(range(5))
     pids = [pid for _, pid in results]
-    assert len(set(pids)) == 2  # two children, taking pieces 0, 2, 4 and 1, 3
+    assert len(set(pids)) == 2 and os.getpid() not in pids  # pieces 0, 2, 4 and 1, 3
     assert pids[0] == pids[2] == pids[4] != pids[1] == pids[3]
 
 
