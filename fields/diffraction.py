@@ -251,7 +251,6 @@ def rectangle_crossing(
     c = np.abs(b - a) / length
     l1 = np.maximum(frac * length, _MIN_LEG_M)
     l2 = np.maximum((1 - frac) * length, _MIN_LEG_M)
-    a2, b2 = a * a, b * b
     edges = (  # (signed distance of the crossing inside the edge, the edge's offset, axis)
         (half_width_m - xu, half_width_m, 0),
         (half_width_m + xu, -half_width_m, 0),
@@ -264,10 +263,7 @@ def rectangle_crossing(
         across_s, along_s = (su, sv) if axis == 0 else (sv, su)
         across_e, along_e = (eu, ev) if axis == 0 else (ev, eu)
         excess = _edge_path_excess_m(
-            np.sqrt((across_s - offset) ** 2 + a2),
-            np.sqrt((across_e - offset) ** 2 + b2),
-            along_s - along_e,
-            length,
+            across_s - offset, a, across_e - offset, b, along_s - along_e, length
         )
         rows[k] = np.where(inner >= 0, 1.0, -1.0) * 2.0 * np.sqrt(excess / wavelength_m)
     nu[:, crossing] = np.clip(rows, -NU_LIMIT, NU_LIMIT)
@@ -279,20 +275,37 @@ def rectangle_crossing(
 
 
 def _edge_path_excess_m(
-    rho_start_m: NDArray[np.float64],
-    rho_end_m: NDArray[np.float64],
+    across_start_m: NDArray[np.float64],
+    height_start_m: NDArray[np.float64],
+    across_end_m: NDArray[np.float64],
+    height_end_m: NDArray[np.float64],
     along_m: NDArray[np.float64],
     direct_m: NDArray[np.float64],
 ) -> NDArray[np.float64]:
     """Path excess via an edge line, min over E of |SE| + |EP| - |SP| (>= 0) [m].
 
-    Unfolding P about the line into the half plane opposite S gives the shortest path
-    through the line, :math:`\\sqrt{(\\rho_S + \\rho_P)^2 + (t_S - t_P)^2}` with
-    :math:`\\rho` the distances from the line (``rho_start_m``, ``rho_end_m``) and
-    :math:`t_S - t_P` the separation along it (``along_m``); ``direct_m`` is |SP|.
+    In the plane across the edge line, S and P sit at (x_S, n_S) and (x_P, n_P) from the
+    line (``across``: in the rectangle's plane, ``height``: off it); ``along_m`` is
+    :math:`t_S - t_P` along the line and ``direct_m`` is |SP|.  Unfolding P about the line
+    into the half plane opposite S gives the shortest path through the line,
+    :math:`L = \\sqrt{(\\rho_S + \\rho_P)^2 + (t_S - t_P)^2}`, :math:`\\rho` the
+    distances from the line.  Its excess is written without the difference of two
+    nearly equal lengths: :math:`L^2 - |SP|^2 = 2(\\rho_S \\rho_P + x_S x_P + n_S n_P)`
+    (the along-line parts cancel exactly), and where the two offsets point apart, as on
+    a ray that passes close to the line,
+    :math:`\\rho_S \\rho_P + d = (x_S n_P - n_S x_P)^2 / (\\rho_S \\rho_P - d)` with
+    :math:`d = x_S x_P + n_S n_P`; the excess is :math:`(L^2 - |SP|^2) / (L + |SP|)`.
     """
-    via = np.sqrt((rho_start_m + rho_end_m) ** 2 + along_m**2)
-    return np.maximum(via - direct_m, 0.0)
+    rho_s = np.hypot(across_start_m, height_start_m)
+    rho_e = np.hypot(across_end_m, height_end_m)
+    dot = across_start_m * across_end_m + height_start_m * height_end_m
+    cross = across_start_m * height_end_m - height_start_m * across_end_m
+    product = rho_s * rho_e
+    with np.errstate(divide="ignore", invalid="ignore"):
+        apart = np.where(dot < 0, cross**2 / (product - dot), 0.0)
+    half_gap = np.where(dot < 0, apart, product + dot)
+    via = np.sqrt((rho_s + rho_e) ** 2 + along_m**2)
+    return np.maximum(2.0 * half_gap / (via + direct_m), 0.0)
 
 
 def rectangle_aperture_factor(nu: NDArray[np.float64]) -> NDArray[np.complex128]:

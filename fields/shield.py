@@ -15,7 +15,9 @@ What is and is not modelled, in order of importance:
   sheet passes added in the worst phase (:func:`~keepclear.fields.diffraction.obstacle_factor`).
   The factor is continuous everywhere except through the sheet itself: it falls
   smoothly from the lit side (where the Fresnel ripple can exceed 1 by up to 1.4 dB
-  beside an edge) through 0.5 (-6 dB) on the shadow boundary to, deep in the shadow,
+  beside one edge of a wide sheet, and by up to 2.84 dB beside a sheet a few Fresnel
+  zones across, where the ripples of its edges meet) through 0.5 (-6 dB) on the shadow
+  boundary to, deep in the shadow,
   the four edges' knife-edge fields added in magnitude plus the sheet's own
   transmission (the credit of the earlier hard-edge model there).  ``edge_margin_m``
   (default 0) shrinks the credited sheet on every side (a frame or seams near the edge
@@ -34,7 +36,8 @@ What is and is not modelled, in order of importance:
   towards the source side (declare a finite ``[[reflector]]`` for that), and the field
   scattered by the sheet beyond the Fresnel-Kirchhoff model.  An added shield never
   lowers the field on the source side, and raises it on the far side only by the
-  Fresnel ripple beside an edge (at most 1.9 dB near a corner, where two ripples meet).
+  Fresnel ripple beside an edge (at most 2.84 dB, the largest |1 - A| of the
+  Fresnel-Kirchhoff rectangle factor over all edge parameters; tests/test_shield.py).
 """
 
 from __future__ import annotations
