@@ -583,8 +583,9 @@ def h_probe_position(case: dict, lines, q: np.ndarray) -> np.ndarray:
     openEMS's magnetic wall zeroes the tangential H on the first dual line, and an H probe on
     the first mesh line above the wall (where the samples on the wall are taken) records no
     H at all (every E-plane and axis sample of the first runs had H = 0).  Its H probe is
-    moved to the next line (3-6 mm further off the wall): in the wall's plane only the
-    normal H_y survives, even about y = 0, so it changes there only to second order.
+    moved to the next line (4.1 mm further off the wall on the horns' meshes): in the
+    wall's plane only the normal H_y survives, even about y = 0, so it changes there only
+    to second order.
     """
     if case["symmetric"] and np.isclose(q[1], lines[1][1]):
         return np.array([q[0], lines[1][2], q[2]])
