@@ -44,19 +44,9 @@ _FLANGE_BEHIND = (
     "it by 0.6 dB at most); on the safe side"
 )
 
-_FLANGED_HORN_BEHIND = (
-    "horn solved with its flange on the wall grid (antennas/guide_grid.py GridHorn): beside "
-    "and behind never more than 1.29 dB under openEMS, up to +5.4 dB over it behind the plate "
-    "(E 150 deg 0.3 m), but +7.2 dB 27 mm behind the feed guide's short (axis 180 deg 0.45 m, "
-    "28 dB under the beam at that distance; the bare horn +2.2 dB there): the near field of "
-    "the short's wire grid, which lets some of the standing wave in front of it through; on "
-    "the safe side"
-)
-
 #: (case, region) -> reason, for regions that do not meet the rule yet (measured errors).
 KNOWN_GAPS: dict[tuple[str, str], str] = {
     ("flanged-wr340", "elsewhere"): _FLANGE_BEHIND,
-    ("flanged-horn-wr340", "elsewhere"): _FLANGED_HORN_BEHIND,
 }
 
 
@@ -279,10 +269,10 @@ def test_flanged_rim_model_margins_cover_its_deficits(name: str, monkeypatch) ->
     beside and behind and FLANGE_GAIN_UNCERTAINTY_DB = 2.6 dB as its keep-out margin,
     derived from the flanged cases (openEMS v0.0.35): flanged-wr340, -7.61 dB behind
     without the margin at H 135 deg 0.4 m, so FLANGE_BACK_MARGIN_DB = 8 dB for a guide;
-    -2.53 dB at E 60 deg 0.2 m with it; flanged-horn-wr340, -13.08 dB straight behind the
-    feed guide at 0.45 m, so FLANGED_HORN_BACK_MARGIN_DB = 14 dB for a horn.  Checks: from
-    90 deg off boresight on (where the back-region margin is whole) the model is never
-    under full wave; nowhere is it further under full wave than its keep-out margin.
+    -2.53 dB at E 60 deg 0.2 m with it; flanged-horn-wr340, -16.50 dB straight behind the
+    feed guide at 0.45 m (its H recorded), so FLANGED_HORN_BACK_MARGIN_DB = 17 dB for a horn.
+    Checks: from 90 deg off boresight on (where the back-region margin is whole) the model
+    is never under full wave; nowhere is it further under full wave than its keep-out margin.
     """
     from keepclear.antennas import guide_grid
     from keepclear.antennas.walls import (
@@ -298,7 +288,7 @@ def test_flanged_rim_model_margins_cover_its_deficits(name: str, monkeypatch) ->
     case = vd.load(name)
     horn = "horn" in name
     margin = FLANGED_HORN_BACK_MARGIN_DB if horn else FLANGE_BACK_MARGIN_DB
-    assert margin == (14.0 if horn else 8.0)
+    assert margin == (17.0 if horn else 8.0)
     with pytest.warns(PlausibilityWarning, match=f"{margin:g} dB margin"):
         scenario = _load_case(case)
     radiator = scenario.sources[0].radiator
@@ -342,6 +332,40 @@ def test_stored_case_is_complete_and_power_is_conserved(name: str) -> None:
         assert (plane, 90) in planes or plane == "E" and ("E", 120) in planes
         assert (plane, 135) in planes
     assert case.front().sum() >= 5
+
+
+#: Cases stored before validation/run.py moved the H probe of a sample on the magnetic
+#: wall one mesh line off it (``h_probe_position``): openEMS records no H on the first line
+#: above that wall, so their E-plane and axis samples hold H = 0 and a power density of
+#: |E|^2 / eta0 alone, a lower bound (behind the flanged horn's short the H part is 3.4 dB
+#: larger).  Re-run them with validation/run.py and drop them from this set.
+H_UNRECORDED_CASES = frozenset({"guide-wr340", "guide-wr430", "flanged-wr340"})
+
+
+@pytest.mark.parametrize("name", CASES)
+def test_every_stored_sample_records_e_and_h(name: str) -> None:
+    """The stored power density is max(|E|^2/eta0, eta0 |H|^2) of two recorded fields.
+
+    Where the full-wave H is missing (recorded as exactly zero) the stored density is the
+    electric part alone and can be several dB under the field there (straight behind the
+    flanged horn's short, 27 mm off it, eta0 |H| is 1.4 times |E|: the comparison read the
+    model 3.4 dB too high).  Every sample of a case stored since the fix records both; the
+    cases stored before it are listed in :data:`H_UNRECORDED_CASES` (this test fails once
+    such a case is re-run, so the list is kept true).
+    """
+    case = vd.load(name)
+    e = np.array([s["e_v_m"] for s in case.doc["samples"]])
+    h = np.array([s["h_a_m"] for s in case.doc["samples"]])
+    missing = ~((e > 0) & (h > 0))
+    if name in H_UNRECORDED_CASES:
+        assert missing.any(), f"{name} records every H now: drop it from H_UNRECORDED_CASES"
+        return
+    assert not missing.any(), _table(case, np.zeros(e.size), missing)
+    from keepclear.antennas.base import ETA0_OHM
+
+    assert case.power_density_w_m2 == pytest.approx(
+        np.maximum(e**2 / ETA0_OHM, ETA0_OHM * h**2), rel=1e-6
+    )
 
 
 def test_stored_files_stay_small() -> None:

@@ -332,7 +332,7 @@ def test_a_flanged_horn_too_large_for_the_grid_keeps_the_rim_model_and_says_so(w
     assert horn_segments_needed(0.08636, 0.04318, 0.24, 0.18, 0.30, 2.45e9, flange) > (
         HORN_MAX_SEGMENTS
     )
-    with pytest.warns(PlausibilityWarning, match="too large for the wire grid.*14 dB margin"):
+    with pytest.warns(PlausibilityWarning, match="too large for the wire grid.*17 dB margin"):
         radiator = load_scenario(write_scenario(HORN.format(extra="flange_m = [0.4, 0.3]")))
     assert isinstance(radiator.sources[0].radiator, WalledAperture)
 
