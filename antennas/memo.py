@@ -23,6 +23,12 @@ An array of points asked for before as a whole (a variant's map asks for the ver
 of the base's map) is found by a digest of its bytes and checked point by point against
 the copy kept, instead of one index look-up a point.
 
+The options of an assessment are computed side by side in worker processes
+(:mod:`keepclear.fields.workers`): each starts from what the base kept and sees nothing
+another option keeps.  Where they run one after the other in this process instead, each
+runs inside :func:`isolated`, which forgets at its end what was kept in it, so the
+results are the same, to the last bit, either way.
+
 Memory: at most :data:`MAX_POINTS` points are kept (E and H, 96 bytes, and an index entry,
 about 100 bytes, a point: about 150 MiB in all; a whole array's copy counts a quarter point
 a point); beyond that, new points are evaluated and not kept.  Everything is dropped when
@@ -59,6 +65,8 @@ class _Store:
     def __init__(self, scale: float) -> None:
         self.scale = scale
         self.index: dict[bytes, int] = {}
+        #: The keys in the order they were kept (to forget the newest, :meth:`truncate`).
+        self.keys: list[bytes] = []
         #: Whole point arrays seen before, by digest: (the points, their rows).
         self.chunks: dict[bytes, tuple[NDArray[np.float64], NDArray[np.intp]]] = {}
         self.e = np.empty((0, 3), dtype=complex)
@@ -77,8 +85,18 @@ class _Store:
         self.e[rows] = e
         self.h[rows] = h
         self.index.update(zip(keys, rows.tolist(), strict=True))
+        self.keys.extend(keys)
         self.size += n
         return rows
+
+    def truncate(self, size: int, n_chunks: int) -> None:
+        """Forget every point kept after the first ``size`` and every chunk after ``n_chunks``."""
+        for key in self.keys[size:]:
+            del self.index[key]
+        del self.keys[size:]
+        self.size = size
+        for digest in list(self.chunks)[n_chunks:]:
+            del self.chunks[digest]
 
 
 class FieldMemo:
@@ -160,6 +178,20 @@ class FieldMemo:
             self._remember_chunk(store, digest, pts, rows)
         return e, h
 
+    def checkpoint(self) -> tuple[int, dict[int, tuple[Any, int, int]]]:
+        """The memo's state now, for :meth:`rollback`."""
+        return self.kept, {
+            k: (entry, entry[1].size, len(entry[1].chunks)) for k, entry in self._stores.items()
+        }
+
+    def rollback(self, state: tuple[int, dict[int, tuple[Any, int, int]]]) -> None:
+        """Forget everything kept since :meth:`checkpoint` gave ``state``."""
+        kept, entries = state
+        self._stores = {k: entry for k, (entry, _, _) in entries.items()}
+        for entry, size, n_chunks in entries.values():
+            entry[1].truncate(size, n_chunks)
+        self.kept = kept
+
     def _remember_chunk(
         self, store: _Store, digest: bytes, pts: NDArray[np.float64], rows: NDArray[np.intp]
     ) -> None:
@@ -194,6 +226,25 @@ def shared_field_evaluations(max_points: int = MAX_POINTS) -> Iterator[FieldMemo
         yield memo
     finally:
         _ACTIVE.reset(token)
+
+
+@contextmanager
+def isolated() -> Iterator[None]:
+    """Inside the block, sharing goes on, but what is kept in it is forgotten at its end.
+
+    A piece of work run inside sees the evaluations kept before the block and its own,
+    never those of a piece run before it in another such block: the same state as a
+    child process forked at the block's start (:mod:`keepclear.fields.workers`).
+    """
+    memo = _ACTIVE.get()
+    if memo is None:
+        yield
+        return
+    state = memo.checkpoint()
+    try:
+        yield
+    finally:
+        memo.rollback(state)
 
 
 @contextmanager

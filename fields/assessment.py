@@ -31,7 +31,7 @@ from keepclear.antennas import memo
 from . import limits as limits_mod
 from . import maps
 from .cautions import CAUTION_TEXT
-from .compare import Comparison
+from .compare import Comparison, start_option_searches
 from .errors import InputError, LimitError, ResourceError
 from .field import FieldResult, evaluate, prepare
 from .keepout import KeepoutResult, keepout_distances
@@ -41,6 +41,7 @@ from .outputs import (  # noqa: F401 - re-exported: the output folders' former h
     stage_output_folder,
 )
 from .scenario import Scenario
+from .workers import Pending, run_each
 
 SCHEMA_VERSION = 1
 #: Largest coordinate accepted from arguments, as in scenario files and point files [m].
@@ -1164,11 +1165,13 @@ def step_options(
     progress: ProgressFactory | None = None,
     rank_by: str = "keepout",
     base_map: maps.MapRun | None = None,
+    searches: Pending[tuple[KeepoutResult, ...]] | None = None,
 ) -> Comparison | None:
     """Step 5, options: the ranked comparison of the ``[[option]]``s (None without).
 
     ``base_map`` (the floor map of step 2) serves as the base's map of the comparison
-    when it is on the same grid.
+    when it is on the same grid; ``searches`` are the options' keep-out searches when
+    already started (:func:`keepclear.fields.compare.start_option_searches`).
     """
     if not scenario.options:
         return None
@@ -1182,6 +1185,7 @@ def step_options(
         base_keepouts=keepouts,
         rank_by=rank_by,
         base_map=base_map,
+        option_keepouts=searches,
         **grid.as_kwargs(),
     )
 
@@ -1311,6 +1315,17 @@ def _map_overlay(scenario: Scenario, run: Any, readings_block: dict[str, Any] | 
     return MapOverlay(p95=p95, readings=marks)
 
 
+def _comparison_figures(comparison: Comparison) -> dict[str, bytes]:
+    """``compare.png`` and ``compare.svg`` of an assessment's option comparison."""
+    from . import plots
+
+    fig = comparison.figure()
+    return {
+        "compare.png": plots.figure_bytes(fig, "png"),
+        "compare.svg": plots.figure_bytes(fig, "svg"),
+    }
+
+
 def step_report(
     scenario: Scenario,
     limit_ids: Sequence[str],
@@ -1401,27 +1416,34 @@ def step_report(
         name: _map_overlay(scenario, run, readings_block)
         for name, run in (("floor", floor), ("vertical", vertical))
     }
-    files.update(
-        map_files(
+    # The figures are drawn side by side (fields/workers.py): each is a piece of its own,
+    # the comparison's (the longest) first.
+    pieces: list[Callable[[], dict[str, bytes]]] = []
+    if comparison is not None:
+        pieces.append(functools.partial(_comparison_figures, comparison))
+    pieces += [
+        functools.partial(
+            map_files,
             floor,
             "map-floor",
             formats=("png", "svg", "npz", "geojson"),
             overlay=overlays["floor"],
-        )
-    )
-    files.update(
-        map_files(
-            vertical, "map-vertical", formats=("png", "svg", "npz"), overlay=overlays["vertical"]
-        )
-    )
+        ),
+        functools.partial(
+            map_files,
+            vertical,
+            "map-vertical",
+            formats=("png", "svg", "npz"),
+            overlay=overlays["vertical"],
+        ),
+    ]
+    for made in run_each(pieces):
+        files.update(made)
     for level in runs.levels:
         stem = "map-" + level.key.replace("_", "-")
         files.update(map_files(level.run, stem, formats=("geojson",)))
     figures = {"floor": files["map-floor.png"], "vertical": files["map-vertical.png"]}
     if comparison is not None:
-        fig = comparison.figure()
-        files["compare.png"] = plots.figure_bytes(fig, "png")
-        files["compare.svg"] = plots.figure_bytes(fig, "svg")
         files["compare.json"] = json_text(comparison.data()).encode()
         figures["compare"] = files["compare.png"]
     if scenario_text is not None:
@@ -1523,17 +1545,32 @@ def _assess(
     # the steps in between evaluate points no option repeats, so they keep none.
     with memo.shared_field_evaluations() if scenario.options else contextlib.nullcontext():
         keepouts = step_keepout(scenario, ids, progress)
-        with memo.paused():
-            runs = step_maps(scenario, keepouts, grid, height_m, progress)
-            cylinders = step_zones(scenario, keepouts, runs, progress)
-            places = step_places(scenario, ids)
-            spread = step_uncertainty(scenario, ids, keepouts, progress)
-            readings_block = (
-                readings_data(scenario.with_limits(ids), readings) if readings else None
+        # The options' keep-out searches run in worker processes (fields/workers.py) while
+        # the base's maps are made here; each starts from the base's kept evaluations.
+        searches = start_option_searches(scenario, ids) if scenario.options else None
+        try:
+            with memo.paused():
+                runs = step_maps(scenario, keepouts, grid, height_m, progress)
+                cylinders = step_zones(scenario, keepouts, runs, progress)
+                places = step_places(scenario, ids)
+                spread = step_uncertainty(scenario, ids, keepouts, progress)
+                readings_block = (
+                    readings_data(scenario.with_limits(ids), readings) if readings else None
+                )
+            comparison = step_options(
+                scenario,
+                ids,
+                keepouts,
+                grid,
+                runs.height_m,
+                progress,
+                rank_by,
+                runs.floor,
+                searches,
             )
-        comparison = step_options(
-            scenario, ids, keepouts, grid, runs.height_m, progress, rank_by, runs.floor
-        )
+        finally:
+            if searches is not None:
+                searches.cancel()
     data, files = step_report(
         scenario,
         ids,

@@ -52,6 +52,7 @@ from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
 from .report_text import density_text, pair_text, share_text
 from .scenario import Scenario
+from .workers import Pending, run_each, start_each, worker_count
 
 SCHEMA_VERSION = 1
 ProgressFactory = Callable[[str], Callable[[int, int], None] | None]
@@ -433,6 +434,7 @@ def compare_options(
     rank_by: str = "keepout",
     own_panels: bool = True,
     base_map: maps.MapRun | None = None,
+    option_keepouts: Pending[tuple[KeepoutResult, ...]] | None = None,
 ) -> Comparison:
     """Assess the base and every option on a common floor grid and rank them.
 
@@ -461,6 +463,10 @@ def compare_options(
         base's map when it is of this scenario and these keep-out answers, on the
         same plane and the very same grid (the same samples, to the last bit), instead
         of evaluating it again.
+    option_keepouts : Pending, optional
+        The options' keep-out searches for ``limit_ids``, in the options' order, already
+        started by :func:`start_option_searches` (an assessment starts them before its
+        base maps, so that they run meanwhile).
 
     Returns
     -------
@@ -479,13 +485,26 @@ def compare_options(
     known = tuple(base_keepouts) if base_keepouts is not None else None
     if known is not None and [k.limit_id for k in known] != list(ids):
         known = None
-    keepouts = []
-    for i, (name, _, s) in enumerate(variants):
-        if i == 0 and known is not None:
-            keepouts.append(known)
-            continue
-        with maps.busy(progress, f"keep-out search: {name}"):
-            keepouts.append(tuple(keepout_distances(s, ids)))
+    # Every variant's search starts from the base's kept evaluations alone, in a worker
+    # process of its own where there are cores to spare (fields/workers.py): the same
+    # answers, to the last bit, on one core or many.
+    searched = [i for i in range(len(variants)) if not (i == 0 and known is not None)]
+    label = (
+        f"keep-out search: {variants[searched[0]][0]}"
+        if len(searched) == 1
+        else f"keep-out searches of {len(searched)} variants"
+    )
+    with maps.busy(progress, label):
+        if option_keepouts is not None:
+            found = list(option_keepouts.results())
+            if known is None:
+                found.insert(0, _variant_keepouts(scenario, ids))
+        else:
+            found = run_each(
+                [functools.partial(_variant_keepouts, variants[i][2], ids) for i in searched]
+            )
+    by_index = dict(zip(searched, found, strict=True))
+    keepouts = [known if i not in by_index else by_index[i] for i in range(len(variants))]
     centre = scenario.centre_m
     plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if height_m is None:
@@ -495,41 +514,109 @@ def compare_options(
             maps.default_half_extent_m(s, k, plane)
             for (_, _, s), k in zip(variants, keepouts, strict=True)
         )
-    out = []
-    for order, ((name, description, s), k) in enumerate(zip(variants, keepouts, strict=True)):
-        callback = progress(f"option {name}") if progress is not None else None
-        run = None
-        if order == 0 and base_map is not None:
-            run = _same_map(base_map, s, k, plane, half_extent_m, step_m, pixels)
-        if run is None:
-            run = maps.run_map(
-                s,
-                plane,
-                k,
-                half_extent_m=half_extent_m,
-                step_m=step_m,
-                pixels=pixels,
-                centre_st_m=plane.centre_st_m,
-                progress=callback,
-            )
-        places, worst = place_values(s, ids)
-        panel = None
-        own_m = maps.default_half_extent_m(s, k, plane)
-        if own_panels and own_m < OWN_PANEL_FRACTION * half_extent_m:
-            # A small option's zone is a few pixels of the common grid: its panel of the
-            # figure gets a map of its own extent (the data keep the common grid).
-            panel = maps.run_map(
-                s,
-                plane,
-                k,
-                half_extent_m=own_m,
-                pixels=run.result.grid.shape[1],
-                centre_st_m=plane.centre_st_m,
-            )
-        out.append(
-            Variant(name, description, s, k, run, leakage_5cm_w_m2(s), worst, places, order, panel)
+    grid = {"half_extent_m": half_extent_m, "step_m": step_m, "pixels": pixels}
+    # The base's map first, here: the options' maps look up what they share with it.
+    base_run = None
+    if base_map is not None:
+        base_run = _same_map(base_map, scenario, keepouts[0], plane, **grid)
+    if base_run is None:
+        callback = progress("option base") if progress is not None else None
+        base_run = maps.run_map(
+            scenario,
+            plane,
+            keepouts[0],
+            centre_st_m=plane.centre_st_m,
+            progress=callback,
+            **grid,
         )
+    side = base_run.result.grid.shape[1]
+    tasks = [
+        functools.partial(_variant_maps, s, ids, k, plane, grid, order > 0, own_panels, side)
+        for order, ((_, _, s), k) in enumerate(zip(variants, keepouts, strict=True))
+    ]
+    with maps.busy(progress, f"maps of {len(variants)} variants"):
+        made = run_each(tasks)
+    out = []
+    for order, ((name, description, s), k, piece) in enumerate(
+        zip(variants, keepouts, made, strict=True)
+    ):
+        floor, panel, places, worst, leakage = piece
+        run = base_run if floor is None else maps.MapRun(s, k, *floor)
+        panel_run = None if panel is None else maps.MapRun(s, k, *panel)
+        out.append(Variant(name, description, s, k, run, leakage, worst, places, order, panel_run))
     return Comparison(scenario, ids, height, tuple(rank_variants(out, rank_by)), rank_by)
+
+
+def start_option_searches(
+    scenario: Scenario, limit_ids: Sequence[str], workers: int | None = None
+) -> Pending[tuple[KeepoutResult, ...]]:
+    """Start the keep-out searches of the scenario's options (see :mod:`.workers`).
+
+    ``workers`` children share them (default: one core fewer than
+    :func:`keepclear.fields.workers.worker_count`, the caller going on with its own
+    work; at least one); with a single worker they run here, now.
+    """
+    if workers is None:
+        count = worker_count()
+        workers = max(1, count - 1) if count > 1 else 1
+    ids = tuple(limit_ids)
+    return start_each(
+        [functools.partial(_variant_keepouts, o.scenario, ids) for o in scenario.options],
+        workers,
+    )
+
+
+def _variant_keepouts(scenario: Scenario, limit_ids: tuple[str, ...]) -> tuple[KeepoutResult, ...]:
+    """One variant's keep-out answers (a piece of :func:`compare_options`' work)."""
+    return tuple(keepout_distances(scenario, limit_ids))
+
+
+_MapPiece = tuple[Any, Any, Any]
+
+
+def _variant_maps(
+    scenario: Scenario,
+    limit_ids: tuple[str, ...],
+    keepouts: tuple[KeepoutResult, ...],
+    plane: maps.Plane,
+    grid: dict[str, Any],
+    common_map: bool,
+    own_panels: bool,
+    side: int,
+) -> tuple[_MapPiece | None, _MapPiece | None, Any, Any, float | None]:
+    """One variant's maps, named places and leakage (a piece of :func:`compare_options`).
+
+    Returns the common map (when ``common_map``) and the figure's own-extent panel (when
+    the variant's own extent is under :data:`OWN_PANEL_FRACTION` of the common one), each
+    as (result, zones, shapes) without the scenario (the piece may run in a worker process:
+    only plain data come back), the places, the worst place and the leakage.
+    """
+
+    def piece(run: maps.MapRun) -> _MapPiece:
+        return run.result, run.zones, run.shapes
+
+    floor = None
+    if common_map:
+        floor = piece(
+            maps.run_map(scenario, plane, keepouts, centre_st_m=plane.centre_st_m, **grid)
+        )
+    places, worst = place_values(scenario, limit_ids)
+    panel = None
+    own_m = maps.default_half_extent_m(scenario, keepouts, plane)
+    if own_panels and own_m < OWN_PANEL_FRACTION * grid["half_extent_m"]:
+        # A small option's zone is a few pixels of the common grid: its panel of the
+        # figure gets a map of its own extent (the data keep the common grid).
+        panel = piece(
+            maps.run_map(
+                scenario,
+                plane,
+                keepouts,
+                half_extent_m=own_m,
+                pixels=side,
+                centre_st_m=plane.centre_st_m,
+            )
+        )
+    return floor, panel, places, worst, leakage_5cm_w_m2(scenario)
 
 
 def _same_map(

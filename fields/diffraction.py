@@ -241,24 +241,34 @@ def rectangle_crossing(
         return RectangleCrossing(crossing, nu, cos_inc, d1, d2, inside)
     s, e, a, b = start_m[crossing], end_m[crossing], ds[crossing], de[crossing]
     frac = a / (a - b)
-    seg = e - s
-    length = np.linalg.norm(seg, axis=1)
-    ray = seg / length[:, None]
-    x = s + frac[:, None] * seg
-    xu = (x - centre_m) @ width_axis
-    xv = (x - centre_m) @ height_axis
-    c = np.abs(ray @ normal)
+    # Both ends in the rectangle's frame (u along the width, v along the height, n the
+    # normal): each edge is then a line of constant u (or v) in the plane n = 0.
+    su, sv = (s - centre_m) @ width_axis, (s - centre_m) @ height_axis
+    eu, ev = (e - centre_m) @ width_axis, (e - centre_m) @ height_axis
+    length = np.sqrt((eu - su) ** 2 + (ev - sv) ** 2 + (b - a) ** 2)
+    xu = su + frac * (eu - su)
+    xv = sv + frac * (ev - sv)
+    c = np.abs(b - a) / length
     l1 = np.maximum(frac * length, _MIN_LEG_M)
     l2 = np.maximum((1 - frac) * length, _MIN_LEG_M)
-    edges = (
-        (half_width_m - xu, centre_m + half_width_m * width_axis, height_axis),
-        (half_width_m + xu, centre_m - half_width_m * width_axis, height_axis),
-        (half_height_m - xv, centre_m + half_height_m * height_axis, width_axis),
-        (half_height_m + xv, centre_m - half_height_m * height_axis, width_axis),
+    a2, b2 = a * a, b * b
+    edges = (  # (signed distance of the crossing inside the edge, the edge's offset, axis)
+        (half_width_m - xu, half_width_m, 0),
+        (half_width_m + xu, -half_width_m, 0),
+        (half_height_m - xv, half_height_m, 1),
+        (half_height_m + xv, -half_height_m, 1),
     )
     rows = np.empty((4, s.shape[0]))
-    for k, (inner, point, direction) in enumerate(edges):
-        excess = _edge_path_excess_m(s, e, length, point, direction)
+    for k, (inner, offset, axis) in enumerate(edges):
+        # across the edge line (distance from it) and along it, for the start and the end
+        across_s, along_s = (su, sv) if axis == 0 else (sv, su)
+        across_e, along_e = (eu, ev) if axis == 0 else (ev, eu)
+        excess = _edge_path_excess_m(
+            np.sqrt((across_s - offset) ** 2 + a2),
+            np.sqrt((across_e - offset) ** 2 + b2),
+            along_s - along_e,
+            length,
+        )
         rows[k] = np.where(inner >= 0, 1.0, -1.0) * 2.0 * np.sqrt(excess / wavelength_m)
     nu[:, crossing] = np.clip(rows, -NU_LIMIT, NU_LIMIT)
     cos_inc[crossing] = c
@@ -269,25 +279,19 @@ def rectangle_crossing(
 
 
 def _edge_path_excess_m(
-    start_m: NDArray[np.float64],
-    end_m: NDArray[np.float64],
+    rho_start_m: NDArray[np.float64],
+    rho_end_m: NDArray[np.float64],
+    along_m: NDArray[np.float64],
     direct_m: NDArray[np.float64],
-    edge_point_m: NDArray[np.float64],
-    edge_direction: NDArray[np.float64],
 ) -> NDArray[np.float64]:
     """Path excess via an edge line, min over E of |SE| + |EP| - |SP| (>= 0) [m].
 
     Unfolding P about the line into the half plane opposite S gives the shortest path
     through the line, :math:`\\sqrt{(\\rho_S + \\rho_P)^2 + (t_S - t_P)^2}` with
-    :math:`\\rho` the distances from the line and t the positions along it.
+    :math:`\\rho` the distances from the line (``rho_start_m``, ``rho_end_m``) and
+    :math:`t_S - t_P` the separation along it (``along_m``); ``direct_m`` is |SP|.
     """
-    rel_s = start_m - edge_point_m
-    rel_e = end_m - edge_point_m
-    ts = rel_s @ edge_direction
-    te = rel_e @ edge_direction
-    rho_s = np.linalg.norm(rel_s - ts[:, None] * edge_direction, axis=1)
-    rho_e = np.linalg.norm(rel_e - te[:, None] * edge_direction, axis=1)
-    via = np.sqrt((rho_s + rho_e) ** 2 + (ts - te) ** 2)
+    via = np.sqrt((rho_start_m + rho_end_m) ** 2 + along_m**2)
     return np.maximum(via - direct_m, 0.0)
 
 

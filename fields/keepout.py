@@ -66,6 +66,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -74,10 +75,12 @@ import numpy as np
 from numpy.typing import NDArray
 
 from keepclear.antennas.base import ETA0_OHM, fibonacci_sphere
+from keepclear.antennas.memo import active_memo
 
 from . import limits as limits_mod
 from .field import evaluate, radiating_terms
 from .scenario import Scenario
+from .workers import run_each, worker_count
 
 #: Field reflection assumed for a non-metal plane in the screening estimate (OET 65).
 SCREENING_GROUND_FIELD_REFLECTION = 0.6
@@ -85,6 +88,9 @@ SCREENING_GROUND_FIELD_REFLECTION = 0.6
 RADIUS_TOLERANCE = 1e-4
 #: Radial samples evaluated per pass of the outside-in sweep along the rays.
 RADIAL_BLOCK = 8
+#: Fewest rays of a batch shared between worker processes (a smaller batch costs less
+#: than starting them).
+SHARED_RAYS = 200
 #: Points whose quotients one search keeps for a second asking (rows x 8 bytes each).
 SEEN_POINTS = 2_000_000
 _POINT_KEY = np.dtype((np.void, 24))
@@ -300,6 +306,50 @@ class _Search:
 
     def rays(self, origins: NDArray[np.float64], directions: NDArray[np.float64]) -> NDArray:
         """Outermost radius from each ray's origin where the quotient reaches one, (rows, D).
+
+        A batch of at least :data:`SHARED_RAYS` rays is shared between worker processes
+        when there are cores to spare and no field sharing between variants is under way
+        (:mod:`keepclear.fields.workers`): worker ``j`` of ``k`` takes rays ``j, j + k,
+        ...`` (each its share of every direction), and the answers are those of
+        :meth:`_rays_here` on the whole batch (see :meth:`_shared_rays`).
+        """
+        count = worker_count()
+        if count > 1 and len(directions) >= SHARED_RAYS and active_memo() is None:
+            shared = self._shared_rays(origins, directions, count)
+            if shared is not None:
+                return shared
+        return self._rays_here(origins, directions)
+
+    def _shared_rays(
+        self, origins: NDArray[np.float64], directions: NDArray[np.float64], count: int
+    ) -> NDArray | None:
+        """:meth:`_rays_here` of the batch, computed in ``count`` interleaved shares.
+
+        Each share is searched as a batch of its own.  Its rays' ends are those of the
+        whole batch where they matter: a ray left early in a share (as zero, or with a
+        wider bracket) has three rays of that share farther, so it is not among the
+        whole batch's three farthest either, and a ray the whole batch would have left
+        is not among them in its share; the farthest, the ties with it, the refinement
+        starts, the keep-out and its direction are the same.  When a share had to
+        reach farther out than the bound (the reach is doubled for the whole batch),
+        None is returned and the batch is searched here.
+        """
+        shares = [np.arange(j, len(directions), count) for j in range(count)]
+        r_max = self.r_max
+
+        def share(index: NDArray[np.intp]) -> tuple[NDArray, float]:
+            return self._rays_here(origins[index], directions[index]), self.r_max
+
+        done = run_each([functools.partial(share, index) for index in shares], count)
+        if any(reach != r_max for _, reach in done):
+            return None
+        out = np.empty((len(self.rows), len(directions)))
+        for index, (radius, _) in zip(shares, done, strict=True):
+            out[:, index] = radius
+        return out
+
+    def _rays_here(self, origins: NDArray[np.float64], directions: NDArray[np.float64]) -> NDArray:
+        """:meth:`rays` in this process.
 
         Zero where the ray never reaches the limit.  The grid is sampled outward, the
         outermost sample at or above the limit kept, and the interval beyond it bisected;

@@ -340,15 +340,28 @@ def test_stored_files_stay_small() -> None:
 
 
 # ------------------------------------------------------- the open guide's boresight gain
-def _yaghjian_method_1_dbi(broad_m: float, narrow_m: float, forward_only: bool) -> float:
-    """Boresight gain by Yaghjian's first method, as reconstructed from the paper's abstract.
+# A. D. Yaghjian, "Approximate formulas for the far field and gain of open-ended rectangular
+# waveguide", IEEE Trans. Antennas Propag. AP-32(4), 378-384 (April 1984). Read: the
+# abstract and the opening of the introduction on the paper's first page (p. 378; the
+# abstract also at NASA ADS 1983STIN...8411384Y). Not read: the formulas from section II on
+# and the comparison with measured gains, so no value printed in the paper is reproduced.
+_YAGHJIAN_ON_AXIS_DB = 0.2  # on-axis gain accuracy, X-band and larger (abstract, p. 378)
+_EARLIER_FORMULAS_DB = 3.0  # upper end of the "2 to 3 dB" of earlier formulas (p. 378)
 
-    E plane: Stratton-Chu integration of the TE10 aperture E and H fields,
-    (1 + (beta/k) cos t) sinc(k b sin t / 2); H plane: integration of the aperture E field
-    alone, cos t cos(k a sin t / 2) / ((pi/2)^2 - (k a sin t / 2)^2); first-order azimuthal
-    dependence; gain = 4 pi U(0) / P with P the integral of the pattern. The abstract does not
-    say whether P is taken over the forward half-space (the formulas are stated for the
-    forward pattern) or the whole sphere; both readings are computed.
+
+def _yaghjian_method_1_dbi(broad_m: float, narrow_m: float, forward_only: bool) -> float:
+    """Boresight gain by Yaghjian's first method, as reconstructed from the paper's first page.
+
+    Printed on p. 378 (abstract): first-order azimuthal dependence of the fields; E-plane
+    pattern from the traditional Stratton-Chu integration of the TE10 mode; H-plane pattern,
+    first method, from a purely E-field integration across the end of the guide. Taken here
+    as (1 + (beta/k) cos t) sinc(k b sin t / 2) in the E plane and
+    cos t cos(k a sin t / 2) / ((pi/2)^2 - (k a sin t / 2)^2) in the H plane, first-order
+    azimuthal blend, gain = 4 pi U(0) / P with P the integral of that pattern. Not read:
+    the paper's own equations, and so over which angles its first method integrates P (the
+    formulas are stated for the forward pattern; the second method fixes its edge sources
+    by equating the power radiated into all space to the net input power); both readings
+    are computed.
     """
     from keepclear.antennas.waveguide import te10_mode
 
@@ -367,35 +380,71 @@ def _yaghjian_method_1_dbi(broad_m: float, narrow_m: float, forward_only: bool) 
     return float(10 * np.log10(4 * np.pi * (1 + r) ** 2 / power))
 
 
+def _aperture_integration_gain_dbi(broad_m: float, narrow_m: float) -> float:
+    """On-axis gain of the Stratton-Chu TE10 aperture integration per incident mode power.
+
+    The kind of formula "derived entirely by aperture integration with the Stratton-Chu
+    formulas" that Yaghjian (1984, p. 378) rates at 2 to 3 dB: the boresight field of
+    E_y = E0 cos(pi x / a), H_x = -E_y / Z_TE10 over the open end, divided by the power the
+    TE10 mode carries, E0^2 a b / (4 Z_TE10). Worked out here (not read from the paper):
+    G = (8 / pi) (a b / lambda^2) (1 + beta/k)^2 / (beta/k); with beta = k it is the
+    large-aperture value 32 a b / (pi lambda^2) of Balanis, *Antenna Theory*, 4th ed.,
+    Table 12.1.
+    """
+    from keepclear.antennas.waveguide import te10_mode
+
+    r = te10_mode(broad_m, narrow_m, 2.45e9).beta_over_k
+    wavelength = 299_792_458.0 / 2.45e9
+    gain = 8 / np.pi * broad_m * narrow_m / wavelength**2 * (1 + r) ** 2 / r
+    return float(10 * np.log10(gain))
+
+
 _GUIDES = [n for n in CASES if n.startswith("guide-")]
+
+
+def _inner_dimensions_m(case: vd.FullWaveCase) -> tuple[float, float]:
+    from keepclear.antennas.waveguide import waveguide_dimensions
+
+    return waveguide_dimensions(tomllib.loads(case.source_toml)["source"][0]["waveguide"])
 
 
 @pytest.mark.parametrize("name", _GUIDES)
 def test_open_guide_boresight_against_yaghjian_1984(name: str) -> None:
     """Open guide, no flange: openEMS boresight directivity against Yaghjian (1984).
 
-    Source: A. D. Yaghjian, "Approximate formulas for the far field and gain of open-ended
-    rectangular waveguide", IEEE Trans. Antennas Propag. AP-32(4), 378-384 (1984); its
-    abstract (NASA ADS 1983STIN...8411384Y) reports on-axis gains of X-band and larger
-    unflanged guides within about 0.2 dB of measurement. The printed equations were not at
-    hand: the method is reconstructed from the abstract (see the helper), which leaves open
-    whether the power integral spans the forward half-space or the whole sphere. The
-    full-wave value must lie between the two readings, widened by the 0.2 dB the abstract
-    claims. The stored cases are unflanged guides with 2 mm walls at 2.45 GHz (WR-340:
-    a / lambda = 0.71; WR-430: 0.89), inside the band the paper covers.
+    Source: Yaghjian (1984), first page (abstract): for X-band and larger open-ended guides,
+    both of his methods predict the on-axis gain within about 0.2 dB of measurement. His
+    second method fixes its edge sources by equating the power radiated into all space to
+    the net input power, so his gain is per net input power: for the lossless full-wave
+    guide, the radiated power, and the openEMS directivity is the quantity to compare. His
+    equations were not at hand: the first method is reconstructed (see the helper), and the
+    full-wave value must lie between its two readings, widened by the 0.2 dB the paper
+    claims. The same page rates the earlier formulas derived entirely by aperture
+    integration at "2 to 3 dB": the full wave must lie within 3 dB (plus the same 0.2 dB)
+    of such a formula (:func:`_aperture_integration_gain_dbi`).
+
+    The stored cases are unflanged guides at 2.45 GHz (WR-340: a / lambda = 0.71; WR-430:
+    0.89), inside a standard guide's band, with 2 mm walls: 4.6 % and 3.7 % of the narrow
+    side. The paper expects its formulas to lose accuracy for Ku-band (WR-62) and smaller
+    guides, whose walls are a large enough fraction of their height to change the edge
+    currents (p. 378); WR-62 tubing has walls of about 1 mm on a 7.9 mm narrow side, about
+    13 % (from memory), so the stored walls are relatively thin.
     """
-    import tomllib
-
-    from keepclear.antennas.waveguide import waveguide_dimensions
-
     case = vd.load(name)
-    a, b = waveguide_dimensions(tomllib.loads(case.source_toml)["source"][0]["waveguide"])
+    a, b = _inner_dimensions_m(case)
+    assert "2 mm perfectly conducting walls" in case.doc["description"]
+    d = case.boresight_directivity_dbi
     low = _yaghjian_method_1_dbi(a, b, forward_only=False)
     high = _yaghjian_method_1_dbi(a, b, forward_only=True)
     assert low < high
-    assert low - 0.2 <= case.boresight_directivity_dbi <= high + 0.2, (
-        f"{case.name} ({case.engine}): full wave {case.boresight_directivity_dbi:.2f} dBi, "
+    assert low - _YAGHJIAN_ON_AXIS_DB <= d <= high + _YAGHJIAN_ON_AXIS_DB, (
+        f"{case.name} ({case.engine}): full wave {d:.2f} dBi, "
         f"Yaghjian method 1 {low:.2f} (whole sphere) to {high:.2f} dBi (forward half)"
+    )
+    aperture = _aperture_integration_gain_dbi(a, b)
+    assert abs(d - aperture) <= _EARLIER_FORMULAS_DB + _YAGHJIAN_ON_AXIS_DB, (
+        f"{case.name} ({case.engine}): full wave {d:.2f} dBi, "
+        f"aperture integration per mode power {aperture:.2f} dBi"
     )
 
 

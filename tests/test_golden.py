@@ -81,7 +81,10 @@ def test_comparison_reports_the_differing_key():
     assert golden.differences({"distance_m": 2.0}, {"distance_m": far})[0].startswith(
         "$.distance_m:"
     )
-    assert golden.differences({"cylinder": {"radius_m": 1.0}}, {"cylinder": {"radius_m": 1.0001}}) == []
+    assert (
+        golden.differences({"cylinder": {"radius_m": 1.0}}, {"cylinder": {"radius_m": 1.0001}})
+        == []
+    )
     assert golden.differences({"limit_w_m2": 2.0}, {"limit_w_m2": near})  # not a bracket value
     direction = [0.6, 0.8, 0.0]
     assert golden.differences({"direction": direction}, {"direction": [0.6001, 0.7999, 0.0]}) == []

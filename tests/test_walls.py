@@ -77,13 +77,14 @@ def test_open_wr340_boresight_directivity_fullwave():
 def test_open_wr340_boresight_gain_published_range():
     """Against published gains of unflanged open rectangular guides.
 
-    Yaghjian, IEEE Trans. AP-32(4), 378-384 (1984), abstract: his formulas give the
-    on-axis gain of X-band and larger open-ended guides within about 0.2 dB of
+    Yaghjian, IEEE Trans. AP-32(4), 378-384 (1984), abstract (p. 378): both his methods
+    give the on-axis gain of X-band and larger open-ended guides within about 0.2 dB of
     measurement; our reconstruction of his first method
-    (:func:`open_waveguide_gain_variants`, ``"yaghjian-1"``) gives 5.66 dBi for WR-340
-    at 2.45 GHz.  The model must not fall below it (a keep-out estimate must not shrink),
-    and stays within 1.5 dB above it (the 2 dB pattern accuracy Yaghjian quotes, less
-    margin; the reconstruction is from the abstract, so the bound is loose).
+    (:func:`open_waveguide_gain_variants`, ``"yaghjian-1"``, whole-sphere reading) gives
+    5.66 dBi for WR-340 at 2.45 GHz.  The model must not fall below it (a keep-out
+    estimate must not shrink), and stays within 1.5 dB above it (the 2 dB pattern
+    accuracy Yaghjian quotes for his second method, less margin; the reconstruction is
+    from the paper's first page, its equations unread, so the bound is loose).
     """
     from keepclear.antennas.aperture import open_waveguide_gain_variants
 

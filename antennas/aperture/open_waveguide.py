@@ -89,9 +89,13 @@ def open_waveguide_gain_variants(
         ``"flange"``: magnetic current in an infinite flange;
         ``"yaghjian-1"``: E-plane pattern of the Stratton-Chu TE10 integration,
         H-plane pattern of the E-field-only integration, first-order azimuthal
-        dependence, total power (a reconstruction of the first method of
-        Yaghjian [4]_ from its abstract, which reports about 0.2 dB on-axis
-        accuracy against measurements for X-band and larger guides);
+        dependence, power integrated over the whole sphere (a reconstruction
+        of the first method of Yaghjian [4]_ from the description on the
+        paper's first page, p. 378, which reports about 0.2 dB on-axis
+        accuracy against measurements for X-band and larger guides; the
+        paper's equations were not read, and the power integrated over the
+        forward half-space alone would give about 1.7 dB more, 7.32 dBi for
+        WR-340 at 2.45 GHz: see ``validation/README.md``);
         ``"large-aperture"``: (8/pi^2) 4 pi a b / lambda^2 (Balanis, Table 12.1).
 
     References
@@ -233,8 +237,10 @@ class OpenWaveguide(ApertureRadiator):
         """
         p = points_local_m
         back = feed_guide_length_m(self.mode)
-        inside = (p[:, 2] <= 0.0) & (p[:, 2] >= -back - tolerance_m) & inside_guide(
-            p, 0.5 * self.broad_m, 0.5 * self.narrow_m, tolerance_m
+        inside = (
+            (p[:, 2] <= 0.0)
+            & (p[:, 2] >= -back - tolerance_m)
+            & inside_guide(p, 0.5 * self.broad_m, 0.5 * self.narrow_m, tolerance_m)
         )
         if self.model == "flange":
             inside |= np.abs(p[:, 2]) <= tolerance_m

@@ -1,0 +1,272 @@
+"""Independent pieces of work run side by side, each as if it ran alone.
+
+The options of a scenario are assessed independently of one another: each option's
+keep-out search, and later each option's maps, need only what the base has already
+computed (the loaded radiators, their tables and the field evaluations the base's
+search kept, :mod:`keepclear.antennas.memo`).  :func:`run_each` runs such pieces:
+
+* on Linux, each piece runs in a child process forked from this one, at most
+  :func:`worker_count` at a time (by default one per core, at most
+  :data:`MAX_WORKERS`).  A child sees everything this process holds at the moment it is
+  forked and nothing another piece computes; its result comes back pickled through a
+  file and the child exits.  A warning a piece gives is recorded in the child and given
+  again here, in the order of the pieces;
+* elsewhere (Windows and macOS, where forking a process that has loaded numerical
+  libraries is not safe), or with ``KEEPCLEAR_WORKERS=1``, the pieces run here one after
+  the other, each inside :func:`keepclear.antennas.memo.isolated`, so that none sees the
+  field evaluations another kept.
+
+Either way every piece starts from the same state, so the results are the same, to the
+last bit, whatever the number of cores or the order in which the pieces finish.  A piece
+that fails in a child (an error, a result that cannot be pickled, a child killed) is run
+again here, where its error is raised as it would be without workers.
+
+``KEEPCLEAR_WORKERS=N`` sets the number of children (a whole number from 1; 1 runs
+everything in this process).
+"""
+
+from __future__ import annotations
+
+import os
+import pickle
+import select
+import shutil
+import signal
+import sys
+import tempfile
+import warnings
+from collections.abc import Callable, Sequence
+from typing import Any, Final, Generic, TypeVar
+
+from keepclear.antennas import memo
+
+T = TypeVar("T")
+
+#: Most children run at once by default (each holds its own evaluations: about 100-300 MB
+#: for an assessment's option).
+MAX_WORKERS: Final[int] = 4
+#: Environment variable that sets the number of children.
+WORKERS_VARIABLE: Final[str] = "KEEPCLEAR_WORKERS"
+
+
+def _cores() -> int:
+    try:
+        return len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        return os.cpu_count() or 1
+
+
+def worker_count() -> int:
+    """How many pieces run at once: ``KEEPCLEAR_WORKERS`` or one per core (at most 4).
+
+    A value of ``KEEPCLEAR_WORKERS`` that is not a whole number from 1 is ignored with
+    a warning.  Without fork (see the module notes) the answer is 1.
+    """
+    if not _can_fork():
+        return 1
+    text = os.environ.get(WORKERS_VARIABLE, "").strip()
+    if text:
+        try:
+            n = int(text)
+        except ValueError:
+            n = 0
+        if n >= 1:
+            return n
+        warnings.warn(
+            f"{WORKERS_VARIABLE}={text!r} ignored: it must be a whole number from 1",
+            RuntimeWarning,
+            stacklevel=2,
+        )
+    return max(1, min(MAX_WORKERS, _cores()))
+
+
+def _can_fork() -> bool:
+    return sys.platform.startswith("linux") and hasattr(os, "fork")
+
+
+def run_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> list[T]:
+    """The results of ``tasks`` (called without arguments), in their order.
+
+    Parameters
+    ----------
+    tasks : sequence of callables
+        Independent pieces: each must not depend on what another computes, and its
+        result must pickle (it is sent back from a child process).
+    workers : int, optional
+        Children at once (default :func:`worker_count`); 1 runs every piece here.
+
+    Returns
+    -------
+    list
+        ``[task() for task in tasks]``, each computed from the state this process has
+        when :func:`run_each` is called (see the module notes).
+
+    Notes
+    -----
+    Each piece gets a child of its own, forked when a place is free: this process only
+    waits meanwhile, so a child forked later sees the same state as the first.
+    """
+    tasks = list(tasks)
+    n_workers = worker_count() if workers is None else max(1, int(workers))
+    if len(tasks) <= 1 or n_workers <= 1 or not _can_fork():
+        return [_isolated(task) for task in tasks]
+    return Pending(tasks, [[i] for i in range(len(tasks))], n_workers).results()
+
+
+def start_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> Pending[T]:
+    """Start ``tasks`` in worker processes and return at once; :meth:`Pending.results` waits.
+
+    This process may go on with other work meanwhile (that work does not reach the
+    pieces: each sees the state at this call).  Without workers the pieces run here,
+    now.  ``workers`` children, all forked now, share the pieces (the first takes pieces
+    0, k, 2k, ..., each inside :func:`keepclear.antennas.memo.isolated`); see
+    :func:`run_each`.
+    """
+    tasks = list(tasks)
+    n_workers = worker_count() if workers is None else max(1, int(workers))
+    if len(tasks) <= 1 or n_workers <= 1 or not _can_fork():
+        return Pending(tasks, None)
+    k = min(n_workers, len(tasks))
+    return Pending(tasks, [list(range(j, len(tasks), k)) for j in range(k)], k)
+
+
+def _isolated(task: Callable[[], T]) -> T:
+    with memo.isolated():
+        return task()
+
+
+_FAILED = "keepclear-piece-failed"
+
+
+def _child(tasks: Sequence[Callable[[], Any]], path: str) -> None:  # pragma: no cover
+    """In a forked child: run ``tasks``, write [(result, warnings)] to ``path``, exit."""
+    code = 1
+    try:
+        out: list[Any] = []
+        for task in tasks:
+            try:
+                with warnings.catch_warnings(record=True) as caught:
+                    warnings.simplefilter("always")
+                    value = _isolated(task)
+                given = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
+                pickle.dumps(value, protocol=pickle.HIGHEST_PROTOCOL)  # fails here, not below
+                out.append((value, given))
+            except Exception:  # noqa: BLE001 - the parent runs the piece again and raises
+                out.append(_FAILED)
+        with open(path, "wb") as handle:
+            pickle.dump(out, handle, protocol=pickle.HIGHEST_PROTOCOL)
+        code = 0
+    finally:
+        os._exit(code)
+
+
+class Pending(Generic[T]):
+    """Pieces of work started by :func:`start_each`; :meth:`results` waits for them.
+
+    ``shares`` lists the pieces of each child; at most ``running`` children run at once
+    (the first ones are forked now, the others as places free up while :meth:`results`
+    waits).  Without ``shares`` the pieces run here, now.
+    """
+
+    def __init__(
+        self,
+        tasks: list[Callable[[], T]],
+        shares: list[list[int]] | None,
+        running: int = 1,
+    ) -> None:
+        self._tasks = tasks
+        self._done: list[T] | None = None
+        self._children: dict[int, tuple[list[int], int, str]] = {}
+        self._waiting = list(shares or [])
+        self._running = max(1, running)
+        self._folder = ""
+        if shares is None:
+            self._done = [_isolated(task) for task in tasks]
+            return
+        try:
+            self._folder = tempfile.mkdtemp(prefix="keepclear-work-")
+            self._fork_while_free()
+        except OSError:  # no temporary folder, pipe or process to be had: run here
+            self.cancel()
+            self._done = [_isolated(task) for task in tasks]
+
+    def _fork_while_free(self) -> None:
+        while self._waiting and len(self._children) < self._running:
+            share = self._waiting.pop(0)
+            path = os.path.join(self._folder, f"{share[0]}.pickle")
+            read_end, write_end = os.pipe()
+            sys.stdout.flush()
+            sys.stderr.flush()
+            with warnings.catch_warnings():
+                # Python 3.12 warns when a process with threads forks (a progress bar's
+                # thread, a test runner's): the child runs its pieces and exits at once
+                warnings.simplefilter("ignore", DeprecationWarning)
+                try:
+                    pid = os.fork()
+                except OSError:
+                    os.close(read_end)
+                    os.close(write_end)
+                    raise
+            if pid == 0:  # pragma: no cover - the child
+                os.close(read_end)
+                _child([self._tasks[i] for i in share], path)
+            os.close(write_end)
+            self._children[read_end] = (share, pid, path)
+
+    def results(self) -> list[T]:
+        """The pieces' results in their order (waiting for the children)."""
+        if self._done is not None:
+            return self._done
+        n = len(self._tasks)
+        got: list[Any] = [_FAILED] * n
+        try:
+            while self._children or self._waiting:
+                try:
+                    self._fork_while_free()
+                except OSError:
+                    pass  # the pieces left are run here below
+                if not self._children:
+                    break
+                # a child's end of its pipe closes when it exits: wait for any of them
+                ready, _, _ = select.select(list(self._children), [], [])
+                for fd in ready:
+                    share, pid, path = self._children.pop(fd)
+                    os.close(fd)
+                    _, status = os.waitpid(pid, 0)
+                    if os.waitstatus_to_exitcode(status) != 0:
+                        continue
+                    try:
+                        with open(path, "rb") as handle:
+                            out = pickle.load(handle)
+                    except Exception:  # noqa: BLE001 - run them here instead
+                        continue
+                    for i, item in zip(share, out, strict=True):
+                        got[i] = item
+        finally:
+            self.cancel()
+        done: list[T] = []
+        for i, item in enumerate(got):
+            if isinstance(item, str) and item == _FAILED:
+                done.append(_isolated(self._tasks[i]))  # raises the piece's own error
+                continue
+            value, given = item
+            for message, category, filename, lineno in given:
+                warnings.warn_explicit(message, category, filename, lineno)
+            done.append(value)
+        self._done = done
+        return done
+
+    def cancel(self) -> None:
+        """Stop the children still running (their pieces are not run) and tidy up."""
+        for fd, (_, pid, _) in self._children.items():
+            os.close(fd)
+            try:
+                os.kill(pid, signal.SIGKILL)
+                os.waitpid(pid, 0)
+            except OSError:
+                pass
+        self._children.clear()
+        self._waiting.clear()
+        if self._folder:
+            shutil.rmtree(self._folder, ignore_errors=True)
+            self._folder = ""

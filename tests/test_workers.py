@@ -1,0 +1,231 @@
+"""Pieces of work run side by side (fields/workers.py): the same results as one after another.
+
+No outside source: these check the project's own scheduling (results in order, each piece
+from the same state, warnings and errors as without workers); the physics of what runs in
+the pieces is checked elsewhere.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from keepclear.antennas import memo
+from keepclear.fields import workers
+from keepclear.fields.compare import compare_options
+from keepclear.fields.scenario import load_scenario
+
+ROOT = Path(__file__).resolve().parent.parent
+LINUX = sys.platform.startswith("linux")
+
+
+def _pid() -> int:
+    return os.getpid()
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_pieces_run_in_children_and_come_back_in_order() -> None:
+    results = workers.run_each([lambda i=i: (i, os.getpid()) for i in range(5)], workers=2)
+    assert [r[0] for r in results] == list(range(5))
+    assert all(pid != os.getpid() for _, pid in results)
+    assert len({pid for _, pid in results}) == 5  # a child per piece, two at a time
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_started_pieces_are_shared_by_children_forked_at_once() -> None:
+    pending = workers.start_each([lambda i=i: (i, os.getpid()) for i in range(5)], workers=2)
+    results = pending.results()
+    assert [r[0] for r in results] == list(range(5))
+    pids = [pid for _, pid in results]
+    assert len(set(pids)) == 2 and os.getpid() not in pids  # pieces 0, 2, 4 and 1, 3
+    assert pids[0] == pids[2] == pids[4] != pids[1] == pids[3]
+
+
+def test_one_worker_runs_every_piece_here() -> None:
+    results = workers.run_each([_pid, _pid], workers=1)
+    assert results == [os.getpid(), os.getpid()]
+
+
+@pytest.mark.parametrize("n", [1, 2])
+def test_each_piece_starts_from_the_same_kept_evaluations(n: int) -> None:
+    """A piece never sees what another kept (memo.isolated / a child of its own)."""
+    model = object()
+    pts = np.array([[1.0, 2.0, 3.0]])
+    calls: list[int] = []
+
+    def evaluate(points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        calls.append(len(points))
+        return np.ones((len(points), 3), complex), np.ones((len(points), 3), complex)
+
+    def piece() -> int:
+        m = memo.active_memo()
+        before = m.evaluated
+        m.fields(model, 1.0, pts, evaluate)
+        return m.evaluated - before
+
+    with memo.shared_field_evaluations() as m:
+        assert workers.run_each([piece, piece, piece], workers=n) == [1, 1, 1]
+        assert m.evaluated == (3 if n == 1 else 0) and m.kept == 0
+        m.fields(model, 1.0, pts, evaluate)  # kept here, before the pieces: all see it
+        assert workers.run_each([piece, piece], workers=n) == [0, 0]
+
+
+@pytest.mark.parametrize("n", [1, 2])
+def test_started_pieces_do_not_see_what_is_kept_after_the_start(n: int) -> None:
+    """start_each: the pieces see the state at the start, whatever this process does next."""
+    model = object()
+    pts = np.array([[0.5, 0.25, 2.0]])
+
+    def evaluate(points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        return np.zeros((len(points), 3), complex), np.zeros((len(points), 3), complex)
+
+    def piece() -> int:
+        m = memo.active_memo()
+        before = m.looked_up
+        m.fields(model, 1.0, pts, evaluate)
+        return m.looked_up - before
+
+    with memo.shared_field_evaluations() as m:
+        pending = workers.start_each([piece, piece, piece], workers=n)
+        m.fields(model, 1.0, pts, evaluate)  # kept after the start: no piece sees it
+        assert pending.results() == [0, 0, 0]
+        assert pending.results() == [0, 0, 0]  # asked again: the same list
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_cancelled_pieces_leave_no_child_behind() -> None:
+    import time
+
+    pending = workers.start_each([lambda: time.sleep(30), lambda: time.sleep(30)], workers=2)
+    children = [pid for _, pid, _ in pending._children.values()]
+    pending.cancel()
+    for pid in children:
+        with pytest.raises(ChildProcessError):
+            os.waitpid(pid, os.WNOHANG)
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_no_process_to_be_had_runs_the_pieces_here(monkeypatch: pytest.MonkeyPatch) -> None:
+    def refuse() -> int:
+        raise OSError(11, "Resource temporarily unavailable")
+
+    monkeypatch.setattr(workers.os, "fork", refuse)
+    assert workers.run_each([_pid, _pid], workers=2) == [os.getpid(), os.getpid()]
+
+
+@pytest.mark.parametrize("n", [1, 2])
+def test_a_failing_piece_raises_its_own_error(n: int) -> None:
+    def bad() -> None:
+        raise ValueError("piece 2 failed")
+
+    with pytest.raises(ValueError, match="piece 2 failed"):
+        workers.run_each([_pid, bad, _pid], workers=n)
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_a_result_that_does_not_pickle_is_made_here() -> None:
+    results = workers.run_each([lambda: lambda: 7, _pid], workers=2)
+    assert results[0]() == 7 and results[1] != os.getpid()
+
+
+@pytest.mark.parametrize("n", [1, 2])
+def test_warnings_of_the_pieces_are_given_in_order(n: int) -> None:
+    def warn(text: str) -> int:
+        warnings.warn(text, UserWarning, stacklevel=1)
+        return 1
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        workers.run_each([lambda: warn("first"), lambda: warn("second")], workers=n)
+    assert [str(w.message) for w in caught] == ["first", "second"]
+
+
+def test_worker_count_from_the_environment(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setenv(workers.WORKERS_VARIABLE, "3")
+    assert workers.worker_count() == (3 if LINUX else 1)
+    monkeypatch.setenv(workers.WORKERS_VARIABLE, "two")
+    if LINUX:
+        with pytest.warns(RuntimeWarning, match="KEEPCLEAR_WORKERS='two' ignored"):
+            assert workers.worker_count() >= 1
+
+
+def test_options_compared_in_workers_match_one_process(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The bundled test-cell options, in two workers and in one: the same answers."""
+    scenario = load_scenario(ROOT / "scenarios" / "test-cell-options.toml")
+    answers = []
+    for n in ("1", "2"):
+        monkeypatch.setenv(workers.WORKERS_VARIABLE, n)
+        c = compare_options(scenario, pixels=61)
+        answers.append(
+            (
+                [v.name for v in c.variants],
+                np.array([[k.distance_m for k in v.keepouts] for v in c.variants]),
+                np.stack([v.floor.result.power_density_w_m2 for v in c.variants]),
+                [v.places for v in c.variants],
+            )
+        )
+    (names1, keep1, maps1, places1), (names2, keep2, maps2, places2) = answers
+    assert names1 == names2
+    np.testing.assert_allclose(keep2, keep1, rtol=1e-12)
+    np.testing.assert_allclose(maps2, maps1, rtol=1e-12)
+    for a, b in zip(places1, places2, strict=True):
+        assert [p["name"] for p in a] == [p["name"] for p in b]
+        np.testing.assert_allclose(
+            [p["power_density_w_m2"] for p in b], [p["power_density_w_m2"] for p in a], rtol=1e-12
+        )
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+@pytest.mark.parametrize("name", ["plasma-bench", "drying-line-enclosure"])
+def test_keepout_rays_shared_between_workers_give_the_same_answers(
+    name: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A keep-out search whose ray batches are shared between two workers answers as one.
+
+    The distances, their margins, the directions and (with an enclosure) the clearance
+    from the box are compared; the shares must really have run.
+    """
+    from keepclear.fields import keepout
+
+    shared: list[int] = []
+    real = keepout.run_each
+
+    def counting(tasks, count=None):  # noqa: ANN001, ANN202
+        shared.append(len(tasks))
+        return real(tasks, count)
+
+    monkeypatch.setattr(keepout, "run_each", counting)
+    answers = []
+    for n in ("1", "2"):
+        monkeypatch.setenv(workers.WORKERS_VARIABLE, n)
+        found = keepout.keepout_distances(load_scenario(ROOT / "scenarios" / f"{name}.toml"))
+        answers.append(
+            [
+                (
+                    r.distance_m,
+                    r.distance_with_uncertainty_m,
+                    r.direction,
+                    None if r.outside_enclosure is None else r.outside_enclosure["distance_m"],
+                    None
+                    if r.outside_enclosure is None
+                    else r.outside_enclosure["clearance_from_enclosure_m"],
+                )
+                for r in found
+            ]
+        )
+    assert shared and set(shared) == {2}
+    for one, two in zip(*answers, strict=True):
+        assert one[0] == pytest.approx(two[0], rel=1e-12)
+        assert one[1] == pytest.approx(two[1], rel=1e-12)
+        if one[2] is None:
+            assert two[2] is None
+        else:
+            np.testing.assert_allclose(two[2], one[2], rtol=1e-12, atol=1e-15)
+        if one[3] is not None:
+            assert two[3] == pytest.approx(one[3], rel=1e-12)
+            assert two[4] == pytest.approx(one[4], rel=1e-12, abs=1e-15)
