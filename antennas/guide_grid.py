@@ -20,12 +20,17 @@ launcher, those currents set the field.  Here the whole guide is solved by the
   2.45 GHz TE20 decays by 51 Np/m: 1e-5 over the default 0.26 m), so the opening
   sees the TE10 mode and its reflection, as in the guide as built;
 * walls and short are a **wire grid** on the inner surfaces (thin walls): cells at
-  most lambda/10, radius = spacing / 2 pi (the equal-area rule), capped at a quarter
-  of the shortest segment meeting at either end (Burke & Poggio [1]_ part III,
-  Ludwig [2]_; see :mod:`keepclear.antennas.moment`);
+  most lambda/12 (:data:`WALL_CELL_WAVELENGTHS`; finer than the lambda/10 of Burke &
+  Poggio [1]_ part III so that the grid holds the guided wave in, see "The walls must
+  shield" below); the ring and short wires take radius = spacing / 2 pi (the
+  equal-area rule, Ludwig [2]_), the axial wires the largest radius NEC-2's thin-wire
+  kernel allows; every radius is capped at a quarter of its own segment and 0.4 of the
+  shortest segment meeting it at either end, the probe's included
+  (:data:`GUIDE_NEIGHBOUR_RADIUS_PER_LENGTH`, the horn's bound; see
+  :mod:`keepclear.antennas.moment`);
 * with ``flange_m = [w, h]`` the flange is a thin perfectly conducting plate in the
   aperture plane z = 0, w along x and h along y, centred on the opening, gridded by the
-  same rules (cells at most lambda/10, equal-area radii,
+  same rules (cells at most lambda/10, equal-area radii, the same caps,
   :func:`keepclear.antennas.moment.face_grid`): across the opening its grid lines are
   the rim ring's own, so every plate wire that meets the rim ends on a node of the
   walls' grid (NEC-2 joins wires only at shared end points, [1]_ part III), and beyond
@@ -49,43 +54,70 @@ Against openEMS v0.0.35 (FDTD; ``validation/``, cases ``guide-wr340`` and
 ``guide-wr430``: 0.30 m guides closed by a short, 2 mm walls, no flange), at 63 points
 each from 0.1 to 0.4 m in front, beside and behind:
 
-* in front (within 60 deg): -0.86 to +0.48 dB;
-* beside and behind: -2.5 to +2.6 dB;
-* boresight directivity: WR-340 6.52 against 6.53 dBi, WR-430 8.04 against 7.83 dBi.
+* in front (within 60 deg): -0.83 to +0.46 dB;
+* beside and behind: -2.85 to +1.08 dB (the lowest straight behind WR-430's short, 0.1 m
+  behind it);
+* peak directivity: WR-340 6.42 against 6.54 dBi, WR-430 7.76 against 7.82 dBi.
 
-``gain_uncertainty_db`` is the largest error in front (0.9 dB, WR-430).  The full-wave
-guides have 2 mm walls, the model thin ones; the default length is the validated one.
-The pattern behind moves by about 1 dB when the length changes from 0.15 to 0.45 m
-(checked when written).
+``gain_uncertainty_db`` is the largest error in front (0.83 dB, WR-340, stated as
+0.9 dB).  The full-wave guides have 2 mm walls, the model thin ones; the default length
+is the validated one.  The pattern behind moves by about 1 dB when the length changes
+from 0.15 to 0.45 m (checked when written with the lambda/10 grid below).
 
 On a flange (case ``flanged-wr340``: the same WR-340 guide, 0.30 m, on a 2 mm plate
 0.25 m along the broad wall x 0.20 m along E whose front face is the aperture plane;
-the model: 2,037 segments, its plate thin), at 61 points from 0.1 to 0.4 m:
+the model: 2,820 segments, its plate thin), at 61 points from 0.1 to 0.4 m:
 
-* in front (within 60 deg): -0.60 to +0.45 dB (the rim model of
-  :mod:`keepclear.antennas.walls` was -2.4 to +4.1 dB: it misses the E-plane lobe at
+* in front (within 60 deg): -0.66 to +0.31 dB (the rim model of
+  :mod:`keepclear.antennas.walls` is -2.6 to +4.0 dB: it misses the E-plane lobe at
   30-35 deg that the flange's edges raise, which the grid solves);
-* beside and behind: never more than 0.69 dB under full wave, up to +3.0 dB over it
-  except at two points 5-7 cm behind the plate (H plane 120 and 135 deg at 0.1 m),
-  +8.2 and +7.2 dB, where full wave is 33 dB under the front.  There the guide's
-  interior field leaks through its walls' wire grid (a grid is not a closed sheet):
-  half the walls' wire radius raises the first point to +20.3 dB, a lambda/12 grid of
-  the whole lowers it to +6.7 dB, while refining the plate alone (lambda/15, lambda/20)
-  or halving its wires' radius moves it by 0.6 dB at most (found when written).  On
-  the safe side, and left at the published lambda/10;
-* peak directivity 7.57 against 7.17 dBi (boresight 4.53 against 4.74).
+* beside and behind: -1.94 to +5.21 dB, the highest 5 cm behind the plate (H plane
+  120 deg at 0.1 m, where full wave is 33 dB under the front; +4.08 dB at H 135 deg);
+* peak directivity 7.36 against 7.17 dBi.
 
 Its ``gain_uncertainty_db`` is that case's largest error in front,
-:data:`FLANGE_GAIN_UNCERTAINTY_DB` = 0.6 dB.  As the flange shrinks to the guide's outer
+:data:`FLANGE_GAIN_UNCERTAINTY_DB` = 0.7 dB.  As the flange shrinks to the guide's outer
 size the pattern tends to the bare guide's (within 0.41 dB in front for a 2 mm collar;
 tests/test_guide_grid.py).
+
+The walls must shield
+---------------------
+Inside the guide the TE10 wave runs at the walls, while 5-7 cm behind a flange the
+full-wave field is 33 dB under the front: whatever of the interior field the walls'
+grid lets through shows there.  A grid of parallel round wires, spacing d and radius r,
+is a sheet of inductive reactance X / eta0 = (d / lambda) ln(1 / (1 - exp(-2 pi r / d)))
+(Marcuvitz [4]_ sec. 5.21, the grating of round wires), letting through about
+2 X / eta0 of the field at it.  The earlier grid (cells lambda/10, equal-area radii
+throughout, capped at a quarter of the shortest neighbour) had X / eta0 = 0.041 on its
+axial wires and 0.046 on its ring wires, and on the flange of ``flanged-wr340`` was
++8.23 dB (H 120 deg 0.1 m) and +7.21 dB (H 135 deg 0.1 m) over full wave; the bare
+guides passed (-2.5 to +2.6 dB beside and behind, peak directivity 6.52 and 8.05 dBi).
+Measured on that case (H 120 deg 0.1 m; found when written):
+
+* the leak is the walls', everywhere along them: halving the wire radius on the
+  narrow walls only, the broad walls only, the front or the back half, raised the point
+  to +15.1 to +17.5 dB (the whole: +20.3 dB); refining the plate alone (lambda/15,
+  lambda/20) or halving its wires' radius moved it by 0.6 dB at most;
+* the axial wires, which carry the TE10 wave's longitudinal wall current, are the lever:
+  1.4 times their equal-area radius gives +6.8 dB, the kernel's limit +6.7 dB; thicker
+  *ring* wires raise the point (1.4 times: +11.7 dB, +12.0 dB at H 135 deg; all wires
+  to X / eta0 = 0.03: +12.0 dB), so the ring wires keep the equal-area radius;
+* finer cells: lambda/12 round the rings +7.2 dB, along the axis too +6.6 dB
+  (rings every lambda/14 alone: +8.1 dB);
+* lambda/12 cells with the axial wires at the kernel's limit (X / eta0 at most 0.018,
+  0.037 on the ring wires; the grid here): +5.27 dB, and the bare guides closer to
+  full wave too (above); the same with the rings every lambda/10 (1,620 segments bare
+  instead of 1,980): +5.98 dB, too close to the +6 dB the project allows.
+
+A test holds every wall wire's X / eta0 (tests/test_guide_grid.py).
 
 Validity and limits
 -------------------
 Perfect conductors, free space, a flat rectangular flange in the aperture plane or
 none.  The structure is limited to :data:`MAX_SEGMENTS` segments (a bare WR-340 guide up
-to about 0.75 m long at 2.45 GHz; the default 0.30 m WR-340 guide on a flange up to about
-0.35 x 0.35 m or 0.40 x 0.30 m): :func:`segments_needed` tells a builder beforehand,
+to about 0.63 m long at 2.45 GHz, 1,980 segments at the default 0.30 m; the default
+0.30 m WR-340 guide on a flange up to about 0.35 x 0.35 m, 3,912 segments, or
+0.40 x 0.30 m): :func:`segments_needed` tells a builder beforehand,
 and the scenario reader then falls back to the rim model of
 :mod:`keepclear.antennas.walls`.
 Inside the guide the grid's field is reported as computed; nobody stands there
@@ -100,6 +132,9 @@ References
    Propag.* 35(9), 1045-1048 (1987), doi:10.1109/TAP.1987.1144220.
 .. [3] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley, 2012, sec. 3.3 (TE10,
    cut-off and attenuation of the higher modes) and sec. 4.13 (probe feeds of a guide).
+.. [4] N. Marcuvitz, *Waveguide Handbook*, MIT Radiation Laboratory Series vol. 10,
+   McGraw-Hill, 1951, sec. 5.21 (inductive obstacles: grating of round wires; from
+   memory of the edition).
 """
 
 from __future__ import annotations
@@ -124,23 +159,34 @@ DEFAULT_GUIDE_LENGTH_M: Final[float] = 0.30
 #: Least guide length, in guide wavelengths (the probe sits lambda_g / 4 from the short).
 MIN_GUIDE_LENGTH_GUIDE_WAVELENGTHS: Final[float] = 0.75
 #: Largest structure this model solves (NEC-2 time grows as N^3: a guide on a
-#: 0.35 x 0.35 m flange, 3,065 segments, builds in 12 s on the idle 2-core machine; its
-#: matrix takes 150 MB).
-MAX_SEGMENTS: Final[int] = 3200
+#: 0.35 x 0.35 m flange, 3,912 segments, builds in 22 s on a busy 2-core machine; its
+#: matrix takes 245 MB, the process 590 MB at its peak).  Below the engine's own bound,
+#: :data:`keepclear.antennas.moment.MAX_SEGMENTS`.
+MAX_SEGMENTS: Final[int] = 3950
 #: Largest cell of the grid, in wavelengths (Burke & Poggio, part III).
 CELL_WAVELENGTHS: Final[float] = moment.MAX_SEGMENT_WAVELENGTHS
+#: Largest cell of the open guide's walls and short, in wavelengths: finer than
+#: :data:`CELL_WAVELENGTHS` so that the walls hold the guided wave in (module docstring,
+#: "The walls must shield"); the flange plate beyond the rim keeps :data:`CELL_WAVELENGTHS`.
+WALL_CELL_WAVELENGTHS: Final[float] = 1.0 / 12.0
+#: Largest radius of an open guide's grid wire as a fraction of the shortest neighbour
+#: meeting it, the launcher probe included (the horn's bound,
+#: :data:`HORN_NEIGHBOUR_RADIUS_PER_LENGTH`: a neighbour's centre, its match point, stays
+#: outside the wire); its own segment caps it at a quarter
+#: (:data:`keepclear.antennas.moment.MAX_RADIUS_PER_LENGTH`).
+GUIDE_NEIGHBOUR_RADIUS_PER_LENGTH: Final[float] = 0.4
 #: Probe length, in units of the narrow dimension b.
 PROBE_LENGTH_PER_NARROW: Final[float] = 0.6
 #: Probe segment, in wavelengths, and its radius [m] (a launcher antenna's thickness).
 PROBE_SEGMENT_WAVELENGTHS: Final[float] = 1.0 / 20.0
 PROBE_RADIUS_M: Final[float] = 0.6e-3
 #: Keep-out margin [dB]: the largest error in front against openEMS v0.0.35
-#: (guide-wr430, -0.86 dB; see the module docstring).
+#: (guide-wr340, -0.83 dB; see the module docstring).
 GAIN_UNCERTAINTY_DB: Final[float] = 0.9
 #: Keep-out margin [dB] of a guide with its flange on the grid: the largest error in front
-#: against openEMS v0.0.35 (flanged-wr340, -0.60 dB at H 45 deg 0.1 m; see the module
+#: against openEMS v0.0.35 (flanged-wr340, -0.66 dB at H 45 deg 0.1 m; see the module
 #: docstring).
-FLANGE_GAIN_UNCERTAINTY_DB: Final[float] = 0.6
+FLANGE_GAIN_UNCERTAINTY_DB: Final[float] = 0.7
 
 
 def _counts(broad_m: float, narrow_m: float, cell_m: float) -> tuple[int, int]:
@@ -185,11 +231,12 @@ def segments_needed(
     """
     lam = moment.C_M_S / frequency_hz
     cell = CELL_WAVELENGTHS * lam
-    nx, ny = _counts(broad_m, narrow_m, cell)
+    wall_cell = WALL_CELL_WAVELENGTHS * lam
+    nx, ny = _counts(broad_m, narrow_m, wall_cell)
     guide_wavelength = _guide_wavelength_m(broad_m, frequency_hz)
     if not (math.isfinite(guide_wavelength) and math.isfinite(guide_length_m)):
         return math.inf  # type: ignore[return-value]
-    zs = _axial_lines(guide_length_m, -guide_length_m + 0.25 * guide_wavelength, cell)
+    zs = _axial_lines(guide_length_m, -guide_length_m + 0.25 * guide_wavelength, wall_cell)
     per_ring = 2 * (nx + ny)
     walls = per_ring * zs.size + per_ring * (zs.size - 1)
     short = nx * (ny - 1) + ny * (nx - 1)
@@ -417,9 +464,9 @@ class GridOpenWaveguide(_SolvedOpening):
         a, b, length = self.broad_m, self.narrow_m, self.guide_length_m
         lam = self.wavelength_m
         cell = CELL_WAVELENGTHS * lam
-        nx, ny = _counts(a, b, cell)
+        nx, ny = _counts(a, b, WALL_CELL_WAVELENGTHS * lam)
         probe_z = -length + 0.25 * self._guide_wavelength_m
-        zs = _axial_lines(length, probe_z, cell)
+        zs = _axial_lines(length, probe_z, WALL_CELL_WAVELENGTHS * lam)
         rings = [_ring(a, b, nx, ny, z) for z in zs]
         starts, ends = [], []
         for i, ring in enumerate(rings):
@@ -447,23 +494,24 @@ class GridOpenWaveguide(_SolvedOpening):
         short_rows[-short[0].shape[0] :] = True
         spacing = np.where(short_rows, min(a / nx, b / ny), spacing)
         radii = spacing / (2.0 * np.pi)
+        # The axial wires as thick as the thin-wire kernel allows (capped below).
+        radii = np.where(np.abs((e - s)[:, 2]) > 0.0, np.inf, radii)
         if self.flange_m is not None:
             # The plate in z = 0, its wires ending on the rim ring's nodes.
             fs, fe, fr = _flange_grid(a, b, nx, ny, self.flange_m, cell)
             s, e, radii = np.vstack([s, fs]), np.vstack([e, fe]), np.concatenate([radii, fr])
         s, e, radii = moment._unique_segments(s, e, radii)
-        radii = _cap_radii(s, e, radii)
         n_probe = _probe_segments(b, lam)
         y = -0.5 * b + PROBE_LENGTH_PER_NARROW * b * np.arange(n_probe + 1) / n_probe
         pa = np.column_stack([np.zeros(n_probe), y[:-1], np.full(n_probe, probe_z)])
         pb = np.column_stack([np.zeros(n_probe), y[1:], np.full(n_probe, probe_z)])
         feed = s.shape[0]
-        return moment.WireStructure.from_segments(
-            np.vstack([s, pa]),
-            np.vstack([e, pb]),
-            np.concatenate([radii, np.full(n_probe, PROBE_RADIUS_M)]),
-            feed,
-        )
+        s, e = np.vstack([s, pa]), np.vstack([e, pb])
+        radii = np.concatenate([radii, np.full(n_probe, PROBE_RADIUS_M)])
+        # Caps against every neighbour, the probe's base included; the probe keeps its own.
+        capped = _cap_radii(s, e, radii, GUIDE_NEIGHBOUR_RADIUS_PER_LENGTH)
+        radii = np.concatenate([capped[:feed], radii[feed:]])
+        return moment.WireStructure.from_segments(s, e, radii, feed)
 
     def _local_outline(self) -> NDArray[np.float64]:
         """The guide's eight corners: the opening, then the short [m]."""

@@ -117,8 +117,8 @@ point from 90 deg on (by 0.4 dB at least, H 135 deg 0.4 m), and up to 24 dB over
 behind the plate (H 120 deg 0.1 m, where full wave is 33 dB under the front).  In front the
 flange's edges reshape the E-plane pattern: full wave peaks at 30-35 deg in the E plane
 (7.2 dBi) with 4.7 dBi on boresight, which the model (5.9 dBi on boresight, its E plane
-smooth) misses: -2.4 to +4.1 dB in front, -2.5 dB at worst on the E plane's shoulder at 60
-deg.  Its keep-out margin is therefore :data:`FLANGE_GAIN_UNCERTAINTY_DB` = 2.6 dB.  The
+smooth) misses: -2.6 to +4.0 dB in front, -2.7 dB at worst on the E plane's shoulder at 60
+deg.  Its keep-out margin is therefore :data:`FLANGE_GAIN_UNCERTAINTY_DB` = 2.8 dB.  The
 model's peak gain (7.9 dBi; full wave 7.2) lies in the margin's region, at grazing in the E
 plane.  A horn in a flange (flanged-horn-wr340: the 0.24 x 0.18 m horn on WR-340 on a
 0.36 x 0.27 m flange) takes the same keep-out margin (the model is -2.16 to +0.83 dB from
@@ -183,12 +183,13 @@ FLANGE_BACK_MARGIN_DB: Final[float] = 8.0
 FLANGED_HORN_BACK_MARGIN_DB: Final[float] = 17.0
 
 #: Keep-out margin of an opening in a flange [dB]: the largest deficit of the flange's rim
-#: model (with its back-region margin) at any stored point of flanged-wr340 (-2.53 dB in the
-#: E plane at 60 deg, 0.2 m; in front of 60 deg -2.38 dB at 45 deg, 0.3 m: the E-plane lobe
-#: the flange's edges raise, which the model misses; openEMS v0.0.35), rounded up.  Taken
+#: model (with its back-region margin) at any stored point of flanged-wr340 (-2.70 dB in the
+#: E plane at 60 deg, 0.2 m; in front of 60 deg -2.63 dB at 45 deg, 0.2 m: the E-plane lobe
+#: the flange's edges raise, which the model misses; openEMS v0.0.35, with the H field
+#: recorded on the E plane), rounded up.  Taken
 #: for flanged horns too, unless their aperture states more (on flanged-horn-wr340, with
 #: :data:`FLANGED_HORN_BACK_MARGIN_DB`, the model is -2.16 dB at worst, E 45 deg 0.3 m).
-FLANGE_GAIN_UNCERTAINTY_DB: Final[float] = 2.6
+FLANGE_GAIN_UNCERTAINTY_DB: Final[float] = 2.8
 
 #: The raise starts at this angle from boresight and is whole from :data:`BACK_FULL_DEG` on.
 BACK_START_DEG: Final[float] = 60.0
