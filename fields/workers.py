@@ -117,16 +117,17 @@ def start_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> 
     """Start ``tasks`` in worker processes and return at once; :meth:`Pending.results` waits.
 
     This process may go on with other work meanwhile (that work does not reach the
-    pieces: each sees the state at this call).  Without workers the pieces run here,
-    now.  ``workers`` children, all forked now, share the pieces (the first takes pieces
-    0, k, 2k, ..., each inside :func:`keepclear.antennas.memo.isolated`); see
+    pieces: each sees the state at this call).  ``workers`` children (default
+    :func:`worker_count`; one child is worth starting here, since this process works
+    beside it), all forked now, share the pieces: the first takes pieces 0, k, 2k, ...,
+    each inside :func:`keepclear.antennas.memo.isolated`.  With a single worker in all
+    (:func:`worker_count` is 1, or no fork) the pieces run here, now.  See
     :func:`run_each`.
     """
     tasks = list(tasks)
-    n_workers = worker_count() if workers is None else max(1, int(workers))
-    if len(tasks) <= 1 or n_workers <= 1 or not _can_fork():
+    if not tasks or worker_count() <= 1 or not _can_fork():
         return Pending(tasks, None)
-    k = min(n_workers, len(tasks))
+    k = min(max(1, worker_count() if workers is None else int(workers)), len(tasks))
     return Pending(tasks, [list(range(j, len(tasks), k)) for j in range(k)], k)
 
 

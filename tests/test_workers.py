@@ -24,6 +24,12 @@ ROOT = Path(__file__).resolve().parent.parent
 LINUX = sys.platform.startswith("linux")
 
 
+@pytest.fixture(autouse=True)
+def _two_workers(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Two workers whatever the machine's cores (a test may set another number)."""
+    monkeypatch.setenv(workers.WORKERS_VARIABLE, "2")
+
+
 def _pid() -> int:
     return os.getpid()
 
@@ -95,6 +101,18 @@ def test_started_pieces_do_not_see_what_is_kept_after_the_start(n: int) -> None:
         m.fields(model, 1.0, pts, evaluate)  # kept after the start: no piece sees it
         assert pending.results() == [0, 0, 0]
         assert pending.results() == [0, 0, 0]  # asked again: the same list
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_one_started_child_works_beside_this_process() -> None:
+    """start_each with one worker forks it (this process goes on meanwhile)."""
+    results = workers.start_each([_pid, _pid, _pid], workers=1).results()
+    assert len(set(results)) == 1 and results[0] != os.getpid()
+
+
+def test_a_single_worker_in_all_starts_nothing(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setenv(workers.WORKERS_VARIABLE, "1")
+    assert workers.start_each([_pid, _pid], workers=1).results() == [os.getpid()] * 2
 
 
 @pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
