@@ -90,7 +90,7 @@ RADIUS_TOLERANCE = 1e-4
 RADIAL_BLOCK = 8
 #: Fewest rays of a batch shared between worker processes (a smaller batch costs less
 #: than starting them).
-SHARED_RAYS = 200
+SHARED_RAYS = 100
 #: Points whose quotients one search keeps for a second asking (rows x 8 bytes each).
 SEEN_POINTS = 2_000_000
 _POINT_KEY = np.dtype((np.void, 24))
