@@ -59,6 +59,14 @@ position_m = 0.02
 """
 
 
+@pytest.fixture(autouse=True)
+def _one_process(monkeypatch):
+    # The tests count and record what the search evaluates in this process: no ray batch
+    # is shared with worker processes (fields/workers.py; tests/test_workers.py checks
+    # that sharing gives the same answers).
+    monkeypatch.setenv("KEEPCLEAR_WORKERS", "1")
+
+
 @pytest.fixture(scope="module")
 def scenario(tmp_path_factory):
     path = tmp_path_factory.mktemp("pruning") / "two-dipoles.toml"
