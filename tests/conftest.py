@@ -16,11 +16,12 @@ SCENARIOS = REPO / "scenarios"
 
 
 def pytest_configure(config: pytest.Config) -> None:
-    """Parallel workers get one BLAS thread each; the run keeps NEC-2 solutions in a
-    folder of its own.
+    """Parallel workers get one BLAS thread and no worker processes of their own each; the
+    run keeps NEC-2 solutions in a folder of its own.
 
-    With ``-n`` the workers already use every core; BLAS threads on top of them only
-    contend.  The variables are read when numpy loads, in the workers, which start after
+    With ``-n`` the workers already use every core; BLAS threads, or keepclear's own worker
+    processes (``KEEPCLEAR_WORKERS``, fields/workers.py: tests/test_workers.py sets its own
+    number), on top of them only contend.  The variables are read when numpy loads, in the workers, which start after
     this hook.  Results do not depend on the thread count (DEVELOPERS.md, "The same
     answer").  NEC-2 solutions (``KEEPCLEAR_CACHE_DIR``) go to a temporary folder shared
     by the workers and removed at the end, unless the variable is set already: the suite
@@ -30,7 +31,12 @@ def pytest_configure(config: pytest.Config) -> None:
         return
     workers = getattr(config.option, "numprocesses", None)
     if workers:
-        for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        for name in (
+            "OPENBLAS_NUM_THREADS",
+            "OMP_NUM_THREADS",
+            "MKL_NUM_THREADS",
+            "KEEPCLEAR_WORKERS",
+        ):
             os.environ.setdefault(name, "1")
     if "KEEPCLEAR_CACHE_DIR" not in os.environ:
         folder = tempfile.mkdtemp(prefix="keepclear-nec-")
