@@ -44,7 +44,7 @@ from __future__ import annotations
 import abc
 import copy
 from dataclasses import dataclass, field
-from typing import Final
+from typing import Any, Final
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -301,6 +301,19 @@ class Radiator(abc.ABC):
             For a model that does not override it.
         """
         raise NotImplementedError(f"{type(self).__name__} cannot change its power in place")
+
+    def built_on_demand(self) -> frozenset[Any]:
+        """Keys of the parts this model has built on first use (tables near the metal).
+
+        A worker process (:mod:`keepclear.fields.workers`) that builds such a part loses
+        it when it exits; it reports the keys, and the process that forked it builds them
+        with :meth:`build_on_demand`, so that the workers forked next find them built.
+        A model that builds nothing on demand returns an empty set (the default).
+        """
+        return frozenset()
+
+    def build_on_demand(self, keys: frozenset[Any]) -> None:  # noqa: B027 - a no-op by default
+        """Build the parts ``keys`` (from :meth:`built_on_demand`) now; nothing by default."""
 
     @abc.abstractmethod
     def _local_fields(

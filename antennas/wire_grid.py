@@ -129,6 +129,20 @@ class SolvedWireRadiator(Radiator):
         """Follow a new ``power_w`` (:meth:`Radiator.with_power`): the currents scale."""
         self._use_solved()
 
+    def built_on_demand(self) -> frozenset[Any]:
+        """The near clusters' tables built so far (their indices)."""
+        near = self._solved.__dict__.get("near")
+        if near is None:
+            return frozenset()
+        return frozenset(i for i, table in enumerate(near._tables) if table is not None)
+
+    def build_on_demand(self, keys: frozenset[Any]) -> None:
+        """Build the near clusters' tables ``keys`` (read from the disk store when kept)."""
+        if keys:
+            near = self._solved.near
+            for i in sorted(keys):
+                near._table(int(i))
+
     @property
     def expansion(self) -> moment.OutgoingExpansion:
         """The tabulated outgoing-wave expansion used beyond 2.5 times the metal's radius."""

@@ -336,15 +336,22 @@ class _Search:
         """
         shares = [np.arange(j, len(directions), count) for j in range(count)]
         r_max = self.r_max
+        models = [t.radiator for t in self.terms]
 
-        def share(index: NDArray[np.intp]) -> tuple[NDArray, float]:
-            return self._rays_here(origins[index], directions[index]), self.r_max
+        def share(index: NDArray[np.intp]) -> tuple[NDArray, float, list[frozenset]]:
+            radius = self._rays_here(origins[index], directions[index])
+            return radius, self.r_max, [m.built_on_demand() for m in models]
 
         done = run_each([functools.partial(share, index) for index in shares], count)
-        if any(reach != r_max for _, reach in done):
+        # what a worker built on first use (tables near the metal) is built here too, so
+        # that the workers of the next batch find it
+        for k, model in enumerate(models):
+            wanted = frozenset().union(*(built[k] for _, _, built in done))
+            model.build_on_demand(wanted - model.built_on_demand())
+        if any(reach != r_max for _, reach, _ in done):
             return None
         out = np.empty((len(self.rows), len(directions)))
-        for index, (radius, _) in zip(shares, done, strict=True):
+        for index, (radius, _, _) in zip(shares, done, strict=True):
             out[:, index] = radius
         return out
 

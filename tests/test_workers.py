@@ -247,3 +247,21 @@ def test_keepout_rays_shared_between_workers_give_the_same_answers(
         if one[3] is not None:
             assert two[3] == pytest.approx(one[3], rel=1e-12)
             assert two[4] == pytest.approx(one[4], rel=1e-12, abs=1e-15)
+
+
+@pytest.mark.skipif(not LINUX, reason="pieces run in forked children on Linux only")
+def test_tables_the_workers_built_are_built_here_too() -> None:
+    """The near-metal tables a worker builds on first use are built in this process too.
+
+    The desk box's guide needs its near tables (the search samples close to it); after a
+    search shared with workers, this process has them, so the next batch's workers inherit
+    them instead of building them again.
+    """
+    from keepclear.fields.keepout import keepout_distances
+
+    scenario = load_scenario(ROOT / "scenarios" / "desk-box-source.toml")
+    radiator = scenario.sources[0].radiator
+    radiator._solved.__dict__.pop("near", None)  # as a freshly solved model has it
+    assert radiator.built_on_demand() == frozenset()
+    keepout_distances(scenario)
+    assert len(radiator.built_on_demand()) >= 1
