@@ -57,48 +57,42 @@ def test_one_worker_runs_every_piece_here() -> None:
     assert results == [os.getpid(), os.getpid()]
 
 
-@pytest.mark.parametrize("n", [1, 2])
-def test_each_piece_starts_from_the_same_kept_evaluations(n: int) -> None:
-    """A piece never sees what another kept (memo.isolated / a child of its own)."""
-    model = object()
-    pts = np.array([[1.0, 2.0, 3.0]])
-    calls: list[int] = []
+def _constant_fields(points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    return np.ones((len(points), 3), complex), np.ones((len(points), 3), complex)
 
-    def evaluate(points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        calls.append(len(points))
-        return np.ones((len(points), 3), complex), np.ones((len(points), 3), complex)
+
+def _memo_piece(model: object, points: np.ndarray, counter: str):  # noqa: ANN202
+    """A piece that asks the active memo for ``points``; it returns the change of ``counter``."""
 
     def piece() -> int:
         m = memo.active_memo()
-        before = m.evaluated
-        m.fields(model, 1.0, pts, evaluate)
-        return m.evaluated - before
+        before = getattr(m, counter)
+        m.fields(model, 1.0, points, _constant_fields)
+        return getattr(m, counter) - before
 
+    return piece
+
+
+@pytest.mark.parametrize("n", [1, 2])
+def test_each_piece_starts_from_the_same_kept_evaluations(n: int) -> None:
+    """A piece never sees what another kept (memo.isolated / a child of its own)."""
+    model, pts = object(), np.array([[1.0, 2.0, 3.0]])
+    piece = _memo_piece(model, pts, "evaluated")
     with memo.shared_field_evaluations() as m:
         assert workers.run_each([piece, piece, piece], workers=n) == [1, 1, 1]
         assert m.evaluated == (3 if n == 1 else 0) and m.kept == 0
-        m.fields(model, 1.0, pts, evaluate)  # kept here, before the pieces: all see it
+        m.fields(model, 1.0, pts, _constant_fields)  # kept before the pieces: all see it
         assert workers.run_each([piece, piece], workers=n) == [0, 0]
 
 
 @pytest.mark.parametrize("n", [1, 2])
 def test_started_pieces_do_not_see_what_is_kept_after_the_start(n: int) -> None:
     """start_each: the pieces see the state at the start, whatever this process does next."""
-    model = object()
-    pts = np.array([[0.5, 0.25, 2.0]])
-
-    def evaluate(points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        return np.zeros((len(points), 3), complex), np.zeros((len(points), 3), complex)
-
-    def piece() -> int:
-        m = memo.active_memo()
-        before = m.looked_up
-        m.fields(model, 1.0, pts, evaluate)
-        return m.looked_up - before
-
+    model, pts = object(), np.array([[0.5, 0.25, 2.0]])
+    piece = _memo_piece(model, pts, "looked_up")
     with memo.shared_field_evaluations() as m:
         pending = workers.start_each([piece, piece, piece], workers=n)
-        m.fields(model, 1.0, pts, evaluate)  # kept after the start: no piece sees it
+        m.fields(model, 1.0, pts, _constant_fields)  # kept after the start: no piece sees it
         assert pending.results() == [0, 0, 0]
         assert pending.results() == [0, 0, 0]  # asked again: the same list
 
