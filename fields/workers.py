@@ -3,25 +3,32 @@
 The options of a scenario are assessed independently of one another: each option's
 keep-out search, and later each option's maps, need only what the base has already
 computed (the loaded radiators, their tables and the field evaluations the base's
-search kept, :mod:`keepclear.antennas.memo`).  :func:`run_each` runs such pieces:
+search kept, :mod:`keepclear.antennas.memo`); the shares of a keep-out search's batch of
+rays, and the figures of an assessment, are independent too.  Such pieces run:
 
-* on Linux, each piece runs in a child process forked from this one, at most
-  :func:`worker_count` at a time (by default one per core, at most
-  :data:`MAX_WORKERS`).  A child sees everything this process holds at the moment it is
-  forked and nothing another piece computes; its result comes back pickled through a
-  file and the child exits.  A warning a piece gives is recorded in the child and given
-  again here, in the order of the pieces;
+* on Linux, in child processes forked from this one, at most :func:`worker_count` at a
+  time (by default one per core, at most :data:`MAX_WORKERS`): :func:`run_each` forks a
+  child per piece as places free up (this process only waits), :func:`start_each` forks
+  its children at once and returns, each child running its share of the pieces.  A child
+  sees everything this process holds at the moment it is forked, and every piece runs
+  inside :func:`keepclear.antennas.memo.isolated`, so it sees nothing another piece
+  computes; its result comes back pickled through a file and the child exits.  A warning
+  a piece gives is recorded in the child and given again here, in the order of the
+  pieces;
 * elsewhere (Windows and macOS, where forking a process that has loaded numerical
-  libraries is not safe), or with ``KEEPCLEAR_WORKERS=1``, the pieces run here one after
-  the other, each inside :func:`keepclear.antennas.memo.isolated`, so that none sees the
-  field evaluations another kept.
+  libraries is not safe), or with ``KEEPCLEAR_WORKERS=1``, here, one after the other,
+  each inside :func:`keepclear.antennas.memo.isolated`.
 
 Either way every piece starts from the same state, so the results are the same, to the
 last bit, whatever the number of cores or the order in which the pieces finish.  A piece
 that fails in a child (an error, a result that cannot be pickled, a child killed) is run
-again here, where its error is raised as it would be without workers.
+again here, where its error is raised as it would be without workers; when no child can
+be started (no temporary folder, pipe or process) the pieces run here.  What a child
+builds for itself (a model's tables, built on first use) is lost with it; a caller that
+wants it kept asks the child to report it (the keep-out search does, see
+:meth:`keepclear.antennas.base.Radiator.built_on_demand`).
 
-``KEEPCLEAR_WORKERS=N`` sets the number of children (a whole number from 1; 1 runs
+``KEEPCLEAR_WORKERS=N`` sets the number of workers (a whole number from 1; 1 runs
 everything in this process).
 """
 
