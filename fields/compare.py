@@ -557,8 +557,7 @@ def start_option_searches(
     work; at least one); with a single worker they run here, now.
     """
     if workers is None:
-        count = worker_count()
-        workers = max(1, count - 1) if count > 1 else 1
+        workers = max(1, worker_count() - 1)
     ids = tuple(limit_ids)
     return start_each(
         [functools.partial(_variant_keepouts, o.scenario, ids) for o in scenario.options],

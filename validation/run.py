@@ -83,11 +83,19 @@ WALL_M = 0.002
 # ---------------------------------------------------------------------------------------
 # cases
 # ---------------------------------------------------------------------------------------
+def te10_beta_and_guide_wavelength(broad_m: float) -> tuple[float, float]:
+    """TE10 phase constant [rad/m] and guide wavelength [m] of a guide ``broad_m`` wide.
+
+    beta = sqrt(k^2 - (pi / a)^2) (Pozar, *Microwave Engineering*, 4th ed., sec. 3.3).
+    """
+    beta = float(np.sqrt((2 * np.pi / LAM) ** 2 - (np.pi / broad_m) ** 2))
+    return beta, 2 * np.pi / beta
+
+
 def guide_case(name: str, size: str, flange: tuple[float, float] | None = None) -> dict:
     """An open guide of a standard size, closed by a short 0.30 m behind its aperture."""
     a, b = WR[size]
-    beta = np.sqrt((2 * np.pi / LAM) ** 2 - (np.pi / a) ** 2)
-    lam_g = 2 * np.pi / beta
+    beta, lam_g = te10_beta_and_guide_wavelength(a)
     length = 0.30  # guide length from the back short to the aperture (>= 1.5 guide wavelengths)
     source = {
         "antenna": "open-waveguide",
@@ -132,8 +140,7 @@ def guide_case(name: str, size: str, flange: tuple[float, float] | None = None) 
 def horn_case(name: str = "horn-wr340", flange: tuple[float, float] | None = None) -> dict:
     """The pyramidal horn on WR-340 (our own proportions), bare or on a flange."""
     a, b = WR["WR-340"]
-    beta = np.sqrt((2 * np.pi / LAM) ** 2 - (np.pi / a) ** 2)
-    lam_g = 2 * np.pi / beta
+    beta, lam_g = te10_beta_and_guide_wavelength(a)
     source = {
         "antenna": "horn",
         "power_w": 1.0,

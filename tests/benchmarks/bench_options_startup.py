@@ -57,35 +57,10 @@ def _assess_six_options(exe: Path, env: dict[str, str] | None = None) -> tuple[f
     return wall, cpu
 
 
-def test_bench_assess_six_options(benchmark):
-    # The usual case: NEC-2's solution and the outgoing-wave tables kept from an earlier
-    # run (the suite's own store, filled by an untimed first run).
+def _bench_six_options(benchmark, rounds: int, label: str, note: str, env=None) -> None:
+    """Time ``rounds`` runs of the six-option assessment and record their medians."""
     exe = _exe()
     benchmark.group = "assess with six options"
-    _assess_six_options(exe)
-    walls: list[float] = []
-    cpus: list[float] = []
-
-    def run():
-        wall, cpu = _assess_six_options(exe)
-        walls.append(wall)
-        cpus.append(cpu)
-
-    benchmark.pedantic(run, rounds=3, iterations=1)
-    record(
-        benchmark,
-        "assess horn bench, six options (process; solution and tables kept)",
-        seconds=statistics.median(walls),
-        cpu_s=statistics.median(cpus),
-        note="median of 3; keep-out of the base and six options, maps, report, start-up",
-    )
-
-
-def test_bench_assess_six_options_nothing_kept(benchmark):
-    # The first run of a new geometry: NEC-2 solves and the tables are built.
-    exe = _exe()
-    benchmark.group = "assess with six options"
-    env = {**os.environ, "KEEPCLEAR_CACHE_DIR": "off"}
     walls: list[float] = []
     cpus: list[float] = []
 
@@ -94,13 +69,36 @@ def test_bench_assess_six_options_nothing_kept(benchmark):
         walls.append(wall)
         cpus.append(cpu)
 
-    benchmark.pedantic(run, rounds=1, iterations=1)
+    benchmark.pedantic(run, rounds=rounds, iterations=1)
     record(
         benchmark,
-        "assess horn bench, six options (process; nothing kept)",
+        label,
         seconds=statistics.median(walls),
         cpu_s=statistics.median(cpus),
-        note="one run; NEC-2 solve and outgoing-wave tables included",
+        note=note,
+    )
+
+
+def test_bench_assess_six_options(benchmark):
+    # The usual case: NEC-2's solution and the outgoing-wave tables kept from an earlier
+    # run (the suite's own store, filled by an untimed first run).
+    _assess_six_options(_exe())
+    _bench_six_options(
+        benchmark,
+        3,
+        "assess horn bench, six options (process; solution and tables kept)",
+        "median of 3; keep-out of the base and six options, maps, report, start-up",
+    )
+
+
+def test_bench_assess_six_options_nothing_kept(benchmark):
+    # The first run of a new geometry: NEC-2 solves and the tables are built.
+    _bench_six_options(
+        benchmark,
+        1,
+        "assess horn bench, six options (process; nothing kept)",
+        "one run; NEC-2 solve and outgoing-wave tables included",
+        env={**os.environ, "KEEPCLEAR_CACHE_DIR": "off"},
     )
 
 
