@@ -131,6 +131,10 @@ def largest_square_map(n_limits: int) -> int:
 def select_limits(scenario: Scenario, limit_ids: Sequence[str] | None) -> tuple[str, ...]:
     """The limit ids to assess: the scenario's, or these, each checked at its frequency.
 
+    An oven-leakage id (``fda-1030.10/*``) given here for a scenario without an
+    ``[enclosure]`` draws the same warning as one in the scenario's own limits
+    (:func:`keepclear.fields.plausibility.warn_limits`).
+
     Raises
     ------
     InputError
@@ -146,6 +150,9 @@ def select_limits(scenario: Scenario, limit_ids: Sequence[str] | None) -> tuple[
             raise InputError(exc.message, "argument", "--limit") from None
         if limit_id not in seen:
             seen.append(limit_id)
+    from .plausibility import warn_limits
+
+    warn_limits(scenario, seen)
     return tuple(seen)
 
 
@@ -184,15 +191,19 @@ def with_sweeps(scenario: Scenario, sweeps: Sequence[SweepSpec] | None) -> Scena
     """
     if not sweeps:
         return scenario
+    from .plausibility import warn_implausible
     from .scenario import with_sweep
     from .sweep import parse_sweep_argument
 
+    given = len(scenario.options)
     for spec in sweeps:
         if isinstance(spec, str):
             key, values = parse_sweep_argument(spec)
         else:
             key, values = spec[0], list(spec[1])
         scenario = with_sweep(scenario, key, list(values))
+    # The file's options were checked when it was loaded; the swept values are new.
+    warn_implausible(o.scenario for o in scenario.options[given:])
     return scenario
 
 
@@ -338,12 +349,15 @@ class ProbeResult:
 
     def to_dict(self) -> dict[str, Any]:
         """The ``probe --json`` object."""
+        from .plausibility import input_warnings
+
         return {
             "schema_version": SCHEMA_VERSION,
             "frequency_hz": self.scenario.frequency_hz,
             "scenario": self.scenario.name,
             "reflections": self.scenario.reflections,
             "points": self.point_dicts(),
+            "warnings": input_warnings(self.scenario),
             "caution": CAUTION_TEXT,
         }
 
@@ -481,6 +495,8 @@ class KeepoutReport:
 
     def to_dict(self) -> dict[str, Any]:
         """The ``keepout --json`` object."""
+        from .plausibility import input_warnings
+
         s = self.scenario
         data = {
             "schema_version": SCHEMA_VERSION,
@@ -491,6 +507,7 @@ class KeepoutReport:
             "reflections": s.reflections,
             "keepout": [keepout_entry(r) for r in self.distances],
             "sources": self.sources,
+            "warnings": input_warnings(s, [r.limit_id for r in self.distances]),
             "caution": CAUTION_TEXT,
         }
         _add_spread(data["keepout"], self.spread)
@@ -629,7 +646,11 @@ class ReadingsResult:
 
     def to_dict(self) -> dict[str, Any]:
         """The ``keepclear readings --json`` object."""
-        return dict(self.data)
+        from .plausibility import input_warnings
+
+        data = dict(self.data)
+        data["warnings"] = input_warnings(self.scenario)
+        return data
 
 
 def readings(
@@ -1344,6 +1365,7 @@ def step_report(
     from . import plots
     from .describe import describe_sources, reactive_near_field_m
     from .outputs import json_text
+    from .plausibility import input_warnings
     from .report import render_report
 
     floor, vertical = runs.floor, runs.vertical
@@ -1400,6 +1422,7 @@ def step_report(
         "comparison": None if comparison is None else comparison.data(),
         "uncertainty": None if spread is None else spread["spec"],
         "readings": readings_block,
+        "warnings": input_warnings(scenario, limit_ids),
         "assumptions": {
             "time_averaging": plots.duty_text(scenario),
             "reflections": plots.reflection_text(scenario),

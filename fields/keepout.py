@@ -67,7 +67,6 @@ References
 from __future__ import annotations
 
 import functools
-import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -743,10 +742,9 @@ def keepout_distances(
     """
     ids = list(limit_ids) if limit_ids is not None else list(scenario.limit_ids)
     if limit_ids is not None:
-        from .plausibility import PlausibilityWarning, oven_leakage_messages
+        from .plausibility import warn_limits
 
-        for message in oven_leakage_messages(ids, scenario.enclosure is not None):
-            warnings.warn(message, PlausibilityWarning, stacklevel=2)
+        warn_limits(scenario, ids)
     values = [scenario.limit_value(i) for i in ids]
     terms = radiating_terms(scenario)
     uncertainty_db = max((float(t.radiator.gain_uncertainty_db) for t in terms), default=0.0)

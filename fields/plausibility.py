@@ -23,7 +23,8 @@ driven by magnetrons of about 0.5 to 100 kW, stands in a room or a yard well wit
 from __future__ import annotations
 
 import warnings
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator, Sequence
+from contextlib import contextmanager
 from typing import Any
 
 import numpy as np
@@ -71,6 +72,13 @@ def plausibility_messages(scenario: Any) -> list[str]:
     list of str
         One sentence per finding: the key path, the value and why it looks wrong.
     """
+    return _setup_messages(scenario) + oven_leakage_messages(
+        scenario.limit_ids, scenario.enclosure is not None
+    )
+
+
+def _setup_messages(scenario: Any) -> list[str]:
+    """The plausibility messages about the set-up itself (all but the limits')."""
     out: list[str] = []
     first = np.asarray(scenario.sources[0].position_m, dtype=float)
     far = MAX_PLAUSIBLE_DISTANCE_M
@@ -157,15 +165,83 @@ def plausibility_messages(scenario: Any) -> list[str]:
                 f"enclosure wall thickness {enclosure.thickness_m:g} m is thicker than 5 cm; "
                 "thicknesses are in metres"
             )
-    out += oven_leakage_messages(scenario.limit_ids, enclosure is not None)
     return out
+
+
+def _issue(messages: Iterable[str]) -> None:
+    """Issue each distinct message once, as a :class:`PlausibilityWarning`.
+
+    Every plausibility warning leaves from this one line, so Python's default filter
+    shows a message repeated by several steps of one run once.
+    """
+    for message in dict.fromkeys(messages):
+        warnings.warn(message, PlausibilityWarning, stacklevel=1)
 
 
 def warn_implausible(scenarios: Iterable[Any]) -> None:
     """Issue each distinct plausibility message of the scenarios once."""
-    seen: set[str] = set()
-    for scenario in scenarios:
-        for message in plausibility_messages(scenario):
-            if message not in seen:
-                seen.add(message)
-                warnings.warn(message, PlausibilityWarning, stacklevel=3)
+    _issue(m for scenario in scenarios for m in plausibility_messages(scenario))
+
+
+def warn_limits(scenario: Any, limit_ids: Iterable[str]) -> None:
+    """Warn about oven-leakage ids asked for beyond the scenario's own limits.
+
+    The scenario's ``[exposure] limits`` were checked when it was loaded
+    (:func:`warn_implausible`); this covers ids given on the command line (``--limit``)
+    or to an API function, with the same wording.
+    """
+    extra = [i for i in limit_ids if i not in scenario.limit_ids]
+    _issue(oven_leakage_messages(extra, scenario.enclosure is not None))
+
+
+@contextmanager
+def recording_load_warnings() -> Iterator[list[str]]:
+    """Record the input warnings raised while a scenario is built, then raise them again.
+
+    The yielded list receives, once the block has finished without an exception, the
+    text of each distinct warning of the :class:`UserWarning` family except the
+    plausibility ones (which :func:`input_warnings` works out again from the scenario):
+    a material outside its model's frequency range, a guide near its cut-off, a wide
+    horn flare, a thick wire, an enclosure beyond its model's range.  Each warning is
+    then issued again at its own place, so the caller's filters decide what is shown;
+    the record is complete whatever they are.
+    """
+    found: list[str] = []
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", UserWarning)
+        yield found
+    for w in caught:
+        text = str(w.message)
+        input_kind = issubclass(w.category, UserWarning) and not issubclass(
+            w.category, PlausibilityWarning
+        )
+        if input_kind and text not in found:
+            found.append(text)
+        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno, source=w.source)
+
+
+def input_warnings(scenario: Any, limit_ids: Sequence[str] | None = None) -> list[str]:
+    """Every warning about a run's input, for its outputs (``"warnings"`` in the JSON).
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario as run, with its options.
+    limit_ids : sequence of str, optional
+        The limits assessed (default: the scenario's).
+
+    Returns
+    -------
+    list of str
+        Distinct sentences in a fixed order: the warnings raised while the scenario and
+        its options were built (:func:`recording_load_warnings`), the plausibility
+        findings of the scenario and of each option, and the oven-leakage warning of each
+        ``fda-1030.10/*`` id assessed without an ``[enclosure]``.  Empty for a plausible
+        input.
+    """
+    ids = scenario.limit_ids if limit_ids is None else limit_ids
+    scenarios = [scenario, *(o.scenario for o in scenario.options)]
+    found = [m for s in scenarios for m in getattr(s, "load_warnings", ())]
+    found += [m for s in scenarios for m in _setup_messages(s)]
+    found += oven_leakage_messages(ids, scenario.enclosure is not None)
+    return list(dict.fromkeys(found))

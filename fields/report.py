@@ -721,6 +721,20 @@ def _left_out() -> str:
     return f"<ul>{items}</ul>"
 
 
+def _input_warnings(data: dict[str, Any]) -> str:
+    """The warnings about the input, above the results; nothing when there are none."""
+    found = data.get("warnings") or []
+    if not found:
+        return ""
+    items = "".join(f"<li>{_e(w if w.endswith('.') else w + '.')}</li>" for w in found)
+    return (
+        '<div class="caution" id="input-warnings"><strong>Warnings about the input</strong>'
+        "<p>The scenario was computed exactly as given, but the following inputs look like "
+        "slips or fall outside what the models were checked for. Check each one before "
+        f"relying on the results below.</p><ul>{items}</ul></div>"
+    )
+
+
 def _cautions() -> str:
     items = "".join(f"<li>{_e(c)}</li>" for c in CAUTION_LINES)
     return f'<div class="caution"><strong>CAUTION</strong><ul>{items}</ul></div>'
@@ -841,6 +855,7 @@ def render_report(
         f"{data['frequency_hz'] / 1e9:g}&nbsp;GHz · sources: {sources} · time-averaged power "
         f"{data['average_power_w']:g}&nbsp;W · keepclear {_e(data['tool_version'])} · "
         f"generated {generated}</p></header>",
+        _input_warnings(data),
         _summary(data),
         "<h2>Sources</h2>",
         _sources(data),

@@ -191,6 +191,9 @@ class Scenario:
         The parsed TOML as given.
     thresholds : tuple of Limit
         User thresholds (``[[exposure.threshold]]``), ids ``custom/NAME``.
+    load_warnings : tuple of str
+        The input warnings raised while it was built, besides the plausibility ones
+        (:func:`keepclear.fields.plausibility.recording_load_warnings`).
     """
 
     name: str
@@ -207,6 +210,7 @@ class Scenario:
     document: dict[str, Any] = field(default_factory=dict)
     uncertainty: Any = None
     thresholds: tuple[limits_mod.Limit, ...] = ()
+    load_warnings: tuple[str, ...] = ()
 
     @property
     def centre_m(self) -> NDArray[np.float64]:
@@ -771,11 +775,15 @@ def scenario_from_document(
     if _RADIATORS.get() is not None:
         return _scenario_from_document(document, source, allow_options)
     # The base and its options share the radiators whose model keys agree (see _read_source).
+    from .plausibility import recording_load_warnings
+
     token = _RADIATORS.set({})
     try:
-        return _scenario_from_document(document, source, allow_options)
+        with recording_load_warnings() as found:
+            scenario = _scenario_from_document(document, source, allow_options)
     finally:
         _RADIATORS.reset(token)
+    return replace(scenario, load_warnings=tuple(found))
 
 
 def _scenario_from_document(document: dict[str, Any], source: str, allow_options: bool) -> Scenario:
