@@ -5,7 +5,10 @@ A scenario can be valid and still wrong: a position typed in centimetres puts a 
 limit.  Each check here issues a :class:`PlausibilityWarning` (a
 :class:`~keepclear.antennas.base.ModelRangeWarning`, so the command line prints it after
 the results) that names the key, the value and why it looks wrong.  Nothing is changed
-and nothing is refused: the numbers are computed as given.
+and nothing is refused: the numbers are computed as given.  The same sentences, with the
+other warnings raised while a scenario is built, go into the outputs
+(:func:`input_warnings`: ``"warnings"`` in ``assessment.json`` and the ``--json`` objects,
+a box in ``report.html``), where the reader of a report sees them too.
 
 The thresholds are ours (common practice, no source): a portable 2.45 GHz set-up is
 driven by magnetrons of about 0.5 to 100 kW, stands in a room or a yard well within
