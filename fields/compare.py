@@ -130,7 +130,12 @@ RANK_TOLERANCE = {
 }
 
 #: An option's figure panel gets its own extent below this fraction of the common one.
-OWN_PANEL_FRACTION = 0.6
+#: Both are default half-widths as drawn (rounded up to 0.5 m below 10 m, see
+#: :func:`maps.default_half_extent_m`).  Below 0.7 the option's zone would cover less
+#: than half (0.7² = 0.49) of the area on the common panel that it covers on its own;
+#: an option whose keep-out is 0.6 of the largest (its own extent rounds to about 0.63 of
+#: the common one) gets its own panel.
+OWN_PANEL_FRACTION = 0.7
 
 
 def _criteria(rank_by: str) -> list[tuple[str, Callable[[Variant], float]]]:
