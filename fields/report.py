@@ -665,6 +665,11 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
         "any option safe by itself.</p>",
         _table(header, rows, numeric={0, *range(3, len(header) - 1)}),
         _legend(keys, data),
+        *(
+            f'<p class="legend">Above the base: {_free(r["name"])} {_e(r["above_base_note"])}.</p>'
+            for r in comp["options"]
+            if r.get("above_base_note")
+        ),
         _comparison_places(data, comp),
     ]
     if figure is not None:
@@ -1004,7 +1009,11 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
             elif comp.get("rank_by") == "zone-area":
                 area = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
                 text += f"zone {area:.2f} m2; "
-            lines.append(text + f"largest keep-out {row['largest_keepout_m']:.2f} m")
+            lines.append(
+                text
+                + f"largest keep-out {row['largest_keepout_m']:.2f} m"
+                + (f" ({row['above_base_note']})" if row.get("above_base_note") else "")
+            )
     if written:
         lines += ["", "Written:"] + [f"  {w}" for w in written]
     lines += ["", caution_block(width)]
