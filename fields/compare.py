@@ -52,6 +52,7 @@ import numpy as np
 from keepclear.antennas.memo import sharing_evaluations
 
 from . import maps, shield
+from .arguments import RANK_CHOICES, check_rank_by_names  # noqa: F401 - RANK_CHOICES re-exported
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
@@ -147,9 +148,6 @@ RANK_TOLERANCE = {
 #: an option whose keep-out is 0.6 of the largest (its own extent rounds to about 0.63 of
 #: the common one) gets its own panel.
 OWN_PANEL_FRACTION = 0.7
-
-#: The ``--rank-by`` choices besides ``place:NAME``.
-RANK_CHOICES = ("keepout", "zone-area")
 
 
 def _criteria(rank_by: str) -> list[tuple[str, Callable[[Variant], float]]]:
@@ -753,15 +751,7 @@ def check_rank_by(scenario: Scenario, rank_by: str) -> None:
         If ``rank_by`` is not ``keepout``, ``zone-area`` or ``place:NAME`` with NAME
         one of the scenario's ``[[point]]`` names.
     """
-    from .errors import InputError
-
-    if rank_by in RANK_CHOICES:
-        return
-    names = [p.name for p in scenario.points]
-    if rank_by.startswith("place:") and rank_by.removeprefix("place:") in names:
-        return
-    allowed = ", ".join([*RANK_CHOICES, *(f"place:{n}" for n in names)])
-    raise InputError(f"{rank_by!r} is not a ranking; allowed: {allowed}", "argument", "--rank-by")
+    check_rank_by_names(rank_by, [p.name for p in scenario.points])
 
 
 def comparison_table(data: dict[str, Any]) -> str:
