@@ -738,13 +738,31 @@ def map_plane(
 
 
 def source_height_plane(plane: maps.Plane) -> maps.Plane:
-    """A horizontal plane through the first source, described as such.
+    """A horizontal plane through the first source, described and named as such.
 
-    The assessment's "floor" map (``map-floor.*``) and ``map``'s default plane lie at the
-    first source's height, not on the floor: their description says so.
+    The assessment's horizontal map and ``map``'s default plane lie at the first
+    source's height, not on the floor: their description says so, and their files are
+    named after it (``map-source-height.*``, ``zones-source-height.geojson``).
     """
     z = float(plane.ref_m[2])
-    return replace(plane, description=f"horizontal plane at source height z = {z:.2f} m")
+    return replace(
+        plane,
+        description=f"horizontal plane at source height z = {z:.2f} m",
+        name=SOURCE_HEIGHT_NAME,
+    )
+
+
+#: The name of the horizontal plane through the first source (files ``map-source-height.*``).
+SOURCE_HEIGHT_NAME = "source height"
+
+
+def horizontal_stem(height_m: float | None = None) -> str:
+    """The file-name stem of an assessment's horizontal plane.
+
+    ``source-height`` at the first source's height (``height_m`` None), else the height
+    itself, ``z1.70m`` (:func:`keepclear.fields.maps.height_stem`).
+    """
+    return SOURCE_HEIGHT_NAME.replace(" ", "-") if height_m is None else maps.height_stem(height_m)
 
 
 @dataclass(frozen=True, eq=False)
@@ -876,7 +894,7 @@ class ComparisonResult:
     Attributes
     ----------
     comparison : Comparison
-        The variants in rank order, each with its keep-out distances [m], floor map and
+        The variants in rank order, each with its keep-out distances [m], horizontal map and
         zone areas [m^2], leakage 5 cm from the enclosure [W m^-2] and worst named place.
     """
 
@@ -887,7 +905,7 @@ class ComparisonResult:
         return self.comparison.data()
 
     def figure(self) -> Any:
-        """The side-by-side floor maps (a matplotlib figure)."""
+        """The side-by-side horizontal maps (a matplotlib figure)."""
         return self.comparison.figure()
 
 
@@ -901,7 +919,7 @@ def compare(
     sweeps: Sequence[SweepSpec] | None = None,
     progress: ProgressFactory | None = None,
 ) -> ComparisonResult:
-    """Assess the base scenario and each ``[[option]]`` on one floor grid, and rank them.
+    """Assess the base scenario and each ``[[option]]`` on one horizontal grid, and rank them.
 
     Parameters
     ----------
@@ -937,14 +955,16 @@ def compare(
 
 # ------------------------------------------------------------------ assess
 #: Every file ``assess`` may write, the one list (the comparison only with options, the
-#: scenario as given only when its text is known).
+#: scenario as given only when its text is known).  The horizontal plane's files are
+#: named after it: ``source-height`` here; at a height given with ``--height-m`` that
+#: height takes its place, e.g. ``map-z1.70m.png`` (:func:`assess_file_names`).
 ASSESS_FILE_NAMES = (
     "assessment.json",
     "report.html",
-    "map-floor.png",
-    "map-floor.svg",
-    "map-floor.npz",
-    "zones-floor.geojson",
+    "map-source-height.png",
+    "map-source-height.svg",
+    "map-source-height.npz",
+    "zones-source-height.geojson",
     "zones-floor-level.geojson",
     "zones-head-height.geojson",
     "map-vertical.png",
@@ -960,16 +980,23 @@ _FLOOR_FILES = frozenset({"zones-floor-level.geojson", "zones-head-height.geojso
 
 
 def assess_file_names(
-    with_comparison: bool, with_scenario_text: bool, with_floor: bool = False
+    with_comparison: bool,
+    with_scenario_text: bool,
+    with_floor: bool = False,
+    height_m: float | None = None,
 ) -> tuple[str, ...]:
     """The files an assessment writes, sorted: :data:`ASSESS_FILE_NAMES` as they apply.
 
     The comparison only with options, the scenario as given only when its text is
-    known, the zones at floor level and head height only when the scenario has a floor.
+    known, the zones at floor level and head height only when the scenario has a floor;
+    the horizontal plane's files named after ``height_m`` when it is given
+    (:func:`horizontal_stem`).
     """
+    default = horizontal_stem()
+    stem = horizontal_stem(height_m)
     return tuple(
         sorted(
-            n
+            n.replace(f"-{default}.", f"-{stem}.")
             for n in ASSESS_FILE_NAMES
             if (with_comparison or n not in _COMPARISON_FILES)
             and (with_scenario_text or n != "scenario-input.toml")
@@ -1058,22 +1085,30 @@ class AssessmentMaps:
 
     Attributes
     ----------
-    floor : MapRun
-        The horizontal plane at ``height_m`` (by default the first source's height: the
-        files keep the name ``map-floor``).
+    horizontal : MapRun
+        The horizontal plane at ``height_m`` (by default the first source's height,
+        files ``map-source-height.*``; at a given height ``map-z1.70m.*``).
     vertical : MapRun
         The vertical plane through the first source's boresight.
     height_m : float
         Height of that horizontal plane [m].
+    height_given : bool
+        Whether the height was given (``--height-m``) rather than the source's.
     levels : tuple of LevelMap
         With a floor in the scenario: the horizontal maps at floor level and at head
         height above it (empty without a floor).
     """
 
-    floor: maps.MapRun
+    horizontal: maps.MapRun
     vertical: maps.MapRun
     height_m: float
     levels: tuple[LevelMap, ...] = ()
+    height_given: bool = False
+
+    @property
+    def horizontal_stem(self) -> str:
+        """The horizontal plane's file-name stem (:func:`horizontal_stem`)."""
+        return horizontal_stem(self.height_m if self.height_given else None)
 
 
 def step_keepout(
@@ -1091,16 +1126,24 @@ def step_maps(
     height_m: float | None = None,
     progress: ProgressFactory | None = None,
 ) -> AssessmentMaps:
-    """Step 2, maps: the floor-plane map (at ``height_m``) and the vertical map."""
+    """Step 2, maps: the horizontal map, the vertical map and the maps above a floor.
+
+    The horizontal map lies at ``height_m``, by default the source height; with a floor
+    in the scenario come the maps at floor level and head height.
+    """
     centre = scenario.centre_m
     height = float(centre[2]) if height_m is None else float(height_m)
-    floor_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
+    horizontal_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if height_m is None:
-        floor_plane = source_height_plane(floor_plane)
+        horizontal_plane = source_height_plane(horizontal_plane)
     vertical_plane = maps.boresight_plane(scenario)
     kwargs = grid.as_kwargs()
-    floor = maps.run_map(
-        scenario, floor_plane, keepouts, progress=_callback(progress, "floor-plane map"), **kwargs
+    horizontal = maps.run_map(
+        scenario,
+        horizontal_plane,
+        keepouts,
+        progress=_callback(progress, f"map at {horizontal_plane.where}"),
+        **kwargs,
     )
     vertical = maps.run_map(
         scenario, vertical_plane, keepouts, progress=_callback(progress, "vertical map"), **kwargs
@@ -1117,12 +1160,13 @@ def step_maps(
                 maps.principal_plane("xy", [centre[0], centre[1], z]),
                 description=f"horizontal plane at {name}, z = {z:.2f} m "
                 f"({above:.2f} m above the floor)",
+                name=name,
             )
             run = maps.run_map(
                 scenario, plane, keepouts, progress=_callback(progress, f"{name} map"), **kwargs
             )
             levels.append(LevelMap(key, name, above, floor_m, run))
-    return AssessmentMaps(floor, vertical, height, tuple(levels))
+    return AssessmentMaps(horizontal, vertical, height, tuple(levels), height_m is not None)
 
 
 def step_zones(
@@ -1134,7 +1178,7 @@ def step_zones(
     """Step 3, zones: the vertical cylinder per limit holding the zones of both maps."""
     zone_points = {
         k.limit_id: np.vstack(
-            [runs.floor.zone_points_m(k.limit_id), runs.vertical.zone_points_m(k.limit_id)]
+            [runs.horizontal.zone_points_m(k.limit_id), runs.vertical.zone_points_m(k.limit_id)]
         )
         for k in keepouts
     }
@@ -1160,7 +1204,7 @@ def step_options(
     limit_ids: Sequence[str],
     keepouts: Sequence[KeepoutResult],
     grid: GridSettings,
-    height_m: float,
+    height_m: float | None,
     progress: ProgressFactory | None = None,
     rank_by: str = "keepout",
     base_map: maps.MapRun | None = None,
@@ -1168,7 +1212,8 @@ def step_options(
 ) -> Comparison | None:
     """Step 5, options: the ranked comparison of the ``[[option]]``s (None without).
 
-    ``base_map`` (the floor map of step 2) serves as the base's map of the comparison
+    ``height_m`` is the horizontal plane's height when given (None: the source height).
+    ``base_map`` (the horizontal map of step 2) serves as the base's map of the comparison
     when it is on the same grid; ``searches`` are the options' keep-out searches when
     already started (:func:`keepclear.fields.compare.start_option_searches`).
     """
@@ -1243,7 +1288,7 @@ class AssessmentResult:
     keepouts : tuple of KeepoutResult
         Keep-out answer per limit [m].
     maps : AssessmentMaps
-        The floor-plane and vertical maps, with their zones.
+        The horizontal and vertical maps, with their zones.
     cylinders : tuple of Cylinder
         Per limit, the vertical cylinder about the first source holding every
         exceedance found (radius and height range [m]).
@@ -1346,20 +1391,20 @@ def step_report(
     from .plausibility import input_warnings
     from .report import render_report
 
-    floor, vertical = runs.floor, runs.vertical
+    horizontal, vertical = runs.horizontal, runs.vertical
     by_cyl = {c.limit_id: c for c in cylinders}
     keepout_rows = []
     for k in keepouts:
         row = keepout_entry(k)
         row["recommended_distance_m"] = k.recommended_distance_m
         # Cross-check of the keep-out search by the maps: the farthest zone point found.
-        reach = max(floor.reach_m(k.limit_id), vertical.reach_m(k.limit_id))
-        step = max(floor.result.grid.step_m, vertical.result.grid.step_m)
+        reach = max(horizontal.reach_m(k.limit_id), vertical.reach_m(k.limit_id))
+        step = max(horizontal.result.grid.step_m, vertical.result.grid.step_m)
         row["map_reach_m"] = reach
         row["map_reach_beyond_keepout"] = bool(reach > k.recommended_distance_m + step)
         row["mark_out_m"] = max(k.recommended_distance_m, reach)
         row["cylinder"] = by_cyl[k.limit_id].as_dict()
-        row["floor_zone"] = floor.conservative_shapes(k.limit_id)
+        row["horizontal_zone"] = horizontal.conservative_shapes(k.limit_id)
         keepout_rows.append(row)
     _add_spread(keepout_rows, spread)
     try:
@@ -1393,9 +1438,19 @@ def step_report(
         "keepout": keepout_rows,
         "points": place_entries(places),
         "maps": {
-            "floor": {**floor.summary(), "height_m": runs.height_m},
+            "horizontal": {
+                **horizontal.summary(),
+                "height_m": runs.height_m,
+                "zones_file": f"zones-{runs.horizontal_stem}.geojson",
+            },
             "vertical": vertical.summary(),
-            **{level.key: level.summary() for level in runs.levels},
+            **{
+                level.key: {
+                    **level.summary(),
+                    "zones_file": f"zones-{level.run.result.grid.plane.file_stem}.geojson",
+                }
+                for level in runs.levels
+            },
         },
         "comparison": None if comparison is None else comparison.data(),
         "uncertainty": None if spread is None else spread["spec"],
@@ -1409,13 +1464,18 @@ def step_report(
         },
         "caution": CAUTION_TEXT,
     }
-    names = assess_file_names(comparison is not None, scenario_text is not None, bool(runs.levels))
+    names = assess_file_names(
+        comparison is not None,
+        scenario_text is not None,
+        bool(runs.levels),
+        runs.height_m if runs.height_given else None,
+    )
     data["files"] = list(names)
 
     files: dict[str, bytes] = {}
     overlays = {
         name: _map_overlay(scenario, run, readings_block)
-        for name, run in (("floor", floor), ("vertical", vertical))
+        for name, run in (("horizontal", horizontal), ("vertical", vertical))
     }
     # The figures are drawn side by side (fields/workers.py): each is a piece of its own,
     # the comparison's (the longest) first.
@@ -1425,10 +1485,10 @@ def step_report(
     pieces += [
         functools.partial(
             map_files,
-            floor,
-            "map-floor",
+            horizontal,
+            f"map-{runs.horizontal_stem}",
             formats=("png", "svg", "npz", "geojson"),
-            overlay=overlays["floor"],
+            overlay=overlays["horizontal"],
         ),
         functools.partial(
             map_files,
@@ -1441,9 +1501,12 @@ def step_report(
     for made in run_each(pieces):
         files.update(made)
     for level in runs.levels:
-        stem = "map-" + level.key.replace("_", "-")
+        stem = "map-" + level.run.result.grid.plane.file_stem
         files.update(map_files(level.run, stem, formats=("geojson",)))
-    figures = {"floor": files["map-floor.png"], "vertical": files["map-vertical.png"]}
+    figures = {
+        "horizontal": files[f"map-{runs.horizontal_stem}.png"],
+        "vertical": files["map-vertical.png"],
+    }
     if comparison is not None:
         files["compare.json"] = json_text(comparison.data()).encode()
         figures["compare"] = files["compare.png"]
@@ -1480,7 +1543,8 @@ def assess(
     limits : sequence of str, optional
         Limit ids (default: the scenario's).
     height_m : float, optional
-        Height of the floor-plane map and zones (default: the first source's) [m].
+        Height of the horizontal map and zones (default: the first source's; files
+        ``map-source-height.*``, else named after the height, ``map-z1.70m.*``) [m].
     grid : GridSettings, optional
         Sampling of the maps (default from the keep-out radius).
     scenario_text : str, optional
@@ -1513,7 +1577,7 @@ def assess(
     if out is None:
         return _assess(scenario, ids, height_m, grid, scenario_text, progress, readings, rank_by)
     protected = [Path(scenario.path)] if scenario.path else []
-    refuse_assessment_overwrites(out, protected)
+    refuse_assessment_overwrites(out, protected, height_m)
     from .outputs import staged_output_folder
 
     with staged_output_folder(out, protected) as staged:
@@ -1523,11 +1587,13 @@ def assess(
     return replace(result, written=tuple(staged.published))
 
 
-def refuse_assessment_overwrites(out: str | Path, protected: Sequence[str | Path]) -> None:
+def refuse_assessment_overwrites(
+    out: str | Path, protected: Sequence[str | Path], height_m: float | None = None
+) -> None:
     """Refuse, before any computation, an ``out`` folder whose outputs would replace an input."""
     from .outputs import refuse_overwriting
 
-    for name in ASSESS_FILE_NAMES:
+    for name in assess_file_names(True, True, True, height_m):
         refuse_overwriting(Path(out) / name, [Path(p) for p in protected])
 
 
@@ -1563,10 +1629,10 @@ def _assess(
                 ids,
                 keepouts,
                 grid,
-                runs.height_m,
+                runs.height_m if runs.height_given else None,
                 progress,
                 rank_by,
-                runs.floor,
+                runs.horizontal,
                 searches,
             )
         finally:

@@ -250,8 +250,19 @@ HeightOption = Annotated[
     float | None,
     typer.Option(
         "--height-m",
-        help="Height of the horizontal plane of the maps and zones (map-floor.*); default the "
-        "first source's height [m].",
+        help="Height of the horizontal plane of the maps and zones; default the first "
+        "source's height (files map-source-height.*, zones-source-height.geojson; at a "
+        "given height named after it, e.g. map-z1.70m.*) [m].",
+        rich_help_panel=PANEL_PLANE,
+        show_default=False,
+    ),
+]
+CompareHeightOption = Annotated[
+    float | None,
+    typer.Option(
+        "--height-m",
+        help="Height of the horizontal plane on which the options' zones are compared; "
+        "default the first source's height [m].",
         rich_help_panel=PANEL_PLANE,
         show_default=False,
     ),
@@ -724,7 +735,7 @@ def map_command(
     with _staged(out, scenario) as staged:
         with Progress() as progress:
             fmap = api.field_map(loaded, the_plane, limits=ids, grid=grid, progress=progress)
-        files = api.map_files(fmap.run, f"map-{the_plane.kind}", style, formats)
+        files = api.map_files(fmap.run, f"map-{the_plane.file_stem}", style, formats)
         if staged is not None:
             for name, blob in files.items():
                 staged.write(name, blob)
@@ -779,7 +790,7 @@ def _map_text(data: dict[str, Any], scenario: Any = None) -> str:
 def compare_command(
     scenario: ScenarioPath,
     limit: LimitOption = None,
-    height_m: HeightOption = None,
+    height_m: CompareHeightOption = None,
     extent_m: ExtentOption = None,
     step_m: StepOption = None,
     pixels: PixelsOption = None,
@@ -895,11 +906,12 @@ def assess_command(
     """The full assessment: summary, assessment.json, maps, zones, options and report.html.
 
     Keep-out distance per limit, the sources described, the named places, the map of
-    the horizontal plane at the source height (or --height-m; files map-floor.*) with
-    its zones (GeoJSON), with a floor in the scenario also the zones just above the floor
-    and at head height, a vertical map through the boresight, the comparison when the
-    scenario has options (or --sweep), and a self-contained HTML report.  Everything is
-    written to a staging folder first and moved into --out only when complete.
+    the horizontal plane at the source height (files map-source-height.*; or at
+    --height-m, e.g. map-z1.70m.*) with its zones (GeoJSON), with a floor in the
+    scenario also the zones just above the floor and at head height, a vertical map
+    through the boresight, the comparison when the scenario has options (or --sweep),
+    and a self-contained HTML report.  Everything is written to a staging folder first
+    and moved into --out only when complete.
     """
     checks.check_height(height_m)
     checks.check_grid_ranges(extent_m, step_m, pixels)
@@ -919,7 +931,7 @@ def assess_command(
     ids = api.select_limits(loaded, limit)
     check_rank_by(loaded, rank_by)
     loaded = api.with_sweeps(loaded, sweep)
-    api.refuse_assessment_overwrites(out, [scenario])
+    api.refuse_assessment_overwrites(out, [scenario], height_m)
     text = Path(scenario).read_text(encoding="utf-8")
     with Progress() as progress:
         result = api.assess(

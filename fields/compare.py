@@ -3,7 +3,8 @@
 Each variant (the base, then every option as the loader merged it) gets
 
 * the keep-out distance for each selected limit (:mod:`keepclear.fields.keepout`),
-* the zone area on the floor plane at a common height, on one common grid,
+* the zone area on a horizontal plane at a common height (by default the first
+  source's height, not the floor), on one common grid,
 * the leakage 5 cm from the enclosure where there is one (the enclosure model's
   ``face_density_5cm``, with the enclosed sources' power while radiating: the
   21 CFR 1030.10 reading is taken with the source on),
@@ -22,8 +23,12 @@ Ranking (``rank_by``):
   limit, then the worst named point's quotient;
 * ``"place:NAME"``: the smallest time-averaged power density at the named place
   first, then as ``"keepout"``;
-* ``"zone-area"``: the smallest floor zone area of the strictest limit first,
-  then as ``"keepout"``.
+* ``"zone-area"``: the smallest zone area (on that horizontal plane) of the
+  strictest limit first, then as ``"keepout"``.
+
+The ranked table shows the value it ranks by as its first column after the option:
+the keep-out distances, the zone area, or the density at the named place (W/m2 and
+mW/cm2, and its change in dB against the base).
 
 Ties are decided with a stated tolerance, never by the last bit of a float:
 two keep-out distances within 1 mm, two areas within 0.001 m^2 (or 1e-6
@@ -51,7 +56,14 @@ from .arguments import RANK_CHOICES, check_rank_by_names  # noqa: F401 - RANK_CH
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
-from .report_text import density_text, pair_text, share_text
+from .report_text import (
+    change_text,
+    density_text,
+    pair_text,
+    place_cell,
+    ranked_place,
+    share_text,
+)
 from .scenario import Scenario
 from .workers import Pending, run_each, start_each, worker_count
 
@@ -70,8 +82,8 @@ class Variant:
     description : str
     scenario : Scenario
     keepouts : tuple of KeepoutResult
-    floor : MapRun
-        The floor-plane map on the common grid.
+    horizontal : MapRun
+        The map of the common horizontal plane on the common grid.
     leakage_5cm_w_m2 : float or None
         Largest leakage power density 5 cm from the enclosure [W m^-2].
     worst_point : dict or None
@@ -82,7 +94,7 @@ class Variant:
     order : int
         Position in the scenario (0 for the base): the last tie-break.
     panel : MapRun or None
-        The floor map on the variant's own, smaller extent for the comparison figure
+        The horizontal map on the variant's own, smaller extent for the comparison figure
         (None where the common grid already fits it).
     """
 
@@ -90,7 +102,7 @@ class Variant:
     description: str
     scenario: Scenario
     keepouts: tuple[KeepoutResult, ...]
-    floor: maps.MapRun
+    horizontal: maps.MapRun
     leakage_5cm_w_m2: float | None
     worst_point: dict[str, Any] | None
     places: tuple[dict[str, Any], ...] = field(default=())
@@ -109,8 +121,8 @@ class Variant:
 
     @property
     def zone_area_m2(self) -> float:
-        """Floor-plane zone area of the strictest limit (the largest zone) [m^2]."""
-        return max((zs[-1].area_m2 for zs in self.floor.zones.values()), default=0.0)
+        """Zone area of the strictest limit (the largest zone) on the horizontal plane [m^2]."""
+        return max((zs[-1].area_m2 for zs in self.horizontal.zones.values()), default=0.0)
 
     def place_density_w_m2(self, name: str) -> float:
         """Time-averaged power density at the named place [W m^-2]."""
@@ -199,17 +211,22 @@ def tolerance_text() -> str:
     )
 
 
-def ranked_by_text(rank_by: str) -> str:
-    """The sentence that says how the variants were ranked."""
+def ranked_by_text(rank_by: str, where: str = "source height") -> str:
+    """The sentence that says how the variants were ranked.
+
+    ``where`` names the horizontal plane of the zones: ``"source height (z = 1.10 m)"``
+    (:attr:`keepclear.fields.maps.Plane.where`).
+    """
+    zone = f"zone area at {where} of the strictest limit"
     keepout = (
         "largest keep-out distance across the limits (with model uncertainty), "
-        "then floor zone area of the strictest limit, then worst named point"
+        f"then {zone}, then worst named point"
     )
     if rank_by == "keepout":
         return keepout
     if rank_by == "zone-area":
         return (
-            "floor zone area of the strictest limit, then largest keep-out distance across "
+            f"{zone}, then largest keep-out distance across "
             "the limits (with model uncertainty), then worst named point"
         )
     return f"time-averaged power density at {rank_by.removeprefix('place:')}, then {keepout}"
@@ -360,16 +377,20 @@ def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
 
 @dataclass(frozen=True)
 class Comparison:
-    """The ranked variants on a common floor grid.
+    """The ranked variants on a common horizontal grid.
 
     Parameters
     ----------
     base : Scenario
     limit_ids : tuple of str
     height_m : float
-        Height of the common floor plane [m].
+        Height of the common horizontal plane [m].
     variants : tuple of Variant
         In rank order (best first).
+    rank_by : str
+    plane_name : str
+        ``"source height"`` when the plane is at the first source's height, empty when
+        its height was given.
     """
 
     base: Scenario
@@ -377,15 +398,21 @@ class Comparison:
     height_m: float
     variants: tuple[Variant, ...]
     rank_by: str = "keepout"
+    plane_name: str = ""
+
+    @property
+    def where(self) -> str:
+        """The common plane in a few words: ``"source height (z = 1.10 m)"``, ``"z = 1.70 m"``."""
+        return self.variants[0].horizontal.result.grid.plane.where
 
     def data(self) -> dict[str, Any]:
         """The ``compare --json`` object (schema_version 1)."""
-        grid = self.variants[0].floor.result.grid
+        grid = self.variants[0].horizontal.result.grid
         base = next(v for v in self.variants if v.is_base)
         base_places = {p["name"]: p["power_density_w_m2"] for p in base.places}
         rows = []
         for rank, v in enumerate(self.variants, start=1):
-            floor = {z[0].limit_id: z for z in v.floor.zones.values()}
+            zones = {z[0].limit_id: z for z in v.horizontal.zones.values()}
             rows.append(
                 {
                     "rank": rank,
@@ -405,11 +432,11 @@ class Comparison:
                         }
                         for k in v.keepouts
                     ],
-                    "zone_area_m2": {i: floor[i][0].area_m2 for i in self.limit_ids},
+                    "zone_area_m2": {i: zones[i][0].area_m2 for i in self.limit_ids},
                     "zone_area_with_uncertainty_m2": {
-                        i: floor[i][-1].area_m2 for i in self.limit_ids
+                        i: zones[i][-1].area_m2 for i in self.limit_ids
                     },
-                    "zone_clipped_at_map_edge": any(z.clipped for zs in floor.values() for z in zs),
+                    "zone_clipped_at_map_edge": any(z.clipped for zs in zones.values() for z in zs),
                     "leakage_5cm_w_m2": v.leakage_5cm_w_m2,
                     "worst_point": v.worst_point,
                     **dict(zip(ABOVE_BASE_KEYS, above_base(v, base), strict=True)),
@@ -429,12 +456,14 @@ class Comparison:
             "scenario": self.base.name,
             "frequency_hz": self.base.frequency_hz,
             "limits": list(self.limit_ids),
-            "floor_plane": {
+            "horizontal_plane": {
+                "name": self.plane_name or None,
+                "where": self.where,
                 "height_m": self.height_m,
                 "extent_m": list(grid.extent_m),
                 "step_m": grid.step_m,
             },
-            "ranked_by": ranked_by_text(self.rank_by),
+            "ranked_by": ranked_by_text(self.rank_by, self.where),
             "rank_by": self.rank_by,
             "tie_rule": tolerance_text().strip()[1:-1],
             "options": rows,
@@ -442,7 +471,7 @@ class Comparison:
         }
 
     def figure(self) -> Any:
-        """Side-by-side floor maps on one colour scale, in rank order."""
+        """Side-by-side horizontal maps on one colour scale, in rank order."""
         from .plots import comparison_figure
 
         panels = []
@@ -452,7 +481,7 @@ class Comparison:
                 f"({letter}) {rank}. {v.name}: keep-out {v.largest_keepout_m:.2f} m, "
                 f"zone {v.zone_area_m2:.2f} m²"
             )
-            run = v.panel if v.panel is not None else v.floor
+            run = v.panel if v.panel is not None else v.horizontal
             panels.append((caption, run.result, v.scenario, v.keepouts))
         own = [v.panel is not None for v in self.variants]
         note = (
@@ -481,7 +510,7 @@ def compare_options(
     base_map: maps.MapRun | None = None,
     option_keepouts: Pending[tuple[KeepoutResult, ...]] | None = None,
 ) -> Comparison:
-    """Assess the base and every option on a common floor grid and rank them.
+    """Assess the base and every option on a common horizontal grid and rank them.
 
     Parameters
     ----------
@@ -490,7 +519,7 @@ def compare_options(
     limit_ids : sequence of str, optional
         Limits for every variant (default: the base's).
     height_m : float, optional
-        Height of the floor plane (default: the base's first source) [m].
+        Height of the horizontal plane (default: the base's first source) [m].
     half_extent_m, step_m, pixels : optional
         Grid settings (default: wide enough for the largest variant).
     progress : callable, optional
@@ -504,7 +533,7 @@ def compare_options(
         Give the figure's panel of an option whose own default extent is under
         :data:`OWN_PANEL_FRACTION` of the common one a map of its own extent.
     base_map : MapRun, optional
-        A map of the base already made (the assessment's floor map): used as the
+        A map of the base already made (the assessment's horizontal map): used as the
         base's map when it is of this scenario and these keep-out answers, on the
         same plane and the very same grid (the same samples, to the last bit), instead
         of evaluating it again.
@@ -553,7 +582,11 @@ def compare_options(
     centre = scenario.centre_m
     plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if height_m is None:
-        plane = replace(plane, description=f"horizontal plane at source height z = {height:.2f} m")
+        plane = replace(
+            plane,
+            description=f"horizontal plane at source height z = {height:.2f} m",
+            name="source height",
+        )
     if half_extent_m is None:
         half_extent_m = max(
             maps.default_half_extent_m(s, k, plane)
@@ -585,11 +618,13 @@ def compare_options(
     for order, ((name, description, s), k, piece) in enumerate(
         zip(variants, keepouts, made, strict=True)
     ):
-        floor, panel, places, worst, leakage = piece
-        run = base_run if floor is None else maps.MapRun(s, k, *floor)
+        common, panel, places, worst, leakage = piece
+        run = base_run if common is None else maps.MapRun(s, k, *common)
         panel_run = None if panel is None else maps.MapRun(s, k, *panel)
         out.append(Variant(name, description, s, k, run, leakage, worst, places, order, panel_run))
-    return Comparison(scenario, ids, height, tuple(rank_variants(out, rank_by)), rank_by)
+    return Comparison(
+        scenario, ids, height, tuple(rank_variants(out, rank_by)), rank_by, plane.name
+    )
 
 
 def start_option_searches(
@@ -639,9 +674,9 @@ def _variant_maps(
     def piece(run: maps.MapRun) -> _MapPiece:
         return run.result, run.zones, run.shapes
 
-    floor = None
+    common = None
     if common_map:
-        floor = piece(
+        common = piece(
             maps.run_map(scenario, plane, keepouts, centre_st_m=plane.centre_st_m, **grid)
         )
     places, worst = place_values(scenario, limit_ids)
@@ -660,7 +695,7 @@ def _variant_maps(
                 centre_st_m=plane.centre_st_m,
             )
         )
-    return floor, panel, places, worst, leakage_5cm_w_m2(scenario)
+    return common, panel, places, worst, leakage_5cm_w_m2(scenario)
 
 
 def _same_map(
@@ -720,33 +755,58 @@ def check_rank_by(scenario: Scenario, rank_by: str) -> None:
 
 
 def comparison_table(data: dict[str, Any]) -> str:
-    """The ranked comparison as a plain-text table."""
+    """The ranked comparison as a plain-text table.
+
+    The value the ranking is by comes first after the option: the keep-out distances
+    (``keepout``), the zone area (``zone-area``) or the density at the named place with
+    its change against the base (``place:NAME``).
+    """
     limits = data["limits"]
-    header = ["rank", "option"] + [f"keep-out m {i}" for i in limits]
-    header += ["zone m2", "leak 5 cm W/m2 (mW/cm2)", "worst named point"]
+    rank_by = data.get("rank_by", "keepout")
+    place = ranked_place(rank_by)
+    keepout_head = [f"keep-out m {i}" for i in limits]
+    zone_head = ["zone m2"]
+    place_head = [] if place is None else [f"{place} W/m2 (mW/cm2)", "change"]
+    if place is not None:
+        header = ["rank", "option", *place_head, *keepout_head, *zone_head]
+    elif rank_by == "zone-area":
+        header = ["rank", "option", *zone_head, *keepout_head]
+    else:
+        header = ["rank", "option", *keepout_head, *zone_head]
+    header += ["leak 5 cm W/m2 (mW/cm2)", "worst named point"]
     rows = []
     for row in data["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
-        cells = [str(row["rank"]), row["name"] if row["is_base"] else f"option: {row['name']}"]
+        keepout_cells = []
         for i in limits:
             e = k[i]
             text = f"{e['distance_m']:.2f}"
             if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
                 text += f" ({e['distance_with_uncertainty_m']:.2f})"
-            cells.append(text)
+            keepout_cells.append(text)
         strictest = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
-        cells.append(f"{strictest:.2f}" + (" clipped" if row["zone_clipped_at_map_edge"] else ""))
-        leak = row["leakage_5cm_w_m2"]
-        cells.append(pair_text(leak))
+        zone_cells = [f"{strictest:.2f}" + (" clipped" if row["zone_clipped_at_map_edge"] else "")]
+        cells = [str(row["rank"]), row["name"] if row["is_base"] else f"option: {row['name']}"]
+        if place is not None:
+            density, change = place_cell(row, place)
+            cells += [pair_text(density), "base" if row["is_base"] else change_text(change)]
+            cells += keepout_cells + zone_cells
+        elif rank_by == "zone-area":
+            cells += zone_cells + keepout_cells
+        else:
+            cells += keepout_cells + zone_cells
+        cells.append(pair_text(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]
         cells.append(
             "-" if wp is None else f"{wp['name']}: {share_text(wp['quotient'])} of {wp['limit']}"
         )
         rows.append(cells)
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(header)]
+    plane = data["horizontal_plane"]
+    where = plane.get("where") or f"z = {plane['height_m']:.2f} m"
     lines = [
         f"Options compared: {data['scenario']}",
-        f"Zones on the horizontal plane z = {data['floor_plane']['height_m']:.2f} m; ranked by "
+        f"Zones on the horizontal plane at {where}; ranked by "
         + data["ranked_by"]
         + tolerance_text(),
         "",
@@ -755,6 +815,12 @@ def comparison_table(data: dict[str, Any]) -> str:
     ]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
     lines += ["", "Keep-out in brackets: widened by the source model's stated gain uncertainty."]
+    lines.append(
+        f"Zone: the area at {where} where the strictest limit is reached (with the model's "
+        "uncertainty); 'clipped' where it reaches the map edge."
+    )
+    if place is not None:
+        lines.append(f"{place}: time-averaged power density there; change in dB against the base.")
     notes = [(r["name"], r.get("above_base_note")) for r in data["options"]]
     lines += [f'Above the base: option "{name}" {note}.' for name, note in notes if note]
     lines += _places_lines(data)

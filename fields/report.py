@@ -25,7 +25,14 @@ from typing import Any
 from . import limits as limits_mod
 from .cautions import CAUTION_LINES, caution_block
 from .describe import power_text
-from .report_text import density_text, pair_text, share_text
+from .report_text import (
+    change_text,
+    density_text,
+    pair_text,
+    place_cell,
+    ranked_place,
+    share_text,
+)
 
 #: What the estimate leaves out, as printed in the report.
 LEFT_OUT: tuple[tuple[str, str], ...] = (
@@ -203,11 +210,19 @@ def _table(header: list[str], rows: list[list[str]], numeric: set[int] | None = 
 
 
 # --------------------------------------------------------------------- sections
+def _where(data: dict[str, Any]) -> str:
+    """The assessment's horizontal plane in a few words: ``"source height (z = 1.10 m)"``."""
+    m = data["maps"]["horizontal"]
+    z = f"z = {m['height_m']:.2f} m"
+    name = m["plane"].get("name")
+    return f"{name} ({z})" if name else z
+
+
 def _summary(data: dict[str, Any]) -> str:
     rows = []
     for k in data["keepout"]:
         cyl = k["cylinder"]
-        zone = k["floor_zone"]
+        zone = k["horizontal_zone"]
         if not k["reached"]:
             rows.append([_id(k["limit"]), _density(k["limit_w_m2"]), "not reached", "–", "–", "–"])
             continue
@@ -222,14 +237,13 @@ def _summary(data: dict[str, Any]) -> str:
                 f"{cyl['z_max_m']:.2f}&nbsp;m",
             ]
         )
-    floor_h = data["maps"]["floor"]["height_m"]
     table = _table(
         [
             "limit",
             "limit value",
             "keep-out radius",
             "mark out",
-            f"circle at source height (z = {floor_h:.2f} m)",
+            f"circle at {_e(_where(data))}",
             "vertical cylinder",
         ],
         rows,
@@ -348,12 +362,14 @@ def _levels_section(data: dict[str, Any]) -> str:
     floor_m = levels[0]["floor_height_m"]
     return (
         "<h3>Zones near the floor and at head height</h3>"
-        f"<p>The scenario has a floor at z = {floor_m:.2f}&nbsp;m. Besides the plane at the "
-        "source height, the zones are given just above the floor (where feet are; "
+        f"<p>The scenario has a floor at z = {floor_m:.2f}&nbsp;m. Besides the plane at "
+        f"{_e(_where(data))}, the zones are given just above the floor (where feet are; "
         f"{levels[0]['height_above_floor_m']:.2f}&nbsp;m up, where the reflection model "
         "is an approximation) and at head height (1.7&nbsp;m above the floor, common "
-        "practice, no source); their outlines are in zones-floor-level.geojson and "
-        "zones-head-height.geojson.</p>" + _table(header, rows)
+        "practice, no source); their outlines are in "
+        + " and ".join(_e(lv["zones_file"]) for lv in levels)
+        + ".</p>"
+        + _table(header, rows)
     )
 
 
@@ -373,7 +389,7 @@ def _results(data: dict[str, Any]) -> str:
     for k in data["keepout"]:
         d = k["direction"]
         towards = "–" if d is None else "(" + ", ".join(f"{x:+.2f}" for x in d) + ")"
-        zone = k["floor_zone"]
+        zone = k["horizontal_zone"]
         box = zone.get("box")
         if box:
             keys = [key for key in box if key.endswith("_m") and key != "size_m"]
@@ -410,8 +426,8 @@ def _results(data: dict[str, Any]) -> str:
             "with model uncertainty",
             "screening (far-field formula)",
             "farthest towards",
-            "box at source height",
-            "zone area",
+            f"box at {_e(_where(data))}",
+            f"zone area at {_e(_where(data))}",
         ],
         rows,
         numeric={2, 3, 4, 7},
@@ -594,21 +610,44 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
     if not comp:
         return "<p>The scenario lists no alternatives (<code>[[option]]</code>).</p>"
     keys = _limit_keys(list(comp["limits"]))
-    header = ["#", "option", "description"] + [f"keep-out {key}" for key in keys.values()]
-    header += ["floor zone", "leakage at 5 cm", "worst named place"]
+    where = comp["horizontal_plane"]["where"]
+    rank_by = comp.get("rank_by", "keepout")
+    place = ranked_place(rank_by)
+    # The value the ranking is by comes first after the description.
+    keepout_head = [f"keep-out {key}" for key in keys.values()]
+    zone_head = [f"zone area at {_e(where)}"]
+    if place is not None:
+        middle_head = [f"at {_e(place)} (ranked by)", *keepout_head, *zone_head]
+    elif rank_by == "zone-area":
+        middle_head = [f"{zone_head[0]} (ranked by)", *keepout_head]
+    else:
+        middle_head = [*keepout_head, *zone_head]
+    header = ["#", "option", "description", *middle_head]
+    header += ["leakage at 5 cm", "worst named place"]
     rows = []
     for row in comp["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
         cells = [str(row["rank"]), _free(row["name"]), _free(row["description"])]
+        keepout_cells = []
         for i in keys:
             e = k[i]
             text = _metres(e["distance_m"])
             if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
                 text += f" ({_metres(e['distance_with_uncertainty_m'])})"
-            cells.append(text)
-        cells.append(
+            keepout_cells.append(text)
+        zone_cells = [
             _num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)) + "&nbsp;m²"
-        )
+        ]
+        if place is not None:
+            density, change = place_cell(row, place)
+            text = _density(density)
+            if not row["is_base"]:
+                text += f"<br>{_e(change_text(change))}"
+            cells += [text, *keepout_cells, *zone_cells]
+        elif rank_by == "zone-area":
+            cells += zone_cells + keepout_cells
+        else:
+            cells += keepout_cells + zone_cells
         cells.append(_density(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]
         cells.append(
@@ -621,11 +660,10 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
     parts = [
         f"<p>Ranked by {_e(comp['ranked_by'])}"
         + (f" ({_e(comp['tie_rule'])})" if comp.get("tie_rule") else "")
-        + ". Zones on the horizontal plane z = "
-        f"{comp['floor_plane']['height_m']:.2f}&nbsp;m. The ranking says which option needs "
+        + f". Zones on the horizontal plane at {_e(where)}. The ranking says which option needs "
         "the least space, or gives the least exposure at the chosen place; it does not make "
         "any option safe by itself.</p>",
-        _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
+        _table(header, rows, numeric={0, *range(3, len(header) - 1)}),
         _legend(keys, data),
         *(
             f'<p class="legend">Above the base: {_free(r["name"])} {_e(r["above_base_note"])}.</p>'
@@ -670,7 +708,7 @@ def _comparison_places(data: dict[str, Any], comp: dict[str, Any]) -> str:
 
 def _method(data: dict[str, Any]) -> str:
     a = data["assumptions"]
-    floor = data["maps"]["floor"]
+    floor = data["maps"]["horizontal"]
     vertical = data["maps"]["vertical"]
     return f"""
 <dl>
@@ -832,7 +870,7 @@ def render_report(
     data : dict
         The ``assessment.json`` object (:func:`keepclear.fields.assessment.run_assessment`).
     figures : dict
-        PNG bytes by role: ``"floor"``, ``"vertical"`` and, with options, ``"compare"``.
+        PNG bytes by role: ``"horizontal"``, ``"vertical"`` and, with options, ``"compare"``.
     scenario_text : str, optional
         The scenario file as written.
 
@@ -847,7 +885,7 @@ def render_report(
         f"{_e(s['id'])} ({_e(s['antenna'])}, {s['power_w']:g}&nbsp;W, duty {s['duty_cycle']:g})"
         for s in data["sources"]
     )
-    floor = data["maps"]["floor"]
+    horizontal = data["maps"]["horizontal"]
     vertical = data["maps"]["vertical"]
     parts = [
         "<!DOCTYPE html>",
@@ -866,10 +904,10 @@ def render_report(
         _sources(data),
         "<h2>1. Maps</h2>",
         '<figure class="map">'
-        + _img(figures["floor"], f"power density on the {floor['plane']['description']}")
-        + f"<figcaption>{_e(_sentence(floor['plane']['description']))}: time-averaged power "
-        "density, the contour of each limit and the keep-out sphere cut by the plane "
-        "(zones-floor.geojson).</figcaption></figure>",
+        + _img(figures["horizontal"], f"power density on the {horizontal['plane']['description']}")
+        + f"<figcaption>{_e(_sentence(horizontal['plane']['description']))}: time-averaged "
+        "power density, the contour of each limit and the keep-out sphere cut by the plane "
+        f"({_e(horizontal['zones_file'])}).</figcaption></figure>",
         '<figure class="map">'
         + _img(figures["vertical"], "power density on the vertical plane")
         + f"<figcaption>{_e(_sentence(vertical['plane']['description']))}: how high and "
@@ -927,7 +965,7 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
         "W/m2 (mW/cm2)",
         "keep-out m",
         "mark out m",
-        "circle at source height m",
+        f"circle at {_where(data)} r m",
         "cylinder r m, z m",
     ]
     rows = []
@@ -939,7 +977,7 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
                 pair_text(k["limit_w_m2"]),
                 f"{k['distance_m']:.2f}" if k["reached"] else "not reached",
                 f"{k['mark_out_m']:.2f}" if k["mark_out_m"] > 0 else "-",
-                f"{k['floor_zone']['circle']['radius_m']:.2f}" if k["reached"] else "-",
+                f"{k['horizontal_zone']['circle']['radius_m']:.2f}" if k["reached"] else "-",
                 (
                     f"{cyl['radius_m']:.2f}, {cyl['z_min_m']:.2f}..{cyl['z_max_m']:.2f}"
                     if k["reached"]
@@ -975,9 +1013,20 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
     comp = data.get("comparison")
     if comp:
         lines += ["", f"Options, best first (ranked by {comp['ranked_by']}):"]
+        place = ranked_place(comp.get("rank_by", "keepout"))
         for row in comp["options"]:
+            text = f"  {row['rank']}. {row['name']}: "
+            if place is not None:
+                density, change = place_cell(row, place)
+                text += f"at {place} {density_text(density)}"
+                text += "" if row["is_base"] else f" ({change_text(change)})"
+                text += "; "
+            elif comp.get("rank_by") == "zone-area":
+                area = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
+                text += f"zone {area:.2f} m2; "
             lines.append(
-                f"  {row['rank']}. {row['name']}: largest keep-out {row['largest_keepout_m']:.2f} m"
+                text
+                + f"largest keep-out {row['largest_keepout_m']:.2f} m"
                 + (f" ({row['above_base_note']})" if row.get("above_base_note") else "")
             )
     if written:

@@ -397,3 +397,21 @@ def pair_text(power_density_w_m2: float | None, digits: int = 3) -> str:
     if power_density_w_m2 is None:
         return "-"
     return f"{_fmt(power_density_w_m2, digits)} ({_fmt(power_density_w_m2 / 10.0, digits)})"
+
+
+def ranked_place(rank_by: str) -> str | None:
+    """The named place a ranking is by (``place:NAME``), or None."""
+    return rank_by.removeprefix("place:") if rank_by.startswith("place:") else None
+
+
+def place_cell(row: dict[str, Any], name: str) -> tuple[float | None, float | None]:
+    """An option row's time-averaged density at a named place [W m^-2] and its change [dB]."""
+    place = next((p for p in row.get("places", []) if p["name"] == name), None)
+    if place is None:
+        return None, None
+    return place["power_density_w_m2"], None if row["is_base"] else place["change_db"]
+
+
+def change_text(change: float | None) -> str:
+    """A change in dB against the base, ``"+1.2 dB"``, or ``"-"``."""
+    return "-" if change is None else f"{change:+.1f} dB"

@@ -50,13 +50,13 @@ position_m = [0.5, 0.0, 0.0]
 ASSESS_FILES = {
     "assessment.json",
     "report.html",
-    "map-floor.png",
-    "map-floor.svg",
-    "map-floor.npz",
+    "map-source-height.png",
+    "map-source-height.svg",
+    "map-source-height.npz",
     "map-vertical.png",
     "map-vertical.svg",
     "map-vertical.npz",
-    "zones-floor.geojson",
+    "zones-source-height.geojson",
     "scenario-input.toml",
 }
 
@@ -128,9 +128,9 @@ def test_assessment_json(assessed):
     gp = next(k for k in data["keepout"] if k["limit"] == "icnirp-2020/general-public")
     # OET 65 eq. (3): 100 W isotropic against 10 W/m^2 (ICNIRP 2020 Table 5).
     assert gp["distance_m"] == pytest.approx(math.sqrt(100 / (4 * math.pi * 10)), rel=2e-3)
-    assert gp["cylinder"]["radius_m"] > 0 and gp["floor_zone"]["circle"]["radius_m"] > 0
+    assert gp["cylinder"]["radius_m"] > 0 and gp["horizontal_zone"]["circle"]["radius_m"] > 0
     # The maps cross-check the keep-out search: for a point source they agree within a step.
-    step = data["maps"]["floor"]["step_m"]
+    step = data["maps"]["horizontal"]["step_m"]
     assert abs(gp["map_reach_m"] - gp["distance_m"]) <= step
     assert not gp["map_reach_beyond_keepout"]
     assert gp["mark_out_m"] >= gp["recommended_distance_m"]
@@ -141,12 +141,12 @@ def test_assessment_json(assessed):
 
 def test_assess_figures_and_zones_are_valid(assessed):
     _, _, out, _ = assessed
-    for name in ("map-floor.png", "map-vertical.png"):
+    for name in ("map-source-height.png", "map-vertical.png"):
         image = mpimg.imread(io.BytesIO((out / name).read_bytes()), format="png")
         assert float(np.var(image[..., :3])) > 0.005
-    zones = json.loads((out / "zones-floor.geojson").read_text(encoding="utf-8"))
+    zones = json.loads((out / "zones-source-height.geojson").read_text(encoding="utf-8"))
     assert zones["type"] == "FeatureCollection" and len(zones["features"]) == 2
-    with np.load(out / "map-floor.npz") as npz:
+    with np.load(out / "map-source-height.npz") as npz:
         assert npz["power_density_w_m2"].shape == (31, 31)
         assert npz["quotients"].shape == (2, 31, 31)
 
@@ -241,11 +241,16 @@ def test_map_out_folder(tmp_path, write_scenario):
     out = tmp_path / "maps"
     result = run("map", scenario, "--out", out, "--pixels", "31", "--height-m", "0.2")
     assert result.exit_code == 0, result.stderr
+    # The files are named after the plane's height (a map at another height beside them
+    # keeps its own files).
     names = {p.name for p in out.iterdir()}
-    assert names == {"map-xy.png", "map-xy.svg", "map-xy.csv", "map-xy.npz", "zones-xy.geojson"}
-    header = (out / "map-xy.csv").read_text(encoding="utf-8").splitlines()[0]
+    stem = "z0.20m"
+    assert names == {f"map-{stem}.{e}" for e in ("png", "svg", "csv", "npz")} | {
+        f"zones-{stem}.geojson"
+    }
+    header = (out / f"map-{stem}.csv").read_text(encoding="utf-8").splitlines()[0]
     assert header.startswith("x_m,y_m,z_m,s_m,t_m,power_density_w_m2")
-    rows = np.loadtxt(out / "map-xy.csv", delimiter=",", skiprows=1)
+    rows = np.loadtxt(out / f"map-{stem}.csv", delimiter=",", skiprows=1)
     assert rows.shape == (31 * 31, 9 + 2) and np.allclose(rows[:, 2], 0.2)
     assert "z = 0.20 m" in result.stdout and "CAUTION" in result.stdout
 

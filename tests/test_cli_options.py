@@ -352,7 +352,7 @@ def test_assess_sweep_rank_by_sources_and_heights(options_file, tmp_path):
     assert "Sources:" in text and "EIRP" in text
     assert "Zones near the floor and at head height" in text
     assert "floor level z = 0.10 m" in text and "head height z = 1.70 m" in text
-    assert "circle at source height" in text
+    assert "circle at source height (z = 1.00 m)" in text
     assert "e+" not in text
     data = json.loads((out / "assessment.json").read_text(encoding="utf-8"))
     validate("assessment", data)
@@ -362,7 +362,11 @@ def test_assess_sweep_rank_by_sources_and_heights(options_file, tmp_path):
     assert source["peak_gain_dbi"] == pytest.approx(6.0) and source["power_w"] == 100.0
     assert source["reactive_near_field_m"] == pytest.approx(reactive_near_field_m(2.45e9))
     maps = data["maps"]
-    assert maps["floor"]["plane"]["description"].startswith("horizontal plane at source height")
+    assert maps["horizontal"]["plane"]["description"].startswith(
+        "horizontal plane at source height"
+    )
+    assert maps["horizontal"]["zones_file"] == "zones-source-height.geojson"
+    assert maps["head_height"]["zones_file"] == "zones-head-height.geojson"
     assert maps["floor_level"]["height_m"] == pytest.approx(0.1)
     assert maps["head_height"]["height_m"] == pytest.approx(1.7)
     assert maps["head_height"]["height_above_floor_m"] == pytest.approx(1.7)
@@ -446,3 +450,111 @@ def test_verification_tags_read_as_sentences():
     assert "recalled" in text.lower() and "checked" in text
     assert verification_sentences("") == ""
     assert verification_sentences("free words") == "free words"
+
+
+# ------------------------------------------- names of the planes, the ranking column
+def _table_header(text: str) -> list[str]:
+    """The ranked table's column heads (split on the runs of two spaces)."""
+    lines = text.splitlines()
+    i = next(n for n, line in enumerate(lines) if line.startswith("rank "))
+    return [h.strip() for h in lines[i].split("  ") if h.strip()]
+
+
+def test_compare_table_ranked_by_a_place_shows_that_place(options_file):
+    """Ranked by place:door, the table's first value column is the density at the door
+    (W/m2 and mW/cm2) with its change against the base, in the ranked order."""
+    result = run("compare", options_file, "--rank-by", "place:door", *GRID)
+    assert_clean_exit(result, (0,))
+    header = _table_header(result.stdout)
+    assert header[:4] == ["rank", "option", "door W/m2 (mW/cm2)", "change"]
+    data = strict_json(
+        run("compare", options_file, "--rank-by", "place:door", *GRID, "--json").stdout
+    )
+    lines = result.stdout.splitlines()
+    start = next(n for n, line in enumerate(lines) if line.startswith("rank ")) + 2
+    for row, line in zip(data["options"], lines[start:], strict=False):
+        door = next(p for p in row["places"] if p["name"] == "door")
+        w_m2 = door["power_density_w_m2"]
+        assert f"{w_m2:.3g} ({w_m2 / 10:.3g})" in line
+        if row["is_base"]:
+            assert " base " in line
+        else:
+            assert f"{door['change_db']:+.1f} dB" in line
+    # The low-power option is 10 dB down everywhere (power density linear in power).
+    assert "-10.0 dB" in result.stdout
+    assert "floor zone" not in result.stdout
+
+
+def test_compare_table_ranked_by_zone_area_puts_the_zone_first(options_file):
+    result = run("compare", options_file, "--rank-by", "zone-area", *GRID)
+    assert_clean_exit(result, (0,))
+    assert _table_header(result.stdout)[2] == "zone m2"
+    assert "zone area at source height (z = 1.00 m) of the strictest limit" in result.stdout
+    keepout = run("compare", options_file, *GRID)
+    assert _table_header(keepout.stdout)[2].startswith("keep-out m ")
+
+
+def test_compare_at_a_given_height_names_it(options_file):
+    result = run("compare", options_file, "--height-m", "1.7", *GRID, "--json")
+    data = strict_json(result.stdout)
+    validate("compare", data)
+    plane = data["horizontal_plane"]
+    assert plane["name"] is None and plane["where"] == "z = 1.70 m"
+    assert "zone area at z = 1.70 m" in data["ranked_by"]
+    assert "source height" not in data["ranked_by"]
+
+
+def test_compare_height_help_names_no_map_files():
+    result = run("compare", "--help")
+    assert result.exit_code == 0
+    # compare writes no map files: its --height-m help names none.
+    assert "map-" not in result.stdout and "map-floor" not in result.stdout
+    assert "options'" in result.stdout
+
+
+def test_assess_names_the_horizontal_files_after_the_plane(options_file, tmp_path):
+    """At the source height map-source-height.*; at a given height map-z1.70m.*; the
+    report's options table names the zone's plane and shows the place it ranks by."""
+    out = tmp_path / "out"
+    result = kc.assess(
+        kc.load_scenario(options_file),
+        out,
+        grid=kc.GridSettings(pixels=21),
+        height_m=1.7,
+        rank_by="place:desk",
+    )
+    data = result.to_dict()
+    names = set(data["files"])
+    assert {"map-z1.70m.png", "map-z1.70m.svg", "map-z1.70m.npz", "zones-z1.70m.geojson"} <= names
+    assert not any("source-height" in n or "floor." in n for n in names)
+    assert names == {p.name for p in out.iterdir()}
+    assert data["maps"]["horizontal"]["zones_file"] == "zones-z1.70m.geojson"
+    assert data["comparison"]["horizontal_plane"]["where"] == "z = 1.70 m"
+    html = (out / "report.html").read_text(encoding="utf-8")
+    assert "zone area at z = 1.70 m" in html and "floor zone" not in html
+    assert "at desk (ranked by)" in html
+    assert "zones-z1.70m.geojson" in html
+
+
+def test_map_files_at_two_heights_stand_side_by_side(options_file, tmp_path):
+    out = tmp_path / "maps"
+    assert_clean_exit(run("map", options_file, "--out", out, "--pixels", "11"), (0,))
+    assert_clean_exit(
+        run("map", options_file, "--out", out, "--pixels", "11", "--height-m", "1.7"), (0,)
+    )
+    names = {p.name for p in out.iterdir()}
+    for stem in ("source-height", "z1.70m"):
+        assert {f"map-{stem}.png", f"map-{stem}.csv", f"zones-{stem}.geojson"} <= names
+    heights = np.loadtxt(out / "map-z1.70m.csv", delimiter=",", skiprows=1)[:, 2]
+    assert np.allclose(heights, 1.7)
+    source = np.loadtxt(out / "map-source-height.csv", delimiter=",", skiprows=1)[:, 2]
+    assert np.allclose(source, 1.0)
+
+
+@pytest.mark.parametrize(
+    ("height_m", "stem"), [(1.7, "z1.70m"), (0.1, "z0.10m"), (-0.001, "z0.00m"), (-0.5, "z-0.50m")]
+)
+def test_height_stem(height_m, stem):
+    from keepclear.fields.maps import height_stem
+
+    assert height_stem(height_m) == stem

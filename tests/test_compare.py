@@ -95,7 +95,7 @@ def _variant(name, order, keepout_m, area_m2, quotient, place_w_m2=1.0):
         def __init__(self, area):
             self.area_m2 = area
 
-    class _Floor:
+    class _Horizontal:
         zones = {"l": [_Zone(area_m2)]}
 
     class _Keepout:
@@ -106,7 +106,7 @@ def _variant(name, order, keepout_m, area_m2, quotient, place_w_m2=1.0):
         description="",
         scenario=None,
         keepouts=(_Keepout(),),
-        floor=_Floor(),
+        horizontal=_Horizontal(),
         leakage_5cm_w_m2=None,
         worst_point={"quotient": quotient},
         places=({"name": "desk", "power_density_w_m2": place_w_m2, "quotients": {}},),
@@ -312,9 +312,9 @@ def test_small_option_gets_its_own_lettered_panel(write_scenario):
     small, base = comparison.variants
     assert small.name == "one watt" and base.is_base
     # The data stay on the common grid; the figure's panel of the small option is its own.
-    assert small.floor.result.grid.extent_m == base.floor.result.grid.extent_m
+    assert small.horizontal.result.grid.extent_m == base.horizontal.result.grid.extent_m
     assert small.panel is not None and base.panel is None
-    common = base.floor.result.grid.extent_m
+    common = base.horizontal.result.grid.extent_m
     own = small.panel.result.grid.extent_m
     assert own[1] - own[0] < 0.6 * (common[1] - common[0])
     fig = comparison.figure()
@@ -335,7 +335,7 @@ def test_the_assessment_floor_map_serves_as_the_base_map_only_on_the_same_grid(w
     ids = scenario.limit_ids
     keepouts = tuple(keepout_distances(scenario, ids))
     fresh = compare_options(scenario, pixels=41, base_keepouts=keepouts)
-    base_fresh = next(v for v in fresh.variants if v.is_base).floor
+    base_fresh = next(v for v in fresh.variants if v.is_base).horizontal
     height = float(scenario.centre_m[2])
     plane = maps.principal_plane("xy", [*scenario.centre_m[:2], height])
     extent = base_fresh.result.grid.extent_m[1] - base_fresh.result.grid.plane.centre_st_m[0]
@@ -347,7 +347,7 @@ def test_the_assessment_floor_map_serves_as_the_base_map_only_on_the_same_grid(w
         pixels=41,
     )
     reused = compare_options(scenario, pixels=41, base_keepouts=keepouts, base_map=ready)
-    base = next(v for v in reused.variants if v.is_base).floor
+    base = next(v for v in reused.variants if v.is_base).horizontal
     assert base.result.power_density_w_m2 is ready.result.power_density_w_m2
     assert base.plane.description == base_fresh.plane.description
     np.testing.assert_allclose(
@@ -360,8 +360,8 @@ def test_the_assessment_floor_map_serves_as_the_base_map_only_on_the_same_grid(w
     # Another grid (a coarser map of the same plane) is evaluated again.
     coarse = maps.run_map(scenario, plane, keepouts, half_extent_m=extent, pixels=21)
     other = compare_options(scenario, pixels=41, base_keepouts=keepouts, base_map=coarse)
-    base = next(v for v in other.variants if v.is_base).floor
+    base = next(v for v in other.variants if v.is_base).horizontal
     assert base.result.grid.shape == (41, 41)
     # Other keep-out answers than the map's: evaluated again too.
     again = compare_options(scenario, pixels=41, base_map=ready)
-    assert next(v for v in again.variants if v.is_base).floor.result is not ready.result
+    assert next(v for v in again.variants if v.is_base).horizontal.result is not ready.result

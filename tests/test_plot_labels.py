@@ -160,5 +160,5 @@ def test_an_option_with_a_much_smaller_zone_gets_its_own_panel(write_scenario, o
     assert (less.panel is not None) is own
     if own:
         mine = less.panel.result.grid.extent_m
-        common = base.floor.result.grid.extent_m
+        common = base.horizontal.result.grid.extent_m
         assert mine[1] - mine[0] < OWN_PANEL_FRACTION * (common[1] - common[0])

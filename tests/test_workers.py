@@ -177,7 +177,7 @@ def test_options_compared_in_workers_match_one_process(monkeypatch: pytest.Monke
             (
                 [v.name for v in c.variants],
                 np.array([[k.distance_m for k in v.keepouts] for v in c.variants]),
-                np.stack([v.floor.result.power_density_w_m2 for v in c.variants]),
+                np.stack([v.horizontal.result.power_density_w_m2 for v in c.variants]),
                 [v.places for v in c.variants],
             )
         )

@@ -62,6 +62,10 @@ class Plane:
         and as JSON key stems (``x_m``).
     description : str
         Where the plane lies, in words (``"horizontal plane z = 1.00 m"``).
+    name : str
+        What a horizontal plane is, where the tool chose it: ``"source height"``,
+        ``"floor level"``, ``"head height"``; empty for a plane given by the user.
+        Its files and text are named after it (:attr:`file_stem`, :attr:`where`).
     """
 
     kind: str
@@ -71,6 +75,38 @@ class Plane:
     centre_st_m: tuple[float, float]
     axis_names: tuple[str, str]
     description: str
+    name: str = ""
+
+    @property
+    def is_horizontal(self) -> bool:
+        """Whether the plane is horizontal (``"xy"``)."""
+        return self.kind == "xy"
+
+    @property
+    def height_m(self) -> float:
+        """Height z of a horizontal plane [m]."""
+        return float(self.ref_m[2])
+
+    @property
+    def file_stem(self) -> str:
+        """The plane in file names: ``map-STEM.png``, ``zones-STEM.geojson``.
+
+        A horizontal plane is named after what it is (``source-height``,
+        ``floor-level``, ``head-height``) or, given by its height, after that height
+        (``z1.70m``, :func:`height_stem`); another plane after its kind (``xz``,
+        ``boresight``, ...).
+        """
+        if self.name:
+            return self.name.replace(" ", "-")
+        return height_stem(self.height_m) if self.is_horizontal else self.kind
+
+    @property
+    def where(self) -> str:
+        """A horizontal plane in a few words: ``"source height (z = 1.10 m)"``, ``"z = 1.70 m"``."""
+        if not self.is_horizontal:
+            return self.description
+        z = f"z = {_height_text(self.height_m)} m"
+        return f"{self.name} ({z})" if self.name else z
 
     @property
     def normal(self) -> NDArray[np.float64]:
@@ -101,11 +137,23 @@ class Plane:
         return {
             "kind": self.kind,
             "description": self.description,
+            **({"name": self.name} if self.name else {}),
             "ref_m": [float(x) for x in self.ref_m],
             "u": [float(x) for x in self.u],
             "v": [float(x) for x in self.v],
             "axis_names": list(self.axis_names),
         }
+
+
+def _height_text(z_m: float) -> str:
+    """A height to the centimetre, without a minus sign on zero."""
+    text = f"{z_m:.2f}"
+    return "0.00" if text == "-0.00" else text
+
+
+def height_stem(z_m: float) -> str:
+    """A horizontal plane's file-name stem from its height: ``z1.70m``, ``z-0.50m``."""
+    return f"z{_height_text(z_m)}m"
 
 
 def _unit(vector: ArrayLike, option: str) -> NDArray[np.float64]:
