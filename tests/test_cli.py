@@ -149,31 +149,31 @@ def test_keepout_text_screening_and_caution(write_scenario):
 
 # -------------------------------------------------------------------- bad input
 BAD_SCENARIOS = {
-    "negative power": ('[[source]]\nantenna = "isotropic"\npower_w = -5\n', "source[0].power_w"),
+    "negative power": ('[[source]]\nantenna = "isotropic"\npower_w = -5\n', "source.1.power_w"),
     "duty zero": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\nduty_cycle = 0\n',
-        "source[0].duty_cycle",
+        "source.1.duty_cycle",
     ),
     "duty 1.5": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\nduty_cycle = 1.5\n',
-        "source[0].duty_cycle",
+        "source.1.duty_cycle",
     ),
-    "unknown antenna": ('[[source]]\nantenna = "yagi"\npower_w = 5\n', "source[0].antenna"),
+    "unknown antenna": ('[[source]]\nantenna = "yagi"\npower_w = 5\n', "source.1.antenna"),
     "unknown limit": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\n[exposure]\nlimits = ["icnirp-2020/general-publc"]\n',
         "did you mean",
     ),
-    "missing power": ('[[source]]\nantenna = "isotropic"\n', "source[0].power_w"),
-    "nan": ('[[source]]\nantenna = "isotropic"\npower_w = nan\n', "source[0].power_w"),
-    "inf": ('[[source]]\nantenna = "isotropic"\npower_w = inf\n', "source[0].power_w"),
+    "missing power": ('[[source]]\nantenna = "isotropic"\n', "source.1.power_w"),
+    "nan": ('[[source]]\nantenna = "isotropic"\npower_w = nan\n', "source.1.power_w"),
+    "inf": ('[[source]]\nantenna = "isotropic"\npower_w = inf\n', "source.1.power_w"),
     "zero vector": (
         '[[source]]\nantenna = "dipole"\npower_w = 5\naxis = [0, 0, 0]\n',
-        "source[0].axis",
+        "source.1.axis",
     ),
     "not toml": ("this is = = not toml\n", "not valid TOML"),
     "string for number": (
         '[[source]]\nantenna = "isotropic"\npower_w = "800"\n',
-        "source[0].power_w",
+        "source.1.power_w",
     ),
     "typo key": ('[[source]]\nantenna = "isotropic"\npowr_w = 5\n', "did you mean 'power_w'"),
     "typo top key": (
@@ -188,7 +188,7 @@ BAD_SCENARIOS = {
     "duplicate ids": (
         '[[source]]\nid="a"\nantenna = "isotropic"\npower_w = 5\n'
         '[[source]]\nid="a"\nantenna = "isotropic"\npower_w = 5\n',
-        "source[1].id",
+        "source.2.id",
     ),
     "bad reflection mode": (
         'reflections = "worst"\n[[source]]\nantenna = "isotropic"\npower_w = 5\n',
@@ -201,13 +201,13 @@ BAD_SCENARIOS = {
     "limit out of band": (
         'frequency_hz = 1.0e10\n[[source]]\nantenna = "isotropic"\npower_w = 5\n'
         '[exposure]\nlimits = ["fda-1030.10/in-service"]\n',
-        "exposure.limits[0]",
+        "exposure.limits.1",
     ),
     "position wrong length": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\nposition_m = [1, 2]\n',
-        "source[0].position_m",
+        "source.1.position_m",
     ),
-    "bool for number": ('[[source]]\nantenna = "isotropic"\npower_w = true\n', "source[0].power_w"),
+    "bool for number": ('[[source]]\nantenna = "isotropic"\npower_w = true\n', "source.1.power_w"),
 }
 
 
