@@ -8,6 +8,7 @@ from __future__ import annotations
 import json
 import os
 import pathlib
+import re
 import shutil
 import subprocess
 import sys
@@ -52,6 +53,45 @@ def test_help(command):
     result = run(*command, "--help")
     assert result.exit_code == 0
     assert "Usage" in result.stdout
+
+
+COMMANDS = ["limits", "probe", "keepout", "readings", "map", "compare", "assess"]
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_help_placeholders_read_as_what_to_type(command):
+    """Every option shows a placeholder of what to write (ID, X,Y,Z, METRES), not a type."""
+    help_text = run(command, "--help").stdout
+    options = help_text.partition("Options:")[2]
+    for typed in ("<list[", "<str>", "<float", "<int>", "<path>", "range>"):
+        assert typed not in options, (command, typed)
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_numeric_options_end_their_help_with_the_unit(command):
+    """Each number's help ends with its unit in brackets (style guide: CLI), from the code."""
+    import enum
+    import typing
+
+    import typer
+
+    callback = typer.main.get_command(app).commands[command].callback
+    hints = typing.get_type_hints(callback, include_extras=True)
+    checked = 0
+    for name, hint in hints.items():
+        infos = [
+            a for a in getattr(hint, "__metadata__", ()) if isinstance(a, typer.models.OptionInfo)
+        ]
+        if not infos:
+            continue
+        info, kinds = infos[0], set(typing.get_args(typing.get_args(hint)[0])) | {hint.__origin__}
+        if bool in kinds or any(isinstance(k, type) and issubclass(k, enum.Enum) for k in kinds):
+            continue  # a flag, or a choice that lists its values
+        assert info.metavar, (command, name)
+        if kinds & {float, int} or info.metavar == "X,Y,Z":
+            checked += 1
+            assert re.search(r"\[[^\[\]]+\]\.$", info.help or ""), (command, info.help)
+    assert checked or command in ("keepout", "readings")
 
 
 def test_version():
