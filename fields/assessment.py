@@ -30,6 +30,12 @@ from keepclear.antennas import memo
 
 from . import limits as limits_mod
 from . import maps
+from .arguments import (  # noqa: F401 - re-exported: the argument checks' former home
+    COORDINATE_BOUND_M,
+    SMALLEST_GRID_M,
+    check_grid_ranges,
+    check_height,
+)
 from .cautions import CAUTION_TEXT
 from .compare import Comparison, start_option_searches
 from .errors import InputError, LimitError, ResourceError
@@ -44,24 +50,12 @@ from .scenario import Scenario
 from .workers import Pending, run_each
 
 SCHEMA_VERSION = 1
-#: Largest coordinate accepted from arguments, as in scenario files and point files [m].
-COORDINATE_BOUND_M = 1e6
-#: Smallest map extent accepted [m] (a tenth of a millimetre).
-SMALLEST_GRID_M = 1e-4
 
 #: ``progress(label)`` gives a ``(done, total)`` callback for a stage, or None.
 ProgressFactory = Callable[[str], Any]
 
 
 # ------------------------------------------------------------------ argument checks
-def check_height(height_m: float | None) -> None:
-    """Refuse a floor-plane height that is not a finite number within bounds (``--height-m``)."""
-    if height_m is not None and not (np.isfinite(height_m) and abs(height_m) <= COORDINATE_BOUND_M):
-        raise InputError(
-            f"must be a finite height within +-{COORDINATE_BOUND_M:g} m", "argument", "--height-m"
-        )
-
-
 def check_grid(
     half_extent_m: float | None = None, step_m: float | None = None, pixels: int | None = None
 ) -> None:
@@ -72,23 +66,7 @@ def check_grid(
     InputError
         Naming ``--extent-m``, ``--step-m`` or ``--pixels``.
     """
-    for value, option, smallest in (
-        (half_extent_m, "--extent-m", SMALLEST_GRID_M),
-        (step_m, "--step-m", 0.0),
-    ):
-        if value is not None and not (
-            np.isfinite(value) and value > 0 and smallest <= value <= COORDINATE_BOUND_M
-        ):
-            raise InputError(
-                f"must be a positive number of metres from {smallest:g} to "
-                f"{COORDINATE_BOUND_M:g}, got {value}",
-                "argument",
-                option,
-            )
-    if pixels is not None and pixels < 3:
-        raise InputError(f"must be at least 3, got {pixels}", "argument", "--pixels")
-    if step_m is not None and pixels is not None:
-        raise InputError("give --step-m or --pixels, not both", "argument", "--pixels")
+    check_grid_ranges(half_extent_m, step_m, pixels)
     if pixels is not None:
         n, option = pixels, "--pixels"
     elif step_m is not None and half_extent_m is not None:

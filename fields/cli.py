@@ -23,6 +23,7 @@ from typer.core import TyperGroup
 
 from keepclear.antennas.errors import ModelRangeWarning
 
+from . import arguments as checks
 from ._lazy import lazy_module
 from .cautions import caution_block
 from .errors import InputError
@@ -330,9 +331,49 @@ def _print_with_caution(text: str) -> None:
     typer.echo(caution_block(100))
 
 
-def _load(path: Path):  # noqa: ANN202
-    if not Path(path).exists():  # refused before numpy and the models are imported
-        raise InputError("no such file", str(path))
+def _precheck(
+    path: Path,
+    *,
+    limit: list[str] | None = None,
+    option: str | None = None,
+    rank_by: str | None = None,
+    sweep: list[str] | None = None,
+) -> dict[str, Any]:
+    """The scenario's TOML document, with what can be refused without numpy refused.
+
+    A missing or unreadable file, a TOML syntax error, an unknown ``--option`` or
+    ``--limit`` id, a ``--rank-by`` naming no place and a malformed ``--sweep`` are
+    refused here, with the messages of the full checks, before numpy and the models are
+    imported.  Whatever only the full reading can tell is left to it.
+    """
+    document = checks.read_scenario_document(path)
+    if option is not None:
+        names = checks.document_option_names(document)
+        if names is not None and option not in names:
+            raise checks.option_error(option, names)
+    if limit:
+        custom = checks.document_custom_limit_ids(document, option)
+        if custom is not None:
+            known = (*checks.published_limit_ids(), *custom)
+            for limit_id in limit:
+                if limit_id not in known:
+                    message = checks.unknown_limit_message(limit_id, known)
+                    raise InputError(message, "argument", "--limit")
+    if rank_by is not None:
+        points = checks.document_point_names(document)
+        if points is not None:
+            checks.check_rank_by_names(rank_by, points)
+    if sweep:
+        from .sweep import parse_sweep_argument
+
+        for spec in sweep:
+            parse_sweep_argument(spec)
+    return document
+
+
+def _load(path: Path, document: dict[str, Any] | None = None):  # noqa: ANN202
+    if document is None:  # file and syntax errors refused before numpy is imported
+        document = checks.read_scenario_document(path)
     from .scenario import load_scenario
 
     # The first run of a new guide, horn or box solves it with NEC-2 (up to half a minute
@@ -340,9 +381,9 @@ def _load(path: Path):  # noqa: ANN202
     with Progress() as progress:
         stage = progress("solving the source models (kept for the next runs)")
         if stage is None:
-            return load_scenario(path)
+            return load_scenario(path, document)
         with stage.busy():
-            return load_scenario(path)
+            return load_scenario(path, document)
 
 
 def parse_vector(text: str, option: str) -> np.ndarray:
@@ -353,26 +394,7 @@ def parse_vector(text: str, option: str) -> np.ndarray:
     InputError
         Naming ``option``, with the text given and how to write a negative first value.
     """
-    parts = [p.strip() for p in text.split(",")]
-    try:
-        xyz = [float(p) for p in parts]
-    except ValueError:
-        xyz = []
-    if len(xyz) != 3 or not all(np.isfinite(xyz)):
-        unit = "" if option in ("--u", "--v") else " in metres"
-        raise InputError(
-            f"expects three finite numbers X,Y,Z{unit}, got '{text}' (write {option}=-1,0,0 "
-            "when the first is negative)",
-            "argument",
-            option,
-        )
-    if max(abs(c) for c in xyz) > api.COORDINATE_BOUND_M:
-        raise InputError(
-            f"coordinates must lie within +-{api.COORDINATE_BOUND_M:g} m, got '{text}'",
-            "argument",
-            option,
-        )
-    return np.asarray(xyz, dtype=float)
+    return np.asarray(checks.vector_from_text(text, option), dtype=float)
 
 
 def _written_line(paths: list[Path]) -> None:
@@ -436,12 +458,14 @@ def probe_command(
 
     Without --at or --points, the scenario's named [[point]] places are probed.
     """
+    at_m = [checks.vector_from_text(t, "--at") for t in at or ()]
+    document = _precheck(scenario, limit=limit, option=option)
     from .outputs import atomic_write_bytes, probe_csv_bytes, read_points_csv, refuse_overwriting
 
     if csv_out is not None:
         refuse_overwriting(csv_out, [scenario] + ([points] if points else []))
-    given = [np.vstack([parse_vector(t, "--at") for t in at])] if at else []
-    loaded = _load(scenario)
+    given = [np.asarray(at_m, dtype=float)] if at_m else []
+    loaded = _load(scenario, document)
     if points is not None:
         given.append(read_points_csv(points))
     result = api.probe(loaded, np.vstack(given) if given else None, limits=limit, option=option)
@@ -504,7 +528,8 @@ def keepout_command(
     ] = False,
 ) -> None:
     """Keep-out distance about the first source for each limit of the scenario."""
-    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    document = _precheck(scenario, limit=limit, option=option)  # before the API is imported
+    loaded = _load(scenario, document)
     result = api.keepout(loaded, limits=limit, option=option)
     data = result.to_dict()
     if json_out:
@@ -547,7 +572,8 @@ def readings_command(
     reading is compared with the time-averaged prediction (duty cycle applied).  A
     reading more than 3 dB above the prediction is flagged as under-predicted.
     """
-    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    document = _precheck(scenario, limit=limit)  # before the API is imported
+    loaded = _load(scenario, document)
     data = api.readings(loaded, csv_in, limits=limit).to_dict()
     if json_out:
         _emit_json(data)
@@ -656,10 +682,6 @@ def map_command(
     (--plane boresight) or any plane (--origin, --u, --v).  Writes the figure (PNG,
     SVG), the grid (CSV, NPZ) and the zone of each limit (GeoJSON in metres).
     """
-    from . import maps
-    from .outputs import atomic_write_bytes, refuse_overwriting
-    from .plots import MapStyle
-
     singles = {"png": png, "svg": svg, "csv": csv, "npz": npz, "geojson": geojson}
     if out is None and not any(singles.values()):
         raise InputError(
@@ -685,15 +707,24 @@ def map_command(
         raise InputError(
             "applies to the horizontal plane only (--plane xy)", "argument", "--height-m"
         )
-    api.check_height(height_m)
-    through_m = None if through is None else parse_vector(through, "--through")
+    checks.check_height(height_m)
+    through_m = None if through is None else checks.vector_from_text(through, "--through")
+    if custom:
+        for text, name in ((origin, "--origin"), (u, "--u"), (v, "--v")):
+            checks.vector_from_text(text, name)  # type: ignore[arg-type]
+    checks.check_grid_ranges(extent_m, step_m, pixels)
+    document = _precheck(scenario, limit=limit, option=option)  # before the API is imported
+    from . import maps
+    from .outputs import atomic_write_bytes, refuse_overwriting
+    from .plots import MapStyle
+
     grid = api.GridSettings(extent_m, step_m, pixels)
     for path in [p for p in singles.values() if p is not None]:
         refuse_overwriting(path, [scenario])
         folder = path.parent if str(path.parent) else Path(".")
         if not folder.is_dir():
             raise InputError(f"cannot be written: folder '{folder}' does not exist", str(path))
-    loaded = _load(scenario)  # first: a missing file is refused before the API is imported
+    loaded = _load(scenario, document)
     loaded = api.select_option(loaded, option)
     ids = api.select_limits(loaded, limit)
     if custom:
@@ -705,7 +736,10 @@ def map_command(
         )
     else:
         the_plane = api.map_plane(
-            loaded, (plane or PlaneChoice.xy).value, through_m=through_m, height_m=height_m
+            loaded,
+            (plane or PlaneChoice.xy).value,
+            through_m=None if through_m is None else np.asarray(through_m, dtype=float),
+            height_m=height_m,
         )
     style = MapStyle(quantity.value, ids[0] if quantity == Quantity.quotient else None)
     formats = tuple(k for k, p in singles.items() if p is not None)
@@ -791,15 +825,15 @@ def compare_command(
     named place (place:NAME).  With the value at every named place and its change in dB
     against the base, the leakage 5 cm from the enclosure and the worst named place.
     """
-    from .compare import comparison_table
+    checks.check_height(height_m)
+    checks.check_grid_ranges(extent_m, step_m, pixels)
+    document = _precheck(scenario, limit=limit, rank_by=rank_by, sweep=sweep)
+    from .compare import check_rank_by, comparison_table
     from .outputs import json_text
     from .plots import figure_bytes
 
-    api.check_height(height_m)
     grid = api.GridSettings(extent_m, step_m, pixels)
-    from .compare import check_rank_by
-
-    loaded = _load(scenario)
+    loaded = _load(scenario, document)
     ids = api.select_limits(loaded, limit)
     check_rank_by(loaded, rank_by)
     loaded = api.with_sweeps(loaded, sweep)
@@ -892,10 +926,12 @@ def assess_command(
     scenario has options (or --sweep), and a self-contained HTML report.  Everything is
     written to a staging folder first and moved into --out only when complete.
     """
+    checks.check_height(height_m)
+    checks.check_grid_ranges(extent_m, step_m, pixels)
+    document = _precheck(scenario, limit=limit, rank_by=rank_by, sweep=sweep)
     from .outputs import json_text
     from .report import summary_text
 
-    api.check_height(height_m)
     grid = api.GridSettings(extent_m, step_m, pixels)
     readings = None
     if readings_csv is not None:
@@ -904,7 +940,7 @@ def assess_command(
         readings = read_readings_csv(readings_csv, "--readings")
     from .compare import check_rank_by
 
-    loaded = _load(scenario)
+    loaded = _load(scenario, document)
     ids = api.select_limits(loaded, limit)
     check_rank_by(loaded, rank_by)
     loaded = api.with_sweeps(loaded, sweep)

@@ -46,7 +46,8 @@ import numpy as np
 
 from keepclear.antennas.memo import sharing_evaluations
 
-from . import maps
+from . import maps, shield
+from .arguments import RANK_CHOICES, check_rank_by_names  # noqa: F401 - RANK_CHOICES re-exported
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
@@ -129,10 +130,12 @@ RANK_TOLERANCE = {
 }
 
 #: An option's figure panel gets its own extent below this fraction of the common one.
-OWN_PANEL_FRACTION = 0.6
-
-#: The ``--rank-by`` choices besides ``place:NAME``.
-RANK_CHOICES = ("keepout", "zone-area")
+#: Both are default half-widths as drawn (rounded up to 0.5 m below 10 m, see
+#: :func:`maps.default_half_extent_m`).  Below 0.7 the option's zone would cover less
+#: than half (0.7² = 0.49) of the area on the common panel that it covers on its own;
+#: an option whose keep-out is 0.6 of the largest (its own extent rounds to about 0.63 of
+#: the common one) gets its own panel.
+OWN_PANEL_FRACTION = 0.7
 
 
 def _criteria(rank_by: str) -> list[tuple[str, Callable[[Variant], float]]]:
@@ -314,6 +317,47 @@ def change_db(value_w_m2: float, base_w_m2: float) -> float | None:
     return 10.0 * math.log10(value_w_m2 / base_w_m2)
 
 
+#: An option is marked as above the base where its keep-out to mark out is larger by at
+#: least this much [m] or a named place's density by at least this much [dB]: the
+#: smallest differences the text shows (0.01 m, 0.1 dB when rounded).
+ABOVE_BASE_KEEPOUT_M = 5e-3
+ABOVE_BASE_DB = 0.05
+#: The keys :func:`above_base` fills in each option of ``compare --json``.
+ABOVE_BASE_KEYS = ("raises_keepout", "raised_places", "above_base_note")
+
+
+def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
+    """Whether an option raises the keep-out or a named place's value above the base's.
+
+    Returns ``(raises_keepout, raised place names, note)``; the note (None when nothing is
+    raised) names the likely cause when the option changes only the shield sheets and not
+    the power: a sheet's lit-side edge diffraction (README, "Shield sheets").
+    """
+    if v.is_base:
+        return False, [], None
+    base_places = {p["name"]: p["power_density_w_m2"] for p in base.places}
+    raised = [
+        p["name"]
+        for p in v.places
+        if (change_db(p["power_density_w_m2"], base_places.get(p["name"], 0.0)) or 0.0)
+        >= ABOVE_BASE_DB
+    ]
+    keepout = v.largest_keepout_m >= base.largest_keepout_m + ABOVE_BASE_KEEPOUT_M
+    if not (keepout or raised):
+        return False, [], None
+    what = [f"the keep-out ({v.largest_keepout_m:.2f} m against {base.largest_keepout_m:.2f} m)"]
+    what = (what if keepout else []) + [f"the value at {n}" for n in raised]
+    note = "raises " + " and ".join(what)
+    if shield.shields_differ(v.scenario.shields, base.scenario.shields) and (
+        v.scenario.average_power_w <= base.scenario.average_power_w
+    ):
+        note += (
+            ": the sheet's edge diffraction beside it (up to +2.84 dB in the light); "
+            "widen the sheet or move it"
+        )
+    return keepout, raised, note
+
+
 @dataclass(frozen=True)
 class Comparison:
     """The ranked variants on a common floor grid.
@@ -368,6 +412,7 @@ class Comparison:
                     "zone_clipped_at_map_edge": any(z.clipped for zs in floor.values() for z in zs),
                     "leakage_5cm_w_m2": v.leakage_5cm_w_m2,
                     "worst_point": v.worst_point,
+                    **dict(zip(ABOVE_BASE_KEYS, above_base(v, base), strict=True)),
                     "places": [
                         {
                             "name": p["name"],
@@ -671,15 +716,7 @@ def check_rank_by(scenario: Scenario, rank_by: str) -> None:
         If ``rank_by`` is not ``keepout``, ``zone-area`` or ``place:NAME`` with NAME
         one of the scenario's ``[[point]]`` names.
     """
-    from .errors import InputError
-
-    if rank_by in RANK_CHOICES:
-        return
-    names = [p.name for p in scenario.points]
-    if rank_by.startswith("place:") and rank_by.removeprefix("place:") in names:
-        return
-    allowed = ", ".join([*RANK_CHOICES, *(f"place:{n}" for n in names)])
-    raise InputError(f"{rank_by!r} is not a ranking; allowed: {allowed}", "argument", "--rank-by")
+    check_rank_by_names(rank_by, [p.name for p in scenario.points])
 
 
 def comparison_table(data: dict[str, Any]) -> str:
@@ -718,6 +755,8 @@ def comparison_table(data: dict[str, Any]) -> str:
     ]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
     lines += ["", "Keep-out in brackets: widened by the source model's stated gain uncertainty."]
+    notes = [(r["name"], r.get("above_base_note")) for r in data["options"]]
+    lines += [f'Above the base: option "{name}" {note}.' for name, note in notes if note]
     lines += _places_lines(data)
     return "\n".join(lines)
 

@@ -387,6 +387,12 @@ def largest_over_corners(
 ) -> NDArray[np.float64]:
     """The largest ``factor(start + offset, end)`` over the offsets (:func:`cube_offsets`).
 
+    For a source of finite size: the shadow is credited only where every corner's ray is
+    shadowed (the safe side).  Beside an edge, in the light, the largest of the corners'
+    factors is the lit-side ripple wherever one corner's ray meets its peak (up to 1.17
+    beside one edge, ITU-R P.526 sec. 4.1), so the rise covers a band as wide as the
+    source seen through the edge; it never exceeds the point-source bound.
+
     ``start_m`` and ``end_m`` are (N, 3), one ray a row; ``factor`` works ray by ray, so
     every corner's rays go to it in one call (the values are those of one call a corner).
     """

@@ -106,6 +106,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas.base import ETA0_OHM
 
+from .arguments import CUSTOM_PREFIX, LIMIT_FILES, unknown_limit_message
 from .errors import LimitError
 from .validate import suggest
 
@@ -568,22 +569,13 @@ class Limit:
 
 
 # ------------------------------------------------------------------ the tables
+# The data files are LIMIT_FILES (in keepclear.fields.arguments, which the command line
+# reads without numpy), in the contract's order of limit ids.
 # One file per standard in ``data/limits/``, laid out like the printed table: a
 # ``[document]`` table (what every limit of the file shares), a ``[text]`` table of named
 # provenance sentences, and one ``[[limit]]`` per tier whose ``rows`` hold one line per
 # printed row.  Problems raise :class:`LimitDataError` naming the file, the limit and the
 # row, never ``assert`` (which ``python -O`` strips).
-
-#: The data files, in the contract's order of limit ids.
-LIMIT_FILES: tuple[str, ...] = (
-    "icnirp-2020.toml",
-    "ieee-c95.1-2019.toml",
-    "fcc-1.1310.toml",
-    "sc6-2015.toml",
-    "fda-1030.10.toml",
-    "iec-61000-4-3.toml",
-    "iec-60601-1-2.toml",
-)
 
 #: The columns of a ``rows`` table, in order.
 ROW_COLUMNS: tuple[str, ...] = (
@@ -1094,8 +1086,6 @@ def field_quotient(limit: LimitValue, fields: FieldsOnBothBases) -> NDArray[np.f
 
 
 # ------------------------------------------------------------------ user thresholds
-#: Prefix of the ids of user thresholds.
-CUSTOM_PREFIX = "custom/"
 
 
 def custom_threshold(
@@ -1202,9 +1192,5 @@ def resolve_limit(limit_id: str, thresholds: Iterable[Limit] = ()) -> Limit:
         return own[limit_id]
     if isinstance(limit_id, str) and limit_id not in _BY_ID:
         known = (*LIMIT_IDS, *own)
-        raise LimitError(
-            f"unknown limit id {limit_id!r}"
-            + suggest(limit_id, known)
-            + f"; known ids: {', '.join(known)}"
-        )
+        raise LimitError(unknown_limit_message(limit_id, known))
     return get_limit(limit_id)

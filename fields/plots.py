@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import io
 import math
+import re
 import textwrap
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -230,6 +231,7 @@ def draw_map(
     *,
     zones: dict[str, list[maps.Zone]] | None = None,
     labels: bool = True,
+    source_labels: bool | None = None,
     overlay: MapOverlay | None = None,
 ) -> Any:
     """Draw one map into an axes: colour image, contours, objects, points.
@@ -237,6 +239,7 @@ def draw_map(
     Parameters
     ----------
     ax : matplotlib Axes
+        Placed in its figure for good (the labels are laid out in its pixels).
     result : MapResult
     scenario : Scenario
     keepouts : sequence of KeepoutResult
@@ -248,15 +251,24 @@ def draw_map(
         Unused for drawing (contours are drawn from the quotient directly, with the
         same marching squares); accepted so callers can pass what they have.
     labels : bool
-        Whether to write names beside sources and points.
+        Whether to write the places' letters and the contours' numbers.
+    source_labels : bool, optional
+        Whether to write the sources' names beside them (default: ``labels``).
     overlay : MapOverlay, optional
         The 95th-percentile contours of an ``[uncertainty]`` run and survey readings.
 
     Returns
     -------
     The image artist (for a colour bar).
+
+    Notes
+    -----
+    Labels (letters, source names, contour numbers) are placed by :class:`_Labeller`:
+    each takes the first position, in a fixed order, clear of the dots, the sources
+    and the labels before it, inside the map.
     """
     del zones
+    source_labels = labels if source_labels is None else source_labels
     grid = result.grid
     plane = grid.plane
     s0, s1, t0, t1 = grid.extent_m
@@ -273,16 +285,22 @@ def draw_map(
         aspect="equal",
         rasterized=True,
     )
+    # The limits first: the labels are laid out in the final pixels of the map.
+    ax.set_xlim(s0 - ds / 2, s1 + ds / 2)
+    ax.set_ylim(t0 - dt / 2, t1 + dt / 2)
+    ax.set_aspect("equal")
+    labeller = _Labeller(ax) if (labels or source_labels) else None
     by_id = {k.limit_id: k for k in keepouts}
     centre = scenario.centre_m
     centre_st = plane.to_plane(centre)[0][0]
+    badges = []
     for i, limit_id in enumerate(result.limit_ids):
         st = limit_style(i)
         lines = maps.contour_lines(result, limit_id)
         for line in lines:
             ax.plot(line[:, 0], line[:, 1], lw=1.9, **st, zorder=4)
-        if labels and lines:
-            _tag_contour(ax, lines, i, centre_st, st["color"])
+        if lines:
+            badges.append((i, lines, st["color"]))
         k = by_id.get(limit_id)
         if k is not None and k.reached:
             section = maps.sphere_section(plane, centre, k.distance_m)
@@ -305,10 +323,31 @@ def draw_map(
         _draw_object(ax, plane, maps.object_corners(scenario.enclosure), "enclosure", grid.step_m)
         for corners in maps.opening_corners(scenario.enclosure):
             _draw_object(ax, plane, corners, "opening", grid.step_m)
-    _draw_sources(ax, plane, scenario, (s1 - s0), grid.step_m, labels)
-    _draw_points(ax, plane, scenario, (s0, s1, t0, t1), grid.step_m, labels)
+    names = _draw_sources(ax, plane, scenario, (s1 - s0), grid.step_m, labeller)
+    shown = _draw_points(ax, plane, scenario, (s0, s1, t0, t1), grid.step_m, labeller)
     if overlay is not None:
         _draw_overlay(ax, result, overlay)
+    if labeller is not None:
+        if labels:
+            for p in shown:
+                labeller.place(
+                    p.letter,
+                    (p.s, p.t),
+                    _DOT_RADIUS_PT,
+                    gid=f"label-place-{p.letter}",
+                    fontsize=9,
+                    fontweight="bold",
+                    bbox=_LABEL_BOX,
+                )
+        if source_labels:
+            for k, (text, suffix, at, radius) in enumerate(names):
+                kw = {"fontsize": 8.5, "color": "#0d2a6b", "bbox": _LABEL_BOX}
+                width = SOURCE_LABEL_WIDTH * (labeller.frame[2] - labeller.frame[0])
+                fitted = labeller.fit_text(text, suffix, width, **kw)
+                labeller.place(fitted, at, radius, gid=f"label-source-{k}", **kw)
+        if labels:
+            for i, lines, colour in badges:
+                _tag_contour(labeller, lines, i, centre_st, colour)
     ax.set_xlim(s0 - ds / 2, s1 + ds / 2)
     ax.set_ylim(t0 - dt / 2, t1 + dt / 2)
     ax.set_xlabel(_axis_label(plane, 0))
@@ -318,29 +357,242 @@ def draw_map(
     return image
 
 
+#: Radius of a place's dot (7 pt marker and its edge) and of a source's star [points].
+_DOT_RADIUS_PT = 4.2
+_STAR_RADIUS_PT = 6.5
+#: Candidate points along a contour tried for its badge, at most.
+_BADGE_CANDIDATES = 240
+
+
 def _tag_contour(
-    ax: Any, lines: list[NDArray[np.float64]], index: int, centre: NDArray, colour: str
+    labeller: _Labeller,
+    lines: list[NDArray[np.float64]],
+    index: int,
+    centre: NDArray,
+    colour: str,
 ) -> None:
-    """Write the limit's number on its contour, at an angle of its own (no two collide)."""
-    longest = max(lines, key=len)
-    rel = longest - centre
+    """Write the limit's number on its contour where it covers no other label or marker.
+
+    The points of the contour are tried in order of preference (those nearest to an
+    angle of the limit's own about the source first, so badges of limits sharing a line
+    part); where none is clear, positions beside the preferred point with a leader.
+    """
+    points = np.concatenate(lines)
+    rel = points - centre
     angle = np.radians(50.0 + 32.0 * index)
     want = np.array([np.cos(angle), np.sin(angle)])
     norm = np.hypot(rel[:, 0], rel[:, 1])
     score = (rel @ want) / np.where(norm > 0, norm, 1.0)
-    s, t = longest[int(np.argmax(score))]
-    ax.text(
-        s,
-        t,
+    order = np.argsort(-np.round(score, 9), kind="stable")
+    stride = max(1, len(order) // _BADGE_CANDIDATES)
+    order = order[::stride]
+    kw = {
+        "fontsize": 8,
+        "fontweight": "bold",
+        "color": colour,
+        "bbox": {"boxstyle": "circle,pad=0.18", "fc": "white", "ec": colour, "lw": 1.0},
+    }
+    w, _ = labeller.size_px(str(index + 1), True, **kw)
+    on_line = [(labeller.to_px(points[j]), False) for j in order]
+    first = points[order[0]]
+    around = labeller.ring_centres(labeller.to_px(first), 0.0, w, w)[len(_DIRECTIONS) :]
+    labeller.place(
         str(index + 1),
-        fontsize=8,
-        fontweight="bold",
-        color=colour,
-        ha="center",
-        va="center",
-        zorder=9,
-        bbox={"boxstyle": "circle,pad=0.18", "fc": "white", "ec": colour, "lw": 1.0},
+        first,
+        0.0,
+        gid=f"label-contour-{index + 1}",
+        candidates=on_line + around,
+        leader_colour=colour,
+        square=True,
+        **kw,
     )
+
+
+# ------------------------------------------------------------ label placement
+#: Directions tried around an anchor, in this order: right, above, left, below, then
+#: the four diagonals (x to the right, y up).
+_DIRECTIONS = ((1, 0), (0, 1), (-1, 0), (0, -1), (1, 1), (-1, 1), (-1, -1), (1, -1))
+#: Distances of the rings of candidates, as multiples of the first ring's; from the
+#: second ring on a thin leader line joins the label to its anchor.
+_RINGS = (1.0, 2.2, 3.6, 5.2)
+#: Gap between a label's box and what it labels, and between labels [points].
+_LABEL_GAP_PT = 1.5
+#: A source's name is cut (with an ellipsis) to this fraction of the map's width.
+SOURCE_LABEL_WIDTH = 0.45
+#: Overlaps up to this size are not counted (rounding of the boxes) [pixels].
+_TOUCH_PX = 0.5
+
+_Box = tuple[float, float, float, float]
+
+
+def _renderer(fig: Figure) -> Any:
+    """A renderer to measure text with (the Agg canvas: the same fonts as every output)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    if not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
+    return fig.canvas.get_renderer()
+
+
+def _overlap(a: _Box, b: _Box) -> float:
+    """Area shared by two boxes (x0, y0, x1, y1), ignoring mere touching [px^2]."""
+    w = min(a[2], b[2]) - max(a[0], b[0])
+    h = min(a[3], b[3]) - max(a[1], b[1])
+    if w <= _TOUCH_PX or h <= _TOUCH_PX:
+        return 0.0
+    return w * h
+
+
+class _Labeller:
+    """Puts the labels of one map where they overlap nothing already there.
+
+    Works in display coordinates once the axes' limits and aspect are final.  Dots,
+    source stars and arrows are registered as obstacles first; each label then takes
+    the first candidate position, in a fixed order, whose box lies inside the axes and
+    overlaps no obstacle and no label placed before it.  Candidates are the eight
+    directions around the anchor on rings of growing distance (a leader line from the
+    second ring on), or for a contour's badge the points of its contour by preference.
+    Where none is clear, the candidate with the least overlap (the first of equals)
+    is taken.  The order and the arithmetic are fixed, so the layout is the same on
+    every machine with the same fonts (matplotlib ships its own).
+    """
+
+    def __init__(self, ax: Any) -> None:
+        self.ax = ax
+        self.renderer = _renderer(ax.figure)
+        ax.apply_aspect()
+        frame = ax.get_window_extent(self.renderer)
+        self.frame: _Box = (frame.x0, frame.y0, frame.x1, frame.y1)
+        self.px_per_pt = ax.figure.dpi / 72.0
+        self.obstacles: list[_Box] = []
+
+    def to_px(self, xy: Sequence[float]) -> NDArray[np.float64]:
+        return np.asarray(self.ax.transData.transform((float(xy[0]), float(xy[1]))), dtype=float)
+
+    def to_data(self, px: Sequence[float]) -> NDArray[np.float64]:
+        return np.asarray(self.ax.transData.inverted().transform((px[0], px[1])), dtype=float)
+
+    def block(self, xy: Sequence[float], radius_pt: float) -> None:
+        """Keep labels off a marker of this radius at data position ``xy``."""
+        x, y = self.to_px(xy)
+        r = radius_pt * self.px_per_pt
+        self.obstacles.append((x - r, y - r, x + r, y + r))
+
+    def block_segment(self, start: Sequence[float], end: Sequence[float], half_pt: float) -> None:
+        """Keep labels off a line (an arrow) from ``start`` to ``end`` (data)."""
+        a, b = self.to_px(start), self.to_px(end)
+        r = half_pt * self.px_per_pt
+        n = max(int(np.hypot(*(b - a)) / (2 * r)) + 1, 2)
+        for f in np.linspace(0.0, 1.0, n):
+            x, y = a + f * (b - a)
+            self.obstacles.append((x - r, y - r, x + r, y + r))
+
+    def size_px(self, text: str, square: bool = False, **kw: Any) -> tuple[float, float]:
+        """Width and height of a label's box (text and padding; a circle's square) [px]."""
+        kw.pop("bbox", None)
+        probe = self.ax.text(0.0, 0.0, text, **kw)
+        ext = probe.get_window_extent(self.renderer)
+        probe.remove()
+        fontsize = float(kw.get("fontsize", mpl.rcParams["font.size"]))
+        pad = 2 * 0.3 * fontsize * self.px_per_pt
+        if square:
+            side = max(ext.width, ext.height) + pad
+            return side, side
+        return ext.width + pad, ext.height + pad
+
+    def fit_text(self, text: str, suffix: str, max_px: float, **kw: Any) -> str:
+        """``text + suffix`` cut with an ellipsis inside ``text`` to at most ``max_px`` wide."""
+        if self.size_px(text + suffix, **kw)[0] <= max_px:
+            return text + suffix
+        lo, hi = 0, len(text)
+        while lo < hi:  # the longest head that fits
+            mid = (lo + hi + 1) // 2
+            if self.size_px(text[:mid].rstrip() + "…" + suffix, **kw)[0] <= max_px:
+                lo = mid
+            else:
+                hi = mid - 1
+        return text[:lo].rstrip() + "…" + suffix
+
+    def _score(self, box: _Box) -> float:
+        f = self.frame
+        outside = (
+            max(f[0] - box[0], 0.0)
+            + max(box[2] - f[2], 0.0)
+            + max(f[1] - box[1], 0.0)
+            + max(box[3] - f[3], 0.0)
+        )
+        return 1e6 * outside + sum(_overlap(box, o) for o in self.obstacles)
+
+    def _choose(self, centres: list[NDArray[np.float64]], w: float, h: float) -> int:
+        best, best_score = 0, math.inf
+        for i, (cx, cy) in enumerate(centres):
+            score = self._score((cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2))
+            if score == 0.0:
+                return i
+            if score < best_score:
+                best, best_score = i, score
+        return best
+
+    def ring_centres(
+        self, anchor_px: NDArray[np.float64], radius_pt: float, w: float, h: float
+    ) -> list[tuple[NDArray[np.float64], bool]]:
+        """Candidate centres around an anchor, each with whether it needs a leader."""
+        gap = (radius_pt + _LABEL_GAP_PT) * self.px_per_pt
+        out = []
+        for k, ring in enumerate(_RINGS):
+            for dx, dy in _DIRECTIONS:
+                off = np.array([dx * (gap + w / 2), dy * (gap + h / 2)])
+                if k:
+                    off = off + np.array([dx, dy]) * ring * (gap + min(w, h) / 2)
+                out.append((anchor_px + off, k > 0))
+        return out
+
+    def place(
+        self,
+        text: str,
+        anchor: Sequence[float],
+        radius_pt: float,
+        *,
+        gid: str,
+        candidates: list[tuple[NDArray[np.float64], bool]] | None = None,
+        leader_colour: str = "#333333",
+        square: bool = False,
+        **kw: Any,
+    ) -> Any:
+        """Write ``text`` near data point ``anchor`` (a marker of ``radius_pt``) clear of the rest.
+
+        ``candidates`` (centres in pixels, each with whether it needs a leader) replace
+        the rings about the anchor; ``square`` sizes the box of a circled label.
+        """
+        w, h = self.size_px(text, square, **kw)
+        anchor_px = self.to_px(anchor)
+        if candidates is None:
+            candidates = self.ring_centres(anchor_px, radius_pt, w, h)
+        i = self._choose([c for c, _ in candidates], w, h)
+        centre, leader = candidates[i]
+        self.obstacles.append(
+            (centre[0] - w / 2, centre[1] - h / 2, centre[0] + w / 2, centre[1] + h / 2)
+        )
+        at = self.to_data(centre)
+        kw = {"ha": "center", "va": "center", "zorder": 9, **kw}
+        if leader:
+            artist = self.ax.annotate(
+                text,
+                xy=(float(anchor[0]), float(anchor[1])),
+                xytext=(float(at[0]), float(at[1])),
+                arrowprops={
+                    "arrowstyle": "-",
+                    "color": leader_colour,
+                    "lw": 0.8,
+                    "shrinkA": 0.0,
+                    "shrinkB": radius_pt,
+                },
+                **kw,
+            )
+        else:
+            artist = self.ax.text(float(at[0]), float(at[1]), text, **kw)
+        artist.set_gid(gid)
+        return artist
 
 
 def _draw_reflectors(ax: Any, result: maps.MapResult, scenario: Scenario) -> None:
@@ -469,8 +721,21 @@ def _draw_object(
 
 
 def _draw_sources(
-    ax: Any, plane: maps.Plane, scenario: Scenario, width: float, step: float, labels: bool
-) -> None:
+    ax: Any,
+    plane: maps.Plane,
+    scenario: Scenario,
+    width: float,
+    step: float,
+    labeller: _Labeller | None,
+) -> list[tuple[str, str, NDArray[np.float64], float]]:
+    """Sources: outline, star and boresight arrow; returns their labels to place.
+
+    Each label is (name, where-suffix, position, star radius [pt]) for a source inside
+    the map.
+    """
+    xlo, xhi = sorted(ax.get_xlim())
+    ylo, yhi = sorted(ax.get_ylim())
+    out = []
     for source in scenario.sources:
         st, offset = plane.to_plane(source.position_m)
         near = abs(float(offset[0])) <= max(step, 1e-6)
@@ -486,24 +751,25 @@ def _draw_sources(
             ls="none",
             zorder=8,
         )
+        end = None
         if source.radiator.boresight is not None:
-            _draw_boresight(ax, plane, source, st[0], width)
-        if labels:
-            where = _off_plane(plane, source.position_m, float(offset[0]))
-            text = source.id if near else f"{source.id} ({where})"
-            ax.annotate(
-                text,
-                st[0],
-                xytext=(7, -12),
-                textcoords="offset points",
-                fontsize=8.5,
-                color="#0d2a6b",
-                bbox=_LABEL_BOX,
-                zorder=9,
-            )
+            end = _draw_boresight(ax, plane, source, st[0], width)
+        if not (xlo <= st[0, 0] <= xhi and ylo <= st[0, 1] <= yhi):
+            continue
+        radius = _STAR_RADIUS_PT if near else _STAR_RADIUS_PT * 10 / 13
+        if labeller is not None:
+            labeller.block(st[0], radius)
+            if end is not None:
+                labeller.block_segment(st[0], end, 4.0)
+        suffix = "" if near else f" ({_off_plane(plane, source.position_m, float(offset[0]))})"
+        out.append((source.id, suffix, st[0], radius))
+    return out
 
 
-def _draw_boresight(ax: Any, plane: maps.Plane, source: Any, start: NDArray, width: float) -> None:
+def _draw_boresight(
+    ax: Any, plane: maps.Plane, source: Any, start: NDArray, width: float
+) -> NDArray | None:
+    """The boresight arrow (or the out-of/into-page symbol); returns the arrow's tip."""
     axis = source.radiator.boresight
     along = np.array([axis @ plane.u, axis @ plane.v])
     length = 0.12 * width
@@ -512,7 +778,7 @@ def _draw_boresight(ax: Any, plane: maps.Plane, source: Any, start: NDArray, wid
         out_of_page = float(axis @ plane.normal) > 0
         ax.plot(*start, marker="o", ms=12, mfc="none", mec="#0d2a6b", mew=1.3, zorder=8)
         ax.plot(*start, marker="." if out_of_page else "x", ms=6, color="#0d2a6b", zorder=8)
-        return
+        return None
     end = start + along * length
     ax.annotate(
         "",
@@ -521,6 +787,7 @@ def _draw_boresight(ax: Any, plane: maps.Plane, source: Any, start: NDArray, wid
         arrowprops={"arrowstyle": "-|>", "color": "#0d2a6b", "lw": 1.6},
         zorder=8,
     )
+    return end
 
 
 @dataclass(frozen=True)
@@ -564,16 +831,11 @@ def _draw_points(
     scenario: Scenario,
     extent: tuple[float, float, float, float],
     step: float,
-    labels: bool,
-) -> None:
-    """Named places: a dot and a letter; the legend gives each letter's name.
-
-    Letters of places close together are moved apart: each takes the first of eight
-    offsets around its dot whose box is clear of the letters placed before it.
-    """
+    labeller: _Labeller | None,
+) -> list[_ShownPoint]:
+    """Named places: a dot each (the legend gives each letter's name); returns them."""
     shown = _shown_points(plane, scenario, extent, step)
-    offsets = _label_offsets(ax, extent, [(p.s, p.t) for p in shown]) if labels else []
-    for k, p in enumerate(shown):
+    for p in shown:
         ax.plot(
             p.s,
             p.t,
@@ -585,57 +847,9 @@ def _draw_points(
             ls="none",
             zorder=8,
         )
-        if labels:
-            ax.annotate(
-                p.letter,
-                (p.s, p.t),
-                xytext=offsets[k],
-                textcoords="offset points",
-                fontsize=9,
-                fontweight="bold",
-                bbox=_LABEL_BOX,
-                zorder=9,
-                ha="left",
-                va="bottom",
-            )
-
-
-#: Offsets of a place's letter from its dot, in order of preference [points].
-_LABEL_OFFSETS = ((5, 5), (5, -16), (-15, 5), (-15, -16), (12, -5), (-22, -5), (-5, 12), (-5, -23))
-#: Size of a letter's box (a bold 9 pt capital with its padding) [points].
-_LABEL_SIZE = (11.0, 13.0)
-
-
-def _label_offsets(
-    ax: Any, extent: tuple[float, float, float, float], at: list[tuple[float, float]]
-) -> list[tuple[int, int]]:
-    """Greedy non-overlapping label offsets for letters at data positions ``at``."""
-    s0, s1, t0, t1 = extent
-    fig_w, fig_h = ax.figure.get_size_inches()
-    box = ax.get_position()
-    sx = box.width * fig_w * 72.0 / max(s1 - s0, 1e-12)
-    sy = box.height * fig_h * 72.0 / max(t1 - t0, 1e-12)
-    placed: list[tuple[float, float, float, float]] = []
-    dots = [((s - s0) * sx, (t - t0) * sy) for s, t in at]
-    out = []
-    for x, y in dots:
-        choice = _LABEL_OFFSETS[0]
-        for dx, dy in _LABEL_OFFSETS:
-            rect = (x + dx, y + dy, x + dx + _LABEL_SIZE[0], y + dy + _LABEL_SIZE[1])
-            clear = all(
-                rect[2] <= r[0] or r[2] <= rect[0] or rect[3] <= r[1] or r[3] <= rect[1]
-                for r in placed
-            ) and all(
-                not (rect[0] - 3 <= dx_ <= rect[2] + 3 and rect[1] - 3 <= dy_ <= rect[3] + 3)
-                for dx_, dy_ in dots
-            )
-            if clear:
-                choice = (dx, dy)
-                break
-        dx, dy = choice
-        placed.append((x + dx, y + dy, x + dx + _LABEL_SIZE[0], y + dy + _LABEL_SIZE[1]))
-        out.append(choice)
-    return out
+        if labeller is not None:
+            labeller.block((p.s, p.t), _DOT_RADIUS_PT)
+    return shown
 
 
 def _off_plane(plane: maps.Plane, position_m: NDArray, offset_m: float) -> str:
@@ -645,8 +859,15 @@ def _off_plane(plane: maps.Plane, position_m: NDArray, offset_m: float) -> str:
 
 
 def _legend_handles(
-    result: maps.MapResult, keepouts: Sequence[KeepoutResult], scenario: Scenario
+    result: maps.MapResult,
+    keepouts: Sequence[KeepoutResult],
+    scenario: Scenario,
+    shown: Sequence[_ShownPoint] | None = None,
 ) -> list[Any]:
+    """The legend: limits, keep-out spheres, the sources by name, places, objects.
+
+    ``shown`` are the places to list (default: those on ``result``'s map).
+    """
     by_id = {k.limit_id: k for k in keepouts}
     handles: list[Any] = []
     for i, v in enumerate(result.limits):
@@ -682,10 +903,11 @@ def _legend_handles(
             mfc="#0d2a6b",
             mec="white",
             ls="none",
-            label="source (arrow: boresight; outline to scale)" if apertures else "source",
+            label=source_legend_text(scenario, apertures),
         )
     )
-    shown = _shown_points(result.grid.plane, scenario, result.grid.extent_m, result.grid.step_m)
+    if shown is None:
+        shown = _shown_points(result.grid.plane, scenario, result.grid.extent_m, result.grid.step_m)
     for p in shown:
         label = f"{p.letter}  {p.name}" + (f" ({p.where})" if p.where else "")
         handles.append(
@@ -717,6 +939,27 @@ def _legend_handles(
             Line2D([], [], color="#2d2d2d", lw=2.2, label="enclosure (openings in magenta)")
         )
     return handles
+
+
+#: Characters of a legend line before it wraps.
+LEGEND_LINE_CHARS = 100
+
+
+def source_legend_text(scenario: Scenario, apertures: bool) -> str:
+    """The legend's line for the sources: their full names (a map may shorten them)."""
+    ids = [s.id for s in scenario.sources]
+    head = "source" if len(ids) == 1 else "sources"
+    text = f"{head} {', '.join(ids)}" if ids else head
+    if apertures:
+        text += " (arrow: boresight; outline to scale)"
+    return "\n".join(
+        textwrap.wrap(text, LEGEND_LINE_CHARS, break_on_hyphens=False, break_long_words=True)
+    )
+
+
+def _legend_lines(handles: Sequence[Any]) -> int:
+    """Lines the legend's labels take (a label may wrap)."""
+    return sum(h.get_label().count("\n") + 1 for h in handles)
 
 
 def _colour_bar(fig: Figure, image: Any, cax: Any, style: MapStyle, limit_id: str | None) -> None:
@@ -896,7 +1139,7 @@ def map_figure(
     tall = side * min(1.0, max((t1 - t0) / max(s1 - s0, 1e-9), 0.3))
     top = 0.3 + 0.25 * (len(heading[0]) - 1) + 0.27 * len(heading[1]) + 0.19 * len(heading[2])
     top += 0.2
-    legend_h = 0.2 * len(handles) + 0.2
+    legend_h = 0.2 * _legend_lines(handles) + 0.2
     height = top + tall + 0.6 + legend_h + 0.55
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
         fig = Figure(figsize=(width, height))
@@ -931,8 +1174,8 @@ def _title_lines(
     )
     return (
         wrap_title(scenario.name, TITLE_WIDTH),
-        textwrap.wrap(what, 92),
-        textwrap.wrap(assumptions, 115),
+        wrap_words(what, 92),
+        wrap_words(assumptions, 115),
     )
 
 
@@ -940,6 +1183,38 @@ def _title_lines(
 TITLE_WIDTH = 72
 #: A title is cut (with an ellipsis) after this many lines.
 TITLE_MAX_LINES = 3
+
+
+#: Units kept on the line of their number when a text wraps.
+_UNITS = r"(?:mW/cm²|W/m²|m²|cm|mm|m|GHz|MHz|Hz|dBi|dB|W|s|%)"
+_NUMBER_UNIT = re.compile(r"(\d)[ \t]+(" + _UNITS + r")(?![\w/²])")
+
+
+def glue_units(text: str) -> str:
+    """``text`` with a no-break space between each number and its unit (``5.47\u00a0m²``)."""
+    return _NUMBER_UNIT.sub("\\1\u00a0\\2", text)
+
+
+def wrap_words(text: str, width: int, balanced: bool = False) -> list[str]:
+    """``text`` wrapped at spaces to lines of about ``width`` characters.
+
+    Words are not split at hyphens, and a unit stays on the line of its number.
+    ``balanced`` evens the lines out (the narrowest width giving as few lines), so no
+    word is left alone on the last one.
+    """
+    glued = glue_units(text)
+
+    def wrap(w: int) -> list[str]:
+        return textwrap.wrap(glued, w, break_on_hyphens=False, break_long_words=True) or [""]
+
+    lines = wrap(width)
+    if balanced and len(lines) > 1:
+        for w in range(width - 1, width // 2, -1):
+            narrower = wrap(w)
+            if len(narrower) > len(lines):
+                break
+            lines = narrower
+    return lines
 
 
 def wrap_title(text: str, width: int) -> list[str]:
@@ -950,7 +1225,7 @@ def wrap_title(text: str, width: int) -> list[str]:
     glyph for them).
     """
     printable = "".join(ch if ch.isprintable() else " " for ch in text)
-    lines = textwrap.wrap(printable, width, break_long_words=True) or [""]
+    lines = wrap_words(printable, width)
     if len(lines) > TITLE_MAX_LINES:
         lines = lines[: TITLE_MAX_LINES - 1] + [
             textwrap.shorten(" ".join(lines[TITLE_MAX_LINES - 1 :]), width, placeholder=" …")
@@ -997,6 +1272,10 @@ def comparison_figure(
 ) -> Figure:
     """Maps of several options side by side on one colour scale.
 
+    Every panel letters its places as the legend does (A, B, ... by their order in
+    the scenario) and numbers its limit contours; the legend lists every place that
+    some panel shows, and the sources by their full names.
+
     Parameters
     ----------
     panels : sequence of (caption, MapResult, Scenario, keepouts)
@@ -1012,25 +1291,45 @@ def comparison_figure(
     cols = n if n <= 3 else (2 if n == 4 else 3)
     rows = math.ceil(n / cols)
     # Layout in inches.
-    side, gap, left, top, row_head, row_foot = 3.6, 0.75, 0.8, 0.95, 0.5, 0.55
+    side, gap, left, top, row_foot = 3.6, 0.75, 0.8, 0.95, 0.55
     bar_gap, bar, right = 0.95, 0.22, 0.95
-    legend_h = 0.75
     width = left + cols * side + (cols - 1) * gap + bar_gap + bar + right
     title_lines = wrap_title(title, int(TITLE_WIDTH * width / 8.4))
-    top += 0.24 * (len(title_lines) - 1)
+    first = panels[0][1]
+    subtitle = wrap_words(
+        f"{quantity_title(style, first)} on the {first.grid.plane.description}; "
+        "one colour scale for all panels; ranked best first" + (f"; {note}" if note else ""),
+        int(COMPARE_SUBTITLE_CHARS * (width - left - 0.3) / 12.0),
+        balanced=True,
+    )
+    captions = [wrap_words(p[0], PANEL_CAPTION_CHARS) for p in panels]
+    row_head = 0.2 + 0.16 * max(len(c) for c in captions)
+    top += 0.24 * (len(title_lines) - 1) + 0.19 * (len(subtitle) - 1)
     row_h = row_head + side + row_foot
+    shown = _compare_places(panels)
+    handles = _legend_handles(first, [], panels[0][2], shown=shown)
+    legend_h = (
+        0.19
+        * max(
+            _legend_lines(handles[: math.ceil(len(handles) / 2)]),
+            _legend_lines(handles[math.ceil(len(handles) / 2) :]),
+        )
+        + 0.15
+    )
     height = top + rows * row_h + legend_h + 0.35
     with mpl.rc_context(_RC):  # type: ignore[arg-type]
         fig = Figure(figsize=(width, height))
         norm = _norm(style, [p[1] for p in panels])
         image = None
-        for k, (caption, result, scenario, keepouts) in enumerate(panels):
+        for k, (_caption, result, scenario, keepouts) in enumerate(panels):
             r, c = divmod(k, cols)
             x = left + c * (side + gap)
             y = height - top - r * row_h - row_head - side
             ax = fig.add_axes((x / width, y / height, side / width, side / height))
-            image = draw_map(ax, result, scenario, keepouts, style, norm, labels=False)
-            ax.set_title(textwrap.fill(caption, 48), fontsize=9, loc="left")
+            image = draw_map(
+                ax, result, scenario, keepouts, style, norm, labels=True, source_labels=False
+            )
+            ax.set_title("\n".join(captions[k]), fontsize=9, loc="left")
             if c != 0:
                 ax.set_ylabel("")
         bar_x = left + cols * side + (cols - 1) * gap + bar_gap
@@ -1053,16 +1352,13 @@ def comparison_figure(
             va="top",
             linespacing=1.15,
         )
-        first = panels[0][1]
         fig.text(
             left / width,
             1 - (0.5 + 0.24 * (len(title_lines) - 1)) / height,
-            f"{quantity_title(style, first)} on the {first.grid.plane.description}; "
-            "one colour scale for all panels; ranked best first" + (f"; {note}" if note else ""),
+            "\n".join(subtitle),
             fontsize=9.5,
             va="top",
         )
-        handles = _legend_handles(first, [], panels[0][2])
         fig.legend(
             handles=handles,
             loc="upper left",
@@ -1080,3 +1376,22 @@ def comparison_figure(
             va="bottom",
         )
     return fig
+
+
+#: Characters of a panel's caption line (a 3.6 in panel at 9 pt).
+PANEL_CAPTION_CHARS = 50
+#: Characters of the comparison's subtitle per 12 in of width (9.5 pt).
+COMPARE_SUBTITLE_CHARS = 150
+
+
+def _compare_places(
+    panels: Sequence[tuple[str, maps.MapResult, Scenario, Sequence[KeepoutResult]]],
+) -> list[_ShownPoint]:
+    """The places some panel shows, by letter (one entry each, in the scenario's order)."""
+    seen: dict[str, tuple[int, _ShownPoint]] = {}
+    for _caption, result, scenario, _keepouts in panels:
+        grid = result.grid
+        for p in _shown_points(grid.plane, scenario, grid.extent_m, grid.step_m):
+            index = next(i for i, q in enumerate(scenario.points) if q.name == p.name)
+            seen.setdefault(p.letter, (index, p))
+    return [p for _i, p in sorted(seen.values(), key=lambda item: item[0])]

@@ -651,6 +651,12 @@ def _comparison(data: dict[str, Any], figure: bytes | None, heading: str) -> str
             "not make any option safe by itself.</p>",
             _table(header, rows, numeric={0, *range(3, 3 + len(keys) + 2)}),
             _legend(keys, data),
+            *(
+                f'<p class="legend">Above the base: {_free(r["name"])} '
+                f"{_e(r['above_base_note'])}.</p>"
+                for r in comp["options"]
+                if r.get("above_base_note")
+            ),
         ),
         _comparison_places(data, comp),
     ]
@@ -978,6 +984,7 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
         for row in comp["options"]:
             lines.append(
                 f"  {row['rank']}. {row['name']}: largest keep-out {row['largest_keepout_m']:.2f} m"
+                + (f" ({row['above_base_note']})" if row.get("above_base_note") else "")
             )
     if written:
         lines += ["", "Written:"] + [f"  {w}" for w in written]

@@ -21,7 +21,6 @@ from __future__ import annotations
 
 import copy
 import re
-import tomllib
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -35,6 +34,7 @@ from numpy.typing import ArrayLike, NDArray
 from keepclear.antennas.base import Placement, Radiator
 
 from . import limits as limits_mod
+from .arguments import read_scenario_document
 from .errors import InputError, LimitError, ScenarioError, UnknownKeyError, entry_path
 from .surroundings import EnclosureModel, ReflectorModel, ShieldModel
 from .validate import Table, suggest
@@ -976,13 +976,16 @@ def with_sweep(scenario: Scenario, key: str, values: list[Any]) -> Scenario:
     return replace(scenario, options=scenario.options + tuple(options))
 
 
-def load_scenario(path: str | Path) -> Scenario:
+def load_scenario(path: str | Path, document: dict[str, Any] | None = None) -> Scenario:
     """Read and validate a scenario file.
 
     Parameters
     ----------
     path : str or Path
         The TOML file.
+    document : dict, optional
+        The file already parsed by
+        :func:`~keepclear.fields.arguments.read_scenario_document` (it is not read again).
 
     Returns
     -------
@@ -993,33 +996,9 @@ def load_scenario(path: str | Path) -> Scenario:
     ScenarioError
         If the file is missing, a directory, not UTF-8 TOML, or invalid.
     """
-    p = Path(path)
     label = str(path)
-    if not p.exists():
-        raise ScenarioError("no such file", label)
-    if p.is_dir():
-        raise ScenarioError("is a directory; give a scenario .toml file", label)
-    try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise ScenarioError(f"cannot be read ({exc.strerror})", label) from None
-    if len(raw) > 2_000_000:
-        raise ScenarioError(f"is {len(raw)} bytes; a scenario file is at most 2 MB", label)
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", label) from None
-    try:
-        document = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ScenarioError(f"is not valid TOML: {exc}", label) from None
-    except RecursionError:
-        raise ScenarioError("is nested too deeply to be a scenario", label) from None
-    except ValueError:  # an integer literal beyond Python's 4300-digit conversion limit
-        raise ScenarioError(
-            "is not a usable scenario: it holds an integer too long to read (over 4300 digits)",
-            label,
-        ) from None
+    if document is None:
+        document = read_scenario_document(path)
     try:
         return scenario_from_document(document, label)
     except RecursionError:

@@ -22,7 +22,11 @@ What is and is not modelled, in order of importance:
   transmission (the credit of the earlier hard-edge model there).  ``edge_margin_m``
   (default 0) shrinks the credited sheet on every side (a frame or seams near the edge
   that do not shield).  A source of finite size (``source_extent_m``) gets the largest
-  factor over the rays from every corner of its bounding cube.
+  factor over the rays from every corner of its bounding cube: this moves the shadow
+  boundary to the safe side, and it also spreads the lit-side ripple over a band as wide
+  as the source seen through the edge (the ray of one corner at the ripple's peak sets
+  the factor), so a sheet beside the farthest reach of a zone can widen a keep-out.
+  ``compare`` marks such an option (:func:`shields_differ` names the sheet as the cause).
 * **Oblique incidence.**  The sheet's transmission is evaluated at the ray's angle, for
   the worse polarisation (TM for sheets: its reflection loss falls as
   20 log10(1 / cos theta)); a rated or slot panel loses 20 log10(1 / cos theta) of its
@@ -43,6 +47,7 @@ What is and is not modelled, in order of importance:
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Final, Protocol
 
@@ -569,6 +574,25 @@ class Shield:
         return out
 
 
+def shields_differ(a: Sequence[object], b: Sequence[object]) -> bool:
+    """Whether two scenarios' shield sheets differ (place, size, margin or make-up)."""
+
+    def key(s: object) -> tuple[object, ...]:
+        if not isinstance(s, Shield):
+            return (id(s),)
+        return (
+            tuple(s.center_m),
+            tuple(s.normal),
+            tuple(s.height_axis),
+            s.width_m,
+            s.height_m,
+            s.edge_margin_m,
+            repr(s.spec),
+        )
+
+    return [key(s) for s in a] != [key(s) for s in b]
+
+
 __all__ = [
     "HOLE_SHAPES",
     "LATTICES",
@@ -580,4 +604,5 @@ __all__ = [
     "Shield",
     "ShieldSpec",
     "SlotSpec",
+    "shields_differ",
 ]

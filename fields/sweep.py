@@ -26,8 +26,8 @@ Messages name an entry the same way, counting from 1 (``source.2.power_w``,
 Each value makes the scenario file as written with that one key replaced, read and
 checked as any scenario (an impossible value is refused naming the sweep and the value;
 a key the entry does not take is refused on the sweep's ``key``, with the closest key and
-those allowed), and becomes an option named ``"<name> = <value>"``.  Sweeps follow the ``[[option]]``
-tables, in file order.
+those allowed), and becomes an option named ``"<name> = <value>"``.  Sweeps follow the
+``[[option]]`` tables, in file order.
 """
 
 from __future__ import annotations

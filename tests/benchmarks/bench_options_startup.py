@@ -108,6 +108,16 @@ STARTUP = {
     "refused-option": (["keepout", "--no-such-option"], 2),
     "missing-file": (["keepout", "no-such-file.toml"], 2),
 }
+#: Arguments refused after the scenario is read, before numpy and the models are imported.
+_OPTIONS_SCENARIO = str(Path(__file__).parents[2] / "scenarios" / "horn-bench-options.toml")
+STARTUP |= {
+    "refused-limit": (["keepout", _OPTIONS_SCENARIO, "--limit", "nope"], 2),
+    "refused-option-name": (["keepout", _OPTIONS_SCENARIO, "--option", "nosuch"], 2),
+    "refused-rank-by": (["compare", _OPTIONS_SCENARIO, "--rank-by", "bogus"], 2),
+    "refused-sweep": (["compare", _OPTIONS_SCENARIO, "--sweep", "foo"], 2),
+    "refused-point": (["probe", _OPTIONS_SCENARIO, "--at", "1,2"], 2),
+    "refused-pixels": (["map", _OPTIONS_SCENARIO, "--out", "unused", "--pixels", "1"], 2),
+}
 
 
 @pytest.mark.parametrize("case", list(STARTUP))
