@@ -32,7 +32,7 @@ class InputError(Exception):
     source : str, optional
         The file (or ``"argument"``) the input came from.
     key : str, optional
-        The key path inside the file (``source[1].power_w``) or the option name.
+        The key path inside the file (``source.2.power_w``) or the option name.
     """
 
     def __init__(self, message: str, source: str | None = None, key: str | None = None) -> None:

@@ -188,7 +188,7 @@ def _root(
 
 ScenarioPath = Annotated[
     Path,
-    typer.Argument(help="Scenario file (TOML).", show_default=False),
+    typer.Argument(help="Scenario file (TOML).", metavar="SCENARIO", show_default=False),
 ]
 JsonFlag = Annotated[
     bool,
@@ -200,6 +200,7 @@ LimitOption = Annotated[
     list[str] | None,
     typer.Option(
         "--limit",
+        metavar="ID",
         help="A limit id to assess (repeat for more; default: the scenario's [exposure] "
         "limits); see `keepclear limits`.",
         rich_help_panel=PANEL_QUANTITY,
@@ -210,6 +211,7 @@ MapLimitOption = Annotated[
     list[str] | None,
     typer.Option(
         "--limit",
+        metavar="ID",
         help="A limit id to contour (repeat for more; default: the scenario's [exposure] "
         "limits). With --quantity quotient the first is the colour scale's reference.",
         rich_help_panel=PANEL_QUANTITY,
@@ -220,6 +222,7 @@ OptionOption = Annotated[
     str | None,
     typer.Option(
         "--option",
+        metavar="NAME",
         help="Assess this [[option]] (or sweep value) of the scenario instead of the base; "
         "see `keepclear compare` for the names.",
         rich_help_panel=PANEL_QUANTITY,
@@ -230,8 +233,9 @@ SweepOption = Annotated[
     list[str] | None,
     typer.Option(
         "--sweep",
-        help="KEY=V1,V2,...: one more option per value of one key of a source or object, "
-        "e.g. source.feed.power_w=900,40,9 (repeat for more; as [[sweep]] in a scenario).",
+        metavar="KEY=V1,V2",
+        help="One more option per value of one key of a source or object, e.g. "
+        "source.feed.power_w=900,40,9 (repeat for more; as [[sweep]] in a scenario).",
         rich_help_panel=PANEL_QUANTITY,
         show_default=False,
     ),
@@ -240,9 +244,11 @@ RankByOption = Annotated[
     str,
     typer.Option(
         "--rank-by",
-        help="Rank the options by: keepout (the largest keep-out distance), zone-area (the "
-        "zone on the horizontal plane) or place:NAME (the power density at a [[point]]); "
-        "ties within the stated tolerances keep the scenario's order.",
+        metavar="ORDER",
+        help="Rank the options by: keepout (the largest keep-out distance, the default), "
+        "zone-area (the zone on the horizontal plane) or place:NAME (the power density at a "
+        "[[point]]); ties within the stated tolerances keep the scenario's order.",
+        show_default=False,
         rich_help_panel=PANEL_QUANTITY,
     ),
 ]
@@ -250,6 +256,7 @@ HeightOption = Annotated[
     float | None,
     typer.Option(
         "--height-m",
+        metavar="METRES",
         help="Height of the horizontal plane of the maps and zones; default the first "
         "source's height (files map-source-height.*, zones-source-height.geojson; at a "
         "given height named after it, e.g. map-z1.70m.*) [m].",
@@ -261,6 +268,7 @@ CompareHeightOption = Annotated[
     float | None,
     typer.Option(
         "--height-m",
+        metavar="METRES",
         help="Height of the horizontal plane on which the options' zones are compared; "
         "default the first source's height [m].",
         rich_help_panel=PANEL_PLANE,
@@ -271,6 +279,7 @@ ExtentOption = Annotated[
     float | None,
     typer.Option(
         "--extent-m",
+        metavar="METRES",
         help="Half the side of the map: it spans the centre +- this; default 1.5 x the largest "
         "keep-out radius, at least 2 m [m].",
         rich_help_panel=PANEL_GRID,
@@ -281,6 +290,7 @@ StepOption = Annotated[
     float | None,
     typer.Option(
         "--step-m",
+        metavar="METRES",
         help="Sample spacing of the map [m].",
         rich_help_panel=PANEL_GRID,
         show_default=False,
@@ -290,6 +300,7 @@ PixelsOption = Annotated[
     int | None,
     typer.Option(
         "--pixels",
+        metavar="N",
         help="Samples along a side of the map (instead of --step-m; default 241) [count].",
         rich_help_panel=PANEL_GRID,
         show_default=False,
@@ -298,17 +309,25 @@ PixelsOption = Annotated[
 
 
 def _vector_option(name: str, help_text: str, panel: str = PANEL_PLANE) -> Any:
-    return typer.Option(name, help=help_text, rich_help_panel=panel, show_default=False)
+    return typer.Option(
+        name, help=help_text, metavar="X,Y,Z", rich_help_panel=panel, show_default=False
+    )
 
 
 def _file_option(name: str, what: str) -> Any:
     return typer.Option(
-        name, help=f"Write {what} to this file.", rich_help_panel=PANEL_OUTPUT, show_default=False
+        name,
+        help=f"Write {what} to this file.",
+        metavar="FILE",
+        rich_help_panel=PANEL_OUTPUT,
+        show_default=False,
     )
 
 
 def _out_option(help_text: str) -> Any:
-    return typer.Option("--out", help=help_text, rich_help_panel=PANEL_OUTPUT, show_default=False)
+    return typer.Option(
+        "--out", help=help_text, metavar="DIR", rich_help_panel=PANEL_OUTPUT, show_default=False
+    )
 
 
 # ------------------------------------------------------------------ helpers
@@ -401,7 +420,11 @@ def limits_command(
     frequency_hz: Annotated[
         float,
         typer.Option(
-            "--frequency-hz", help="Frequency at which to evaluate the limits [Hz].", min=1.0
+            "--frequency-hz",
+            metavar="HZ",
+            help="Frequency at which to evaluate the limits; default 2.45e9 [Hz].",
+            min=1.0,
+            show_default=False,
         ),
     ] = 2.45e9,
     json_out: JsonFlag = False,
@@ -424,7 +447,7 @@ def probe_command(
         list[str] | None,
         _vector_option(
             "--at",
-            "A point X,Y,Z [m]; repeat for more (--at=-0.5,0,1 for a negative first value).",
+            "A point; repeat for more (write --at=-0.5,0,1 when the first value is negative) [m].",
             PANEL_POINTS,
         ),
     ] = None,
@@ -432,6 +455,7 @@ def probe_command(
         Path | None,
         typer.Option(
             "--points",
+            metavar="FILE",
             help="CSV of points with header x_m,y_m,z_m [m].",
             rich_help_panel=PANEL_POINTS,
             show_default=False,
@@ -545,6 +569,7 @@ def readings_command(
         Path,
         typer.Option(
             "--csv",
+            metavar="FILE",
             help="Survey readings: header x_m,y_m,z_m,value,unit[,label]; unit one of W/m2, "
             "mW/cm2, V/m, A/m [m, and the unit given].",
             show_default=False,
@@ -624,7 +649,7 @@ def map_command(
         str | None,
         _vector_option(
             "--through",
-            "A point X,Y,Z on the plane, also the map centre; default the first source [m].",
+            "A point on the plane, also the map centre; default the first source [m].",
         ),
     ] = None,
     height_m: HeightOption = None,
@@ -632,16 +657,16 @@ def map_command(
         str | None,
         _vector_option(
             "--origin",
-            "An arbitrary plane: its origin X,Y,Z, the map centre (with --u and --v) [m].",
+            "An arbitrary plane: its origin, the map centre (with --u and --v) [m].",
         ),
     ] = None,
     u: Annotated[
         str | None,
-        _vector_option("--u", "First in-plane axis X,Y,Z of an arbitrary plane (normalised) [1]."),
+        _vector_option("--u", "First in-plane axis of an arbitrary plane (normalised) [1]."),
     ] = None,
     v: Annotated[
         str | None,
-        _vector_option("--v", "Second in-plane axis X,Y,Z (made perpendicular to --u) [1]."),
+        _vector_option("--v", "Second in-plane axis (made perpendicular to --u) [1]."),
     ] = None,
     extent_m: ExtentOption = None,
     step_m: StepOption = None,
@@ -896,6 +921,7 @@ def assess_command(
         Path | None,
         typer.Option(
             "--readings",
+            metavar="FILE",
             help="Survey readings CSV (x_m,y_m,z_m,value,unit[,label]) to mark on the maps and "
             "compare in the report [m, and the unit given].",
             rich_help_panel=PANEL_OUTPUT,

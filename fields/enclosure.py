@@ -79,7 +79,7 @@ from keepclear.antennas.base import (
 )
 
 from . import shielding as sh
-from .errors import ScenarioError
+from .errors import ScenarioError, entry_path
 
 #: Face names: the outward normal's axis and sign.
 FACES: Final[tuple[str, ...]] = ("+x", "-x", "+y", "-y", "+z", "-z")
@@ -867,13 +867,13 @@ class Enclosure:
             axis = AXES[(first, second)[j]]
             if extent[j] > face[j] + 1e-12:
                 raise ModelInputError(
-                    f"opening[{index}].{opening.key_for_size()}",
+                    f"{entry_path('opening', index)}.{opening.key_for_size()}",
                     f"the {opening.kind} is {extent[j]:g} m across along {axis}, larger than "
                     f"the {opening.face} face ({face[j]:g} m along {axis})",
                 )
             if abs(offset[j]) + extent[j] / 2 > face[j] / 2 + 1e-12:
                 raise ModelInputError(
-                    f"opening[{index}].offset_m",
+                    f"{entry_path('opening', index)}.offset_m",
                     f"the {opening.kind} runs off the {opening.face} face: offset {offset[j]:g} m "
                     f"along {axis} with half-size {extent[j] / 2:g} m, but the face reaches "
                     f"only +-{face[j] / 2:g} m from its centre",
@@ -989,7 +989,7 @@ class Enclosure:
                 f"{self.thickness_m:g} m wall of the enclosure; a source must be inside the "
                 f"cavity ({bounds} m) or clear of the box",
                 self.source_name,
-                f"source[{i}].position_m",
+                f"{entry_path('source', i)}.position_m",
             )
         if p.shape[0] == 0 or not np.any(self.contains(p)):
             raise ScenarioError(

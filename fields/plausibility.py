@@ -34,6 +34,8 @@ import numpy as np
 
 from keepclear.antennas.base import ModelRangeWarning
 
+from .errors import entry_path
+
 #: Thicker shield metal than this looks like a wall, or a thickness typed in mm [m].
 MAX_PLAUSIBLE_SHEET_M = 0.05
 #: Objects farther from the first source than this look like a unit slip [m].
@@ -90,27 +92,29 @@ def _setup_messages(scenario: Any) -> list[str]:
         return float(np.linalg.norm(np.asarray(point, dtype=float) - first))
 
     for i, s in enumerate(scenario.sources):
+        where = entry_path("source", i)
         if s.power_w > MAX_PLAUSIBLE_POWER_W:
             out.append(
-                f"source[{i}].power_w = {s.power_w:g} W is above 100 kW, beyond a portable "
+                f"{where}.power_w = {s.power_w:g} W is above 100 kW, beyond a portable "
                 "magnetron set-up; check the unit (W, not mW)"
             )
         if s.duty_cycle < MIN_PLAUSIBLE_DUTY_CYCLE:
             out.append(
-                f"source[{i}].duty_cycle = {s.duty_cycle:g} is below 1e-4; a duty cycle is a "
+                f"{where}.duty_cycle = {s.duty_cycle:g} is below 1e-4; a duty cycle is a "
                 "fraction (0.5 for half the time), not a percentage divided twice"
             )
         if i and distance(s.position_m) > far:
             out.append(
-                f"source[{i}].position_m is {distance(s.position_m):.0f} m from the first "
+                f"{where}.position_m is {distance(s.position_m):.0f} m from the first "
                 "source; positions are in metres (not centimetres)"
             )
     from keepclear.antennas.walls import WalledAperture  # loaded already if one is in use
 
     for i, s in enumerate(scenario.sources):
+        where = entry_path("source", i)
         if isinstance(s.radiator, WalledAperture) and s.radiator.flange_m is not None:
             out.append(
-                f"source[{i}] ({s.antenna}) has a flange_m and is too large for the wire grid "
+                f"{where} ({s.antenna}) has a flange_m and is too large for the wire grid "
                 "of its walls and flange, so it is modelled as its aperture with the flange's "
                 "edge currents: held against two full-wave solutions (an open WR-340 guide on "
                 "a 0.25 x 0.20 m flange, a 0.24 x 0.18 m horn on a 0.36 x 0.27 m flange), in "
@@ -122,7 +126,7 @@ def _setup_messages(scenario: Any) -> list[str]:
             )
         elif isinstance(s.radiator, WalledAperture):
             out.append(
-                f"source[{i}] ({s.antenna}) is modelled as its aperture with the rim's edge "
+                f"{where} ({s.antenna}) is modelled as its aperture with the rim's edge "
                 "currents (it is too large for the wire grid of its walls): no full-wave "
                 f"solution covers it; beside and behind it carries a back-region "
                 f"{s.radiator.back_margin_db:g} dB margin (the largest deficit found on bare "
@@ -130,27 +134,28 @@ def _setup_messages(scenario: Any) -> list[str]:
                 "measure before relying on it"
             )
     for i, p in enumerate(scenario.points):
+        where = entry_path("point", i)
         if distance(p.position_m) > far:
             out.append(
-                f"point[{i}].position_m ('{p.name}') is {distance(p.position_m):.0f} m from the "
+                f"{where}.position_m ('{p.name}') is {distance(p.position_m):.0f} m from the "
                 "first source; positions are in metres (not centimetres)"
             )
     for i, r in enumerate(scenario.reflectors):
+        where = entry_path("reflector", i)
         gap = abs(float(np.dot(first - np.asarray(r.point_m, float), np.asarray(r.normal))))
         if gap > far:
-            out.append(
-                f"reflector[{i}] lies {gap:.0f} m from the first source; point_m is in metres"
-            )
+            out.append(f"{where} lies {gap:.0f} m from the first source; point_m is in metres")
     for i, sh in enumerate(scenario.shields):
+        where = entry_path("shield", i)
         thickness = getattr(sh.spec, "thickness_m", None)
         if thickness is not None and thickness > MAX_PLAUSIBLE_SHEET_M:
             out.append(
-                f"shield[{i}].thickness_m = {thickness:g} m is thicker than 5 cm, more a wall "
+                f"{where}.thickness_m = {thickness:g} m is thicker than 5 cm, more a wall "
                 "than a sheet; thicknesses are in metres (1 mm = 0.001)"
             )
         if distance(sh.center_m) > far:
             out.append(
-                f"shield[{i}] is centred {distance(sh.center_m):.0f} m from the first source; "
+                f"{where} is centred {distance(sh.center_m):.0f} m from the first source; "
                 "positions are in metres"
             )
     enclosure = scenario.enclosure

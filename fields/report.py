@@ -118,8 +118,18 @@ footer { margin-top: 2.5rem; border-top: 1px solid var(--rule); padding-top: .6r
   body { max-width: none; margin: 0; padding: 0; font-size: 10pt; }
   table { font-size: 8.2pt; }
   th, td { padding: .2rem .3rem; }
-  h2 { break-after: avoid; page-break-after: avoid; }
-  table, figure, .summary, .caution, pre, dl { break-inside: avoid; page-break-inside: avoid; }
+  /* A heading never ends a page: it stays with its introduction and the table it heads
+     (.keep, which moves to the next page whole when it does not fit; a table longer than a
+     page then splits between rows). Chromium honours break-after: avoid only where the next
+     block can start on the same page, hence the wrapper. */
+  h1, h2, h3 { break-after: avoid; page-break-after: avoid; break-inside: avoid; }
+  h2 + p, h3 + p, p:has(+ table) { break-after: avoid; page-break-after: avoid; }
+  table + p.legend { break-before: avoid; page-break-before: avoid; }
+  table, figure, .summary, .caution, pre, dl, .keep {
+    break-inside: avoid; page-break-inside: avoid; }
+  /* A table longer than a page splits between rows and repeats its header row. */
+  thead { display: table-header-group; }
+  tr { break-inside: avoid; page-break-inside: avoid; }
   figure.map + figure.map { break-before: page; page-break-before: always; }
   figure img { border: none; max-height: 19.5cm; width: auto; max-width: 100%; }
   a { color: inherit; text-decoration: none; }
@@ -189,6 +199,11 @@ def _legend(keys: dict[str, str], data: dict[str, Any]) -> str:
 def _img(png: bytes, alt: str) -> str:
     data = base64.b64encode(png).decode("ascii")
     return f'<img alt="{_e(alt)}" src="data:image/png;base64,{data}">'
+
+
+def _keep(*parts: str) -> str:
+    """A heading with its introduction and the table it heads: on one printed page."""
+    return '<div class="keep">' + "".join(parts) + "</div>"
 
 
 def _table(header: list[str], rows: list[list[str]], numeric: set[int] | None = None) -> str:
@@ -360,7 +375,7 @@ def _levels_section(data: dict[str, Any]) -> str:
             )
         rows.append(cells)
     floor_m = levels[0]["floor_height_m"]
-    return (
+    return _keep(
         "<h3>Zones near the floor and at head height</h3>"
         f"<p>The scenario has a floor at z = {floor_m:.2f}&nbsp;m. Besides the plane at "
         f"{_e(_where(data))}, the zones are given just above the floor (where feet are; "
@@ -368,8 +383,8 @@ def _levels_section(data: dict[str, Any]) -> str:
         "is an approximation) and at head height (1.7&nbsp;m above the floor, common "
         "practice, no source); their outlines are in "
         + " and ".join(_e(lv["zones_file"]) for lv in levels)
-        + ".</p>"
-        + _table(header, rows)
+        + ".</p>",
+        _table(header, rows),
     )
 
 
@@ -475,7 +490,7 @@ def _uncertainty_section(data: dict[str, Any]) -> str:
         for k in data["keepout"]
     ]
     gains = ", ".join(f"{g:g}" for g in u["gain_db_used"])
-    return (
+    return _keep(
         "<h3>How sure: the keep-out over the input uncertainty</h3>"
         f"<p>{u['samples']} Monte Carlo samples (PCG64, seed {u['seed']}) of the inputs, each "
         f"normal with one sigma: delivered power {u['power_db']:g}&nbsp;dB, gain {_e(gains)}"
@@ -485,8 +500,8 @@ def _uncertainty_section(data: dict[str, Any]) -> str:
         "re-weighted per sample. <strong>Mark out the 95th percentile</strong>: it is the "
         "distance 19 set-ups in 20 stay within. On the maps the dashed contour of each limit is "
         "where its 95th-percentile quotient reaches one (source position spread not included "
-        "there).</p>"
-        + _table(["limit", "nominal", "median", "95th percentile"], rows, numeric={1, 2, 3})
+        "there).</p>",
+        _table(["limit", "nominal", "median", "95th percentile"], rows, numeric={1, 2, 3}),
     )
 
 
@@ -507,14 +522,16 @@ def _places_extras(data: dict[str, Any]) -> str:
                 )
     if stay_rows:
         parts.append(
-            "<h3>How long: the longest stay per averaging window</h3>"
-            "<p>Where a place is over a limit, a person may stay there for at most this long in "
-            "each averaging window of that limit (linear time averaging: window × limit ÷ "
-            "density, with nothing received the rest of the window). For the ICNIRP 2020 local "
-            "limits the brief-exposure energy rule (Table 7) is applied where it is stricter; "
-            "its formula was written from memory of the guidelines and is not yet checked "
-            "against the printed table.</p>"
-            + _table(["place", "limit", "longest stay", "rule"], stay_rows)
+            _keep(
+                "<h3>How long: the longest stay per averaging window</h3>"
+                "<p>Where a place is over a limit, a person may stay there for at most this "
+                "long in each averaging window of that limit (linear time averaging: window × "
+                "limit ÷ density, with nothing received the rest of the window). For the ICNIRP "
+                "2020 local limits the brief-exposure energy rule (Table 7) is applied where it "
+                "is stricter; its formula was written from memory of the guidelines and is not "
+                "yet checked against the printed table.</p>",
+                _table(["place", "limit", "longest stay", "rule"], stay_rows),
+            )
         )
     avg_rows = []
     for p in data["points"]:
@@ -536,16 +553,18 @@ def _places_extras(data: dict[str, Any]) -> str:
         )
     if avg_rows:
         parts.append(
-            "<h3>The whole body: spatial average over a standing person</h3>"
-            "<p>The time-averaged power density averaged over a vertical line at the place, "
-            "by the composite midpoint rule with 20 equally spaced points (0.1&nbsp;m apart over "
-            "2&nbsp;m). Whole-body limits (ICNIRP 2020 Table 5, IEEE, FCC, Safety Code 6) are "
-            "compared with the spatial average; local limits, product emission limits and "
-            "device thresholds with the point value.</p>"
-            + _table(
-                ["place", "line", "spatial average W/m²", "point value W/m²", "compared with"],
-                avg_rows,
-                numeric={2, 3},
+            _keep(
+                "<h3>The whole body: spatial average over a standing person</h3>"
+                "<p>The time-averaged power density averaged over a vertical line at the place, "
+                "by the composite midpoint rule with 20 equally spaced points (0.1&nbsp;m apart "
+                "over 2&nbsp;m). Whole-body limits (ICNIRP 2020 Table 5, IEEE, FCC, Safety Code "
+                "6) are compared with the spatial average; local limits, product emission limits "
+                "and device thresholds with the point value.</p>",
+                _table(
+                    ["place", "line", "spatial average W/m²", "point value W/m²", "compared with"],
+                    avg_rows,
+                    numeric={2, 3},
+                ),
             )
         )
     return "".join(parts)
@@ -574,25 +593,27 @@ def _readings_section(data: dict[str, Any]) -> str:
         )
     largest = block["largest_under_prediction_db"]
     return (
-        "<h3>What the meter says: survey readings against the model</h3>"
-        "<p>A survey meter averages over a second or more, far longer than a mains cycle, so "
-        "each reading is compared with the time-averaged prediction (duty cycle applied); E "
-        "and H readings as E²/η0 and η0H². A reading more than 3&nbsp;dB above the model is "
-        "flagged. The readings are marked on the maps (diamonds; filled red when flagged) "
-        "where they lie within 0.5&nbsp;m of the plane.</p>"
-        + _table(
-            [
-                "reading",
-                "position",
-                "meter",
-                "measured W/m²",
-                "predicted W/m²",
-                "ratio dB",
-                "flag",
-                "over limits",
-            ],
-            rows,
-            numeric={3, 4, 5},
+        _keep(
+            "<h3>What the meter says: survey readings against the model</h3>"
+            "<p>A survey meter averages over a second or more, far longer than a mains cycle, so "
+            "each reading is compared with the time-averaged prediction (duty cycle applied); E "
+            "and H readings as E²/η0 and η0H². A reading more than 3&nbsp;dB above the model is "
+            "flagged. The readings are marked on the maps (diamonds; filled red when flagged) "
+            "where they lie within 0.5&nbsp;m of the plane.</p>"
+            + _table(
+                [
+                    "reading",
+                    "position",
+                    "meter",
+                    "measured W/m²",
+                    "predicted W/m²",
+                    "ratio dB",
+                    "flag",
+                    "over limits",
+                ],
+                rows,
+                numeric={3, 4, 5},
+            ),
         )
         + "<p>"
         + (
@@ -605,10 +626,10 @@ def _readings_section(data: dict[str, Any]) -> str:
     )
 
 
-def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
+def _comparison(data: dict[str, Any], figure: bytes | None, heading: str) -> str:
     comp = data.get("comparison")
     if not comp:
-        return "<p>The scenario lists no alternatives (<code>[[option]]</code>).</p>"
+        return heading + "<p>The scenario lists no alternatives (<code>[[option]]</code>).</p>"
     keys = _limit_keys(list(comp["limits"]))
     where = comp["horizontal_plane"]["where"]
     rank_by = comp.get("rank_by", "keepout")
@@ -658,17 +679,21 @@ def _comparison(data: dict[str, Any], figure: bytes | None) -> str:
         )
         rows.append(cells)
     parts = [
-        f"<p>Ranked by {_e(comp['ranked_by'])}"
-        + (f" ({_e(comp['tie_rule'])})" if comp.get("tie_rule") else "")
-        + f". Zones on the horizontal plane at {_e(where)}. The ranking says which option needs "
-        "the least space, or gives the least exposure at the chosen place; it does not make "
-        "any option safe by itself.</p>",
-        _table(header, rows, numeric={0, *range(3, len(header) - 1)}),
-        _legend(keys, data),
-        *(
-            f'<p class="legend">Above the base: {_free(r["name"])} {_e(r["above_base_note"])}.</p>'
-            for r in comp["options"]
-            if r.get("above_base_note")
+        _keep(
+            heading,
+            f"<p>Ranked by {_e(comp['ranked_by'])}"
+            + (f" ({_e(comp['tie_rule'])})" if comp.get("tie_rule") else "")
+            + f". Zones on the horizontal plane at {_e(where)}. The ranking says which option "
+            "needs the least space, or gives the least exposure at the chosen place; it does "
+            "not make any option safe by itself.</p>",
+            _table(header, rows, numeric={0, *range(3, len(header) - 1)}),
+            _legend(keys, data),
+            *(
+                f'<p class="legend">Above the base: {_free(r["name"])} '
+                f"{_e(r['above_base_note'])}.</p>"
+                for r in comp["options"]
+                if r.get("above_base_note")
+            ),
         ),
         _comparison_places(data, comp),
     ]
@@ -698,11 +723,11 @@ def _comparison_places(data: dict[str, Any], comp: dict[str, Any]) -> str:
             cells.append(text)
         rows.append(cells)
     legend = "; ".join(f"<strong>{_e(letters.get(n, n))}</strong> = {_free(n)}" for n in names)
-    return (
-        "<h3>The options at the named places</h3>"
-        + _table(header, rows, numeric={0, *range(2, len(header))})
-        + f'<p class="legend">Time-averaged power density; the change in dB is against the '
-        f"base. {legend}.</p>"
+    return _keep(
+        "<h3>The options at the named places</h3>",
+        _table(header, rows, numeric={0, *range(2, len(header))}),
+        f'<p class="legend">Time-averaged power density; the change in dB is against the '
+        f"base. {legend}.</p>",
     )
 
 
@@ -900,8 +925,7 @@ def render_report(
         f"generated {generated}</p></header>",
         _input_warnings(data),
         _summary(data),
-        "<h2>Sources</h2>",
-        _sources(data),
+        _keep("<h2>Sources</h2>", _sources(data)),
         "<h2>1. Maps</h2>",
         '<figure class="map">'
         + _img(figures["horizontal"], f"power density on the {horizontal['plane']['description']}")
@@ -913,23 +937,19 @@ def render_report(
         + f"<figcaption>{_e(_sentence(vertical['plane']['description']))}: how high and "
         "how low the zones reach.</figcaption></figure>",
         _levels_section(data),
-        "<h2>2. Results per limit</h2>",
-        _results(data),
+        _keep("<h2>2. Results per limit</h2>", _results(data)),
         _uncertainty_section(data),
-        "<h2>3. Named places</h2>",
-        _points(data),
+        _keep("<h2>3. Named places</h2>", _points(data)),
         _places_extras(data),
         _readings_section(data),
-        "<h2>4. Options compared</h2>",
-        _comparison(data, figures.get("compare")),
+        _comparison(data, figures.get("compare"), "<h2>4. Options compared</h2>"),
         "<h2>5. Method and assumptions</h2>",
         _method(data),
         "<h2>6. What this estimate leaves out</h2>",
         _left_out(),
         "<h2>7. Cautions</h2>",
         _cautions(),
-        "<h2>8. Sources of the limits</h2>",
-        _limit_sources(data),
+        _keep("<h2>8. Sources of the limits</h2>", _limit_sources(data)),
         "<h2>9. References for the formulas</h2>",
         "<ol>" + "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES) + "</ol>",
         "<h2>10. The scenario as given</h2>",

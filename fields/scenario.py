@@ -4,7 +4,7 @@ A scenario is a TOML file (read with :mod:`tomllib`).  The keys of the stable
 contract are accepted exactly; every value is checked for type, range and unit
 sense before anything is computed, and an unknown key is an error with a "did you
 mean" suggestion, because a typo silently ignored in a safety tool is a wrong
-answer.  Errors name the file, the key path (``source[1].power_w``) and what is
+answer.  Errors name the file, the key path (``source.2.power_w``) and what is
 allowed.
 
 After loading, computation never reads the file again: :class:`Scenario` and the
@@ -35,7 +35,7 @@ from keepclear.antennas.base import Placement, Radiator
 
 from . import limits as limits_mod
 from .arguments import read_scenario_document
-from .errors import InputError, LimitError, ScenarioError
+from .errors import InputError, LimitError, ScenarioError, UnknownKeyError, entry_path
 from .surroundings import EnclosureModel, ReflectorModel, ShieldModel
 from .validate import Table, suggest
 
@@ -516,21 +516,20 @@ def _read_source(t: Table, index: int, frequency_hz: float) -> Source:
     # Refuse unknown keys first, so a typo is named before any value error it causes.
     for key in t.data:
         if key not in _ALL_SOURCE_KEYS:
-            raise t.error(
-                key,
-                "is not a known source key"
-                + suggest(key, _ALL_SOURCE_KEYS)
-                + f"; allowed: {', '.join(_ALL_SOURCE_KEYS)}",
-            )
+            raise t.unknown_key(key, "is not a known source key", _ALL_SOURCE_KEYS)
     kind = t.string("antenna", choices=ANTENNA_KINDS)
     allowed = set(_COMMON_SOURCE_KEYS) | set(_KIND_KEYS[kind])
     for key in t.data:
         if key not in allowed:
             users = [k for k, keys in _KIND_KEYS.items() if key in keys]
-            raise t.error(
-                key,
+            raise UnknownKeyError(
                 f'does not apply to antenna = "{kind}" (it is a key of '
                 f"{', '.join(users)}); allowed here: {', '.join(sorted(allowed))}",
+                t.source,
+                t.key_path(key),
+                word=key,
+                allowed=sorted(allowed),
+                reason=f"a key of {', '.join(users)}, not of {kind}",
             )
     source_id = t.string("id", f"source{index + 1}")
     if not source_id.strip():
@@ -569,7 +568,8 @@ def _read_thresholds(exposure: Table) -> tuple[limits_mod.Limit, ...]:
         if name in names:
             raise t.error(
                 "name",
-                f"'{name}' is used by exposure.threshold[{names[name]}]; names must be unique",
+                f"'{name}' is used by {entry_path('exposure.threshold', names[name])}; "
+                "names must be unique",
             )
         names[name] = i
         basis = t.string("basis", choices=limits_mod.BASES)
@@ -609,7 +609,7 @@ def _read_limits(
             )
     seen = set()
     for i, limit_id in enumerate(ids):
-        key = f"limits[{i}]"
+        key = entry_path("limits", i)
         if limit_id in seen:
             raise root.error(f"exposure.{key}", f"'{limit_id}' is listed twice")
         seen.add(limit_id)
@@ -665,12 +665,7 @@ def _read_uncertainty(root: Table) -> Any:
 
     for key in t.data:
         if key not in UNCERTAINTY_KEYS:
-            raise t.error(
-                key,
-                "is not a known uncertainty key"
-                + suggest(key, UNCERTAINTY_KEYS)
-                + f"; allowed: {', '.join(UNCERTAINTY_KEYS)}",
-            )
+            raise t.unknown_key(key, "is not a known uncertainty key", UNCERTAINTY_KEYS)
     spec = UncertaintySpec(
         power_db=t.number("power_db", 0.0, unit="dB", minimum=0.0, maximum=20.0),
         gain_db=t.number("gain_db", None, unit="dB", minimum=0.0, maximum=20.0),
@@ -818,8 +813,8 @@ def _scenario_from_document(document: dict[str, Any], source: str, allow_options
     for i, sid in enumerate(ids):
         if ids.index(sid) != i:
             raise root.error(
-                f"source[{i}].id",
-                f"'{sid}' is used by source[{ids.index(sid)}]; ids must be unique",
+                f"{entry_path('source', i)}.id",
+                f"'{sid}' is used by {entry_path('source', ids.index(sid))}; ids must be unique",
             )
     limit_ids, thresholds = _read_limits(root, frequency)
     reflectors = _read_reflectors(root, frequency)
@@ -901,7 +896,7 @@ def _merge_sources(base: list[Any], changes: Any, option: Table) -> list[Any]:
             out.append(copy.deepcopy(change))
         else:
             raise option.error(
-                f"source[{i}].id",
+                f"{entry_path('source', i)}.id",
                 f"must name a base source ({', '.join(str(b) for b in base_ids)}) to change it, "
                 "or the table must be a whole new source with `antenna`"
                 + suggest(str(sid), map(str, base_ids)),

@@ -20,6 +20,7 @@ from keepclear.antennas.base import ModelInputError, ModelRangeWarning
 
 from . import shielding as sh
 from .enclosure import AXES, CELL_SHAPES, FACES, OPENING_TYPES, Enclosure, Opening
+from .errors import entry_path
 from .materials import MATERIAL_NAMES, out_of_range_message
 from .reflection import REFLECTOR_KEYS, Reflector
 from .shield import (
@@ -192,7 +193,7 @@ def shield_from_table(table: Table, frequency_hz: float) -> Shield:
     Parameters
     ----------
     table : Table
-        The table, with its key path (``shield[0]``).
+        The table, with its key path (``shield.1``).
     frequency_hz : float
         Scenario frequency [Hz].
 
@@ -287,7 +288,7 @@ def opening_from_table(table: Table) -> Opening:
     ``wire_diameter_m`` or ``hole_diameter_m`` with ``depth_m``, ``lattice``);
     antenna-port (``diameter_m``).
     """
-    label = table.string("id", table.path.rsplit(".", 1)[-1] or "opening")
+    label = table.string("id", ".".join(table.path.split(".")[-2:]) or "opening")
     face = table.string("face", choices=FACES)
     kind = table.string("type", choices=OPENING_TYPES)
     offset = _offset(table)
@@ -387,7 +388,7 @@ def enclosure_from_table(table: Table, frequency_hz: float) -> Enclosure:
         try:
             opening.leak(frequency_hz, thickness, warn=True)
         except ModelInputError as exc:
-            raise table.error(f"opening[{i}].{exc.parameter}", exc.message) from None
+            raise table.error(f"{entry_path('opening', i)}.{exc.parameter}", exc.message) from None
     try:
         enclosure.power_balance(1.0, frequency_hz)
     except ModelInputError as exc:

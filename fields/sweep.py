@@ -20,10 +20,14 @@ The key is a dotted path into the scenario file:
 * ``enclosure.<key>``;
 * a top-level key such as ``frequency_hz`` or ``reflections``.
 
+Messages name an entry the same way, counting from 1 (``source.2.power_w``,
+``reflector.1``), so a path in a message is a key a sweep can take.
+
 Each value makes the scenario file as written with that one key replaced, read and
-checked as any scenario (an impossible value is refused naming the sweep and the value),
-and becomes an option named ``"<name> = <value>"``.  Sweeps follow the ``[[option]]``
-tables, in file order.
+checked as any scenario (an impossible value is refused naming the sweep and the value;
+a key the entry does not take is refused on the sweep's ``key``, with the closest key and
+those allowed), and becomes an option named ``"<name> = <value>"``.  Sweeps follow the
+``[[option]]`` tables, in file order.
 """
 
 from __future__ import annotations
@@ -34,7 +38,7 @@ import tomllib
 from collections.abc import Callable
 from typing import Any
 
-from .errors import InputError, ScenarioError
+from .errors import InputError, ScenarioError, UnknownKeyError, closest, entry_path
 
 #: Tables a sweep may address, with how their entries are named.
 SWEEP_TABLES = ("source", "shield", "reflector", "point", "enclosure")
@@ -78,6 +82,17 @@ def set_key(document: dict[str, Any], key: str) -> Callable[[dict[str, Any], Any
     ValueError
         With a sentence saying what the path may be, when ``key`` names nothing.
     """
+    return _target(document, key)[0]
+
+
+def _target(
+    document: dict[str, Any], key: str
+) -> tuple[Callable[[dict[str, Any], Any], None], str, str]:
+    """The setter of ``key``, the path the scenario loader names that key by, and the entry.
+
+    The path is the one the loader's messages use (``source.1.duty_cycle``); the entry is
+    the table the key belongs to as the user wrote it (``source 'feed'``, ``reflector.2``).
+    """
     parts = key.split(".")
     allowed = (
         "source.<id>.<key>, shield.<id or number>.<key>, reflector.<number>.<key>, "
@@ -90,7 +105,7 @@ def set_key(document: dict[str, Any], key: str) -> Callable[[dict[str, Any], Any
         def top(doc: dict[str, Any], value: Any) -> None:
             doc[key] = value
 
-        return top
+        return top, key, "the scenario's top level"
     table = parts[0]
     if table not in SWEEP_TABLES:
         raise ValueError(
@@ -106,7 +121,7 @@ def set_key(document: dict[str, Any], key: str) -> Callable[[dict[str, Any], Any
         def enclosure(doc: dict[str, Any], value: Any) -> None:
             doc["enclosure"][leaf] = value
 
-        return enclosure
+        return enclosure, key, "[enclosure]"
     if len(parts) < 3:
         raise ValueError(f"'{key}' must be {table}.<which>.<key>; allowed: {allowed}")
     selector, leaf = ".".join(parts[1:-1]), parts[-1]
@@ -125,7 +140,20 @@ def set_key(document: dict[str, Any], key: str) -> Callable[[dict[str, Any], Any
             doc[table] = items = [items]
         items[index][leaf] = value
 
-    return entry
+    named = selector if selector.isdigit() else f"'{selector}'"
+    return entry, f"{entry_path(table, index)}.{leaf}", f"[[{table}]] {named}"
+
+
+def _unknown_key_message(key: str, exc: UnknownKeyError, entry: str) -> str:
+    """The sweep's key names a key its table does not take: which, the closest, the list."""
+    prefix = key[: len(key) - len(exc.word)]
+    close = closest(exc.word, exc.allowed)
+    hint = f" (did you mean '{prefix}{close}'?)" if close else ""
+    if exc.reason:
+        hint += f" ({exc.reason})"
+    return f"'{key}': {entry} takes no key '{exc.word}'{hint}; allowed there: " + ", ".join(
+        exc.allowed
+    )
 
 
 def expand_sweep(
@@ -174,7 +202,7 @@ def expand_sweep(
             at("values"),
         )
     try:
-        setter = set_key(document, key)
+        setter, key_path, entry = _target(document, key)
     except ValueError as exc:
         raise ScenarioError(str(exc), source, at("key")) from None
     base = {k: v for k, v in document.items() if k not in ("option", "sweep")}
@@ -186,6 +214,11 @@ def expand_sweep(
         try:
             scenario = build(doc)
         except InputError as exc:
+            if isinstance(exc, UnknownKeyError) and exc.key == key_path:
+                # The key is wrong, not the value: say so on the sweep's key.
+                raise ScenarioError(
+                    _unknown_key_message(key, exc, entry), source, at("key")
+                ) from None
             detail = f"{exc.key}: {exc.message}" if exc.key else exc.message
             raise ScenarioError(
                 f"the value {value_text(value)} makes an impossible scenario: {detail}",

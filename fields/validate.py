@@ -1,11 +1,14 @@
 """Reading validated values out of parsed TOML tables.
 
-A :class:`Table` wraps one TOML table with its key path (``source[1]``) and the file
+A :class:`Table` wraps one TOML table with its key path (``source.2``) and the file
 name, hands out typed, range-checked values, and at the end refuses any key that was
 not asked for, with a "did you mean" suggestion.  Every scenario section is read
 through it, so all messages share one form::
 
-    scenarios/bench.toml: source[1].power_w: must be a number > 0 [W], got -5
+    scenarios/bench.toml: source.2.power_w: must be a number > 0 [W], got -5
+
+Entries of an array of tables count from 1 in file order (``source.2`` is the second
+``[[source]]``), the same path a sweep key takes.
 
 Model code stays free of file handling: it raises
 :class:`~keepclear.antennas.base.ModelInputError` naming the parameter, and
@@ -20,7 +23,7 @@ from typing import Any, TypeVar
 
 import numpy as np
 
-from .errors import ModelInputError, ScenarioError, suggest
+from .errors import ModelInputError, ScenarioError, UnknownKeyError, entry_path, suggest
 
 T = TypeVar("T")
 _MISSING = object()
@@ -45,7 +48,7 @@ class Table:
     data : dict
         The parsed table.
     path : str
-        Key path of the table (``""`` for the top level, ``"source[0]"``).
+        Key path of the table (``""`` for the top level, ``"source.1"``).
     source : str
         File name for messages.
     """
@@ -66,6 +69,16 @@ class Table:
     def error(self, key: str, message: str) -> ScenarioError:
         """A :class:`ScenarioError` located at ``key`` of this table."""
         return ScenarioError(message, self.source, self.key_path(key))
+
+    def unknown_key(self, key: str, what: str, allowed: Sequence[str]) -> UnknownKeyError:
+        """An :class:`UnknownKeyError` at ``key``: ``what``, the closest allowed key, the list."""
+        return UnknownKeyError(
+            what + suggest(key, allowed) + f"; allowed: {', '.join(allowed)}",
+            self.source,
+            self.key_path(key),
+            word=key,
+            allowed=allowed,
+        )
 
     def has(self, key: str) -> bool:
         """Whether ``key`` is present (and mark it as known)."""
@@ -198,7 +211,7 @@ class Table:
             raise self.error(key, f"must be an array of tables ([[{key}]]), got {_describe(value)}")
         out = []
         for i, item in enumerate(value):
-            path = f"{self.key_path(key)}[{i}]"
+            path = entry_path(self.key_path(key), i)
             if not isinstance(item, dict):
                 raise ScenarioError(f"must be a table, got {_describe(item)}", self.source, path)
             out.append(Table(item, path, self.source))
@@ -220,12 +233,7 @@ class Table:
         known = set(self._used if allowed is None else allowed)
         for key in self.data:
             if key not in known:
-                raise self.error(
-                    key,
-                    "is not a known key here"
-                    + suggest(key, known)
-                    + f"; allowed: {', '.join(sorted(known))}",
-                )
+                raise self.unknown_key(key, "is not a known key here", sorted(known))
 
     def build(self, factory: Callable[..., T], *args: Any, **kwargs: Any) -> T:
         """Call a model constructor, relocating its :class:`ModelInputError` to this table."""

@@ -8,6 +8,7 @@ from __future__ import annotations
 import json
 import os
 import pathlib
+import re
 import shutil
 import subprocess
 import sys
@@ -52,6 +53,45 @@ def test_help(command):
     result = run(*command, "--help")
     assert result.exit_code == 0
     assert "Usage" in result.stdout
+
+
+COMMANDS = ["limits", "probe", "keepout", "readings", "map", "compare", "assess"]
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_help_placeholders_read_as_what_to_type(command):
+    """Every option shows a placeholder of what to write (ID, X,Y,Z, METRES), not a type."""
+    help_text = run(command, "--help").stdout
+    options = help_text.partition("Options:")[2]
+    for typed in ("<list[", "<str>", "<float", "<int>", "<path>", "range>"):
+        assert typed not in options, (command, typed)
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_numeric_options_end_their_help_with_the_unit(command):
+    """Each number's help ends with its unit in brackets (style guide: CLI), from the code."""
+    import enum
+    import typing
+
+    import typer
+
+    callback = typer.main.get_command(app).commands[command].callback
+    hints = typing.get_type_hints(callback, include_extras=True)
+    checked = 0
+    for name, hint in hints.items():
+        infos = [
+            a for a in getattr(hint, "__metadata__", ()) if isinstance(a, typer.models.OptionInfo)
+        ]
+        if not infos:
+            continue
+        info, kinds = infos[0], set(typing.get_args(typing.get_args(hint)[0])) | {hint.__origin__}
+        if bool in kinds or any(isinstance(k, type) and issubclass(k, enum.Enum) for k in kinds):
+            continue  # a flag, or a choice that lists its values
+        assert info.metavar, (command, name)
+        if kinds & {float, int} or info.metavar == "X,Y,Z":
+            checked += 1
+            assert re.search(r"\[[^\[\]]+\]\.$", info.help or ""), (command, info.help)
+    assert checked or command in ("keepout", "readings")
 
 
 def test_version():
@@ -149,31 +189,31 @@ def test_keepout_text_screening_and_caution(write_scenario):
 
 # -------------------------------------------------------------------- bad input
 BAD_SCENARIOS = {
-    "negative power": ('[[source]]\nantenna = "isotropic"\npower_w = -5\n', "source[0].power_w"),
+    "negative power": ('[[source]]\nantenna = "isotropic"\npower_w = -5\n', "source.1.power_w"),
     "duty zero": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\nduty_cycle = 0\n',
-        "source[0].duty_cycle",
+        "source.1.duty_cycle",
     ),
     "duty 1.5": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\nduty_cycle = 1.5\n',
-        "source[0].duty_cycle",
+        "source.1.duty_cycle",
     ),
-    "unknown antenna": ('[[source]]\nantenna = "yagi"\npower_w = 5\n', "source[0].antenna"),
+    "unknown antenna": ('[[source]]\nantenna = "yagi"\npower_w = 5\n', "source.1.antenna"),
     "unknown limit": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\n[exposure]\nlimits = ["icnirp-2020/general-publc"]\n',
         "did you mean",
     ),
-    "missing power": ('[[source]]\nantenna = "isotropic"\n', "source[0].power_w"),
-    "nan": ('[[source]]\nantenna = "isotropic"\npower_w = nan\n', "source[0].power_w"),
-    "inf": ('[[source]]\nantenna = "isotropic"\npower_w = inf\n', "source[0].power_w"),
+    "missing power": ('[[source]]\nantenna = "isotropic"\n', "source.1.power_w"),
+    "nan": ('[[source]]\nantenna = "isotropic"\npower_w = nan\n', "source.1.power_w"),
+    "inf": ('[[source]]\nantenna = "isotropic"\npower_w = inf\n', "source.1.power_w"),
     "zero vector": (
         '[[source]]\nantenna = "dipole"\npower_w = 5\naxis = [0, 0, 0]\n',
-        "source[0].axis",
+        "source.1.axis",
     ),
     "not toml": ("this is = = not toml\n", "not valid TOML"),
     "string for number": (
         '[[source]]\nantenna = "isotropic"\npower_w = "800"\n',
-        "source[0].power_w",
+        "source.1.power_w",
     ),
     "typo key": ('[[source]]\nantenna = "isotropic"\npowr_w = 5\n', "did you mean 'power_w'"),
     "typo top key": (
@@ -188,7 +228,7 @@ BAD_SCENARIOS = {
     "duplicate ids": (
         '[[source]]\nid="a"\nantenna = "isotropic"\npower_w = 5\n'
         '[[source]]\nid="a"\nantenna = "isotropic"\npower_w = 5\n',
-        "source[1].id",
+        "source.2.id",
     ),
     "bad reflection mode": (
         'reflections = "worst"\n[[source]]\nantenna = "isotropic"\npower_w = 5\n',
@@ -201,13 +241,13 @@ BAD_SCENARIOS = {
     "limit out of band": (
         'frequency_hz = 1.0e10\n[[source]]\nantenna = "isotropic"\npower_w = 5\n'
         '[exposure]\nlimits = ["fda-1030.10/in-service"]\n',
-        "exposure.limits[0]",
+        "exposure.limits.1",
     ),
     "position wrong length": (
         '[[source]]\nantenna = "isotropic"\npower_w = 5\nposition_m = [1, 2]\n',
-        "source[0].position_m",
+        "source.1.position_m",
     ),
-    "bool for number": ('[[source]]\nantenna = "isotropic"\npower_w = true\n', "source[0].power_w"),
+    "bool for number": ('[[source]]\nantenna = "isotropic"\npower_w = true\n', "source.1.power_w"),
 }
 
 

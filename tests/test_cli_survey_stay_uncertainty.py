@@ -127,4 +127,4 @@ def test_bad_average_over_height(write_scenario):
     path = write_scenario(SCENARIO.replace("[0.0, 2.0]", "[2.0, 0.5]"))
     result = run("probe", path)
     assert result.exit_code == 2
-    assert "point[1].average_over_height_m" in result.stderr
+    assert "point.2.average_over_height_m" in result.stderr

@@ -174,15 +174,15 @@ def test_limits_json_rows_carry_kind_basis_and_the_equivalent_density():
 
 
 BAD_THRESHOLDS = [
-    ('name = "a"\ne_v_m = 3.0\nbasis = "peak"', "exposure.threshold[0].basis", "must be one of"),
+    ('name = "a"\ne_v_m = 3.0\nbasis = "peak"', "exposure.threshold.1.basis", "must be one of"),
     (
         'name = "a"\ne_v_m = 3.0\npower_density_w_m2 = 0.1\nbasis = "while-on"',
-        "exposure.threshold[0].power_density_w_m2",
+        "exposure.threshold.1.power_density_w_m2",
         "not both",
     ),
-    ('name = "a"\nbasis = "while-on"', "exposure.threshold[0]", "needs e_v_m"),
-    ('name = "a"\ne_v_m = -3.0\nbasis = "while-on"', "exposure.threshold[0].e_v_m", "> 0"),
-    ('name = "A b"\ne_v_m = 3.0\nbasis = "while-on"', "exposure.threshold[0].name", "lower-case"),
+    ('name = "a"\nbasis = "while-on"', "exposure.threshold.1", "needs e_v_m"),
+    ('name = "a"\ne_v_m = -3.0\nbasis = "while-on"', "exposure.threshold.1.e_v_m", "> 0"),
+    ('name = "A b"\ne_v_m = 3.0\nbasis = "while-on"', "exposure.threshold.1.name", "lower-case"),
     ('name = "a"\ne_v_m = 3.0\nbasis = "while-on"\ncolour = 1', "colour", "colour"),
 ]
 
@@ -220,7 +220,7 @@ def test_duplicate_threshold_name_exits_2(write_scenario):
     )
     result = run("keepout", path)
     assert result.exit_code == 2
-    assert "exposure.threshold[1].name" in result.stderr and "unique" in result.stderr
+    assert "exposure.threshold.2.name" in result.stderr and "unique" in result.stderr
     assert str(path.name) in result.stderr
 
 
@@ -238,7 +238,7 @@ def test_unknown_custom_id_names_the_known_ones(write_scenario):
     )
     result = run("keepout", path)
     assert result.exit_code == 2
-    assert "exposure.limits[0]" in result.stderr and "did you mean 'custom/router'" in result.stderr
+    assert "exposure.limits.1" in result.stderr and "did you mean 'custom/router'" in result.stderr
 
 
 def test_custom_threshold_is_usable_with_the_limit_option(write_scenario):

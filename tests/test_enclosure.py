@@ -324,7 +324,7 @@ def test_check_sources() -> None:
     e.check_sources(np.array([[0.1, 0.1, 0.1], [2.0, 0.0, 0.0]]), ["mag", "probe"])
     with pytest.raises(ScenarioError) as err:
         e.check_sources(np.array([[0.1, 0.1, 0.1], [0.1, -0.0004, 0.1]]), ["mag", "probe"])
-    assert err.value.key == "source[1].position_m"
+    assert err.value.key == "source.2.position_m"
     assert "'probe'" in str(err.value) and "wall" in str(err.value)
     with pytest.raises(ScenarioError) as err:
         e.check_sources(np.array([[2.0, 0.0, 0.0]]), ["probe"])
@@ -383,7 +383,7 @@ def test_enclosure_from_table() -> None:
         "hole",
     ]
     assert e.openings[2].label == "window"
-    assert e.openings[0].label == "opening[0]"
+    assert e.openings[0].label == "opening.1"
     pb = e.power_balance(800.0, F)
     assert sum(pb["losses_w"].values()) == pytest.approx(800.0)
 
@@ -397,7 +397,7 @@ def test_enclosure_from_table() -> None:
         ({"size_m": [0.3, 0.0, 0.2]}, "enclosure.size_m", "> 0"),
         (
             {"opening": [{"face": "+w", "type": "hole", "diameter_m": 0.01}]},
-            "enclosure.opening[0].face",
+            "enclosure.opening.1.face",
             "one of",
         ),
         (
@@ -406,7 +406,7 @@ def test_enclosure_from_table() -> None:
                     {"face": "+x", "type": "slot", "length_m": 0.5, "width_m": 0.002, "along": "y"}
                 ]
             },
-            "enclosure.opening[0].length_m",
+            "enclosure.opening.1.length_m",
             "larger than",
         ),
         (
@@ -422,7 +422,7 @@ def test_enclosure_from_table() -> None:
                     }
                 ]
             },
-            "enclosure.opening[0].offset_m",
+            "enclosure.opening.1.offset_m",
             "runs off",
         ),
         (
@@ -431,17 +431,17 @@ def test_enclosure_from_table() -> None:
                     {"face": "+x", "type": "slot", "length_m": 0.1, "width_m": 0.002, "along": "x"}
                 ]
             },
-            "enclosure.opening[0].along",
+            "enclosure.opening.1.along",
             "'y' or 'z'",
         ),
         (
             {"opening": [{"face": "+x", "type": "hole", "diameter_m": 0.01, "offset_m": [1]}]},
-            "enclosure.opening[0].offset_m",
+            "enclosure.opening.1.offset_m",
             "two finite numbers",
         ),
         (
             {"opening": [{"face": "+x", "type": "hole", "diameter_m": 0.01, "pitch_m": 1}]},
-            "enclosure.opening[0].pitch_m",
+            "enclosure.opening.1.pitch_m",
             "not a known key",
         ),
         (
@@ -457,7 +457,7 @@ def test_enclosure_from_table() -> None:
                     }
                 ]
             },
-            "enclosure.opening[0].pitch_m",
+            "enclosure.opening.1.pitch_m",
             "half a wavelength",
         ),
         (
@@ -472,7 +472,7 @@ def test_enclosure_from_table() -> None:
                     }
                 ]
             },
-            "enclosure.opening[0].wire_diameter_m",
+            "enclosure.opening.1.wire_diameter_m",
             "exactly one",
         ),
         ({"load_water_volume_m3": 1.0}, "enclosure.load_water_volume_m3", "exceeds"),
@@ -567,7 +567,7 @@ def test_scenario_with_enclosure_and_shield_end_to_end() -> None:
             {**doc, "source": [{**doc["source"][0], "position_m": [0.1754, 0.0, 0.5]}]},
             "oven.toml",
         )
-    assert "source[0].position_m" in str(err.value)
+    assert "source.1.position_m" in str(err.value)
 
 
 # ------------------------------------------------------------

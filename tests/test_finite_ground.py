@@ -515,7 +515,7 @@ def test_scenario_rejects_bad_ground_keys(tmp_path, change, key, fragment):
     with pytest.raises(ScenarioError) as err:
         _load(tmp_path, GOOD_BOX.replace(*change))
     text = str(err.value)
-    assert "s.toml" in text and f"source[0].{key}" in text and fragment in text
+    assert "s.toml" in text and f"source.1.{key}" in text and fragment in text
 
 
 def test_cli_exits_2_naming_the_file_and_key(tmp_path):

@@ -325,14 +325,14 @@ def test_size_and_up_are_read(write_scenario):
 @pytest.mark.parametrize(
     ("extra", "key", "words"),
     [
-        ("size_m = [1.2]\n", "reflector[0].size_m", "[width, height]"),
-        ("size_m = [1.2, -0.8]\n", "reflector[0].size_m", "> 0"),
-        ("size_m = [1.2, true]\n", "reflector[0].size_m", "[width, height]"),
-        ("size_m = 1.0\n", "reflector[0].size_m", "[width, height]"),
-        ("size_m = [1.0, 1.0]\nup = [0.0, 0.0, 1.0]\n", "reflector[0].up", "perpendicular"),
-        ("size_m = [1.0, 1.0]\nup = [0.0, 0.0, 0.0]\n", "reflector[0].up", "zero"),
-        ("up = [1.0, 0.0, 0.0]\n", "reflector[0].up", "size_m"),
-        ("sise_m = [1.0, 1.0]\n", "reflector[0].sise_m", "did you mean"),
+        ("size_m = [1.2]\n", "reflector.1.size_m", "[width, height]"),
+        ("size_m = [1.2, -0.8]\n", "reflector.1.size_m", "> 0"),
+        ("size_m = [1.2, true]\n", "reflector.1.size_m", "[width, height]"),
+        ("size_m = 1.0\n", "reflector.1.size_m", "[width, height]"),
+        ("size_m = [1.0, 1.0]\nup = [0.0, 0.0, 1.0]\n", "reflector.1.up", "perpendicular"),
+        ("size_m = [1.0, 1.0]\nup = [0.0, 0.0, 0.0]\n", "reflector.1.up", "zero"),
+        ("up = [1.0, 0.0, 0.0]\n", "reflector.1.up", "size_m"),
+        ("sise_m = [1.0, 1.0]\n", "reflector.1.sise_m", "did you mean"),
     ],
 )
 def test_bad_plate_keys_exit_2_naming_file_and_key(write_scenario, extra, key, words):

@@ -219,14 +219,14 @@ def test_mirror_geometry():
 
 
 def _table(data):
-    return Table(data, "reflector[0]", "bench.toml")
+    return Table(data, "reflector.1", "bench.toml")
 
 
 def test_reflector_from_table_forms():
     r = reflector_from_table(
         _table({"point_m": [0, 0, 0], "normal": [0, 0, 1], "material": "Ceiling board"}), F_HZ
     )
-    assert r.material == "ceiling-board" and r.kind == "dielectric" and r.label == "reflector[0]"
+    assert r.material == "ceiling-board" and r.kind == "dielectric" and r.label == "reflector.1"
     r = reflector_from_table(
         _table({"point_m": [0, 0, 0], "normal": [0, 0, 1], "material": "metal", "name": "bench"}),
         F_HZ,
@@ -271,7 +271,7 @@ def test_reflector_from_table_errors(extra, key, text):
     data = {"point_m": [0, 0, 0], "normal": [0, 0, 1], **extra}
     with pytest.raises(ScenarioError) as info:
         reflector_from_table(_table(data), F_HZ)
-    assert info.value.key == f"reflector[0].{key}"
+    assert info.value.key == f"reflector.1.{key}"
     assert text in info.value.message
     assert info.value.source == "bench.toml"
 
@@ -281,11 +281,11 @@ def test_zero_normal_is_refused():
         reflector_from_table(
             _table({"point_m": [0, 0, 0], "normal": [0, 0, 0], "material": "metal"}), F_HZ
         )
-    assert info.value.key == "reflector[0].normal"
+    assert info.value.key == "reflector.1.normal"
 
 
 def test_material_out_of_range_warns_with_location():
-    with pytest.warns(ModelRangeWarning, match=r"reflector\[0\]\.material.*floorboard"):
+    with pytest.warns(ModelRangeWarning, match=r"reflector\.1\.material.*floorboard"):
         reflector_from_table(
             _table({"point_m": [0, 0, 0], "normal": [0, 0, 1], "material": "floorboard"}), F_HZ
         )

@@ -5,9 +5,11 @@ and the PDF then lacks its text.  So the check renders the report of a scenario 
 limits, named places and options, prints it on A4 and on US Letter portrait (ISO 216 and
 ANSI/ASME Y14.1 paper sizes, common practice, no source needed for the sizes), extracts
 the PDF's text with poppler's ``pdftotext -raw`` (content order, cropped to the page) and
-asserts that the text of every table cell appears.  The same report is then laid out at a
-1,280 px browser width, and the document must not be wider than the window (no sideways
-scroll).
+asserts that the text of every table cell appears.  On the same pages no heading may end a
+page: the last line of each page (``pdftotext -layout``, one page at a time) is no heading,
+and the page that prints a heading over a table also prints the start of that table.  The
+same report is then laid out at a 1,280 px browser width, and the document must not be wider
+than the window (no sideways scroll).
 
 Chromium is Debian's ``chromium`` package and pdftotext is ``poppler-utils``; ``.ci/run``
 installs both.  Without them the test is skipped on a developer machine and fails in CI
@@ -48,6 +50,11 @@ SCENARIO = (
 limits = ["icnirp-2020/general-public", "icnirp-2020/occupational",
           "ieee-c95.1-2019/unrestricted", "fcc-1.1310/general-population",
           "sc6-2015/uncontrolled", "icnirp-2020/general-public-local"]
+
+[[reflector]]
+point_m = [0.0, 0.0, -1.0]
+normal = [0.0, 0.0, 1.0]
+material = "concrete"
 
 [[point]]
 name = "operator's chair beside the long bench"
@@ -108,6 +115,45 @@ class _Cells(HTMLParser):
             self._text.append(data)
 
 
+class _Headings(HTMLParser):
+    """Each heading's text, with the cells of the first body row of the table it heads."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.headings: list[tuple[str, list[str]]] = []
+        self._in: str | None = None
+        self._text: list[str] = []
+        self._row: list[str] | None = None  # the first body row of the table being read
+        self._cell: list[str] | None = None
+        self._blocks = 0  # blocks since the last heading: its intro, then what it heads
+
+    def handle_starttag(self, tag, attrs):
+        if tag in ("h1", "h2", "h3"):
+            self._in, self._text, self._blocks = tag, [], 0
+        elif tag in ("p", "figure", "dl", "ul", "ol", "pre", "table") and self.headings:
+            self._blocks += 1
+            if tag == "table" and self._blocks <= 2 and not self.headings[-1][1]:
+                self._row = self.headings[-1][1]
+        elif tag == "td" and self._row is not None:
+            self._cell = []
+
+    def handle_endtag(self, tag):
+        if tag == self._in:
+            self.headings.append(("".join(self._text), []))
+            self._in = None
+        elif tag == "td" and self._cell is not None and self._row is not None:
+            self._row.append("".join(self._cell))
+            self._cell = None
+        elif tag == "tr" and self._row:
+            self._row = None
+
+    def handle_data(self, data):
+        if self._in:
+            self._text.append(data)
+        elif self._cell is not None:
+            self._cell.append(data)
+
+
 def _squeeze(text: str) -> str:
     return re.sub(r"\s+", "", text.replace("\u00a0", " "))
 
@@ -157,6 +203,51 @@ def test_printed_report_keeps_every_table_cell(report_html, tmp_path, paper):
     assert len(parser.cells) > 60
     missing = [c for c in parser.cells if _squeeze(c) and _squeeze(c) not in printed]
     assert not missing, f"cut from the printed {paper} page: {missing[:8]}"
+    _no_heading_ends_a_page(html, pdf, paper)
+
+
+def _pages(pdf: Path, layout: str) -> list[str]:
+    """The text of each page of ``pdf``, by poppler's ``pdftotext`` (form feed between pages)."""
+    text = subprocess.run(
+        [PDFTOTEXT, layout, str(pdf), "-"], capture_output=True, text=True, check=True
+    ).stdout
+    return text.split("\f")[:-1] if text.endswith("\f") else text.split("\f")
+
+
+def _no_heading_ends_a_page(html: str, pdf: Path, paper: str) -> None:
+    """No page ends with a heading, and a heading over a table shares its page with the table.
+
+    A heading is found on a page by its squeezed text (it may wrap); the table's start by a
+    cell of its first body row, searched after the heading on the same page.
+    """
+    parser = _Headings()
+    parser.feed(html)
+    # The start of a table: the first cell of its first row long enough to be told apart.
+    headings = [
+        (_squeeze(h), next((_squeeze(c) for c in row if len(_squeeze(c)) >= 6), None))
+        for h, row in parser.headings
+    ]
+    assert len(headings) > 10 and sum(c is not None for _, c in headings) >= 5
+    pages = _pages(pdf, "-layout")
+    assert len(pages) > 3
+    for number, page in enumerate(pages[:-1], start=1):
+        lines = [line for line in page.splitlines() if line.strip()]
+        last = _squeeze(lines[-1]) if lines else ""
+        # The last line is a whole heading, or the end of one that wrapped.
+        ended = [
+            h for h, _ in headings if last and (h == last or (len(last) >= 10 and h.endswith(last)))
+        ]
+        assert not ended, f"{paper} page {number} ends with the heading {ended[0]!r}"
+    raw = [_squeeze(page) for page in _pages(pdf, "-raw")]
+    for heading, cell in headings:
+        on = [i for i, page in enumerate(raw) if heading in page]
+        assert on, f"heading {heading!r} not printed on {paper}"
+        if cell:
+            page = raw[on[0]]
+            after = page[page.index(heading) + len(heading) :]
+            assert cell in after, (
+                f"{paper} page {on[0] + 1}: the heading {heading!r} without the start of its table"
+            )
 
 
 @pytest.mark.slow

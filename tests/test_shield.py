@@ -180,7 +180,7 @@ def test_vectorised_paired_sources() -> None:
 
 # --------------------------------------------------------------- scenario keys
 def table(data: dict) -> Table:
-    return Table(data, "shield[0]", "bench.toml")
+    return Table(data, "shield.1", "bench.toml")
 
 
 BASE = {"center_m": [0.5, 0.0, 1.0], "normal": [1.0, 0.0, 0.0], "width_m": 1.0, "height_m": 0.8}
@@ -193,7 +193,7 @@ def test_shield_from_table_sheet() -> None:
     assert isinstance(s.spec, SheetSpec)
     assert s.spec.metal.name == "aluminium"
     np.testing.assert_allclose(s.height_axis, [0, 0, 1])
-    assert s.label == "shield[0]"
+    assert s.label == "shield.1"
 
 
 def test_shield_from_table_rated_without_type_and_other_types() -> None:
@@ -231,31 +231,31 @@ def test_shield_from_table_rated_without_type_and_other_types() -> None:
     [
         (
             {"type": "sheet", "metal": "alumnium", "thickness_m": 0.001},
-            "shield[0].metal",
+            "shield.1.metal",
             "did you mean 'aluminium'",
         ),
         (
             {"type": "sheet", "metal": "copper", "thickness_m": -0.001},
-            "shield[0].thickness_m",
+            "shield.1.thickness_m",
             "> 0",
         ),
-        ({"type": "sheet", "metal": "copper"}, "shield[0].thickness_m", "required"),
-        ({"type": "plate", "shielding_db": 3}, "shield[0].type", "one of"),
-        ({}, "shield[0].type", "required"),
+        ({"type": "sheet", "metal": "copper"}, "shield.1.thickness_m", "required"),
+        ({"type": "plate", "shielding_db": 3}, "shield.1.type", "one of"),
+        ({}, "shield.1.type", "required"),
         (
             {"type": "sheet", "metal": "copper", "thickness_m": 0.001, "hole_size_m": 0.002},
-            "shield[0].hole_size_m",
+            "shield.1.hole_size_m",
             "not a known key",
         ),
-        ({"shielding_db": 20, "up": [1.0, 0.0, 0.0]}, "shield[0].up", "parallel"),
+        ({"shielding_db": 20, "up": [1.0, 0.0, 0.0]}, "shield.1.up", "parallel"),
         (
             {"type": "perforated", "hole_size_m": 0.003, "pitch_m": 0.09, "thickness_m": 0.001},
-            "shield[0].pitch_m",
+            "shield.1.pitch_m",
             "half a wavelength",
         ),
         (
             {"type": "slot", "slot_length_m": 0.02, "slot_count": 1.5},
-            "shield[0].slot_count",
+            "shield.1.slot_count",
             "whole number",
         ),
     ],
@@ -271,7 +271,7 @@ def test_shield_bad_input_names_the_key(extra: dict, key: str, words: str) -> No
 def test_zero_normal_is_refused() -> None:
     with pytest.raises(ScenarioError) as err:
         shield_from_table(table({**BASE, "normal": [0, 0, 0], "shielding_db": 10}), F)
-    assert "shield[0].normal" in str(err.value)
+    assert "shield.1.normal" in str(err.value)
 
 
 def test_unknown_metal_lists_known_ones() -> None:

@@ -68,12 +68,12 @@ def test_sweep_follows_the_options_and_keeps_file_order(write_scenario):
 @pytest.mark.parametrize(
     ("sweep", "where", "fragment"),
     [
-        ('key = "source.nope.power_w"\nvalues = [1.0]', "sweep[0].key", "no [[source]]"),
-        ('key = "antenna.s.power_w"\nvalues = [1.0]', "sweep[0].key", "not a table"),
-        ('key = "source.s.power_w"\nvalues = []', "sweep[0].values", "at least one"),
-        ('key = "source.s.power_w"\nvalues = [-5.0]', "sweep[0].values", "-5"),
-        ('key = "source.s.power_w"\nvalues = 5.0', "sweep[0].values", "list"),
-        ('key = "source.s.power_w"\nvalues = [1.0]\nstep = 2', "sweep[0].step", "not a known"),
+        ('key = "source.nope.power_w"\nvalues = [1.0]', "sweep.1.key", "no [[source]]"),
+        ('key = "antenna.s.power_w"\nvalues = [1.0]', "sweep.1.key", "not a table"),
+        ('key = "source.s.power_w"\nvalues = []', "sweep.1.values", "at least one"),
+        ('key = "source.s.power_w"\nvalues = [-5.0]', "sweep.1.values", "-5"),
+        ('key = "source.s.power_w"\nvalues = 5.0', "sweep.1.values", "list"),
+        ('key = "source.s.power_w"\nvalues = [1.0]\nstep = 2', "sweep.1.step", "not a known"),
     ],
 )
 def test_bad_sweep_is_refused_naming_the_key(write_scenario, sweep, where, fragment):
@@ -85,6 +85,44 @@ def test_bad_sweep_is_refused_naming_the_key(write_scenario, sweep, where, fragm
     result = runner.invoke(app, ["probe", str(path), "--at", "1,0,0"])
     assert result.exit_code == 2
     assert where in result.stderr and "Traceback" not in result.output
+
+
+@pytest.mark.parametrize(
+    ("key", "suggestion"),
+    [
+        ("source.s.dutycycle", "did you mean 'source.s.duty_cycle'?"),
+        ("source.1.power", "did you mean 'source.1.power_w'?"),
+        ("source.s.length_m", "not of isotropic"),  # a key of other antenna kinds
+    ],
+)
+def test_misspelt_sweep_key_is_blamed_not_the_value(write_scenario, key, suggestion):
+    text = ISOTROPIC + f'\n[[sweep]]\nkey = "{key}"\nvalues = [0.1]\n'
+    with pytest.raises(ScenarioError) as caught:
+        load_scenario(write_scenario(text))
+    message = str(caught.value)
+    assert caught.value.key == "sweep.1.key"
+    assert suggestion in message and "allowed there:" in message and "duty_cycle" in message
+    assert "impossible" not in message and "0.1" not in message
+
+
+def test_command_line_sweep_with_a_misspelt_key_names_the_argument(write_scenario):
+    path = write_scenario(ISOTROPIC)
+    result = runner.invoke(
+        app, ["compare", str(path), "--sweep", "source.s.dutycycle=0.5,0.25", "--json"]
+    )
+    assert result.exit_code == 2
+    assert "--sweep" in result.stderr and "did you mean 'source.s.duty_cycle'" in result.stderr
+
+
+def test_messages_name_entries_as_sweep_keys_do(write_scenario):
+    """An entry's path in a message (counted from 1) is the path a sweep key takes."""
+    second = '\n[[source]]\nantenna = "isotropic"\npower_w = -1.0\nposition_m = [1, 0, 0]\n'
+    with pytest.raises(ScenarioError) as caught:
+        load_scenario(write_scenario(ISOTROPIC + second))
+    assert caught.value.key == "source.2.power_w"
+    fixed = ISOTROPIC + second.replace("-1.0", "5.0")
+    scenario = with_sweep(load_scenario(write_scenario(fixed)), caught.value.key, [7.0])
+    assert [s.power_w for s in scenario.options[0].scenario.sources] == [100.0, 7.0]
 
 
 def test_sweep_inside_an_option_is_refused(write_scenario):
