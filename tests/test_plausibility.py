@@ -131,10 +131,10 @@ position_m = [150.0, 0.0, 1.0]
 
 #: A fragment of each message the scenario above must draw, one per finding.
 IMPLAUSIBLE_FRAGMENTS = (
-    "source[0].power_w = 200000 W is above 100 kW",
-    "source[0].duty_cycle = 5e-05 is below 1e-4",
-    "point[0].position_m ('far') is 150 m from the first source",
-    "shield[0].thickness_m = 0.08 m is thicker than 5 cm",
+    "source.1.power_w = 200000 W is above 100 kW",
+    "source.1.duty_cycle = 5e-05 is below 1e-4",
+    "point.1.position_m ('far') is 150 m from the first source",
+    "shield.1.thickness_m = 0.08 m is thicker than 5 cm",
     "fda-1030.10/in-service is a product emission limit",
 )
 
@@ -223,7 +223,7 @@ def test_a_loader_warning_is_raised_and_carried(write_scenario):
     with pytest.warns(ModelRangeWarning, match="outside the 1-100 GHz range"):
         scenario = load_scenario(write_scenario(text))
     assert len(scenario.load_warnings) == 1
-    assert "reflector[0].material" in scenario.load_warnings[0]
+    assert "reflector.1.material" in scenario.load_warnings[0]
     assert input_warnings(scenario) == list(scenario.load_warnings)
 
 
