@@ -391,7 +391,35 @@ def probe(
         names = tuple(p.name for p in scenario.points)
     else:
         pts = np.asarray(points, dtype=float).reshape(-1, 3)
+    _warn_behind_infinite_ground(scenario, pts)
     return ProbeResult(scenario, pts, evaluate(scenario, pts), names)
+
+
+def _warn_behind_infinite_ground(scenario: Scenario, points_m: NDArray[np.float64]) -> None:
+    """Warn when points lie behind a monopole's infinite ground plane (its field is 0 there).
+
+    The ideal infinite plane passes nothing: the model's 0 behind it is not an estimate of
+    a real ground, which is finite and lets field round its edges.  Said, never silent.
+    """
+    import warnings
+
+    from keepclear.antennas.base import ModelRangeWarning
+    from keepclear.antennas.wire import Monopole
+
+    for source in scenario.sources:
+        radiator = source.radiator
+        if not isinstance(radiator, Monopole):
+            continue
+        behind = int(np.count_nonzero(radiator.placement.to_local(points_m)[:, 2] < -1e-3))
+        if behind:
+            warnings.warn(
+                f"{behind} of the {len(points_m)} points lie behind the infinite ground "
+                f"plane of source {source.id!r}, where this model gives no field (0): a real "
+                'ground is finite and field reaches round its edges; give ground = "plate" '
+                'or "box" with ground_size_m to estimate the field there',
+                ModelRangeWarning,
+                stacklevel=3,
+            )
 
 
 def probe_data(
@@ -728,32 +756,15 @@ def map_plane(
         if through_m is not None:
             raise InputError("does not apply to --plane boresight", "argument", "--through")
         return maps.boresight_plane(scenario)
+    if plane in (None, "xy") and through_m is None and height_m is None:
+        return maps.source_height_plane(scenario)
     point = scenario.centre_m.copy() if through_m is None else np.array(through_m, dtype=float)
     if height_m is not None:
         point[2] = height_m
-    the_plane = maps.principal_plane(plane or "xy", point)
-    if plane in (None, "xy") and through_m is None and height_m is None:
-        the_plane = source_height_plane(the_plane)
-    return the_plane
+    return maps.principal_plane(plane or "xy", point)
 
 
-def source_height_plane(plane: maps.Plane) -> maps.Plane:
-    """A horizontal plane through the first source, described and named as such.
-
-    The assessment's horizontal map and ``map``'s default plane lie at the first
-    source's height, not on the floor: their description says so, and their files are
-    named after it (``map-source-height.*``, ``zones-source-height.geojson``).
-    """
-    z = float(plane.ref_m[2])
-    return replace(
-        plane,
-        description=f"horizontal plane at source height z = {z:.2f} m",
-        name=SOURCE_HEIGHT_NAME,
-    )
-
-
-#: The name of the horizontal plane through the first source (files ``map-source-height.*``).
-SOURCE_HEIGHT_NAME = "source height"
+SOURCE_HEIGHT_NAME = maps.SOURCE_HEIGHT_NAME
 
 
 def horizontal_stem(height_m: float | None = None) -> str:
@@ -1132,10 +1143,10 @@ def step_maps(
     in the scenario come the maps at floor level and head height.
     """
     centre = scenario.centre_m
-    height = float(centre[2]) if height_m is None else float(height_m)
-    horizontal_plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if height_m is None:
-        horizontal_plane = source_height_plane(horizontal_plane)
+        horizontal_plane = maps.source_height_plane(scenario)
+    else:
+        horizontal_plane = maps.principal_plane("xy", [centre[0], centre[1], float(height_m)])
     vertical_plane = maps.boresight_plane(scenario)
     kwargs = grid.as_kwargs()
     horizontal = maps.run_map(
@@ -1166,7 +1177,9 @@ def step_maps(
                 scenario, plane, keepouts, progress=_callback(progress, f"{name} map"), **kwargs
             )
             levels.append(LevelMap(key, name, above, floor_m, run))
-    return AssessmentMaps(horizontal, vertical, height, tuple(levels), height_m is not None)
+    return AssessmentMaps(
+        horizontal, vertical, horizontal_plane.height_m, tuple(levels), height_m is not None
+    )
 
 
 def step_zones(

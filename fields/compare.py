@@ -548,7 +548,7 @@ def compare_options(
     """
     ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
     check_rank_by(scenario, rank_by)
-    height = float(scenario.centre_m[2]) if height_m is None else float(height_m)
+    height = maps.source_height_m(scenario)[0] if height_m is None else float(height_m)
     if not math.isfinite(height):
         from .errors import InputError
 
@@ -580,13 +580,10 @@ def compare_options(
     by_index = dict(zip(searched, found, strict=True))
     keepouts = [known if i not in by_index else by_index[i] for i in range(len(variants))]
     centre = scenario.centre_m
-    plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if height_m is None:
-        plane = replace(
-            plane,
-            description=f"horizontal plane at source height z = {height:.2f} m",
-            name="source height",
-        )
+        plane = maps.source_height_plane(scenario)
+    else:
+        plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if half_extent_m is None:
         half_extent_m = max(
             maps.default_half_extent_m(s, k, plane)

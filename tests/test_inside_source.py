@@ -20,6 +20,7 @@ from keepclear.antennas.isotropic import IsotropicSource
 from keepclear.antennas.waveguide import waveguide_dimensions
 from keepclear.antennas.wire import Dipole, Monopole
 from keepclear.fields import maps
+from keepclear.fields.keepout import keepout_distances
 from keepclear.fields.scenario import inside_source_mask, load_scenario
 
 from ._cli import run, strict_json, validate
@@ -229,3 +230,64 @@ def test_python_api_probe_carries_the_mask(write_scenario):
     result = kc.probe(scenario, [[-0.1, 0.0, 1.0], [1.0, 0.5, 1.0]])
     np.testing.assert_array_equal(result.inside_source, [True, False])
     assert [p["inside_source"] for p in result.to_dict()["points"]] == [True, False]
+
+
+#: A vertical whip on an infinite ground plane at z = 1.6 m (a car roof), 250 W.
+ROOF_WHIP = """
+name = "roof whip"
+[[source]]
+id = "whip"
+antenna = "monopole"
+power_w = 250.0
+length_m = 0.03
+position_m = [0.0, 0.0, 1.6]
+axis = [0.0, 0.0, 1.0]
+[exposure]
+limits = ["icnirp-2020/general-public"]
+"""
+
+
+def test_the_source_height_plane_of_a_whip_on_infinite_ground_is_off_the_metal(write_scenario):
+    # The plane through the feed is the ground plane itself, every sample on the metal and
+    # counted over the limit: the map goes through the middle of the element instead.
+    scenario = load_scenario(write_scenario(ROOF_WHIP))
+    plane = maps.source_height_plane(scenario)
+    assert plane.height_m == pytest.approx(1.615)
+    assert "middle of the monopole" in plane.description
+    grid = maps.make_grid(plane, 1.0, pixels=21)
+    # only the sample on the wire itself (the map's centre) is on the metal
+    assert scenario.inside_source(grid.points_m()).sum() == 1
+    # A guide's plane is the plane through its reference point, as before.
+    guide = load_scenario(
+        write_scenario(
+            'name = "g"\n[[source]]\nantenna = "open-waveguide"\npower_w = 1.0\n'
+            'waveguide = "WR-340"\nposition_m = [0.0, 0.0, 1.0]\nboresight = [1.0, 0.0, 0.0]\n'
+        )
+    )
+    assert maps.source_height_plane(guide).height_m == 1.0
+
+
+def test_maps_of_a_whip_on_infinite_ground_draw_no_zone_along_the_ground(write_scenario):
+    # Vertical plane through the whip: centred on the feed, a whole row of samples would lie
+    # on the ground plane (on the metal, over every limit) and draw a zone to the map's edge.
+    # Moved half a step off it, the zones stay within a step of the keep-out sphere
+    # (the free-space far field of a quarter-wave monopole: 5.2 dBi, keep-out
+    # sqrt(P G / (4 pi S)) = sqrt(250 x 3.28 / (4 pi 10)) = 2.55 m; OET 65 eq. (3)).
+    scenario = load_scenario(write_scenario(ROOF_WHIP))
+    (found,) = keepout_distances(scenario)
+    assert found.distance_m == pytest.approx(2.55, rel=0.02)
+    for plane in (maps.boresight_plane(scenario), maps.source_height_plane(scenario)):
+        run = maps.run_map(scenario, plane, [found], half_extent_m=4.0, pixels=81)
+        assert not run.result.inside_source.all(axis=1).any()
+        assert not run.result.inside_source.all(axis=0).any()
+        points = run.zone_points_m(found.limit_id)
+        assert len(points) > 0
+        reach = float(np.max(np.linalg.norm(points - scenario.centre_m, axis=1)))
+        assert reach < found.distance_m + 2 * run.result.grid.step_m, plane.description
+
+
+def test_probing_behind_an_infinite_ground_plane_warns(write_scenario):
+    scenario = load_scenario(write_scenario(ROOF_WHIP))
+    with pytest.warns(Warning, match="behind the infinite ground plane of source 'whip'"):
+        result = kc.probe(scenario, [[1.0, 0.0, 1.5], [1.0, 0.0, 1.7]])
+    assert result.to_dict()["points"][0]["power_density_w_m2"] == 0.0

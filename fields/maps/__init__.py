@@ -71,6 +71,7 @@ from .grids import (
     MAX_PIXELS_PER_SIDE,
     MIN_HALF_EXTENT_M,
     PLANE_NAMES,
+    SOURCE_HEIGHT_NAME,
     Grid,
     Plane,
     boresight_plane,
@@ -89,6 +90,8 @@ from .grids import (
     principal_plane,
     projected_hull,
     round_extent_m,
+    source_height_m,
+    source_height_plane,
 )
 from .zones import (
     Cylinder,
@@ -114,6 +117,7 @@ __all__ = [
     "MAX_PIXELS_PER_SIDE",
     "MIN_HALF_EXTENT_M",
     "PLANE_NAMES",
+    "SOURCE_HEIGHT_NAME",
     "SINGULAR_DENSITY_W_M2",
     "Cylinder",
     "Grid",
@@ -151,6 +155,8 @@ __all__ = [
     "projected_hull",
     "ring_signed_area",
     "round_extent_m",
+    "source_height_m",
+    "source_height_plane",
     "run_map",
     "sphere_section",
     "uncertainty_level",

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -223,6 +223,64 @@ def custom_plane(origin_m: ArrayLike, u: ArrayLike, v: ArrayLike) -> Plane:
 def main_axis(scenario: Scenario) -> NDArray[np.float64] | None:
     """The first source's main axis (boresight or wire direction), None for a point source [1]."""
     return scenario.sources[0].radiator.main_axis
+
+
+#: Largest tilt of a monopole's axis from the vertical for its infinite ground plane to
+#: count as horizontal (the cosine of 8 degrees, the same tolerance as a floor's normal).
+_VERTICAL_COSINE = math.cos(math.radians(8.0))
+#: The name of the horizontal plane through the first source (files ``map-source-height.*``).
+SOURCE_HEIGHT_NAME = "source height"
+
+
+def source_height_m(scenario: Scenario) -> tuple[float, str]:
+    """The height of the horizontal plane "at source height", and a note on where it is [m].
+
+    The plane through the first source's reference point, except where that plane is a
+    source's own metal: a monopole on an infinite ground plane has its feed on the ground,
+    so with a (nearly) vertical element the plane through the feed is the ground plane
+    itself, where every sample is on the metal (counted as over every limit, and nowhere
+    anyone stands).  The plane then goes through the middle of the element, half its
+    height off the ground on the radiating side: the field there is the field just above
+    the ground (vertical E, largest towards the horizon), and no sample is on the metal.
+
+    Returns
+    -------
+    (float, str)
+        The height [m] and a short note for the plane's description (empty when the
+        plane goes through the first source's reference point).
+    """
+    from keepclear.antennas.wire import Monopole
+
+    z = float(scenario.centre_m[2])
+    for source in scenario.sources:
+        radiator = source.radiator
+        if not isinstance(radiator, Monopole):
+            continue
+        axis = np.asarray(radiator.placement.rotation[:, 2], dtype=float)
+        feed_z = float(radiator.position_m[2])
+        if abs(axis[2]) >= _VERTICAL_COSINE and abs(feed_z - z) <= 1e-3:
+            lifted = feed_z + 0.5 * radiator.height_m * float(np.sign(axis[2]))
+            return lifted, (
+                f"through the middle of the monopole {source.id!r}, "
+                f"{0.5 * radiator.height_m * 100:.1f} cm off its ground plane"
+            )
+    return z, ""
+
+
+def source_height_plane(scenario: Scenario) -> Plane:
+    """The horizontal plane at source height (:func:`source_height_m`), named as such.
+
+    The assessment's horizontal map and ``map``'s default plane lie at the first source's
+    height, not on the floor: their description says so, and their files are named after
+    it (``map-source-height.*``, ``zones-source-height.geojson``).
+    """
+    z, note = source_height_m(scenario)
+    centre = scenario.centre_m
+    plane = principal_plane("xy", [centre[0], centre[1], z])
+    where = f"horizontal plane at source height z = {z:.2f} m"
+    return replace(
+        plane, description=where + (f" ({note})" if note else ""), name=SOURCE_HEIGHT_NAME
+    )
 
 
 def boresight_plane(scenario: Scenario) -> Plane:

@@ -31,6 +31,7 @@ from ..scenario import Scenario
 from .evaluation import MapResult, ProgressCallback, evaluate_map, limit_values
 from .grids import (
     MAX_GRID_BYTES,
+    Grid,
     Plane,
     default_half_extent_m,
     default_window_m,
@@ -444,6 +445,33 @@ class MapRun:
         }
 
 
+def metal_line_shift_m(scenario: Scenario, grid: Grid) -> tuple[float, float]:
+    """How far to move a grid so that no whole row or column lies on a source's metal [m].
+
+    A monopole's infinite ground plane cuts a vertical map along a line; a grid centred on
+    the feed has a whole row of samples on it, each counted as over every limit (on the
+    metal), which would draw a zone along the whole map.  Such a grid is moved by half a
+    step across that line, so the samples lie half a step on either side of the metal
+    (the field just off the plane, and none behind it counted as over the limit).  A
+    plane lying wholly in the metal is the caller's to avoid
+    (:func:`keepclear.fields.maps.grids.source_height_plane`).
+
+    Returns
+    -------
+    (float, float)
+        The shift of the map centre along the plane's first and second axes [m]; zeros
+        when no whole row or column is on the metal, or when every sample is.
+    """
+    inside = scenario.inside_source(grid.points_m()).reshape(grid.shape)
+    if not inside.any() or inside.all():
+        return 0.0, 0.0
+    ds = float(grid.s_m[1] - grid.s_m[0]) if grid.s_m.size > 1 else 0.0
+    dt = float(grid.t_m[1] - grid.t_m[0]) if grid.t_m.size > 1 else 0.0
+    along_s = 0.5 * ds if inside.all(axis=0).any() else 0.0
+    along_t = 0.5 * dt if inside.all(axis=1).any() else 0.0
+    return along_s, along_t
+
+
 def run_map(
     scenario: Scenario,
     plane: Plane,
@@ -490,16 +518,23 @@ def run_map(
     half_height_m = None
     if centre_st_m is None:
         centre_st_m, half_height_m = default_window_m(scenario, plane, half_extent_m, keepouts)
-    grid = make_grid(
-        plane,
-        half_extent_m,
-        step_m=step_m,
-        pixels=pixels,
-        centre_st_m=centre_st_m,
-        half_height_m=half_height_m,
-        n_limits=len(limit_ids),
-        max_bytes=max_bytes,
-    )
+
+    def grid_at(centre: tuple[float, float]) -> Grid:
+        return make_grid(
+            plane,
+            half_extent_m,
+            step_m=step_m,
+            pixels=pixels,
+            centre_st_m=centre,
+            half_height_m=half_height_m,
+            n_limits=len(limit_ids),
+            max_bytes=max_bytes,
+        )
+
+    grid = grid_at(centre_st_m)
+    shift = metal_line_shift_m(scenario, grid)
+    if shift != (0.0, 0.0):
+        grid = grid_at((centre_st_m[0] + shift[0], centre_st_m[1] + shift[1]))
     result = evaluate_map(scenario, grid, limit_ids, progress=progress)
     zones = map_zones(result, keepouts)
     by_id = {k.limit_id: k for k in keepouts}
