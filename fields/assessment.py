@@ -519,7 +519,21 @@ class KeepoutReport:
         _add_spread(data["keepout"], self.spread)
         if self.spread is not None:
             data["uncertainty"] = self.spread["spec"]
+        if s.enclosure is not None:
+            data["enclosure"] = self.enclosure
         return data
+
+    @functools.cached_property
+    def enclosure(self) -> dict[str, Any] | None:
+        """The enclosure's leakage figures (:func:`keepclear.fields.leakage.enclosure_leakage`).
+
+        The highest density 5 cm outside its faces [W m^-2] against each oven-leakage limit
+        assessed, the inside density [W m^-2], Q and each opening's leaked power [W], with
+        the enclosed sources radiating; None without an enclosure.
+        """
+        from .leakage import enclosure_leakage
+
+        return enclosure_leakage(self.scenario, [r.limit_id for r in self.distances])
 
 
 def uncertainty_data(scenario: Scenario, results: list[KeepoutResult]) -> dict[str, Any] | None:
@@ -1400,6 +1414,7 @@ def step_report(
 
     from . import plots
     from .describe import describe_sources, reactive_near_field_m
+    from .leakage import enclosure_leakage
     from .outputs import json_text
     from .plausibility import input_warnings
     from .report import render_report
@@ -1465,6 +1480,7 @@ def step_report(
                 for level in runs.levels
             },
         },
+        "enclosure": enclosure_leakage(scenario, limit_ids),
         "comparison": None if comparison is None else comparison.data(),
         "uncertainty": None if spread is None else spread["spec"],
         "readings": readings_block,

@@ -554,6 +554,10 @@ def keepout_command(
     head, _, rest = text.partition("\n\n")
     described = sources_text(data["sources"], data["frequency_hz"])
     text = head + "\n" + "\n".join(["Sources:", *described]) + "\n\n" + rest
+    if data.get("enclosure"):
+        from .report_text import enclosure_lines
+
+        text += "\n\n" + "\n".join(enclosure_lines(data["enclosure"]))
     if "uncertainty" in data:
         from .report_text import uncertainty_lines
 

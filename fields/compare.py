@@ -237,15 +237,13 @@ def leakage_5cm_w_m2(scenario: Scenario) -> float | None:
 
     The power is that of the enclosed sources while radiating (duty cycle not
     applied: the product limit is read with the source on).  None without an
-    enclosure.
+    enclosure.  The same figure as ``leakage_5cm_w_m2`` in the ``"enclosure"`` object
+    of ``keepout --json`` and ``assessment.json`` (:func:`leakage.enclosure_leakage`).
     """
-    enclosure = scenario.enclosure
-    if enclosure is None:
-        return None
-    positions = np.array([s.position_m for s in scenario.sources])
-    inside = np.asarray(enclosure.contains(positions), dtype=bool)
-    total_w = float(sum(s.power_w for s, i in zip(scenario.sources, inside, strict=True) if i))
-    return _largest(enclosure.face_density_5cm(total_w, scenario.frequency_hz))
+    from .leakage import enclosure_leakage
+
+    block = enclosure_leakage(scenario, limit_ids=())
+    return None if block is None else block["leakage_5cm_w_m2"]
 
 
 def _largest(value: Any) -> float | None:

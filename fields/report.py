@@ -28,6 +28,7 @@ from .describe import power_text
 from .report_text import (
     change_text,
     density_text,
+    enclosure_lines,
     pair_text,
     place_cell,
     ranked_place,
@@ -505,6 +506,56 @@ def _uncertainty_section(data: dict[str, Any]) -> str:
     )
 
 
+def _enclosure_section(data: dict[str, Any]) -> str:
+    """The enclosure's leakage 5 cm out, against the oven-leakage limits (with an enclosure)."""
+    block = data.get("enclosure")
+    if not block:
+        return ""
+    leak = block["leakage_5cm_w_m2"]
+    by_face = block["leakage_5cm_by_face"]
+    worst_face = max(by_face, key=lambda face: by_face[face])
+    where = ", ".join(f"{x:.3g}" for x in block["leakage_5cm_position_m"])
+    rows = []
+    for row in block["oven_limits"]:
+        percent = row["percent_of_limit"]
+        text = f"{_num(percent)}&nbsp;%"
+        rows.append(
+            [
+                _id(row["limit"]),
+                _density(row["limit_w_m2"]),
+                f'<span class="exceed">{text}, above</span>' if percent >= 100 else text,
+            ]
+        )
+    limits_table = (
+        _table(["oven-leakage limit", "limit value", "5&nbsp;cm figure, share of it"], rows, {1, 2})
+        if rows
+        else "<p>No oven-leakage limit (fda-1030.10/*) is among the limits assessed.</p>"
+    )
+    parts = ", ".join(
+        f"{name} {_num(block[key])}"
+        for name, key in (("walls", "q_walls"), ("load", "q_load"), ("openings", "q_openings"))
+        if block[key] is not None
+    )
+    openings = [
+        [_free(o["id"]), _e(o["face"]), _e(o["type"]), f"{_num(o['leaked_power_w'])}&nbsp;W"]
+        for o in block["openings"]
+    ]
+    faces = [["highest 5&nbsp;cm out"] + [_density(value) for value in by_face.values()]]
+    return _keep(
+        "<h3>Enclosure leakage</h3>"
+        f"<p>Enclosure {_free(block['id'])}, {_num(block['input_power_w'])}&nbsp;W in; "
+        f"{_e(block['basis'])}. Highest density 5&nbsp;cm from its outer surface: "
+        f"<strong>{_density(leak)}</strong>, face {_e(worst_face)} at ({_e(where)})&nbsp;m. "
+        f"Inside the cavity {_density(block['inside_power_density_w_m2'])} "
+        f"(E {_num(block['inside_e_v_m'])}&nbsp;V/m); cavity Q {_num(block['q_factor'])} "
+        f"({_e(parts)}); {_num(block['leaked_power_w'])}&nbsp;W leaks out in all.</p>",
+        limits_table,
+    ) + (
+        _table(["face", *map(_e, by_face)], faces, set(range(1, len(by_face) + 1)))
+        + (_table(["opening", "face", "type", "leaked power"], openings, {3}) if openings else "")
+    )
+
+
 def _places_extras(data: dict[str, Any]) -> str:
     """Stay time per limit and spatial averages at the named places."""
     parts = []
@@ -938,6 +989,7 @@ def render_report(
         "how low the zones reach.</figcaption></figure>",
         _levels_section(data),
         _keep("<h2>2. Results per limit</h2>", _results(data)),
+        _enclosure_section(data),
         _uncertainty_section(data),
         _keep("<h2>3. Named places</h2>", _points(data)),
         _places_extras(data),
@@ -1021,6 +1073,8 @@ def summary_text(data: dict[str, Any], written: list[str] | None = None, width: 
                 cells.append(_level_cell_text(lv, k["limit"]))
             rows.append(cells)
         lines += _text_table(header, rows)
+    if data.get("enclosure"):
+        lines += ["", *enclosure_lines(data["enclosure"])]
     if data["points"]:
         lines += ["", "Named places (letter on the maps; the largest share of a limit):"]
         for p in data["points"]:

@@ -415,3 +415,44 @@ def place_cell(row: dict[str, Any], name: str) -> tuple[float | None, float | No
 def change_text(change: float | None) -> str:
     """A change in dB against the base, ``"+1.2 dB"``, or ``"-"``."""
     return "-" if change is None else f"{change:+.1f} dB"
+
+
+def enclosure_lines(block: dict[str, Any] | None) -> list[str]:
+    """The enclosure's leakage (the ``"enclosure"`` JSON object) as text lines; none without."""
+    if not block:
+        return []
+    by_face = block["leakage_5cm_by_face"]
+    worst_face = max(by_face, key=lambda face: by_face[face])
+    x, y, z = block["leakage_5cm_position_m"]
+    lines = [
+        f"Enclosure leakage ({block['id']}, {_fmt(block['input_power_w'])} W in):",
+        f"  {block['basis']}",
+        f"  highest 5 cm from the outer surface: {density_text(block['leakage_5cm_w_m2'])}, "
+        f"face {worst_face} at ({x:.3g}, {y:.3g}, {z:.3g}) m",
+        "  per face (W/m2): "
+        + ", ".join(f"{face} {_fmt(value)}" for face, value in by_face.items()),
+    ]
+    for row in block["oven_limits"]:
+        verdict = "ABOVE" if row["percent_of_limit"] >= 100.0 else "below"
+        lines.append(
+            f"  {row['limit']}, {density_text(row['limit_w_m2'])}: "
+            f"{_fmt(row['percent_of_limit'])} % of it, {verdict}"
+        )
+    parts = ", ".join(
+        f"{name} {_fmt(block[key])}"
+        for name, key in (("walls", "q_walls"), ("load", "q_load"), ("openings", "q_openings"))
+        if block[key] is not None
+    )
+    lines.append(
+        f"  inside: {density_text(block['inside_power_density_w_m2'])}, E "
+        f"{_fmt(block['inside_e_v_m'])} V/m; cavity Q {_fmt(block['q_factor'])} ({parts})"
+    )
+    if block["openings"]:
+        lines.append(
+            "  leaked power: "
+            + ", ".join(f"{o['id']} {_fmt(o['leaked_power_w'])} W" for o in block["openings"])
+            + f"; {_fmt(block['leaked_power_w'])} W in all"
+        )
+    else:
+        lines.append(f"  leaked power (walls only): {_fmt(block['leaked_power_w'])} W")
+    return lines
