@@ -689,7 +689,7 @@ def _comparison(data: dict[str, Any], figure: bytes | None, heading: str) -> str
             _table(header, rows, numeric={0, *range(3, len(header) - 1)}),
             _legend(keys, data),
             *(
-                f'<p class="legend">Above the base: {_free(r["name"])} '
+                f'<p class="legend">Above the base: option &ldquo;{_free(r["name"])}&rdquo; '
                 f"{_e(r['above_base_note'])}.</p>"
                 for r in comp["options"]
                 if r.get("above_base_note")
