@@ -958,9 +958,12 @@ def render_report(
             if scenario_text is not None
             else "<p>(scenario text not available)</p>"
         ),
-        "<h2>11. Files of this assessment</h2>",
-        "<ul>" + "".join(f"<li><code>{_e(n)}</code></li>" for n in data["files"]) + "</ul>",
-        f"<footer>{_e(CAUTION_LINES[0])}</footer>",
+        # the closing caution printed with the last section, never alone on a last page
+        _keep(
+            "<h2>11. Files of this assessment</h2>",
+            "<ul>" + "".join(f"<li><code>{_e(n)}</code></li>" for n in data["files"]) + "</ul>",
+            f"<footer>{_e(CAUTION_LINES[0])}</footer>",
+        ),
         "</body></html>",
     ]
     return "\n".join(parts)
