@@ -768,7 +768,10 @@ def comparison_table(data: dict[str, Any]) -> str:
         header = ["rank", "option", *zone_head, *keepout_head]
     else:
         header = ["rank", "option", *keepout_head, *zone_head]
-    header += ["leak 5 cm W/m2 (mW/cm2)", "worst named point"]
+    # the leakage column only where some variant has an enclosure
+    leaks = any(row["leakage_5cm_w_m2"] is not None for row in data["options"])
+    header += [*(["leak 5 cm W/m2 (mW/cm2)"] if leaks else []), "worst named point"]
+    widened = False
     rows = []
     for row in data["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
@@ -778,6 +781,7 @@ def comparison_table(data: dict[str, Any]) -> str:
             text = f"{e['distance_m']:.2f}"
             if e["distance_with_uncertainty_m"] > e["distance_m"] + 5e-3:
                 text += f" ({e['distance_with_uncertainty_m']:.2f})"
+                widened = True
             keepout_cells.append(text)
         strictest = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
         zone_cells = [f"{strictest:.2f}" + (" clipped" if row["zone_clipped_at_map_edge"] else "")]
@@ -790,7 +794,8 @@ def comparison_table(data: dict[str, Any]) -> str:
             cells += zone_cells + keepout_cells
         else:
             cells += keepout_cells + zone_cells
-        cells.append(pair_text(row["leakage_5cm_w_m2"]))
+        if leaks:
+            cells.append(pair_text(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]
         cells.append(
             "-" if wp is None else f"{wp['name']}: {share_text(wp['quotient'])} of {wp['limit']}"
@@ -809,7 +814,9 @@ def comparison_table(data: dict[str, Any]) -> str:
         "  ".join("-" * w for w in widths),
     ]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
-    lines += ["", "Keep-out in brackets: widened by the source model's stated gain uncertainty."]
+    lines.append("")
+    if widened:
+        lines.append("Keep-out in brackets: widened by the source model's stated gain uncertainty.")
     lines.append(
         f"Zone: the area at {where} where the strictest limit is reached (with the model's "
         "uncertainty); 'clipped' where it reaches the map edge."

@@ -740,7 +740,7 @@ def _comparison(data: dict[str, Any], figure: bytes | None, heading: str) -> str
             _table(header, rows, numeric={0, *range(3, len(header) - 1)}),
             _legend(keys, data),
             *(
-                f'<p class="legend">Above the base: {_free(r["name"])} '
+                f'<p class="legend">Above the base: option &ldquo;{_free(r["name"])}&rdquo; '
                 f"{_e(r['above_base_note'])}.</p>"
                 for r in comp["options"]
                 if r.get("above_base_note")
@@ -1010,9 +1010,12 @@ def render_report(
             if scenario_text is not None
             else "<p>(scenario text not available)</p>"
         ),
-        "<h2>11. Files of this assessment</h2>",
-        "<ul>" + "".join(f"<li><code>{_e(n)}</code></li>" for n in data["files"]) + "</ul>",
-        f"<footer>{_e(CAUTION_LINES[0])}</footer>",
+        # the closing caution printed with the last section, never alone on a last page
+        _keep(
+            "<h2>11. Files of this assessment</h2>",
+            "<ul>" + "".join(f"<li><code>{_e(n)}</code></li>" for n in data["files"]) + "</ul>",
+            f"<footer>{_e(CAUTION_LINES[0])}</footer>",
+        ),
         "</body></html>",
     ]
     return "\n".join(parts)

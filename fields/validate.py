@@ -23,7 +23,14 @@ from typing import Any, TypeVar
 
 import numpy as np
 
-from .errors import ModelInputError, ScenarioError, UnknownKeyError, entry_path, suggest
+from .errors import (
+    ModelInputError,
+    ScenarioError,
+    UnknownKeyError,
+    closest,
+    entry_path,
+    suggest,
+)
 
 T = TypeVar("T")
 _MISSING = object()
@@ -89,6 +96,12 @@ class Table:
         if key in self.data:
             return self.data[key]
         if default is _MISSING:
+            # a key of the table that is not read and looks like this one is a misspelling
+            typo = closest(key, [k for k in self.data if k not in self._used])
+            if typo:
+                raise self.error(
+                    key, f"is required here; the table has '{typo}': a misspelling of '{key}'?"
+                )
             raise self.error(key, "is required here")
         return default
 

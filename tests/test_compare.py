@@ -212,7 +212,11 @@ def test_demo_options_scenario_ranks_and_renders():
     assert half["largest_keepout_m"] == pytest.approx(
         base["largest_keepout_m"] / math.sqrt(2), rel=2e-3
     )
-    assert "half power" in comparison_table(data)
+    table = comparison_table(data)
+    assert "half power" in table
+    # No enclosure: no leakage column; isotropic and wire models state no gain uncertainty,
+    # so no keep-out is widened and no bracket is explained.
+    assert "leak 5 cm" not in table and "Keep-out in brackets" not in table
 
 
 def test_largest_reads_floats_arrays_and_mappings():

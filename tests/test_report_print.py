@@ -238,6 +238,9 @@ def _no_heading_ends_a_page(html: str, pdf: Path, paper: str) -> None:
             h for h, _ in headings if last and (h == last or (len(last) >= 10 and h.endswith(last)))
         ]
         assert not ended, f"{paper} page {number} ends with the heading {ended[0]!r}"
+    # The closing caution is printed with the last section, never alone on a last page.
+    last_page = _squeeze(pages[-1])
+    assert _squeeze("Files of this assessment") in last_page, f"{paper}: last page {pages[-1]!r}"
     raw = [_squeeze(page) for page in _pages(pdf, "-raw")]
     for heading, cell in headings:
         on = [i for i, page in enumerate(raw) if heading in page]

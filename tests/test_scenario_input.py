@@ -149,3 +149,18 @@ def test_no_source_is_refused(write_scenario):
 def test_more_than_200_sources_is_refused(write_scenario):
     text = '[[source]]\nantenna = "isotropic"\npower_w = 1.0\n' * 201
     assert "at most 200" in one_error_line(run("keepout", write_scenario(text)))
+
+
+def test_a_misspelt_required_key_is_named_as_such(write_scenario):
+    # A required key missing beside a key of the table that looks like it: the message names
+    # the misspelling, not only the missing key (common practice, no source).
+    text = (
+        '[[source]]\nantenna = "isotropic"\npower_w = 1.0\nposition_m = [0.0, 0.0, 1.0]\n'
+        '[[shield]]\ncenter_m = [1.0, 0.0, 1.0]\nnormal = [1.0, 0.0, 0.0]\nwidth_m = 1.0\n'
+        'height_m = 1.0\ntype = "sheet"\nmetal = "aluminium"\nthikness_m = 0.001\n'
+    )
+    line = one_error_line(run("keepout", write_scenario(text)))
+    assert "shield.1.thickness_m" in line and "'thikness_m'" in line
+    # Without a look-alike, the plain message.
+    line = one_error_line(run("keepout", write_scenario(text.replace("thikness_m", "colour"))))
+    assert "shield.1.thickness_m: is required here" in line and "misspelling" not in line
