@@ -156,7 +156,7 @@ def test_a_misspelt_required_key_is_named_as_such(write_scenario):
     # the misspelling, not only the missing key (common practice, no source).
     text = (
         '[[source]]\nantenna = "isotropic"\npower_w = 1.0\nposition_m = [0.0, 0.0, 1.0]\n'
-        '[[shield]]\ncenter_m = [1.0, 0.0, 1.0]\nnormal = [1.0, 0.0, 0.0]\nwidth_m = 1.0\n'
+        "[[shield]]\ncenter_m = [1.0, 0.0, 1.0]\nnormal = [1.0, 0.0, 0.0]\nwidth_m = 1.0\n"
         'height_m = 1.0\ntype = "sheet"\nmetal = "aluminium"\nthikness_m = 0.001\n'
     )
     line = one_error_line(run("keepout", write_scenario(text)))
