@@ -18,6 +18,7 @@ from __future__ import annotations
 import contextlib
 import functools
 import math
+import warnings
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -27,6 +28,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from keepclear.antennas import memo
+from keepclear.antennas.base import ModelRangeWarning
 
 from . import limits as limits_mod
 from . import maps
@@ -401,10 +403,7 @@ def _warn_behind_infinite_ground(scenario: Scenario, points_m: NDArray[np.float6
     The ideal infinite plane passes nothing: the model's 0 behind it is not an estimate of
     a real ground, which is finite and lets field round its edges.  Said, never silent.
     """
-    import warnings
-
-    from keepclear.antennas.base import ModelRangeWarning
-    from keepclear.antennas.wire import Monopole
+    from keepclear.antennas.wire import Monopole  # the models are imported on first use
 
     for source in scenario.sources:
         radiator = source.radiator
@@ -778,16 +777,15 @@ def map_plane(
     return maps.principal_plane(plane or "xy", point)
 
 
-SOURCE_HEIGHT_NAME = maps.SOURCE_HEIGHT_NAME
-
-
 def horizontal_stem(height_m: float | None = None) -> str:
     """The file-name stem of an assessment's horizontal plane.
 
     ``source-height`` at the first source's height (``height_m`` None), else the height
     itself, ``z1.70m`` (:func:`keepclear.fields.maps.height_stem`).
     """
-    return SOURCE_HEIGHT_NAME.replace(" ", "-") if height_m is None else maps.height_stem(height_m)
+    if height_m is None:
+        return maps.SOURCE_HEIGHT_NAME.replace(" ", "-")
+    return maps.height_stem(height_m)
 
 
 @dataclass(frozen=True, eq=False)

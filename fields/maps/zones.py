@@ -462,13 +462,26 @@ def metal_line_shift_m(scenario: Scenario, grid: Grid) -> tuple[float, float]:
         The shift of the map centre along the plane's first and second axes [m]; zeros
         when no whole row or column is on the metal, or when every sample is.
     """
-    inside = scenario.inside_source(grid.points_m()).reshape(grid.shape)
-    if not inside.any() or inside.all():
-        return 0.0, 0.0
-    ds = float(grid.s_m[1] - grid.s_m[0]) if grid.s_m.size > 1 else 0.0
-    dt = float(grid.t_m[1] - grid.t_m[0]) if grid.t_m.size > 1 else 0.0
-    along_s = 0.5 * ds if inside.all(axis=0).any() else 0.0
-    along_t = 0.5 * dt if inside.all(axis=1).any() else 0.0
+    s, t, plane = grid.s_m, grid.t_m, grid.plane
+
+    def whole_line_on_metal(across: NDArray, along: NDArray, rows: bool) -> bool:
+        # A whole line is on the metal only if both its ends are: test the ends of every
+        # line first, then the few lines whose ends both are (not the whole grid).
+        def on(a: NDArray, b: NDArray) -> NDArray[np.bool_]:
+            ss, tt = (b, a) if rows else (a, b)
+            return scenario.inside_source(plane.to_scenario(ss, tt))
+
+        ends = on(across, np.full(across.size, along[0])) & on(
+            across, np.full(across.size, along[-1])
+        )
+        whole = sum(bool(on(np.full(along.size, a), along).all()) for a in across[ends])
+        # every line on the metal: the whole plane is, which is the caller's to avoid
+        return 0 < whole < across.size
+
+    ds = float(s[1] - s[0]) if s.size > 1 else 0.0
+    dt = float(t[1] - t[0]) if t.size > 1 else 0.0
+    along_s = 0.5 * ds if whole_line_on_metal(s, t, rows=False) else 0.0
+    along_t = 0.5 * dt if whole_line_on_metal(t, s, rows=True) else 0.0
     return along_s, along_t
 
 
