@@ -1482,7 +1482,7 @@ def step_report(
         "comparison": None if comparison is None else comparison.data(),
         "uncertainty": None if spread is None else spread["spec"],
         "readings": readings_block,
-        "warnings": input_warnings(scenario, limit_ids),
+        "warnings": input_warnings(scenario, limit_ids, options=True),
         "assumptions": {
             "time_averaging": plots.duty_text(scenario),
             "reflections": plots.reflection_text(scenario),

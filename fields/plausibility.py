@@ -25,6 +25,7 @@ driven by magnetrons of about 0.5 to 100 kW, stands in a room or a yard well wit
 
 from __future__ import annotations
 
+import contextlib
 import warnings
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
@@ -212,7 +213,9 @@ def recording_load_warnings() -> Iterator[list[str]]:
     a material outside its model's frequency range, a guide near its cut-off, a wide
     horn flare, a thick wire, an enclosure beyond its model's range.  Each warning is
     then issued again at its own place, so the caller's filters decide what is shown;
-    the record is complete whatever they are.
+    the record is complete whatever they are.  A warning an inner record already holds
+    (an option's, read while its scenario is built) is not recorded again by the outer
+    one: each scenario keeps its own.
     """
     found: list[str] = []
     with warnings.catch_warnings(record=True) as caught:
@@ -223,33 +226,46 @@ def recording_load_warnings() -> Iterator[list[str]]:
         input_kind = issubclass(w.category, UserWarning) and not issubclass(
             w.category, PlausibilityWarning
         )
-        if input_kind and text not in found:
-            found.append(text)
+        if input_kind and not getattr(w.message, _RECORDED, False):
+            if text not in found:
+                found.append(text)
+            with contextlib.suppress(AttributeError):  # a warning given as a plain string
+                setattr(w.message, _RECORDED, True)
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno, source=w.source)
 
 
-def input_warnings(scenario: Any, limit_ids: Sequence[str] | None = None) -> list[str]:
+#: Attribute that marks a warning already held by a record (see recording_load_warnings).
+_RECORDED = "_keepclear_recorded"
+
+
+def input_warnings(
+    scenario: Any, limit_ids: Sequence[str] | None = None, *, options: bool = False
+) -> list[str]:
     """Every warning about a run's input, for its outputs (``"warnings"`` in the JSON).
 
     Parameters
     ----------
     scenario : Scenario
-        The scenario as run, with its options.
+        The scenario as run (the base, or the option chosen with ``--option``).
     limit_ids : sequence of str, optional
         The limits assessed (default: the scenario's).
+    options : bool
+        Also the warnings of each of its options (an assessment that runs them all), each
+        beginning "option 'NAME': ", where they are not the scenario's own.
 
     Returns
     -------
     list of str
-        Distinct sentences in a fixed order: the warnings raised while the scenario and
-        its options were built (:func:`recording_load_warnings`), the plausibility
-        findings of the scenario and of each option, and the oven-leakage warning of each
-        ``fda-1030.10/*`` id assessed without an ``[enclosure]``.  Empty for a plausible
-        input.
+        Distinct sentences in a fixed order: the warnings raised while the scenario was
+        built (:func:`recording_load_warnings`) and its plausibility findings, then those
+        of the options, then the oven-leakage warning of each ``fda-1030.10/*`` id assessed
+        without an ``[enclosure]``.  Empty for a plausible input.
     """
     ids = scenario.limit_ids if limit_ids is None else limit_ids
-    scenarios = [scenario, *(o.scenario for o in scenario.options)]
-    found = [m for s in scenarios for m in getattr(s, "load_warnings", ())]
-    found += [m for s in scenarios for m in _setup_messages(s)]
+    found = [*scenario.load_warnings, *_setup_messages(scenario)]
+    if options:
+        for option in scenario.options:
+            own = [*option.scenario.load_warnings, *_setup_messages(option.scenario)]
+            found += [f"option '{option.name}': {m}" for m in own if m not in found]
     found += oven_leakage_messages(ids, scenario.enclosure is not None)
     return list(dict.fromkeys(found))

@@ -767,11 +767,13 @@ def scenario_from_document(
     ScenarioError
         For the first problem found, located by file and key path.
     """
-    if _RADIATORS.get() is not None:
-        return _scenario_from_document(document, source, allow_options)
-    # The base and its options share the radiators whose model keys agree (see _read_source).
     from .plausibility import recording_load_warnings
 
+    if _RADIATORS.get() is not None:  # an option, read while its base is built
+        with recording_load_warnings() as found:
+            scenario = _scenario_from_document(document, source, allow_options)
+        return replace(scenario, load_warnings=tuple(found))
+    # The base and its options share the radiators whose model keys agree (see _read_source).
     token = _RADIATORS.set({})
     try:
         with recording_load_warnings() as found:

@@ -233,4 +233,29 @@ def test_a_swept_implausible_value_warns_and_is_carried(write_scenario):
     scenario = load_scenario(write_scenario(ISOTROPIC))
     with pytest.warns(PlausibilityWarning, match="below 1e-4"):
         swept = with_sweeps(scenario, ["source.s.duty_cycle=0.5,5e-5"])
-    assert any("duty_cycle = 5e-05" in m for m in input_warnings(swept))
+    # An assessment of every option carries it, named by its option; the base alone not.
+    found = input_warnings(swept, options=True)
+    assert any(m.startswith("option '") and "duty_cycle = 5e-05" in m for m in found), found
+    assert not any("duty_cycle" in m for m in input_warnings(swept))
+
+
+def test_each_run_carries_its_own_load_warnings(write_scenario):
+    # The base at 2.45 GHz is inside concrete's fitted range (ITU-R P.2040-3, Table 3:
+    # 1-100 GHz); its option at 0.9 GHz is not.  The warning belongs to the option's run.
+    path = write_scenario(
+        'name = "o"\n[[source]]\nid = "s"\nantenna = "isotropic"\npower_w = 10.0\n'
+        "position_m = [0.0, 0.0, 1.0]\n[[reflector]]\npoint_m = [0, 0, -1]\n"
+        'normal = [0, 0, 1]\nmaterial = "concrete"\n[[option]]\nname = "low-f"\n'
+        "frequency_hz = 0.9e9\n"
+    )
+    with pytest.warns(UserWarning, match="0.9 GHz is outside"):
+        scenario = load_scenario(path)
+    assert scenario.load_warnings == ()
+    (option,) = scenario.options
+    assert any("0.9 GHz is outside" in m for m in option.scenario.load_warnings)
+    assert input_warnings(scenario) == []
+    assert any("0.9 GHz" in m for m in input_warnings(option.scenario))
+    assert any(
+        m.startswith("option 'low-f': ") and "0.9 GHz" in m
+        for m in input_warnings(scenario, options=True)
+    )
