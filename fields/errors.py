@@ -82,9 +82,12 @@ def entry_path(table: str, index: int) -> str:
     return f"{table}.{index + 1}"
 
 
-def closest(word: str, choices: Iterable[str]) -> str | None:
-    """The choice closest to ``word`` (a likely misspelling of it), or None."""
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
+def closest(word: str, choices: Iterable[str], cutoff: float = 0.6) -> str | None:
+    """The choice closest to ``word`` (a likely misspelling of it), or None.
+
+    ``cutoff`` is the least :class:`difflib.SequenceMatcher` ratio of a match.
+    """
+    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=cutoff)
     return close[0] if close else None
 
 

@@ -33,6 +33,9 @@ from .errors import (
 )
 
 T = TypeVar("T")
+#: Similarity (difflib ratio) from which a key not read is named as a misspelling of a
+#: required key that is missing (thikness_m / thickness_m: 0.95).
+MISSPELLING_RATIO = 0.85
 _MISSING = object()
 
 
@@ -96,8 +99,9 @@ class Table:
         if key in self.data:
             return self.data[key]
         if default is _MISSING:
-            # a key of the table that is not read and looks like this one is a misspelling
-            typo = closest(key, [k for k in self.data if k not in self._used])
+            # a key of the table not read yet that is nearly this one is a misspelling; the
+            # bar is high, for real keys look alike too (width_m, pitch_m, depth_m: 0.71)
+            typo = closest(key, [k for k in self.data if k not in self._used], MISSPELLING_RATIO)
             if typo:
                 raise self.error(
                     key, f"is required here; the table has '{typo}': a misspelling of '{key}'?"

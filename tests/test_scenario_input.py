@@ -164,3 +164,12 @@ def test_a_misspelt_required_key_is_named_as_such(write_scenario):
     # Without a look-alike, the plain message.
     line = one_error_line(run("keepout", write_scenario(text.replace("thikness_m", "colour"))))
     assert "shield.1.thickness_m: is required here" in line and "misspelling" not in line
+    # Real keys that only look alike (pitch_m for a missing width_m) are not named.
+    opening = text.replace("thikness_m", "thickness_m") + (
+        "[enclosure]\ncenter_m = [0.0, 0.0, 1.0]\nsize_m = [1.2, 0.6, 0.5]\n"
+        'metal = "mild-steel"\nthickness_m = 0.002\n[[enclosure.opening]]\nface = "-y"\n'
+        'type = "mesh-window"\nheight_m = 0.2\npitch_m = 0.003\nhole_diameter_m = 0.0015\n'
+        "depth_m = 0.001\n"
+    )
+    line = one_error_line(run("keepout", write_scenario(opening)))
+    assert "enclosure.opening.1.width_m: is required here" in line and "'pitch_m'" not in line
