@@ -18,8 +18,8 @@ import numpy as np
 import pytest
 
 from keepclear.fields import plots
-from keepclear.fields.assessment import run_assessment
-from keepclear.fields.compare import leakage_5cm_w_m2
+from keepclear.fields.assessment import keepout_data, run_assessment
+from keepclear.fields.compare import compare_options
 from keepclear.fields.report import summary_text
 from keepclear.fields.report_text import density_text, enclosure_lines
 from keepclear.fields.scenario import load_scenario
@@ -102,8 +102,12 @@ def test_keepout_json_gives_the_enclosure_leakage(drying_line):
 
 
 def test_the_5cm_figure_is_the_one_compare_shows(drying_line):
-    base = leakage_5cm_w_m2(load_scenario(DRYING_LINE))
-    assert drying_line["enclosure"]["leakage_5cm_w_m2"] == pytest.approx(base, rel=1e-9)
+    # The figure compare writes in its table, from its own run, against keepout --json's.
+    data = compare_options(load_scenario(DRYING_LINE), pixels=11).data()
+    (base,) = [row for row in data["options"] if row["is_base"]]
+    assert base["leakage_5cm_w_m2"] == pytest.approx(
+        drying_line["enclosure"]["leakage_5cm_w_m2"], rel=1e-9
+    )
 
 
 def test_keepout_text_lines_show_the_figures(drying_line):
@@ -145,7 +149,11 @@ def test_assessment_json_summary_and_report_show_the_leakage(small_box_assessed)
     block = data["enclosure"]
     leak = block["leakage_5cm_w_m2"]
     assert leak > 0
-    assert leak == pytest.approx(leakage_5cm_w_m2(scenario), rel=1e-9)
+    # the same figures as keepout --json gives for the scenario (another code path)
+    alone = keepout_data(scenario)[0]["enclosure"]
+    assert alone.keys() == block.keys()
+    for key in ("leakage_5cm_w_m2", "q_factor", "inside_power_density_w_m2", "leaked_power_w"):
+        assert block[key] == pytest.approx(alone[key], rel=1e-9), key
     assert [o["id"] for o in block["openings"]] == ["gap"]
     assert [r["limit"] for r in block["oven_limits"]] == list(scenario.limit_ids)
     assert "Enclosure leakage" in summary_text(data)
