@@ -68,9 +68,10 @@ def enclosure_leakage(
     dict or None
         None without an enclosure.  Otherwise ``id``, ``input_power_w`` [W], ``basis``,
         ``distance_m`` (0.05), ``leakage_5cm_w_m2`` (the highest density 5 cm outside any
-        face [W m^-2]), ``leakage_5cm_position_m`` (where [m]), ``leakage_5cm_by_face``
-        (face to its highest density [W m^-2]), ``inside_power_density_w_m2`` (the stirred
-        cavity density S_c [W m^-2]), ``inside_e_v_m`` [V m^-1], ``q_factor`` and its parts
+        face [W m^-2]), ``leakage_5cm_face`` and ``leakage_5cm_position_m`` (where [m]),
+        ``leakage_5cm_by_face`` (face to its highest density [W m^-2]),
+        ``inside_power_density_w_m2`` (the stirred cavity density S_c [W m^-2]),
+        ``inside_e_v_m`` [V m^-1], ``q_factor`` and its parts
         ``q_walls``, ``q_load``, ``q_openings`` (null where that loss is absent),
         ``mode_count``, ``leaked_power_w`` (openings plus wall transmission [W]),
         ``openings`` (``id``, ``face``, ``type``, ``leaked_power_w`` [W]) and
@@ -104,6 +105,7 @@ def enclosure_leakage(
         "basis": BASIS_TEXT,
         "distance_m": FDA_DISTANCE_M,
         "leakage_5cm_w_m2": leakage,
+        "leakage_5cm_face": worst["face"],
         "leakage_5cm_position_m": [float(x) for x in worst["position_m"]],
         "leakage_5cm_by_face": {row["face"]: float(row["power_density_w_m2"]) for row in faces},
         "inside_power_density_w_m2": float(balance["cavity_power_density_w_m2"]),

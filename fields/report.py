@@ -29,8 +29,10 @@ from .report_text import (
     change_text,
     density_text,
     enclosure_lines,
+    number_text,
     pair_text,
     place_cell,
+    q_parts_text,
     ranked_place,
     share_text,
 )
@@ -144,11 +146,8 @@ def _e(text: Any) -> str:
 
 
 def _num(x: float | None, digits: int = 3) -> str:
-    if x is None:
-        return "–"
-    if x == 0:
-        return "0"
-    return f"{x:.{digits}g}"
+    """A number as the text outputs write it (:func:`number_text`: "3,920", not "3.92e+03")."""
+    return "–" if x is None else number_text(x, digits)
 
 
 def _metres(x: float | None) -> str:
@@ -513,28 +512,15 @@ def _enclosure_section(data: dict[str, Any]) -> str:
         return ""
     leak = block["leakage_5cm_w_m2"]
     by_face = block["leakage_5cm_by_face"]
-    worst_face = max(by_face, key=lambda face: by_face[face])
     where = ", ".join(f"{x:.3g}" for x in block["leakage_5cm_position_m"])
-    rows = []
-    for row in block["oven_limits"]:
-        percent = row["percent_of_limit"]
-        text = f"{_num(percent)}&nbsp;%"
-        rows.append(
-            [
-                _id(row["limit"]),
-                _density(row["limit_w_m2"]),
-                f'<span class="exceed">{text}, above</span>' if percent >= 100 else text,
-            ]
-        )
+    rows = [
+        [_id(row["limit"]), _density(row["limit_w_m2"]), _share(row["percent_of_limit"] / 100.0)]
+        for row in block["oven_limits"]
+    ]
     limits_table = (
         _table(["oven-leakage limit", "limit value", "5&nbsp;cm figure, share of it"], rows, {1, 2})
         if rows
         else "<p>No oven-leakage limit (fda-1030.10/*) is among the limits assessed.</p>"
-    )
-    parts = ", ".join(
-        f"{name} {_num(block[key])}"
-        for name, key in (("walls", "q_walls"), ("load", "q_load"), ("openings", "q_openings"))
-        if block[key] is not None
     )
     openings = [
         [_free(o["id"]), _e(o["face"]), _e(o["type"]), f"{_num(o['leaked_power_w'])}&nbsp;W"]
@@ -545,10 +531,12 @@ def _enclosure_section(data: dict[str, Any]) -> str:
         "<h3>Enclosure leakage</h3>"
         f"<p>Enclosure {_free(block['id'])}, {_num(block['input_power_w'])}&nbsp;W in; "
         f"{_e(block['basis'])}. Highest density 5&nbsp;cm from its outer surface: "
-        f"<strong>{_density(leak)}</strong>, face {_e(worst_face)} at ({_e(where)})&nbsp;m. "
+        f"<strong>{_density(leak)}</strong>, face {_e(block['leakage_5cm_face'])} at "
+        f"({_e(where)})&nbsp;m. "
         f"Inside the cavity {_density(block['inside_power_density_w_m2'])} "
         f"(E {_num(block['inside_e_v_m'])}&nbsp;V/m); cavity Q {_num(block['q_factor'])} "
-        f"({_e(parts)}); {_num(block['leaked_power_w'])}&nbsp;W leaks out in all.</p>",
+        f"({_e(q_parts_text(block, _num))}); {_num(block['leaked_power_w'])}&nbsp;W leaks out "
+        "in all.</p>",
         limits_table,
     ) + (
         _table(["face", *map(_e, by_face)], faces, set(range(1, len(by_face) + 1)))

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import textwrap
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 
 
-def _fmt(x: float | None, digits: int = 3) -> str:
+def number_text(x: float | None, digits: int = 3) -> str:
     """A number to ``digits`` significant figures; thousands separators up to 1e9."""
     if x is None:
         return "-"
@@ -38,10 +39,10 @@ def limits_table(data: dict[str, Any]) -> str:
     rows = [
         [
             v["id"],
-            _fmt(v["power_density_w_m2"], 4),
-            _fmt(v["power_density_w_m2"] / 10.0, 4),
-            _fmt(v["e_v_m"], 4),
-            _fmt(v["h_a_m"], 4),
+            number_text(v["power_density_w_m2"], 4),
+            number_text(v["power_density_w_m2"] / 10.0, 4),
+            number_text(v["e_v_m"], 4),
+            number_text(v["h_a_m"], 4),
             _minutes(v["averaging_time_s"]),
             v["source"],
         ]
@@ -111,9 +112,9 @@ def probe_table(data: dict[str, Any], scenario: Any = None) -> str:
                 "  count this place as over every limit.",
             ]
         lines.append(
-            f"  E {_fmt(p['e_v_m'])} V/m time-averaged, "
-            f"{_fmt(p.get('peak_e_v_m'))} V/m while radiating   "
-            f"H {_fmt(p['h_a_m'])} A/m   "
+            f"  E {number_text(p['e_v_m'])} V/m time-averaged, "
+            f"{number_text(p.get('peak_e_v_m'))} V/m while radiating   "
+            f"H {number_text(p['h_a_m'])} A/m   "
             f"S {density_text(p['power_density_w_m2'])} time-averaged, "
             f"{density_text(p['peak_power_density_w_m2'])} while radiating"
         )
@@ -163,7 +164,7 @@ def keepout_table(data: dict[str, Any], scenario: Any = None, screening: bool = 
     lines = [
         f"Scenario: {data['scenario']}",
         f"Keep-out about the first source at ({c[0]:g}, {c[1]:g}, {c[2]:g}) m; "
-        f"time-averaged power {_fmt(data['average_power_w'], 4)} W; "
+        f"time-averaged power {number_text(data['average_power_w'], 4)} W; "
         f"reflections: {data['reflections']}",
         "",
     ]
@@ -388,15 +389,16 @@ def density_text(power_density_w_m2: float | None, digits: int = 3) -> str:
     """A power density in W/m2 with the same value in mW/cm2 beside it (1 W/m2 = 0.1 mW/cm2)."""
     if power_density_w_m2 is None:
         return "-"
-    w_m2 = _fmt(power_density_w_m2, digits)
-    return f"{w_m2} W/m2 ({_fmt(power_density_w_m2 / 10.0, digits)} mW/cm2)"
+    w_m2 = number_text(power_density_w_m2, digits)
+    return f"{w_m2} W/m2 ({number_text(power_density_w_m2 / 10.0, digits)} mW/cm2)"
 
 
 def pair_text(power_density_w_m2: float | None, digits: int = 3) -> str:
     """A power density for a table column headed "W/m2 (mW/cm2)": ``"10 (1)"``."""
     if power_density_w_m2 is None:
         return "-"
-    return f"{_fmt(power_density_w_m2, digits)} ({_fmt(power_density_w_m2 / 10.0, digits)})"
+    w_m2 = number_text(power_density_w_m2, digits)
+    return f"{w_m2} ({number_text(power_density_w_m2 / 10.0, digits)})"
 
 
 def ranked_place(rank_by: str) -> str | None:
@@ -417,42 +419,48 @@ def change_text(change: float | None) -> str:
     return "-" if change is None else f"{change:+.1f} dB"
 
 
+def q_parts_text(block: dict[str, Any], number: Callable[[float], str]) -> str:
+    """The cavity Q's parts of an ``"enclosure"`` object: "walls 40,500, load 2,480, ..."."""
+    return ", ".join(
+        f"{name} {number(block[key])}"
+        for name, key in (("walls", "q_walls"), ("load", "q_load"), ("openings", "q_openings"))
+        if block[key] is not None
+    )
+
+
 def enclosure_lines(block: dict[str, Any] | None) -> list[str]:
     """The enclosure's leakage (the ``"enclosure"`` JSON object) as text lines; none without."""
     if not block:
         return []
     by_face = block["leakage_5cm_by_face"]
-    worst_face = max(by_face, key=lambda face: by_face[face])
     x, y, z = block["leakage_5cm_position_m"]
     lines = [
-        f"Enclosure leakage ({block['id']}, {_fmt(block['input_power_w'])} W in):",
+        f"Enclosure leakage ({block['id']}, {number_text(block['input_power_w'])} W in):",
         f"  {block['basis']}",
         f"  highest 5 cm from the outer surface: {density_text(block['leakage_5cm_w_m2'])}, "
-        f"face {worst_face} at ({x:.3g}, {y:.3g}, {z:.3g}) m",
-        "  per face (W/m2): "
-        + ", ".join(f"{face} {_fmt(value)}" for face, value in by_face.items()),
+        f"face {block['leakage_5cm_face']} at ({x:.3g}, {y:.3g}, {z:.3g}) m",
+        "  per face W/m2 (mW/cm2): "
+        + ", ".join(f"{face} {pair_text(value)}" for face, value in by_face.items()),
     ]
     for row in block["oven_limits"]:
         verdict = "ABOVE" if row["percent_of_limit"] >= 100.0 else "below"
         lines.append(
             f"  {row['limit']}, {density_text(row['limit_w_m2'])}: "
-            f"{_fmt(row['percent_of_limit'])} % of it, {verdict}"
+            f"{share_text(row['percent_of_limit'] / 100.0)} of it, {verdict}"
         )
-    parts = ", ".join(
-        f"{name} {_fmt(block[key])}"
-        for name, key in (("walls", "q_walls"), ("load", "q_load"), ("openings", "q_openings"))
-        if block[key] is not None
-    )
     lines.append(
         f"  inside: {density_text(block['inside_power_density_w_m2'])}, E "
-        f"{_fmt(block['inside_e_v_m'])} V/m; cavity Q {_fmt(block['q_factor'])} ({parts})"
+        f"{number_text(block['inside_e_v_m'])} V/m; cavity Q {number_text(block['q_factor'])} "
+        f"({q_parts_text(block, number_text)})"
     )
     if block["openings"]:
         lines.append(
             "  leaked power: "
-            + ", ".join(f"{o['id']} {_fmt(o['leaked_power_w'])} W" for o in block["openings"])
-            + f"; {_fmt(block['leaked_power_w'])} W in all"
+            + ", ".join(
+                f"{o['id']} {number_text(o['leaked_power_w'])} W" for o in block["openings"]
+            )
+            + f"; {number_text(block['leaked_power_w'])} W in all"
         )
     else:
-        lines.append(f"  leaked power (walls only): {_fmt(block['leaked_power_w'])} W")
+        lines.append(f"  leaked power (walls only): {number_text(block['leaked_power_w'])} W")
     return lines

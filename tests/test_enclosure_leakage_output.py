@@ -21,7 +21,7 @@ from keepclear.fields import plots
 from keepclear.fields.assessment import keepout_data, run_assessment
 from keepclear.fields.compare import compare_options
 from keepclear.fields.report import summary_text
-from keepclear.fields.report_text import density_text, enclosure_lines
+from keepclear.fields.report_text import density_text, enclosure_lines, number_text, share_text
 from keepclear.fields.scenario import load_scenario
 
 from ._cli import assert_clean_exit, run, run_once, strict_json, validate
@@ -159,11 +159,12 @@ def test_assessment_json_summary_and_report_show_the_leakage(small_box_assessed)
     assert "Enclosure leakage" in summary_text(data)
     assert "<h3>Enclosure leakage</h3>" in html
     # the 5 cm figure in W/m2 and mW/cm2 (1 W/m2 = 0.1 mW/cm2), as the report writes numbers
-    assert f"{leak:.3g}&nbsp;W/m²" in html
-    assert f"{leak / 10:.3g}&nbsp;mW/cm²" in html
-    for row in block["oven_limits"]:
-        assert f"{row['percent_of_limit']:.3g}&nbsp;%" in html
-    assert f"cavity Q {block['q_factor']:.3g}" in html
+    assert f"{number_text(leak)}&nbsp;W/m²" in html
+    assert f"{number_text(leak / 10)}&nbsp;mW/cm²" in html
+    for row in block["oven_limits"]:  # "495 %", or above ten times the limit "x40.2"
+        assert share_text(row["percent_of_limit"] / 100).replace(" ", "&nbsp;") in html
+    assert f"cavity Q {number_text(block['q_factor'])}" in html
+    assert "e+0" not in html  # numbers as the text outputs write them, never 4.02e+03
     assert "gap" in html
     # the section sits with the keep-out results, before the named places
     assert (
