@@ -61,8 +61,10 @@ from .report_text import (
     density_text,
     pair_text,
     place_cell,
+    ranked_columns,
     ranked_place,
     share_text,
+    shows_leakage,
 )
 from .scenario import Scenario
 from .workers import Pending, run_each, start_each, worker_count
@@ -759,17 +761,14 @@ def comparison_table(data: dict[str, Any]) -> str:
     limits = data["limits"]
     rank_by = data.get("rank_by", "keepout")
     place = ranked_place(rank_by)
-    keepout_head = [f"keep-out m {i}" for i in limits]
-    zone_head = ["zone m2"]
-    place_head = [] if place is None else [f"{place} W/m2 (mW/cm2)", "change"]
-    if place is not None:
-        header = ["rank", "option", *place_head, *keepout_head, *zone_head]
-    elif rank_by == "zone-area":
-        header = ["rank", "option", *zone_head, *keepout_head]
-    else:
-        header = ["rank", "option", *keepout_head, *zone_head]
-    # the leakage column only where some variant has an enclosure
-    leaks = any(row["leakage_5cm_w_m2"] is not None for row in data["options"])
+    groups = ranked_columns(rank_by)
+    heads = {
+        "place": [f"{place} W/m2 (mW/cm2)", "change"],
+        "keepout": [f"keep-out m {i}" for i in limits],
+        "zone": ["zone m2"],
+    }
+    header = ["rank", "option", *(h for g in groups for h in heads[g])]
+    leaks = shows_leakage(data["options"])
     header += [*(["leak 5 cm W/m2 (mW/cm2)"] if leaks else []), "worst named point"]
     widened = False
     rows = []
@@ -786,14 +785,12 @@ def comparison_table(data: dict[str, Any]) -> str:
         strictest = max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)
         zone_cells = [f"{strictest:.2f}" + (" clipped" if row["zone_clipped_at_map_edge"] else "")]
         cells = [str(row["rank"]), row["name"] if row["is_base"] else f"option: {row['name']}"]
+        place_cells = []
         if place is not None:
             density, change = place_cell(row, place)
-            cells += [pair_text(density), "base" if row["is_base"] else change_text(change)]
-            cells += keepout_cells + zone_cells
-        elif rank_by == "zone-area":
-            cells += zone_cells + keepout_cells
-        else:
-            cells += keepout_cells + zone_cells
+            place_cells = [pair_text(density), "base" if row["is_base"] else change_text(change)]
+        values = {"place": place_cells, "keepout": keepout_cells, "zone": zone_cells}
+        cells += [c for g in groups for c in values[g]]
         if leaks:
             cells.append(pair_text(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]

@@ -33,8 +33,10 @@ from .report_text import (
     pair_text,
     place_cell,
     q_parts_text,
+    ranked_columns,
     ranked_place,
     share_text,
+    shows_leakage,
 )
 
 #: What the estimate leaves out, as printed in the report.
@@ -674,16 +676,17 @@ def _comparison(data: dict[str, Any], figure: bytes | None, heading: str) -> str
     rank_by = comp.get("rank_by", "keepout")
     place = ranked_place(rank_by)
     # The value the ranking is by comes first after the description.
-    keepout_head = [f"keep-out {key}" for key in keys.values()]
-    zone_head = [f"zone area at {_e(where)}"]
-    if place is not None:
-        middle_head = [f"at {_e(place)} (ranked by)", *keepout_head, *zone_head]
-    elif rank_by == "zone-area":
-        middle_head = [f"{zone_head[0]} (ranked by)", *keepout_head]
-    else:
-        middle_head = [*keepout_head, *zone_head]
-    header = ["#", "option", "description", *middle_head]
-    header += ["leakage at 5 cm", "worst named place"]
+    groups = ranked_columns(rank_by)
+    heads = {
+        "place": [f"at {_e(place)}"],
+        "keepout": [f"keep-out {key}" for key in keys.values()],
+        "zone": [f"zone area at {_e(where)}"],
+    }
+    if rank_by != "keepout":
+        heads[groups[0]] = [f"{heads[groups[0]][0]} (ranked by)"]
+    header = ["#", "option", "description", *(h for g in groups for h in heads[g])]
+    leaks = shows_leakage(comp["options"])
+    header += [*(["leakage at 5 cm"] if leaks else []), "worst named place"]
     rows = []
     for row in comp["options"]:
         k = {e["limit"]: e for e in row["keepout"]}
@@ -698,17 +701,17 @@ def _comparison(data: dict[str, Any], figure: bytes | None, heading: str) -> str
         zone_cells = [
             _num(max(row["zone_area_with_uncertainty_m2"].values(), default=0.0)) + "&nbsp;m²"
         ]
+        place_cells = []
         if place is not None:
             density, change = place_cell(row, place)
             text = _density(density)
             if not row["is_base"]:
                 text += f"<br>{_e(change_text(change))}"
-            cells += [text, *keepout_cells, *zone_cells]
-        elif rank_by == "zone-area":
-            cells += zone_cells + keepout_cells
-        else:
-            cells += keepout_cells + zone_cells
-        cells.append(_density(row["leakage_5cm_w_m2"]))
+            place_cells = [text]
+        values = {"place": place_cells, "keepout": keepout_cells, "zone": zone_cells}
+        cells += [c for g in groups for c in values[g]]
+        if leaks:
+            cells.append(_density(row["leakage_5cm_w_m2"]))
         wp = row["worst_point"]
         cells.append(
             "–"

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import textwrap
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -404,6 +404,25 @@ def pair_text(power_density_w_m2: float | None, digits: int = 3) -> str:
 def ranked_place(rank_by: str) -> str | None:
     """The named place a ranking is by (``place:NAME``), or None."""
     return rank_by.removeprefix("place:") if rank_by.startswith("place:") else None
+
+
+def ranked_columns(rank_by: str) -> tuple[str, ...]:
+    """The groups of an option table's value columns, the one ranked by first.
+
+    ``"place"`` (the ranked place's density and change), ``"keepout"`` (one column a
+    limit) and ``"zone"`` (the zone area); a ranking by a place keeps the other two after
+    it, a ranking by zone area drops nothing but moves the zone first.
+    """
+    if ranked_place(rank_by) is not None:
+        return ("place", "keepout", "zone")
+    if rank_by == "zone-area":
+        return ("zone", "keepout")
+    return ("keepout", "zone")
+
+
+def shows_leakage(options: Sequence[dict[str, Any]]) -> bool:
+    """Whether an option table has a leakage column: some variant has an enclosure."""
+    return any(row["leakage_5cm_w_m2"] is not None for row in options)
 
 
 def place_cell(row: dict[str, Any], name: str) -> tuple[float | None, float | None]:

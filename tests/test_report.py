@@ -115,6 +115,14 @@ def test_report_has_no_external_resource(assessed):
     assert "@media print" in html
 
 
+def test_option_table_has_a_leakage_column_only_with_an_enclosure(assessed):
+    # No enclosure in this scenario: the report's option table, like compare's text, has
+    # no column of dashes for the leakage 5 cm from a box.
+    *_, html = assessed
+    assert "4. Options compared" in html and "lower power" in html
+    assert "leakage at 5" not in html
+
+
 def test_terminal_summary(assessed):
     _, data, _, _ = assessed
     text = summary_text(data, ["out/report.html"])
