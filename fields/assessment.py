@@ -32,12 +32,7 @@ from keepclear.antennas.base import ModelRangeWarning
 
 from . import limits as limits_mod
 from . import maps
-from .arguments import (  # noqa: F401 - re-exported: the argument checks' former home
-    COORDINATE_BOUND_M,
-    SMALLEST_GRID_M,
-    check_grid_ranges,
-    check_height,
-)
+from .arguments import check_grid_ranges, check_height
 from .cautions import CAUTION_TEXT
 from .compare import Comparison, start_option_searches
 from .errors import InputError, LimitError, ResourceError

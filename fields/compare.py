@@ -52,7 +52,7 @@ import numpy as np
 from keepclear.antennas.memo import sharing_evaluations
 
 from . import maps, shield
-from .arguments import RANK_CHOICES, check_rank_by_names  # noqa: F401 - RANK_CHOICES re-exported
+from .arguments import check_rank_by_names
 from .cautions import CAUTION_TEXT
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
@@ -246,28 +246,6 @@ def leakage_5cm_w_m2(scenario: Scenario) -> float | None:
 
     block = enclosure_leakage(scenario, limit_ids=())
     return None if block is None else block["leakage_5cm_w_m2"]
-
-
-def _largest(value: Any) -> float | None:
-    """The largest density in what ``face_density_5cm`` returns [W m^-2].
-
-    A list of per-face records (``{"face", "power_density_w_m2", ...}``), one such
-    record, a mapping of face to value, an array, or a number.
-    """
-    if isinstance(value, dict):
-        if "power_density_w_m2" in value:
-            return _largest(value["power_density_w_m2"])
-        numbers = [n for n in (_largest(v) for v in value.values()) if n is not None]
-        return max(numbers) if numbers else None
-    if isinstance(value, (list, tuple)) and value and all(isinstance(v, dict) for v in value):
-        numbers = [n for n in (_largest(v) for v in value) if n is not None]
-        return max(numbers) if numbers else None
-    try:
-        arr = np.atleast_1d(np.asarray(value, dtype=float))
-    except (TypeError, ValueError):
-        return None
-    arr = arr[np.isfinite(arr)]
-    return float(arr.max()) if arr.size else None
 
 
 def place_values(

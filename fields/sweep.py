@@ -74,17 +74,6 @@ def _entry_index(entries: list[Any], table: str, selector: str) -> int | None:
     return None
 
 
-def set_key(document: dict[str, Any], key: str) -> Callable[[dict[str, Any], Any], None]:
-    """A setter of ``key`` (the sweep's dotted path) for copies of ``document``.
-
-    Raises
-    ------
-    ValueError
-        With a sentence saying what the path may be, when ``key`` names nothing.
-    """
-    return _target(document, key)[0]
-
-
 def _target(
     document: dict[str, Any], key: str
 ) -> tuple[Callable[[dict[str, Any], Any], None], str, str]:

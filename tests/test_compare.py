@@ -17,7 +17,6 @@ from typer.testing import CliRunner
 from keepclear.fields.cli import app
 from keepclear.fields.compare import (
     RANK_TOLERANCE,
-    _largest,
     compare_options,
     comparison_table,
 )
@@ -217,19 +216,6 @@ def test_demo_options_scenario_ranks_and_renders():
     # No enclosure: no leakage column; isotropic and wire models state no gain uncertainty,
     # so no keep-out is widened and no bracket is explained.
     assert "leak 5 cm" not in table and "Keep-out in brackets" not in table
-
-
-def test_largest_reads_floats_arrays_and_mappings():
-    assert _largest(2.5) == 2.5
-    assert _largest(np.array([1.0, 3.0, np.nan])) == 3.0
-    assert _largest({"front": 0.2, "door": {"gap": 0.7}}) == 0.7
-    # The enclosure model's per-face records: the density, not the coordinates.
-    faces = [
-        {"face": "+x", "power_density_w_m2": 0.3, "position_m": [9.0, 0.0, 0.0]},
-        {"face": "-x", "power_density_w_m2": 1.2, "position_m": [-9.0, 0.0, 0.0]},
-    ]
-    assert _largest(faces) == 1.2
-    assert _largest("not a number") is None
 
 
 def _shield_box_scenario() -> str:
