@@ -32,7 +32,7 @@ from keepclear.antennas.base import ModelRangeWarning
 
 from . import limits as limits_mod
 from . import maps
-from .arguments import check_grid_ranges, check_height
+from .arguments import check_grid_ranges, check_height, option_error
 from .cautions import CAUTION_TEXT
 from .compare import Comparison, start_option_searches
 from .errors import InputError, LimitError, ResourceError
@@ -138,10 +138,7 @@ def select_option(scenario: Scenario, option: str | None) -> Scenario:
     for o in scenario.options:
         if o.name == option:
             return o.scenario
-    names = ", ".join(repr(o.name) for o in scenario.options) or "none (no [[option]])"
-    raise InputError(
-        f"no option named {option!r}; the scenario's options: {names}", "argument", "--option"
-    )
+    raise option_error(option, [o.name for o in scenario.options])
 
 
 #: A sweep given to the API: ``"KEY=V1,V2,..."`` as on the command line, or ``(key, values)``.

@@ -108,7 +108,6 @@ from keepclear.antennas.base import ETA0_OHM
 
 from .arguments import CUSTOM_PREFIX, LIMIT_FILES, unknown_limit_message
 from .errors import LimitError
-from .validate import suggest
 
 __all__ = [
     "LIMIT_IDS",
@@ -940,12 +939,9 @@ def get_limit(limit_id: str) -> Limit:
     """
     if isinstance(limit_id, str) and limit_id in _BY_ID:
         return _BY_ID[limit_id]
-    word = limit_id if isinstance(limit_id, str) else repr(limit_id)
-    raise LimitError(
-        f"unknown limit id {word!r}"
-        + (suggest(word, LIMIT_IDS) if isinstance(limit_id, str) else "")
-        + f"; known ids: {', '.join(LIMIT_IDS)}"
-    )
+    if isinstance(limit_id, str):
+        raise LimitError(unknown_limit_message(limit_id, LIMIT_IDS))
+    raise LimitError(f"unknown limit id {repr(limit_id)!r}; known ids: {', '.join(LIMIT_IDS)}")
 
 
 def all_limits() -> tuple[Limit, ...]:

@@ -790,12 +790,7 @@ def _scenario_from_document(document: dict[str, Any], source: str, allow_options
             _TOP_KEYS if allow_options else tuple(k for k in _TOP_KEYS if k not in _VARIANT_KEYS)
         )
         if key not in allowed:
-            raise root.error(
-                key,
-                "is not a known top-level key"
-                + suggest(key, allowed)
-                + f"; allowed: {', '.join(allowed)}",
-            )
+            raise root.unknown_key(key, "is not a known top-level key", allowed)
     name = root.string("name", Path(source).stem)
     frequency = root.number(
         "frequency_hz",
@@ -861,12 +856,7 @@ def _merge_option(base: dict[str, Any], option: Table) -> dict[str, Any]:
             continue
         if key not in _TOP_KEYS or key in _VARIANT_KEYS:
             allowed = [k for k in _TOP_KEYS if k not in _VARIANT_KEYS] + ["name", "description"]
-            raise option.error(
-                key,
-                "is not a key an option may override"
-                + suggest(key, allowed)
-                + f"; allowed: {', '.join(allowed)}",
-            )
+            raise option.unknown_key(key, "is not a key an option may override", allowed)
         if key == "source":
             merged["source"] = _merge_sources(merged.get("source", []), value, option)
         elif key == "enclosure" and isinstance(value, dict) and isinstance(merged.get(key), dict):
