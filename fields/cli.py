@@ -398,17 +398,6 @@ def _load(path: Path, document: dict[str, Any] | None = None):  # noqa: ANN202
             return load_scenario(path, document)
 
 
-def parse_vector(text: str, option: str) -> np.ndarray:
-    """Three finite numbers ``X,Y,Z`` within the coordinate bound, from one argument.
-
-    Raises
-    ------
-    InputError
-        Naming ``option``, with the text given and how to write a negative first value.
-    """
-    return np.asarray(checks.vector_from_text(text, option), dtype=float)
-
-
 def _written_line(paths: list[Path]) -> None:
     for p in paths:
         typer.echo(f"wrote {p}", err=True)
@@ -725,9 +714,14 @@ def map_command(
         )
     checks.check_height(height_m)
     through_m = None if through is None else checks.vector_from_text(through, "--through")
-    if custom:
-        for text, name in ((origin, "--origin"), (u, "--u"), (v, "--v")):
-            checks.vector_from_text(text, name)  # type: ignore[arg-type]
+    axes = (
+        [
+            checks.vector_from_text(text, name)
+            for text, name in ((origin, "--origin"), (u, "--u"), (v, "--v"))
+        ]  # type: ignore[arg-type]
+        if custom
+        else []
+    )
     checks.check_grid_ranges(extent_m, step_m, pixels)
     document = _precheck(scenario, limit=limit, option=option)  # before the API is imported
     from . import maps
@@ -744,12 +738,7 @@ def map_command(
     loaded = api.select_option(loaded, option)
     ids = api.select_limits(loaded, limit)
     if custom:
-        the_plane = maps.custom_plane(
-            *(
-                parse_vector(text, name)
-                for text, name in ((origin, "--origin"), (u, "--u"), (v, "--v"))
-            )  # type: ignore[arg-type]
-        )
+        the_plane = maps.custom_plane(*(np.asarray(axis, dtype=float) for axis in axes))
     else:
         the_plane = api.map_plane(
             loaded,
