@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import functools
 import math
-import re
 import tomllib
 from collections.abc import Sequence
 from importlib import resources
@@ -148,21 +147,19 @@ def unknown_limit_message(limit_id: str, known: Sequence[str]) -> str:
     return f"unknown limit id {limit_id!r}{suggest(limit_id, known)}; known ids: {', '.join(known)}"
 
 
-_ID_LINE = re.compile(r'^id\s*=\s*"([^"\\]+)"\s*$', re.MULTILINE)
-
-
 @functools.cache
 def published_limit_ids() -> tuple[str, ...]:
     """The ids of the published limits, in contract order, read from the data files.
 
-    Only each ``[[limit]]``'s ``id = "..."`` line is read (about a millisecond);
-    :mod:`keepclear.fields.limits` reads the whole tables, and a test checks that both
-    give the same ids.
+    The files are parsed as TOML and only each ``[[limit]]``'s ``id`` is taken (about
+    10 ms, and no numpy); :mod:`keepclear.fields.limits` builds the whole tables, and a
+    test checks that both give the same ids.
     """
     folder = resources.files("keepclear.fields") / "data" / "limits"
     ids: list[str] = []
     for name in LIMIT_FILES:
-        ids += _ID_LINE.findall((folder / name).read_text(encoding="utf-8"))
+        document = tomllib.loads((folder / name).read_text(encoding="utf-8"))
+        ids += [str(entry["id"]) for entry in document.get("limit", [])]
     return tuple(ids)
 
 
