@@ -6,6 +6,19 @@ import os
 import sys
 from typing import Any
 
+#: Environment variable: seconds a stage runs before its bar is shown (default 1; for tests
+#: and for anyone who wants the bars at once).
+AFTER_VARIABLE = "KEEPCLEAR_PROGRESS_AFTER_S"
+
+
+def _show_after_s() -> float:
+    """The delay before a stage's bar shows: :data:`AFTER_VARIABLE`, else 1 s."""
+    try:
+        value = float(os.environ.get(AFTER_VARIABLE, "1.0"))
+    except ValueError:
+        return 1.0
+    return value if value >= 0 else 1.0
+
 
 class Progress:
     """Progress bars on stderr (rich) for stages that take over a second; none off a TTY.
@@ -19,6 +32,7 @@ class Progress:
         import threading
 
         self.enabled = sys.stderr.isatty() and not os.environ.get("KEEPCLEAR_NO_PROGRESS")
+        self.after_s = _show_after_s()
         self._bar: Any = None
         self._lock = threading.Lock()
 
@@ -61,7 +75,7 @@ class Progress:
 
         def update(done: int, total: int) -> None:
             if not task:
-                if time.monotonic() - start < 1.0:
+                if time.monotonic() - start < self.after_s:
                     return
                 task.append(self._progress_bar().add_task(label, total=total))
             self._progress_bar().update(task[0], completed=done, total=total)
@@ -73,7 +87,7 @@ class Progress:
             def show() -> None:
                 shown.append(self._progress_bar().add_task(label, total=None))
 
-            timer = threading.Timer(1.0, show)
+            timer = threading.Timer(self.after_s, show)
             timer.daemon = True
             timer.start()
             try:
