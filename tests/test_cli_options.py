@@ -19,6 +19,7 @@ from keepclear.fields import assessment as api
 from keepclear.fields.compare import RANK_TOLERANCE
 from keepclear.fields.describe import reactive_near_field_m, sources_text
 from keepclear.fields.report import verification_sentences
+from keepclear.fields.report_text import pair_text
 
 from ._cli import assert_clean_exit, one_error_line, run, run_once, strict_json, validate
 
@@ -472,10 +473,12 @@ def test_compare_table_ranked_by_a_place_shows_that_place(options_file):
     )
     lines = result.stdout.splitlines()
     start = next(n for n, line in enumerate(lines) if line.startswith("rank ")) + 2
-    for row, line in zip(data["options"], lines[start:], strict=False):
+    rows = lines[start : start + len(data["options"])]
+    assert len(rows) == len(data["options"]) and all(r.strip() for r in rows)
+    for row, line in zip(data["options"], rows, strict=True):
         door = next(p for p in row["places"] if p["name"] == "door")
         w_m2 = door["power_density_w_m2"]
-        assert f"{w_m2:.3g} ({w_m2 / 10:.3g})" in line
+        assert pair_text(w_m2) in line  # W/m2 (mW/cm2), as the table writes numbers
         if row["is_base"]:
             assert " base " in line
         else:
