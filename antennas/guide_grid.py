@@ -26,7 +26,7 @@ launcher, those currents set the field.  Here the whole guide is solved by the
   equal-area rule, Ludwig [2]_), the axial wires the largest radius NEC-2's thin-wire
   kernel allows; every radius is capped at a quarter of its own segment and 0.4 of the
   shortest segment meeting it at either end, the probe's included
-  (:data:`GUIDE_NEIGHBOUR_RADIUS_PER_LENGTH`, the horn's bound; see
+  (:data:`NEIGHBOUR_RADIUS_PER_LENGTH`, as for the horn; see
   :mod:`keepclear.antennas.moment`);
 * with ``flange_m = [w, h]`` the flange is a thin perfectly conducting plate in the
   aperture plane z = 0, w along x and h along y, centred on the opening, gridded by the
@@ -169,12 +169,14 @@ CELL_WAVELENGTHS: Final[float] = moment.MAX_SEGMENT_WAVELENGTHS
 #: :data:`CELL_WAVELENGTHS` so that the walls hold the guided wave in (module docstring,
 #: "The walls must shield"); the flange plate beyond the rim keeps :data:`CELL_WAVELENGTHS`.
 WALL_CELL_WAVELENGTHS: Final[float] = 1.0 / 12.0
-#: Largest radius of an open guide's grid wire as a fraction of the shortest neighbour
-#: meeting it, the launcher probe included (the horn's bound,
-#: :data:`HORN_NEIGHBOUR_RADIUS_PER_LENGTH`: a neighbour's centre, its match point, stays
-#: outside the wire); its own segment caps it at a quarter
-#: (:data:`keepclear.antennas.moment.MAX_RADIUS_PER_LENGTH`).
-GUIDE_NEIGHBOUR_RADIUS_PER_LENGTH: Final[float] = 0.4
+#: Largest radius of a guide's or a horn's grid wire as a fraction of the shortest
+#: neighbour meeting it, the launcher probe included (a neighbour's centre, its match
+#: point, stays outside the wire); its own segment caps it at a quarter
+#: (:data:`keepclear.antennas.moment.MAX_RADIUS_PER_LENGTH`).  Both grids have short
+#: segments at junctions (the horn's ring wires split at the symmetry planes, the throat's
+#: and the short's rings three times finer than the feed's); a quarter of those thinned the
+#: wires meeting them to a leaky grid (GridHorn, Notes).
+NEIGHBOUR_RADIUS_PER_LENGTH: Final[float] = 0.4
 #: Probe length, in units of the narrow dimension b.
 PROBE_LENGTH_PER_NARROW: Final[float] = 0.6
 #: Probe segment, in wavelengths, and its radius [m] (a launcher antenna's thickness).
@@ -509,7 +511,7 @@ class GridOpenWaveguide(_SolvedOpening):
         s, e = np.vstack([s, pa]), np.vstack([e, pb])
         radii = np.concatenate([radii, np.full(n_probe, PROBE_RADIUS_M)])
         # Caps against every neighbour, the probe's base included; the probe keeps its own.
-        capped = _cap_radii(s, e, radii, GUIDE_NEIGHBOUR_RADIUS_PER_LENGTH)
+        capped = _cap_radii(s, e, radii, NEIGHBOUR_RADIUS_PER_LENGTH)
         radii = np.concatenate([capped[:feed], radii[feed:]])
         return moment.WireStructure.from_segments(s, e, radii, feed)
 
@@ -543,8 +545,8 @@ def _cap_radii(
     NEC-2's thin-wire kernel needs every segment several radii long (a quarter: Burke &
     Poggio, part III), and a neighbour at a junction must leave the wire's volume before
     its own match point, its centre (``neighbour_fraction`` below 0.5; NEC-2 refuses a
-    segment whose centre lies inside another wire).  The open guide keeps a quarter for
-    both; the horn relaxes the neighbour's share (:data:`HORN_NEIGHBOUR_RADIUS_PER_LENGTH`).
+    segment whose centre lies inside another wire).  The open guide and the horn both
+    relax the neighbour's share to :data:`NEIGHBOUR_RADIUS_PER_LENGTH`.
     """
     n = starts_m.shape[0]
     length = np.linalg.norm(ends_m - starts_m, axis=1)
@@ -569,12 +571,6 @@ HORN_FEED_GUIDE_WAVELENGTHS: Final[float] = 0.7
 #: quarter; the engine's own bound,
 #: :data:`keepclear.antennas.moment.MAX_SYMMETRIC_SEGMENTS`, leaves room above it).
 HORN_MAX_SEGMENTS: Final[int] = 10500
-#: Largest radius of a horn grid wire as a fraction of the shortest neighbour meeting it
-#: (its own segment: a quarter, :data:`keepclear.antennas.moment.MAX_RADIUS_PER_LENGTH`).
-#: The horn's grid has short segments at every junction (the ring wires split at the two
-#: symmetry planes, the throat's and the short's rings three times finer than the feed's);
-#: a quarter of those thinned the wires meeting them to a leaky grid (GridHorn, Notes).
-HORN_NEIGHBOUR_RADIUS_PER_LENGTH: Final[float] = 0.4
 #: Keep-out margin [dB] of the horn: the largest error in front against openEMS v0.0.35
 #: (horn-wr340, -0.85 dB).
 HORN_GAIN_UNCERTAINTY_DB: Final[float] = 0.9
@@ -760,7 +756,7 @@ class GridHorn(_SolvedOpening):
     * the short, where the guided wave's H (the wall current) is largest, has the
       throat's fine cells;
     * a radius is capped at a quarter of its own segment and 0.4 of the shortest
-      neighbour (:data:`HORN_NEIGHBOUR_RADIUS_PER_LENGTH`; a neighbour's centre, its
+      neighbour (:data:`NEIGHBOUR_RADIUS_PER_LENGTH`; a neighbour's centre, its
       match point, stays outside the wire).
 
     An earlier grid (rings every lambda/10 along the whole flare, one radius lambda/(20 pi)
@@ -948,7 +944,7 @@ class GridHorn(_SolvedOpening):
             )
             spacing = np.where(plate, across, spacing)
         radii = np.concatenate([spacing / (2.0 * np.pi), np.full(2 * n_probe, PROBE_RADIUS_M)])
-        radii = _cap_radii(whole_s, whole_e, radii, HORN_NEIGHBOUR_RADIUS_PER_LENGTH)
+        radii = _cap_radii(whole_s, whole_e, radii, NEIGHBOUR_RADIUS_PER_LENGTH)
         radii = radii[: s.shape[0] + n_probe]
         s, e = np.vstack([s, pa]), np.vstack([e, pb])
         quarter = (np.minimum(s[:, 0], e[:, 0]) >= -1e-12) & (
