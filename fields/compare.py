@@ -54,6 +54,7 @@ from keepclear.antennas.memo import sharing_evaluations
 from . import maps, shield
 from .arguments import check_rank_by_names
 from .cautions import CAUTION_TEXT
+from .diffraction import RECTANGLE_RIPPLE
 from .field import evaluate
 from .keepout import KeepoutResult, keepout_distances
 from .report_text import (
@@ -346,9 +347,10 @@ def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
     if shield.shields_differ(v.scenario.shields, base.scenario.shields) and (
         v.scenario.average_power_w <= base.scenario.average_power_w
     ):
+        ripple_db = 20 * math.log10(RECTANGLE_RIPPLE)
         note += (
-            ": the sheet's edge diffraction beside it (up to +2.84 dB in the light); "
-            "widen the sheet or move it"
+            f": the sheet's edge diffraction beside it (up to +{ripple_db:.2f} dB in the "
+            "light); widen the sheet or move it"
         )
     return keepout, raised, note
 

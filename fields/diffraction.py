@@ -86,6 +86,14 @@ from scipy import special
 
 #: K(+infinity) = C(inf) - j S(inf).
 K_INFINITY: Final[complex] = 0.5 - 0.5j
+#: Largest field a thin opaque rectangle lets through beside it, relative to no sheet:
+#: max |1 - A| of the Fresnel-Kirchhoff rectangle factor A (the Babinet complement of the
+#: aperture; Born & Wolf, *Principles of Optics*, 7th ed., sec. 8.7, from memory) over
+#: every set of edge parameters: 1.3863 (2.84 dB), one edge 1.21 outside and the other
+#: dimension 2.5 Fresnel units wide (found on a grid of the exact Fresnel integrals and
+#: refined by Nelder-Mead; held with 1e-3 to spare, tests/test_shield.py).  A sheet can
+#: raise the field beside its edges by this much, in the light, and no more.
+RECTANGLE_RIPPLE: Final[float] = 1.3873
 #: Largest |nu| kept (beyond it the Fresnel integrals are at their limits to 1e-7).
 NU_LIMIT: Final[float] = 1e6
 #: Shortest leg length used in nu (a point on the plane itself) [m].
@@ -407,6 +415,7 @@ def largest_over_corners(
 __all__ = [
     "K_INFINITY",
     "NU_LIMIT",
+    "RECTANGLE_RIPPLE",
     "RectangleCrossing",
     "cube_offsets",
     "edge_tail",

@@ -41,7 +41,8 @@ What is and is not modelled, in order of importance:
   scattered by the sheet beyond the Fresnel-Kirchhoff model.  An added shield never
   lowers the field on the source side, and raises it on the far side only by the
   Fresnel ripple beside an edge (at most 2.84 dB, the largest |1 - A| of the
-  Fresnel-Kirchhoff rectangle factor over all edge parameters; tests/test_shield.py).
+  Fresnel-Kirchhoff rectangle factor over all edge parameters,
+  :data:`keepclear.fields.diffraction.RECTANGLE_RIPPLE`).
 """
 
 from __future__ import annotations

@@ -11,6 +11,7 @@ from hypothesis import strategies as st
 
 from keepclear.antennas.base import C_M_S, ModelInputError
 from keepclear.fields import shielding as sh
+from keepclear.fields.diffraction import RECTANGLE_RIPPLE
 from keepclear.fields.errors import ScenarioError
 from keepclear.fields.field import evaluate
 from keepclear.fields.scenario_tables import shield_from_table
@@ -284,15 +285,6 @@ def test_unknown_metal_lists_known_ones() -> None:
 # ------------------------------------------------------------
 # Physical properties over random scenarios (hypothesis). The laws and their sources
 # are listed in tests/_property_strategies.py.
-
-
-#: Largest field a thin opaque rectangle lets through beside it, relative to no sheet:
-#: max |1 - A| of the Fresnel-Kirchhoff rectangle factor A (the Babinet complement of
-#: the aperture; Born & Wolf, *Principles of Optics*, 7th ed., sec. 8.7, from memory)
-#: over every set of edge parameters: 1.3863 (2.84 dB) one edge 1.21 outside and the
-#: other dimension 2.5 Fresnel units wide (found here on a grid of the exact Fresnel
-#: integrals and refined by Nelder-Mead); held with 1e-3 to spare.
-RECTANGLE_RIPPLE = 1.3873
 
 
 def test_rectangle_ripple_bound():
