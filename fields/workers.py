@@ -66,10 +66,11 @@ def _cores() -> int:
 def worker_count() -> int:
     """How many pieces run at once: ``KEEPCLEAR_WORKERS`` or one per core (at most 4).
 
-    A value of ``KEEPCLEAR_WORKERS`` that is not a whole number from 1 is ignored with
-    a warning.  Without fork (see the module notes) the answer is 1.
+    A value of ``KEEPCLEAR_WORKERS`` that is not a whole number from 1 is ignored with a
+    warning.  Without fork (see the module notes), and in a worker process itself (no
+    children of children), the answer is 1.
     """
-    if not _can_fork():
+    if _IN_CHILD or not _can_fork():
         return 1
     text = os.environ.get(WORKERS_VARIABLE, "").strip()
     if text:
@@ -85,6 +86,10 @@ def worker_count() -> int:
             stacklevel=2,
         )
     return max(1, min(MAX_WORKERS, _cores()))
+
+
+#: Set in a forked child: pieces of work there run one after the other, in it.
+_IN_CHILD = False
 
 
 def _can_fork() -> bool:
@@ -132,9 +137,10 @@ def start_each(tasks: Sequence[Callable[[], T]], workers: int | None = None) -> 
     :func:`run_each`.
     """
     tasks = list(tasks)
-    if not tasks or worker_count() <= 1 or not _can_fork():
+    available = worker_count()
+    if not tasks or available <= 1 or not _can_fork():
         return Pending(tasks, None)
-    k = min(max(1, worker_count() if workers is None else int(workers)), len(tasks))
+    k = min(max(1, available if workers is None else int(workers)), len(tasks))
     return Pending(tasks, [list(range(j, len(tasks), k)) for j in range(k)], k)
 
 
@@ -147,7 +153,12 @@ _FAILED = "keepclear-piece-failed"
 
 
 def _child(tasks: Sequence[Callable[[], Any]], path: str) -> None:  # pragma: no cover
-    """In a forked child: run ``tasks``, write [(result, warnings)] to ``path``, exit."""
+    """In a forked child: run ``tasks``, write [(result, warnings)] to ``path``, exit.
+
+    A child starts no children of its own (:func:`worker_count` is 1 in it).
+    """
+    global _IN_CHILD
+    _IN_CHILD = True
     code = 1
     try:
         out: list[Any] = []

@@ -157,6 +157,11 @@ def test_warnings_of_the_pieces_are_given_in_order(n: int) -> None:
     assert [str(w.message) for w in caught] == ["first", "second"]
 
 
+def test_a_child_starts_no_children_of_its_own() -> None:
+    assert workers.worker_count() == 2  # the autouse fixture's
+    assert workers.run_each([workers.worker_count, workers.worker_count], workers=2) == [1, 1]
+
+
 def test_worker_count_from_the_environment(monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setenv(workers.WORKERS_VARIABLE, "3")
     assert workers.worker_count() == (3 if LINUX else 1)
@@ -170,9 +175,18 @@ def test_options_compared_in_workers_match_one_process(monkeypatch: pytest.Monke
     """The bundled test-cell options, in two workers and in one: the same answers."""
     scenario = load_scenario(ROOT / "scenarios" / "test-cell-options.toml")
     answers = []
+    real_fork = os.fork
+    forks: dict[str, int] = {"1": 0, "2": 0}
     for n in ("1", "2"):
         monkeypatch.setenv(workers.WORKERS_VARIABLE, n)
+
+        def counting_fork(n: str = n) -> int:
+            forks[n] += 1
+            return real_fork()
+
+        monkeypatch.setattr(workers.os, "fork", counting_fork)
         c = compare_options(scenario, pixels=61)
+        monkeypatch.setattr(workers.os, "fork", real_fork)
         answers.append(
             (
                 [v.name for v in c.variants],
@@ -181,6 +195,8 @@ def test_options_compared_in_workers_match_one_process(monkeypatch: pytest.Monke
                 [v.places for v in c.variants],
             )
         )
+    # one worker forks nothing; two really ran the variants in children
+    assert forks["1"] == 0 and forks["2"] > 0, forks
     (names1, keep1, maps1, places1), (names2, keep2, maps2, places2) = answers
     assert names1 == names2
     np.testing.assert_allclose(keep2, keep1, rtol=1e-12)
