@@ -761,8 +761,8 @@ def map_plane(
         if through_m is not None:
             raise InputError("does not apply to --plane boresight", "argument", "--through")
         return maps.boresight_plane(scenario)
-    if plane in (None, "xy") and through_m is None and height_m is None:
-        return maps.source_height_plane(scenario)
+    if plane in (None, "xy") and through_m is None:
+        return maps.horizontal_plane(scenario, height_m)
     point = scenario.centre_m.copy() if through_m is None else np.array(through_m, dtype=float)
     if height_m is not None:
         point[2] = height_m
@@ -1147,10 +1147,7 @@ def step_maps(
     in the scenario come the maps at floor level and head height.
     """
     centre = scenario.centre_m
-    if height_m is None:
-        horizontal_plane = maps.source_height_plane(scenario)
-    else:
-        horizontal_plane = maps.principal_plane("xy", [centre[0], centre[1], float(height_m)])
+    horizontal_plane = maps.horizontal_plane(scenario, height_m)
     vertical_plane = maps.boresight_plane(scenario)
     kwargs = grid.as_kwargs()
     horizontal = maps.run_map(

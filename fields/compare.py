@@ -528,11 +528,12 @@ def compare_options(
     """
     ids = tuple(scenario.limit_ids if limit_ids is None else limit_ids)
     check_rank_by(scenario, rank_by)
-    height = maps.source_height_m(scenario)[0] if height_m is None else float(height_m)
-    if not math.isfinite(height):
+    if height_m is not None and not math.isfinite(height_m):
         from .errors import InputError
 
         raise InputError("must be a finite height in metres", "argument", "--height-m")
+    plane = maps.horizontal_plane(scenario, height_m)
+    height = plane.height_m
     variants = [("base", "the scenario as given", scenario)] + [
         (o.name, o.description, o.scenario) for o in scenario.options
     ]
@@ -559,11 +560,6 @@ def compare_options(
             )
     by_index = dict(zip(searched, found, strict=True))
     keepouts = [known if i not in by_index else by_index[i] for i in range(len(variants))]
-    centre = scenario.centre_m
-    if height_m is None:
-        plane = maps.source_height_plane(scenario)
-    else:
-        plane = maps.principal_plane("xy", [centre[0], centre[1], height])
     if half_extent_m is None:
         half_extent_m = max(
             maps.default_half_extent_m(s, k, plane)

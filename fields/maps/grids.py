@@ -283,6 +283,18 @@ def source_height_plane(scenario: Scenario) -> Plane:
     )
 
 
+def horizontal_plane(scenario: Scenario, height_m: float | None = None) -> Plane:
+    """The horizontal plane of a scenario's maps: at ``height_m``, or at source height.
+
+    Centred on the first source; without a height it is :func:`source_height_plane`
+    (named, and lifted off a probe's infinite ground), with one it is named after it.
+    """
+    if height_m is None:
+        return source_height_plane(scenario)
+    centre = scenario.centre_m
+    return principal_plane("xy", [centre[0], centre[1], float(height_m)])
+
+
 def boresight_plane(scenario: Scenario) -> Plane:
     """The vertical plane through the first source that holds its boresight.
 
