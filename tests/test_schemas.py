@@ -277,3 +277,12 @@ def test_schemas_allow_new_keys():
     validate("keepout", doc)
     assert validator("probe").is_valid(CONTRACT_EXAMPLES["probe"])
     assert schema("limits")["$id"].startswith("urn:keepclear:schema:")
+
+
+def test_the_enclosure_object_is_described_once():
+    """``keepout --json`` and ``assessment.json`` carry the same ``"enclosure"`` object.
+
+    JSON Schema files cannot share a definition here (each is packaged and read on its
+    own), so the two copies are held equal.
+    """
+    assert schema("keepout")["$defs"]["enclosure"] == schema("assessment")["$defs"]["enclosure"]
