@@ -312,7 +312,7 @@ def test_small_option_gets_its_own_lettered_panel(write_scenario):
     assert titles[0].startswith("(a) 1. one watt") and titles[1].startswith("(b) 2. base")
 
 
-def test_the_assessment_floor_map_serves_as_the_base_map_only_on_the_same_grid(write_scenario):
+def test_the_assessment_horizontal_map_serves_as_the_base_map_only_on_the_same_grid(write_scenario):
     # The base's map is reused when it has exactly the samples the comparison would
     # take; the comparison is then the one made afresh (up to float rounding: the same
     # evaluation either way), and a map on another grid is not used.

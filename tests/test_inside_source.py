@@ -14,7 +14,7 @@ import pytest
 
 import keepclear as kc
 from keepclear.antennas.aperture import OpenWaveguide
-from keepclear.antennas.base import C_M_S, Placement
+from keepclear.antennas.base import C_M_S, ModelRangeWarning, Placement
 from keepclear.antennas.horn import PyramidalHorn
 from keepclear.antennas.isotropic import IsotropicSource
 from keepclear.antennas.waveguide import waveguide_dimensions
@@ -290,6 +290,6 @@ def test_maps_of_a_whip_on_infinite_ground_draw_no_zone_along_the_ground(write_s
 
 def test_probing_behind_an_infinite_ground_plane_warns(write_scenario):
     scenario = load_scenario(write_scenario(ROOF_WHIP))
-    with pytest.warns(Warning, match="behind the infinite ground plane of source 'whip'"):
+    with pytest.warns(ModelRangeWarning, match="behind the infinite ground plane of source 'whip'"):
         result = kc.probe(scenario, [[1.0, 0.0, 1.5], [1.0, 0.0, 1.7]])
     assert result.to_dict()["points"][0]["power_density_w_m2"] == 0.0
