@@ -798,7 +798,7 @@ coherent sum; the coherent mode sums phasors and shows the standing waves.</dd>
 <dd>The radius, about the first source’s reference point, of the smallest sphere holding
 every point where the time-averaged quotient reaches one: rays in about 400 quasi-uniform
 directions (golden-spiral lattice) plus the radiators’ axes, sampled outwards (λ/16 near
-the source, growing 3 % a step), the outermost exceedance kept and bisected to 10⁻⁴, the
+the source, growing 3 % a step), the outermost exceedance kept and narrowed to 10⁻⁴, the
 farthest rays refined twice with denser caps. Where a source model states a gain
 uncertainty u, the search is repeated at a quotient of 10<sup>−u/10</sup> (“with model
 uncertainty”, the figure to mark out).</dd>
