@@ -259,21 +259,16 @@ def rectangle_crossing(
     c = np.abs(b - a) / length
     l1 = np.maximum(frac * length, _MIN_LEG_M)
     l2 = np.maximum((1 - frac) * length, _MIN_LEG_M)
-    edges = (  # (signed distance of the crossing inside the edge, the edge's offset, axis)
-        (half_width_m - xu, half_width_m, 0),
-        (half_width_m + xu, -half_width_m, 0),
-        (half_height_m - xv, half_height_m, 1),
-        (half_height_m + xv, -half_height_m, 1),
-    )
-    rows = np.empty((4, s.shape[0]))
-    for k, (inner, offset, axis) in enumerate(edges):
-        # across the edge line (distance from it) and along it, for the start and the end
-        across_s, along_s = (su, sv) if axis == 0 else (sv, su)
-        across_e, along_e = (eu, ev) if axis == 0 else (ev, eu)
-        excess = _edge_path_excess_m(
-            across_s - offset, a, across_e - offset, b, along_s - along_e, length
-        )
-        rows[k] = np.where(inner >= 0, 1.0, -1.0) * 2.0 * np.sqrt(excess / wavelength_m)
+    # the four edges at once, rows +width, -width, +height, -height: each edge is a line
+    # of constant u (or v) at the offset +-half size; across it (distance from the line,
+    # in the plane) and along it, for the start and the end
+    hw, hh = half_width_m, half_height_m
+    inner = np.stack([hw - xu, hw + xu, hh - xv, hh + xv])
+    across_s = np.stack([su - hw, su + hw, sv - hh, sv + hh])
+    across_e = np.stack([eu - hw, eu + hw, ev - hh, ev + hh])
+    along = np.stack([sv - ev, sv - ev, su - eu, su - eu])
+    excess = _edge_path_excess_m(across_s, a[None, :], across_e, b[None, :], along, length[None, :])
+    rows = np.where(inner >= 0, 1.0, -1.0) * 2.0 * np.sqrt(excess / wavelength_m)
     nu[:, crossing] = np.clip(rows, -NU_LIMIT, NU_LIMIT)
     cos_inc[crossing] = c
     d1[crossing] = l1

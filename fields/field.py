@@ -364,12 +364,28 @@ def _plate_shadows(  # noqa: ANN202
         return direct, images
     f_hz, source = scenario.frequency_hz, radiator.position_m
     extent = 0.5 * radiator.largest_dimension_m
-    direct = direct * reflection.plate_obstacle_factor(refl, source, points_m, f_hz, (), extent)
-    out = []
-    for k, (f, q) in enumerate(zip(images, bounces, strict=True)):
-        leg1 = reflection.plate_obstacle_factor(refl, source, q, f_hz, (k,), extent)
-        leg2 = reflection.plate_obstacle_factor(refl, q, points_m, f_hz, (k,))
-        out.append(f * leg1 * leg2)
+    n = points_m.shape[0]
+    # the products of reflection.plate_obstacle_factor, plate by plate in the same order;
+    # each plate is asked once for every ray from the source and once for every leg back
+    on_direct = np.ones(n)
+    leg1 = [np.ones(n) for _ in bounces]
+    leg2 = [np.ones(n) for _ in bounces]
+    for m, plate in enumerate(refl):
+        if not plate.is_obstacle:
+            continue
+        legs = [k for k in range(len(bounces)) if k != m]
+        ends = np.vstack([points_m, *(bounces[k] for k in legs)])
+        f = plate.obstacle_factor(source, ends, f_hz, extent)
+        on_direct *= f[:n]
+        for slot, k in enumerate(legs, start=1):
+            leg1[k] *= f[slot * n : (slot + 1) * n]
+        if legs:
+            starts = np.vstack([bounces[k] for k in legs])
+            g = plate.obstacle_factor(starts, np.tile(points_m, (len(legs), 1)), f_hz)
+            for slot, k in enumerate(legs):
+                leg2[k] *= g[slot * n : (slot + 1) * n]
+    direct = direct * on_direct
+    out = [f * a * b for f, a, b in zip(images, leg1, leg2, strict=True)]
     return direct, out
 
 
@@ -381,10 +397,22 @@ def _term_squares(
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """|E|^2 and |H|^2 of one term at points, reflections and shields included."""
     radiator = term.radiator
-    e, h = radiator_fields(radiator, points_m, chunk_bytes)
-    image_factors: list[NDArray[np.float64]] = []
     from . import reflection
 
+    images: list[tuple[NDArray, NDArray]] = []
+    if scenario.reflectors:
+        # the radiator asked once, for the points and every image's mirrored points
+        e, h, images = reflection.direct_and_reflected_fields(
+            radiator,
+            scenario.reflectors,
+            points_m,
+            scenario.frequency_hz,
+            order=2 if len(scenario.reflectors) > 1 else 1,
+            chunk_bytes=chunk_bytes,
+        )
+    else:
+        e, h = radiator_fields(radiator, points_m, chunk_bytes)
+    image_factors: list[NDArray[np.float64]] = []
     shaded = bool(scenario.shields) or reflection.has_obstacles(scenario.reflectors)
     if shaded:
         f, image_factors = _path_factors(scenario, radiator, points_m, len(scenario.reflectors))
@@ -393,10 +421,6 @@ def _term_squares(
     if not scenario.reflectors:
         return np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
 
-    order = 2 if len(scenario.reflectors) > 1 else 1
-    images = reflection.reflected_fields(
-        radiator, scenario.reflectors, points_m, scenario.frequency_hz, order=order
-    )
     if shaded:
         # First-order images: shield credit along the real path, source -> reflection
         # point -> field point (a sheet behind the plane is not on it).  Higher orders get

@@ -151,7 +151,8 @@ References
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+import functools
+from collections.abc import Sequence
 from dataclasses import dataclass
 from dataclasses import field as dataclass_field
 from typing import Final
@@ -194,10 +195,6 @@ REFLECTOR_KEYS: Final[tuple[str, ...]] = (
     "size_m",
     "up",
 )
-
-FieldFunction = Callable[
-    [NDArray[np.float64]], tuple[NDArray[np.complex128], NDArray[np.complex128]]
-]
 
 
 # --------------------------------------------------------------------------- Fresnel
@@ -589,11 +586,13 @@ class Reflector:
         return np.clip(t, 0.0, 1.0)
 
     # ------------------------------------------------------------ geometry
-    @property
+    @functools.cached_property
     def mirror_matrix(self) -> NDArray[np.float64]:
-        """Reflection matrix M = I - 2 n n^T (symmetric, det -1) [1]."""
+        """Reflection matrix M = I - 2 n n^T (symmetric, det -1) [1]; read-only."""
         n = self.normal
-        return np.eye(3) - 2.0 * np.outer(n, n)
+        m = np.eye(3) - 2.0 * np.outer(n, n)
+        m.setflags(write=False)
+        return m
 
     def signed_distance_m(self, points_m: ArrayLike) -> NDArray[np.float64]:
         """Signed distance of points (N, 3) from the plane, > 0 on the source side [m]."""
@@ -800,50 +799,56 @@ def _crossing(
     return points, good | both_on
 
 
-def _image_operator(
-    field: FieldFunction,
+def _image_transform(
+    e0: NDArray[np.complex128],
+    h0: NDArray[np.complex128],
+    points_m: NDArray[np.float64],
     reference_m: NDArray[np.float64],
     reflector: ReflectorModel,
     frequency_hz: float,
-) -> FieldFunction:
-    """The reflected field of ``field`` (reference point ``reference_m``) in one plane.
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+    """The reflected field at points p, given the incident field at the mirrored points.
 
-    The returned function evaluates, at points p on the source side,
-    the conductor image :math:`(-M E(\\mathcal M p), M H(\\mathcal M p))` scaled
-    per polarisation by the plane's factors at the angle of the ray from the image
-    reference point :math:`\\mathcal M s` to p.  No masking is done here.
+    With ``e0, h0`` the field of a source (reference point ``reference_m``) at
+    :math:`\\mathcal M p`, this is the conductor image
+    :math:`(-M E(\\mathcal M p), M H(\\mathcal M p))` scaled per polarisation by the
+    plane's factors at the angle of the ray from the image reference point
+    :math:`\\mathcal M s` to p.  No masking is done here.
     """
     m = reflector.mirror_matrix
     n = reflector.normal
+    e_img = -(e0 @ m)  # M is symmetric: rows @ M == (M @ rows.T).T
+    h_img = h0 @ m
+    if reflector.is_perfect_conductor:
+        return e_img, h_img
     image_ref = reflector.mirror_points(reference_m[None, :])[0]
-
-    def reflected(points_m: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
-        e0, h0 = field(reflector.mirror_points(points_m))
-        e_img = -(e0 @ m)  # M is symmetric: rows @ M == (M @ rows.T).T
-        h_img = h0 @ m
-        if reflector.is_perfect_conductor:
-            return e_img, h_img
-        ray = points_m - image_ref
-        dist = np.linalg.norm(ray, axis=1)
-        safe = np.where(dist > 0, dist, 1.0)
-        cos = np.where(dist > 0, np.abs(ray @ n) / safe, 1.0)
-        a_s, a_p = reflector.image_factors(frequency_hz, np.clip(cos, 0.0, 1.0))
-        if reflector.kind == "coefficient":
-            return e_img * a_s[:, None], h_img * a_s[:, None]
-        s_hat = np.cross(n, ray)
-        s_norm = np.linalg.norm(s_hat, axis=1)
+    ray = points_m - image_ref
+    dist = np.linalg.norm(ray, axis=1)
+    safe = np.where(dist > 0, dist, 1.0)
+    cos = np.where(dist > 0, np.abs(ray @ n) / safe, 1.0)
+    a_s, a_p = reflector.image_factors(frequency_hz, np.clip(cos, 0.0, 1.0))
+    if reflector.kind == "coefficient":
+        return e_img * a_s[:, None], h_img * a_s[:, None]
+    # n x ray, written out (np.cross's own products and differences, without its checks)
+    s_hat = np.column_stack(
+        [
+            n[1] * ray[:, 2] - n[2] * ray[:, 1],
+            n[2] * ray[:, 0] - n[0] * ray[:, 2],
+            n[0] * ray[:, 1] - n[1] * ray[:, 0],
+        ]
+    )
+    s_norm = np.linalg.norm(s_hat, axis=1)
+    ok = s_norm > 1e-12 * np.maximum(dist, 1e-300)
+    s_hat = s_hat / np.where(ok, s_norm, 1.0)[:, None]
+    if not ok.all():
         # At normal incidence a_s == a_p, so any direction across the normal will do.
         fallback = np.cross(n, [1.0, 0.0, 0.0] if abs(n[0]) < 0.9 else [0.0, 1.0, 0.0])
-        fallback = fallback / np.linalg.norm(fallback)
-        ok = s_norm > 1e-12 * np.maximum(dist, 1e-300)
-        s_hat = np.where(ok[:, None], s_hat / np.where(ok, s_norm, 1.0)[:, None], fallback)
-        es = np.sum(e_img * s_hat, axis=1)
-        hs = np.sum(h_img * s_hat, axis=1)
-        e_r = a_p[:, None] * e_img + ((a_s - a_p) * es)[:, None] * s_hat
-        h_r = a_s[:, None] * h_img + ((a_p - a_s) * hs)[:, None] * s_hat
-        return e_r, h_r
-
-    return reflected
+        s_hat[~ok] = fallback / np.linalg.norm(fallback)
+    es = np.sum(e_img * s_hat, axis=1)
+    hs = np.sum(h_img * s_hat, axis=1)
+    e_r = a_p[:, None] * e_img + ((a_s - a_p) * es)[:, None] * s_hat
+    h_r = a_s[:, None] * h_img + ((a_p - a_s) * hs)[:, None] * s_hat
+    return e_r, h_r
 
 
 def image_labels(reflectors: Sequence[ReflectorModel], order: int = 1) -> list[str]:
@@ -925,6 +930,78 @@ def reflected_fields(
     every reflection point are on the accessible side of all planes, and (second
     order) :math:`s_i` is on the source side of plane j.
     """
+    return _fields_and_images(radiator, reflectors, points_m, frequency_hz, order, False)[2]
+
+
+def direct_and_reflected_fields(
+    radiator: Radiator,
+    reflectors: Sequence[ReflectorModel],
+    points_m: ArrayLike,
+    frequency_hz: float,
+    order: int = 1,
+    chunk_bytes: int | None = None,
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128], list[tuple[NDArray, NDArray]]]:
+    """The radiator's own E and H at points, and :func:`reflected_fields`, in one go.
+
+    The same values as ``radiator_fields(radiator, points_m)`` and
+    :func:`reflected_fields`; the radiator is asked once, for the points and every
+    image's mirrored points together (one call costs the same fixed work as another,
+    whatever its size).  ``chunk_bytes`` is the radiator's memory budget for one chunk.
+
+    Returns
+    -------
+    e_v_m, h_a_m : ndarray, shape (N, 3), complex
+        The direct field [V/m], [A/m].
+    images : list of (e_v_m, h_a_m)
+        As :func:`reflected_fields` returns them.
+    """
+    e, h, images = _fields_and_images(
+        radiator, reflectors, points_m, frequency_hz, order, True, chunk_bytes
+    )
+    assert e is not None and h is not None  # asked for (direct=True)
+    return e, h, images
+
+
+def _aperture_factors(
+    reflectors: Sequence[ReflectorModel],
+    asked: Sequence[tuple[int, NDArray[np.float64], NDArray[np.float64]]],
+    frequency_hz: float,
+) -> list[NDArray[np.complex128]]:
+    """:meth:`Reflector.aperture_factor` for each (plate, start, ends) asked, in order.
+
+    The rays asked of one plate go to it in one call (the values are those of one call
+    a request: the factor is computed ray by ray).
+    """
+    out: list[NDArray[np.complex128]] = [np.empty(0, dtype=complex)] * len(asked)
+    for plate in sorted({k for k, _, _ in asked}):
+        mine = [n for n, (k, _, _) in enumerate(asked) if k == plate]
+        ends = [asked[n][2] for n in mine]
+        starts = [np.broadcast_to(asked[n][1], asked[n][2].shape) for n in mine]
+        a = reflectors[plate].aperture_factor(np.vstack(starts), np.vstack(ends), frequency_hz)
+        at = 0
+        for n, end in zip(mine, ends, strict=True):
+            out[n] = a[at : at + end.shape[0]]
+            at += end.shape[0]
+    return out
+
+
+def _fields_and_images(  # noqa: PLR0913
+    radiator: Radiator,
+    reflectors: Sequence[ReflectorModel],
+    points_m: ArrayLike,
+    frequency_hz: float,
+    order: int,
+    direct: bool,
+    chunk_bytes: int | None = None,
+) -> tuple[NDArray | None, NDArray | None, list[tuple[NDArray, NDArray]]]:
+    """The direct field (``direct``) and the images of :func:`reflected_fields`.
+
+    First the paths: where each image exists and the points at which it needs the
+    source's field (the field point mirrored in its last plane, then in its first);
+    then one evaluation of the radiator at all of them; then each image's conductor
+    image and plane factors (:func:`_image_transform`, last plane outermost) and the
+    plates' aperture factors.
+    """
     if order not in (1, 2):
         raise ValueError(f"order must be 1 or 2, got {order!r}")
     pts = as_points(points_m)
@@ -933,38 +1010,21 @@ def reflected_fields(
     source = np.asarray(radiator.position_m, dtype=float)
     _check_source_side(refl, source[None, :])
     inside = _accessible(refl, pts, exclude=())
-
-    def zeros() -> tuple[NDArray, NDArray]:
-        return np.zeros((n_pts, 3), dtype=complex), np.zeros((n_pts, 3), dtype=complex)
-
-    images: list[tuple[NDArray, NDArray]] = []
-
-    def field(points: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
-        # shared between the variants of a scenario (antennas/memo.py)
-        return radiator_fields(radiator, points)
-
-    first_ops = [_image_operator(field, source, r, frequency_hz) for r in refl]
     first_refs = [r.mirror_points(source[None, :]) for r in refl]
 
+    # (first plane i or None, last plane j, where the image exists, points in plane j)
+    paths: list[tuple[int | None, int, NDArray[np.bool_] | None]] = []
+    valid: NDArray[np.bool_] | None
     for j, rj in enumerate(refl):
-        e, h = zeros()
         q_j, met = _crossing(rj, np.broadcast_to(first_refs[j], pts.shape), pts)
-        valid = inside & met & _accessible(refl, q_j, exclude=(j,))
-        if valid.any():
-            e[valid], h[valid] = first_ops[j](pts[valid])
-            if rj.is_finite:
-                a = rj.aperture_factor(first_refs[j], pts[valid], frequency_hz)
-                e[valid] *= a[:, None]
-                h[valid] *= a[:, None]
-        images.append((e, h))
-
+        paths.append((None, j, inside & met & _accessible(refl, q_j, exclude=(j,))))
     if order == 2:
         for i, ri in enumerate(refl):
             s_i = first_refs[i]
             for j, rj in enumerate(refl):
                 if i == j:
                     continue
-                e, h = zeros()
+                valid = None
                 d_ij = float(rj.signed_distance_m(s_i)[0])
                 # an infinite plane reflects on its source side only; a plate on both faces
                 if d_ij > PLANE_TOLERANCE_M or (rj.is_finite and d_ij < -PLANE_TOLERANCE_M):
@@ -973,18 +1033,68 @@ def reflected_fields(
                     valid = inside & met_j & _accessible(refl, q_j, exclude=(j,))
                     q_i, met_i = _crossing(ri, np.broadcast_to(s_i, pts.shape), q_j)
                     valid &= met_i & _accessible(refl, q_i, exclude=(i,))
-                    if valid.any():
-                        op = _image_operator(first_ops[i], s_i[0], rj, frequency_hz)
-                        e[valid], h[valid] = op(pts[valid])
-                        a = np.ones(int(valid.sum()), dtype=complex)
-                        if rj.is_finite:  # last bounce: the unfolded ray s_ij -> p
-                            a *= rj.aperture_factor(s_ij, pts[valid], frequency_hz)
-                        if ri.is_finite:  # first bounce: the unfolded ray s_i -> M_j p
-                            a *= ri.aperture_factor(s_i, rj.mirror_points(pts[valid]), frequency_hz)
-                        e[valid] *= a[:, None]
-                        h[valid] *= a[:, None]
-                images.append((e, h))
-    return images
+                paths.append((i, j, valid))
+
+    # the source's field: at the points, and at each image's mirrored points
+    wanted = [pts] if direct else []
+    mirrored: list[NDArray[np.float64] | None] = []
+    for first, last, valid in paths:
+        if valid is None or not valid.any():
+            mirrored.append(None)
+            continue
+        in_j = refl[last].mirror_points(pts[valid])
+        mirrored.append(in_j)
+        wanted.append(in_j if first is None else refl[first].mirror_points(in_j))
+    e_all = h_all = None
+    if wanted:
+        args = () if chunk_bytes is None else (chunk_bytes,)
+        e_all, h_all = radiator_fields(radiator, np.vstack(wanted), *args)
+    at = n_pts if direct else 0
+    e_direct = e_all[:n_pts] if direct and e_all is not None else None
+    h_direct = h_all[:n_pts] if direct and h_all is not None else None
+
+    images: list[tuple[NDArray, NDArray]] = []
+    # the plates' aperture factors, asked of each plate once: (plate, start, ends) per use
+    asked: list[tuple[int, NDArray[np.float64], NDArray[np.float64]]] = []
+    uses: list[tuple[int, list[int]]] = []  # (image, indices into asked, in product order)
+    for (first, last, valid), in_last in zip(paths, mirrored, strict=True):
+        e = np.zeros((n_pts, 3), dtype=complex)
+        h = np.zeros((n_pts, 3), dtype=complex)
+        if valid is not None and in_last is not None:
+            assert e_all is not None and h_all is not None
+            count = in_last.shape[0]
+            e0, h0 = e_all[at : at + count], h_all[at : at + count]
+            at += count
+            rj = refl[last]
+            factors = []
+            if first is None:
+                e[valid], h[valid] = _image_transform(e0, h0, pts[valid], source, rj, frequency_hz)
+                if rj.is_finite:
+                    factors.append(len(asked))
+                    asked.append((last, first_refs[last], pts[valid]))
+            else:
+                ri, s_i = refl[first], first_refs[first]
+                e1, h1 = _image_transform(e0, h0, in_last, source, ri, frequency_hz)
+                e[valid], h[valid] = _image_transform(e1, h1, pts[valid], s_i[0], rj, frequency_hz)
+                if rj.is_finite:  # last bounce: the unfolded ray s_ij -> p
+                    factors.append(len(asked))
+                    asked.append((last, rj.mirror_points(s_i), pts[valid]))
+                if ri.is_finite:  # first bounce: the unfolded ray s_i -> M_j p
+                    factors.append(len(asked))
+                    asked.append((first, s_i, in_last))
+            if factors:
+                uses.append((len(images), factors))
+        images.append((e, h))
+    answers = _aperture_factors(refl, asked, frequency_hz)
+    for k, factors in uses:
+        valid = paths[k][2]
+        a = answers[factors[0]]
+        for f in factors[1:]:
+            a = a * answers[f]
+        e, h = images[k]
+        e[valid] *= a[:, None]
+        h[valid] *= a[:, None]
+    return e_direct, h_direct, images
 
 
 def behind(reflectors: Sequence[ReflectorModel], points_m: ArrayLike) -> NDArray[np.bool_]:
@@ -1168,6 +1278,7 @@ __all__ = [
     "image_labels",
     "normal_incidence_coefficient_from_permittivity",
     "plate_obstacle_factor",
+    "direct_and_reflected_fields",
     "reflected_fields",
     "transmission_power_factor",
 ]
