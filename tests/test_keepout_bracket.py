@@ -1,0 +1,122 @@
+"""How the keep-out search narrows a ray's outermost crossing: a bracket to the last.
+
+Along a ray the search keeps the outermost sample at or above the limit and narrows the
+interval beyond it to ``RADIUS_TOLERANCE`` (``keepout._bracket_trials``): trials about the
+crossing of the straight line through the bracket's ends in (log r, log q), then equal
+parts.  These checks hold the narrowing to what bisection promised (a bracket that only
+shrinks, a crossing inside, the outer end reported) and to its purpose (fewer passes).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from keepclear.fields import keepout as keepout_mod
+from keepclear.fields.keepout import RADIUS_TOLERANCE, _bracket_trials, keepout_distances
+from keepclear.fields.scenario import load_scenario
+
+
+def _narrow(q, lo, hi, passes=40):
+    """Narrow [lo, hi] about a crossing of q(r) = 1 as the search does; (lo, hi, passes)."""
+    lo, hi = np.array([lo]), np.array([hi])
+    q_lo, q_hi = np.array([q(lo[0])]), np.array([q(hi[0])])
+    steps = np.zeros(1, dtype=np.intp)
+    for n in range(passes):
+        if hi[0] - lo[0] <= RADIUS_TOLERANCE * max(hi[0], 1e-3):
+            return lo[0], hi[0], n
+        trials = _bracket_trials(lo, hi, q_lo, q_hi, steps)[0]
+        steps += 1
+        finite = trials[np.isfinite(trials)]
+        assert finite.size
+        assert np.all((finite > lo[0]) & (finite < hi[0]))  # strictly inside
+        # from the outside in, as keepout._Search._rays_here applies them
+        for r in finite[::-1]:
+            if lo[0] < r < hi[0]:
+                value = q(r)
+                if value >= 1.0:
+                    lo[0], q_lo[0] = r, value
+                else:
+                    hi[0], q_hi[0] = r, value
+    raise AssertionError("the bracket did not narrow")
+
+
+@pytest.mark.parametrize("exponent", [2.0, 6.0])
+def test_a_power_law_crossing_is_bracketed_in_one_pass(exponent):
+    # q = (r0 / r)^n crosses one at r0; the log-log secant is exact for it, so the two
+    # trials nearest the estimate are the final bracket (one pass, where bisection of a
+    # 3 % step to 1e-4 takes nine).
+    r0 = 1.7
+
+    def q(r):
+        return (r0 / r) ** exponent
+
+    lo, hi, passes = _narrow(q, r0 / 1.013, r0 * 1.017)
+    assert passes == 1
+    assert lo <= r0 <= hi
+    assert hi - lo <= RADIUS_TOLERANCE * hi
+
+
+def test_a_crossing_off_the_secant_still_closes_to_the_tolerance():
+    # A density that falls steeply through a lobe's edge inside the step (not a power law):
+    # the estimate misses, and the bracket still closes on the crossing, from both sides.
+    def q(r):
+        return 1.6 * np.exp(-(((r - 1.50) / 0.018) ** 2)) + 0.5 * (1.5 / r) ** 2
+
+    grid = np.linspace(1.50, 1.56, 200001)
+    crossing = grid[np.flatnonzero(q(grid) >= 1.0).max()]
+    lo, hi, passes = _narrow(q, 1.50, 1.545)
+    assert q(lo) >= 1.0 > q(hi)
+    assert lo <= crossing + 1e-6 and hi >= crossing - 1e-6
+    assert hi - lo <= RADIUS_TOLERANCE * hi
+    assert passes <= 6
+
+
+def test_a_zero_quotient_at_the_outer_end_falls_back_to_equal_parts():
+    # Behind metal or inside an enclosure the quotient is exactly 0: no logarithm; the
+    # bracket is cut into equal parts (every trial strictly inside).
+    trials = _bracket_trials(
+        np.array([1.0]), np.array([1.03]), np.array([2.0]), np.array([0.0]), np.zeros(1, int)
+    )[0]
+    np.testing.assert_allclose(trials, 1.0 + 0.03 * np.arange(1, 9) / 9)
+
+
+def test_the_isotropic_keep_out_is_the_closed_form_to_the_bracket(write_scenario, monkeypatch):
+    # FCC OET Bulletin 65, Ed. 97-01, eq. (3): S = P G / (4 pi R^2), so R = sqrt(P G / (4 pi
+    # S)) for an isotropic 6 dBi source in free space (ICNIRP 2020 general public at 2.45 GHz,
+    # 10 W/m^2, Table 5).  The search reports the outer end of a bracket 1e-4 wide, and its
+    # narrowing takes one pass per batch (the field is an exact power law).
+    monkeypatch.setenv("KEEPCLEAR_WORKERS", "1")
+    path = write_scenario(
+        """
+        [[source]]
+        antenna = "isotropic"
+        gain_dbi = 6.0
+        power_w = 100.0
+        position_m = [0.0, 0.0, 1.0]
+        """
+    )
+    scenario = load_scenario(path)
+    stages: list[str] = []
+    outermost = keepout_mod._Search._outermost
+    quotients = keepout_mod._Search._quotients
+
+    def marking(self, *args):
+        stages.append("sweep")
+        out = outermost(self, *args)
+        stages.append("narrow")
+        return out
+
+    def counting(self, points):
+        if stages and stages[-1].startswith("narrow"):
+            stages.append("narrow pass")
+        return quotients(self, points)
+
+    monkeypatch.setattr(keepout_mod._Search, "_outermost", marking)
+    monkeypatch.setattr(keepout_mod._Search, "_quotients", counting)
+    result = keepout_distances(scenario, ["icnirp-2020/general-public"])[0]
+    exact = np.sqrt(100.0 * 10 ** 0.6 / (4 * np.pi * 10.0))
+    assert exact <= result.distance_m <= exact * (1 + RADIUS_TOLERANCE)
+    # after every sweep, at most one pass narrows (the bracket ends are looked up)
+    runs = "/".join(stages).split("sweep")
+    assert all(run.count("narrow pass") <= 1 for run in runs)
