@@ -789,6 +789,46 @@ PLANE_STANDOFF_M = 1e-3
 PLANE_AZIMUTHS = 120
 
 
+def _distinct_starts(
+    search: _Search,
+    starts: list[int],
+    o: NDArray[np.float64],
+    d: NDArray[np.float64],
+    kind: NDArray[np.intp],
+    spacing: float,
+    az_step: float,
+) -> list[int]:
+    """The refinement starts, less those that another start's refinement already covers.
+
+    A start from the same origin within half its refinement's reach of an earlier start
+    (half the cap's half-angle, 0.75 ``spacing``; along a plane, half the azimuth span,
+    0.75 ``az_step``) adds rays interleaved with that start's own, at the same density:
+    it is left out.  The first of such starts is kept, in the order given (the same on
+    every machine).
+    """
+    kept: list[int] = []
+    for j in starts:
+        covered = False
+        for i in kept:
+            if kind[i] != kind[j] or not np.array_equal(o[i], o[j]):
+                continue
+            if kind[j] < 0:
+                angle = float(np.arccos(np.clip(np.dot(d[i], d[j]), -1.0, 1.0)))
+                covered = angle < 0.75 * spacing
+            else:
+                reflector = search.scenario.reflectors[int(kind[j])]
+                u, v, _ = _basis(np.asarray(reflector.normal, dtype=float))
+                a_i = np.arctan2(np.dot(d[i], v), np.dot(d[i], u))
+                a_j = np.arctan2(np.dot(d[j], v), np.dot(d[j], u))
+                gap = abs(float(np.angle(np.exp(1j * (a_i - a_j)))))
+                covered = gap < 0.75 * az_step
+            if covered:
+                break
+        if not covered:
+            kept.append(j)
+    return kept
+
+
 def _search_all(search: _Search, n_directions: int) -> _Best:
     """Lattice rays from the centre and rays along every reflector, then multi-start caps.
 
@@ -828,7 +868,7 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
             for j in _tied_first(dist[k], 3):
                 if dist[k, j] > 0 and j not in starts:
                     starts.append(j)
-        for j in starts:
+        for j in _distinct_starts(search, starts, o, d, kind, spacing * shrink, az_step * shrink):
             if kind[j] < 0:
                 cap = _cap(d[j], 1.5 * spacing * shrink, 24)
                 new_o.append(np.tile(o[j], (len(cap), 1)))

@@ -115,8 +115,45 @@ def test_the_isotropic_keep_out_is_the_closed_form_to_the_bracket(write_scenario
     monkeypatch.setattr(keepout_mod._Search, "_outermost", marking)
     monkeypatch.setattr(keepout_mod._Search, "_quotients", counting)
     result = keepout_distances(scenario, ["icnirp-2020/general-public"])[0]
-    exact = np.sqrt(100.0 * 10 ** 0.6 / (4 * np.pi * 10.0))
+    exact = np.sqrt(100.0 * 10**0.6 / (4 * np.pi * 10.0))
     assert exact <= result.distance_m <= exact * (1 + RADIUS_TOLERANCE)
     # after every sweep, at most one pass narrows (the bracket ends are looked up)
     runs = "/".join(stages).split("sweep")
     assert all(run.count("narrow pass") <= 1 for run in runs)
+
+
+def test_refinement_starts_that_another_start_covers_are_refined_once(write_scenario):
+    # Two caps about directions 0.6 degrees apart (within half a cap's reach) interleave
+    # their rays at the same density: only the first is refined.  Starts farther apart,
+    # from another origin, or along a plane at another azimuth are all kept.
+    path = write_scenario(
+        """
+        [[source]]
+        antenna = "isotropic"
+        power_w = 1.0
+        position_m = [0.0, 0.0, 1.0]
+        [[reflector]]
+        point_m = [0.0, 0.0, 0.0]
+        normal = [0.0, 0.0, 1.0]
+        material = "metal"
+        """
+    )
+    scenario = load_scenario(path)
+    search = keepout_mod._Search(
+        scenario, [scenario.limit_value(scenario.limit_ids[0])], [keepout_mod._Row(0, 1.0, False)]
+    )
+    spacing = np.radians(5.0)
+    az_step = np.radians(1.0)
+
+    def towards(degrees):
+        a = np.radians(degrees)
+        return np.array([np.cos(a), np.sin(a), 0.0])
+
+    centre = scenario.centre_m
+    o = np.array([centre, centre, centre, centre + [0.0, 0.0, 0.5], [0, 0, 1e-3], [0, 0, 1e-3]])
+    d = np.array(
+        [towards(0.0), towards(0.6), towards(4.0), towards(0.0), towards(90.0), towards(90.5)]
+    )
+    kind = np.array([-1, -1, -1, -1, 0, 0])
+    kept = keepout_mod._distinct_starts(search, [0, 1, 2, 3, 4, 5], o, d, kind, spacing, az_step)
+    assert kept == [0, 2, 3, 4]
