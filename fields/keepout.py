@@ -15,9 +15,12 @@ values where the standard gives them.
    Along every reflector, rays also run in the plane itself, a millimetre on the
    source side, from the foot of the centre: next to a floor the exceedance is a thin
    layer (the reflection adds most at grazing incidence) that reaches farthest on the
-   floor, between any two rays from the centre.  A finite plate adds rays along the
-   beam it reflects: from its centre, corners and edge midpoints, away from each
-   term's image, and from the centre towards its corners (the reflection boundaries).
+   floor, between any two rays from the centre.  Over a finite plate the layer ends at
+   the plate's edge: its rays run over the plate and a little beyond (:func:`_plane_ends`),
+   and one still above the limit there is followed to the end of the grid.  A finite
+   plate also adds rays along the beam it reflects: from its centre, corners and edge
+   midpoints, away from each term's image, and from the centre towards its corners
+   (the reflection boundaries).
 2. Along each ray the quotient is sampled on a grid that is fine near the
    source (a sixteenth of a wavelength) and grows geometrically (3 % a step)
    further out; in coherent-reflection mode the step stays at a sixteenth of a
@@ -307,24 +310,36 @@ class _Search:
                 q[k, boxed] = 0.0
         return q
 
-    def rays(self, origins: NDArray[np.float64], directions: NDArray[np.float64]) -> NDArray:
+    def rays(
+        self,
+        origins: NDArray[np.float64],
+        directions: NDArray[np.float64],
+        ends_m: NDArray[np.float64] | None = None,
+    ) -> NDArray:
         """Outermost radius from each ray's origin where the quotient reaches one, (rows, D).
 
-        A batch of at least :data:`SHARED_RAYS` rays is shared between worker processes
-        when there are cores to spare and no field sharing between variants is under way
+        ``ends_m`` (D,) limits a ray to its first ``ends_m`` metres (infinite: the whole
+        grid); see :meth:`_rays_here`.  A batch of at least :data:`SHARED_RAYS` rays is
+        shared between worker processes when there are cores to spare and no field
+        sharing between variants is under way
         (:mod:`keepclear.fields.workers`): worker ``j`` of ``k`` takes rays ``j, j + k,
         ...`` (each its share of every direction), and the answers are those of
         :meth:`_rays_here` on the whole batch (see :meth:`_shared_rays`).
         """
+        ends = np.full(len(directions), np.inf) if ends_m is None else np.asarray(ends_m)
         count = worker_count()
         if count > 1 and len(directions) >= SHARED_RAYS and active_memo() is None:
-            shared = self._shared_rays(origins, directions, count)
+            shared = self._shared_rays(origins, directions, ends, count)
             if shared is not None:
                 return shared
-        return self._rays_here(origins, directions)
+        return self._rays_here(origins, directions, ends)
 
     def _shared_rays(
-        self, origins: NDArray[np.float64], directions: NDArray[np.float64], count: int
+        self,
+        origins: NDArray[np.float64],
+        directions: NDArray[np.float64],
+        ends_m: NDArray[np.float64],
+        count: int,
     ) -> NDArray | None:
         """:meth:`_rays_here` of the batch, computed in ``count`` interleaved shares.
 
@@ -342,7 +357,7 @@ class _Search:
         models = [t.radiator for t in self.terms]
 
         def share(index: NDArray[np.intp]) -> tuple[NDArray, float, list[frozenset]]:
-            radius = self._rays_here(origins[index], directions[index])
+            radius = self._rays_here(origins[index], directions[index], ends_m[index])
             return radius, self.r_max, [m.built_on_demand() for m in models]
 
         done = run_each([functools.partial(share, index) for index in shares], count)
@@ -358,8 +373,18 @@ class _Search:
             out[:, index] = radius
         return out
 
-    def _rays_here(self, origins: NDArray[np.float64], directions: NDArray[np.float64]) -> NDArray:
+    def _rays_here(
+        self,
+        origins: NDArray[np.float64],
+        directions: NDArray[np.float64],
+        ends_m: NDArray[np.float64],
+    ) -> NDArray:
         """:meth:`rays` in this process.
+
+        A ray with a finite end (``ends_m``) is sampled up to it only (the samples beyond
+        count as below the limit); one whose last sample before its end is at or above
+        the limit is searched again along the whole grid, so its outermost crossing is
+        never cut short by its end.
 
         Zero where the ray never reaches the limit.  The grid is sampled outward, the
         outermost sample at or above the limit kept, and the interval beyond it narrowed
@@ -374,9 +399,12 @@ class _Search:
         """
         wavelength = self.scenario.wavelength_m
         reach = self.r_max + float(np.max(np.linalg.norm(origins - self.centre, axis=1)))
+        ends = np.array(ends_m, dtype=float)
         for _ in range(8):
             radii = _radii(reach, wavelength, self.coherent)
-            last = self._outermost(origins, directions, radii)
+            last = self._outermost(origins, directions, radii, ends)
+            if last is not None:
+                last = self._past_ends(origins, directions, radii, ends, last)
             if last is not None:
                 break
             reach *= 2.0
@@ -440,6 +468,41 @@ class _Search:
                 q_hi[rr[down], dd[down]] = q_k[down]
         return np.where(any_above, hi, 0.0)
 
+    def _past_ends(
+        self,
+        origins: NDArray[np.float64],
+        directions: NDArray[np.float64],
+        radii: NDArray[np.float64],
+        ends_m: NDArray[np.float64],
+        last: NDArray[np.intp],
+    ) -> NDArray[np.intp] | None:
+        """:meth:`_outermost`'s answer, with the rays whose exceedance runs past their end.
+
+        Where a row's outermost exceedance on a ray is the ray's last sample before its
+        end, every sample beyond the end is evaluated (all in one pass) and each row's
+        outermost exceedance taken from them where there is one: the answer of the ray
+        without an end.  None when the grid's outermost sample is above the limit.
+        """
+        at_end = np.searchsorted(radii, ends_m, side="right") - 1
+        cut = np.isfinite(ends_m) & (at_end < len(radii) - 1) & (last == at_end).any(axis=0)
+        if not cut.any():
+            return last
+        rays = np.flatnonzero(cut)
+        n_radii = len(radii)
+        beyond = np.arange(n_radii)[None, :] > at_end[rays, None]  # (rays, radii)
+        ray_of, index = np.nonzero(beyond)
+        pts = origins[rays[ray_of]] + directions[rays[ray_of]] * radii[index][:, None]
+        q = np.zeros((len(self.rows), rays.size, n_radii))
+        q[:, ray_of, index] = self.quotients(pts)
+        above = q >= 1.0
+        if above[:, :, -1].any():
+            return None
+        hit = above.any(axis=2)
+        outer = n_radii - 1 - np.argmax(above[:, :, ::-1], axis=2)
+        out = last.copy()
+        out[:, rays] = np.where(hit, outer, last[:, rays])
+        return out
+
     def _bracket_quotients(
         self,
         origins: NDArray[np.float64],
@@ -463,11 +526,16 @@ class _Search:
         return out[0], out[1]
 
     def _outermost(
-        self, origins: NDArray[np.float64], directions: NDArray[np.float64], radii: NDArray
+        self,
+        origins: NDArray[np.float64],
+        directions: NDArray[np.float64],
+        radii: NDArray,
+        ends_m: NDArray[np.float64],
     ) -> NDArray[np.intp] | None:
         """Index of the outermost radius at or above the limit, (rows, D); -1 where none.
 
         None when the outermost sample of some ray is above (the grid must reach farther).
+        The samples of a ray beyond its end (``ends_m``) are not evaluated (taken as 0).
         The samples are evaluated from the outside in, :data:`RADIAL_BLOCK` radii a pass,
         and a ray is dropped once every row has found its outermost exceedance on it: the
         samples inside it cannot change the answer, and they are the costly ones (close to
@@ -484,11 +552,18 @@ class _Search:
         open_rays = np.arange(n_dirs)
         stop = n_radii
         block = RADIAL_BLOCK
+        at_end = np.searchsorted(radii, ends_m, side="right") - 1  # last sample before the end
         while stop > 0 and open_rays.size:
             start = max(0, stop - block)
             rr = radii[start:stop]
             pts = origins[open_rays, None, :] + directions[open_rays, None, :] * rr[None, :, None]
-            q = self.quotients(pts.reshape(-1, 3)).reshape(n_rows, open_rays.size, rr.size)
+            within = rr[None, :] <= ends_m[open_rays, None]
+            if within.all():
+                q = self.quotients(pts.reshape(-1, 3)).reshape(n_rows, open_rays.size, rr.size)
+            else:
+                q = np.zeros((n_rows, open_rays.size, rr.size))
+                if within.any():
+                    q[:, within] = self.quotients(pts[within])
             block = _next_block(q, closed[:, open_rays], radii, start)
             above = q >= 1.0
             if stop == n_radii and above[:, :, -1].any():
@@ -504,8 +579,13 @@ class _Search:
             shut |= outside_rows[:, None] & (start <= boxed_below[open_rays])[None, :]
             closed[:, open_rays] = shut
             if start > 0:
+                # a ray with an end is ranked only once its last sample before the end is
+                # taken: until then an exceedance may run past its end (see _past_ends)
+                reached = (start <= at_end)[None, :]
                 closed |= (
-                    self._outranked(last, closed, offsets, radii, start) & ~outside_rows[:, None]
+                    self._outranked(last, closed, offsets, radii, start)
+                    & ~outside_rows[:, None]
+                    & reached
                 )
                 shut = closed[:, open_rays]
             open_rays = open_rays[~shut.all(axis=0)]
@@ -757,6 +837,43 @@ def _plane_rays(search: _Search, reflector, azimuths: NDArray) -> tuple[NDArray,
     return np.tile(origin, (len(azimuths), 1)), directions
 
 
+def _plane_ends(reflector, origins: NDArray, directions: NDArray) -> NDArray[np.float64]:  # noqa: ANN001
+    """How far each ray along a reflector is sampled [m]: over a plate, and a little beyond.
+
+    The rays along a plane look for the thin layer next to a reflecting surface where the
+    exceedance reaches farthest (grazing incidence).  Along an infinite plane that layer
+    runs the whole way (infinite ends); over a finite plate it ends at the plate's edge,
+    within about a Fresnel zone of it: a ray is sampled to where it leaves the plate
+    (the slab method on the plate's rectangle) plus :data:`PLATE_RAY_MARGIN_M` or
+    :data:`PLATE_RAY_MARGIN` of that distance, whichever is more.  Beyond it the ray
+    runs through open space, which the rays from the centre sample.  A ray that misses
+    the plate altogether gets 0 (left out).
+    """
+    n = len(directions)
+    if not reflector.is_finite:
+        return np.full(n, np.inf)
+    centre = np.asarray(reflector.point_m, dtype=float)
+    t_in = np.zeros(n)
+    t_out = np.full(n, np.inf)
+    for axis, half in zip(
+        (reflector.width_axis, reflector.height_axis),
+        (reflector.size_m[0] / 2, reflector.size_m[1] / 2),
+        strict=True,
+    ):
+        at = (origins - centre) @ axis
+        step = directions @ axis
+        flat = np.abs(step) < 1e-12
+        with np.errstate(divide="ignore", invalid="ignore"):
+            a = (-half - at) / step
+            b = (half - at) / step
+        lo = np.where(flat, np.where(np.abs(at) <= half, -np.inf, np.inf), np.minimum(a, b))
+        hi = np.where(flat, np.where(np.abs(at) <= half, np.inf, -np.inf), np.maximum(a, b))
+        t_in = np.maximum(t_in, lo)
+        t_out = np.minimum(t_out, hi)
+    hit = t_out >= t_in
+    return np.where(hit, t_out + np.maximum(PLATE_RAY_MARGIN_M, PLATE_RAY_MARGIN * t_out), 0.0)
+
+
 def _beam_rays(search: _Search, reflector) -> tuple[NDArray, NDArray]:  # noqa: ANN001
     """Rays along the beam a finite plate reflects, and from the centre to its corners.
 
@@ -787,6 +904,10 @@ def _beam_rays(search: _Search, reflector) -> tuple[NDArray, NDArray]:  # noqa: 
 PLANE_STANDOFF_M = 1e-3
 #: Rays of the first pass along each reflector.
 PLANE_AZIMUTHS = 120
+#: A ray along a finite plate runs this far past the plate's edge at least [m] ...
+PLATE_RAY_MARGIN_M = 0.15
+#: ... or this fraction of its length over the plate, whichever is more.
+PLATE_RAY_MARGIN = 0.1
 
 
 def _distinct_starts(
@@ -842,25 +963,30 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
     origins = [np.tile(search.centre, (len(centre_dirs), 1))]
     directions = [centre_dirs]
     kinds = [np.full(len(centre_dirs), -1)]
+    ends = [np.full(len(centre_dirs), np.inf)]
     azimuths = np.linspace(0.0, 2 * np.pi, PLANE_AZIMUTHS, endpoint=False)
     for j, reflector in enumerate(search.scenario.reflectors):
         o, d = _plane_rays(search, reflector, azimuths)
-        origins.append(o)
-        directions.append(d)
-        kinds.append(np.full(len(d), j))
+        e = _plane_ends(reflector, o, d)
+        origins.append(o[e > 0])
+        directions.append(d[e > 0])
+        kinds.append(np.full(int(np.count_nonzero(e > 0)), j))
+        ends.append(e[e > 0])
         if reflector.is_finite:
             o, d = _beam_rays(search, reflector)
             origins.append(o)
             directions.append(d)
             kinds.append(np.full(len(d), -1))
+            ends.append(np.full(len(d), np.inf))
     o, d, kind = np.vstack(origins), np.vstack(directions), np.concatenate(kinds)
-    dist = best.add(o, d, search.rays(o, d))
+    end = np.concatenate(ends)
+    dist = best.add(o, d, search.rays(o, d, end))
 
     spacing = np.sqrt(4 * np.pi / n_directions)
     az_step = 2 * np.pi / PLANE_AZIMUTHS
     for level in range(3):
         shrink = 3.0**-level
-        new_o, new_d, new_kind = [], [], []
+        new_o, new_d, new_kind, new_end = [], [], [], []
         starts: list[int] = []
         for k in range(len(search.rows)):
             # equally far rays (to the bracket) in the order they were laid out: the same
@@ -874,19 +1000,23 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
                 new_o.append(np.tile(o[j], (len(cap), 1)))
                 new_d.append(cap)
                 new_kind.append(np.full(len(cap), -1))
+                new_end.append(np.full(len(cap), np.inf))
             else:
                 reflector = search.scenario.reflectors[int(kind[j])]
                 u, v, _ = _basis(np.asarray(reflector.normal, dtype=float))
                 a0 = float(np.arctan2(np.dot(d[j], v), np.dot(d[j], u)))
                 az = a0 + np.linspace(-1.5, 1.5, 13) * az_step * shrink
                 oo, dd = _plane_rays(search, reflector, az)
-                new_o.append(oo)
-                new_d.append(dd)
-                new_kind.append(np.full(len(dd), int(kind[j])))
+                ee = _plane_ends(reflector, oo, dd)
+                new_o.append(oo[ee > 0])
+                new_d.append(dd[ee > 0])
+                new_kind.append(np.full(int(np.count_nonzero(ee > 0)), int(kind[j])))
+                new_end.append(ee[ee > 0])
         if not new_o:
             break
         o, d, kind = np.vstack(new_o), np.vstack(new_d), np.concatenate(new_kind)
-        dist = best.add(o, d, search.rays(o, d))
+        end = np.concatenate(new_end)
+        dist = best.add(o, d, search.rays(o, d, end))
     best.settle()
     return best
 

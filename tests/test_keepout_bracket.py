@@ -157,3 +157,69 @@ def test_refinement_starts_that_another_start_covers_are_refined_once(write_scen
     kind = np.array([-1, -1, -1, -1, 0, 0])
     kept = keepout_mod._distinct_starts(search, [0, 1, 2, 3, 4, 5], o, d, kind, spacing, az_step)
     assert kept == [0, 2, 3, 4]
+
+
+def test_rays_along_a_plate_run_over_it_and_a_little_beyond():
+    # A table top 1.6 m x 0.9 m centred at (0.3, 0, 0.75): from the foot of a source above
+    # (0, 0), a ray along +x leaves it after 1.1 m, one along -y after 0.45 m; each runs
+    # 0.15 m (or a tenth of its length) further.  An infinite plane's rays are not cut.
+    from keepclear.fields.reflection import Reflector
+
+    plate = Reflector(
+        point_m=(0.3, 0.0, 0.75),
+        normal=(0.0, 0.0, 1.0),
+        material="wood",
+        size_m=(1.6, 0.9),
+        up=(0.0, 1.0, 0.0),
+    )
+    origins = np.tile([0.0, 0.0, 0.751], (3, 1))
+    directions = np.array([[1.0, 0.0, 0.0], [0.0, -1.0, 0.0], [-1.0, 0.0, 0.0]])
+    ends = keepout_mod._plane_ends(plate, origins, directions)
+    np.testing.assert_allclose(ends, [1.1 + 0.15, 0.45 + 0.15, 0.5 + 0.15], rtol=1e-12)
+    # from a foot beside the plate, a ray away from it misses it: left out (0)
+    beside = np.tile([-1.0, 0.0, 0.751], (2, 1))
+    ends = keepout_mod._plane_ends(plate, beside, directions[[0, 2]])
+    np.testing.assert_allclose(ends, [2.1 + 0.21, 0.0], rtol=1e-12)
+    floor = Reflector(point_m=(0.0, 0.0, 0.0), normal=(0.0, 0.0, 1.0), material="concrete")
+    assert np.all(np.isinf(keepout_mod._plane_ends(floor, origins, directions)))
+
+
+def test_an_exceedance_past_a_plate_is_followed_to_its_end(write_scenario, monkeypatch):
+    # A 100 W isotropic source 10 cm over a small metal plate: along the plate the
+    # exceedance runs far past its edge, so the rays along it are followed beyond their
+    # ends, and the keep-out is the one the search finds with uncut rays.
+    monkeypatch.setenv("KEEPCLEAR_WORKERS", "1")
+    path = write_scenario(
+        """
+        [[source]]
+        antenna = "isotropic"
+        power_w = 100.0
+        position_m = [0.0, 0.0, 1.0]
+        [[reflector]]
+        point_m = [0.1, 0.0, 0.9]
+        normal = [0.0, 0.0, 1.0]
+        material = "metal"
+        size_m = [0.4, 0.4]
+        up = [0.0, 1.0, 0.0]
+        """
+    )
+    scenario = load_scenario(path)
+    followed: list[int] = []
+    past_ends = keepout_mod._Search._past_ends
+
+    def counting(self, origins, directions, radii, ends_m, last):
+        out = past_ends(self, origins, directions, radii, ends_m, last)
+        if out is not None:
+            followed.append(int(np.count_nonzero((out != last).any(axis=0))))
+        return out
+
+    monkeypatch.setattr(keepout_mod._Search, "_past_ends", counting)
+    cut = keepout_distances(scenario)
+    assert sum(followed) > 0
+    monkeypatch.setattr(keepout_mod, "_plane_ends", lambda plate, o, d: np.full(len(d), np.inf))
+    uncut = keepout_distances(scenario)
+    for a, b in zip(cut, uncut, strict=True):
+        assert a.distance_m == pytest.approx(b.distance_m, rel=1e-12)
+        assert a.distance_with_uncertainty_m == pytest.approx(
+            b.distance_with_uncertainty_m, rel=1e-12
+        )
