@@ -93,7 +93,7 @@ SCREENING_GROUND_FIELD_REFLECTION = 0.6
 #: Relative width of the final bracket about a ray's outermost crossing.
 RADIUS_TOLERANCE = 1e-4
 #: Radial samples evaluated per pass of the outside-in sweep along the rays.
-RADIAL_BLOCK = 8
+RADIAL_BLOCK = 12
 #: Fewest rays of a batch shared between worker processes (a smaller batch costs less
 #: than starting them).
 SHARED_RAYS = 100
@@ -657,7 +657,7 @@ def _bracket_trials(
     q_hi: NDArray[np.float64],
     steps: NDArray[np.intp],
 ) -> NDArray[np.float64]:
-    """Radii to evaluate next in brackets [lo, hi] with q(lo) >= 1 > q(hi), (M, 8).
+    """Radii to evaluate next in brackets [lo, hi] with q(lo) >= 1 > q(hi), (M, 12).
 
     The first :data:`_SECANT_STEPS` steps of a bracket aim at the crossing of the
     straight line through its ends in (log r, log q) (where a field falling as a power of
@@ -665,12 +665,12 @@ def _bracket_trials(
     :data:`_TRIAL_OFFSETS` times the final width (:data:`RADIUS_TOLERANCE`): an estimate
     within 0.45 of that width gives the final bracket at once, one a few widths off takes
     one step more.  Later steps, and brackets whose quotients are 0 or not finite, split
-    the bracket into nine equal parts.  Unused trials are NaN.  Every trial lies strictly
+    the bracket into thirteen equal parts.  Unused trials are NaN.  Every trial lies strictly
     inside its bracket, so the bracket only narrows and keeps a crossing inside, as
     bisection does; evaluating several trials in one pass costs fewer passes.
     """
     width = RADIUS_TOLERANCE * np.maximum(hi, 1e-3)
-    sections = np.arange(1, 9) / 9.0
+    sections = np.arange(1, _TRIAL_OFFSETS.size + 1) / (_TRIAL_OFFSETS.size + 1.0)
     out = lo[:, None] + (hi - lo)[:, None] * sections[None, :]
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         log_lo, log_hi = np.log(q_lo), np.log(q_hi)
@@ -694,7 +694,9 @@ def _bracket_trials(
 #: Steps of a bracket that aim at the log-log secant's estimate before sectioning.
 _SECANT_STEPS = 3
 #: Trials about the estimate, in units of the final bracket width.
-_TRIAL_OFFSETS = np.array([-60.0, -12.0, -3.0, -0.45, 0.45, 3.0, 12.0, 60.0])
+_TRIAL_OFFSETS = np.array(
+    [-250.0, -80.0, -25.0, -8.0, -2.5, -0.45, 0.45, 2.5, 8.0, 25.0, 80.0, 250.0]
+)
 
 
 #: A pass of the sweep grows beyond :data:`RADIAL_BLOCK` radii only while the largest
