@@ -809,7 +809,8 @@ def _image_transform(
 ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
     """The reflected field at points p, given the incident field at the mirrored points.
 
-    With ``e0, h0`` the field of a source (reference point ``reference_m``) at
+    With ``e0, h0`` the field of a source (reference point ``reference_m``, (3,), or one
+    a point, (N, 3)) at
     :math:`\\mathcal M p`, this is the conductor image
     :math:`(-M E(\\mathcal M p), M H(\\mathcal M p))` scaled per polarisation by the
     plane's factors at the angle of the ray from the image reference point
@@ -821,7 +822,7 @@ def _image_transform(
     h_img = h0 @ m
     if reflector.is_perfect_conductor:
         return e_img, h_img
-    image_ref = reflector.mirror_points(reference_m[None, :])[0]
+    image_ref = reflector.mirror_points(np.reshape(reference_m, (-1, 3)))
     ray = points_m - image_ref
     dist = np.linalg.norm(ray, axis=1)
     safe = np.where(dist > 0, dist, 1.0)
@@ -1057,25 +1058,73 @@ def _fields_and_images(  # noqa: PLR0913
     # the plates' aperture factors, asked of each plate once: (plate, start, ends) per use
     asked: list[tuple[int, NDArray[np.float64], NDArray[np.float64]]] = []
     uses: list[tuple[int, list[int]]] = []  # (image, indices into asked, in product order)
-    for (first, last, valid), in_last in zip(paths, mirrored, strict=True):
+    # each plane's conductor image and factors, asked once a plane: first the first
+    # bounce of the second-order images (at the points mirrored in their last plane), then
+    # every image's last bounce (at the field points)
+    arriving: dict[int, tuple[NDArray, NDArray]] = {}  # the field each image reflects
+    in_plane: dict[int, NDArray[np.float64]] = {}  # its points mirrored in its last plane
+    inner: dict[int, list[int]] = {}
+    for k, ((first, _last, valid), in_last) in enumerate(zip(paths, mirrored, strict=True)):
+        if valid is None or in_last is None:
+            continue
+        assert e_all is not None and h_all is not None
+        count = in_last.shape[0]
+        arriving[k] = (e_all[at : at + count], h_all[at : at + count])
+        in_plane[k] = in_last
+        at += count
+        if first is not None:
+            inner.setdefault(first, []).append(k)
+    for plane, members in inner.items():
+        e1, h1 = _image_transform(
+            np.vstack([arriving[k][0] for k in members]),
+            np.vstack([arriving[k][1] for k in members]),
+            np.vstack([in_plane[k] for k in members]),
+            source,
+            refl[plane],
+            frequency_hz,
+        )
+        start = 0
+        for k in members:
+            count = in_plane[k].shape[0]
+            arriving[k] = (e1[start : start + count], h1[start : start + count])
+            start += count
+    outer: dict[int, list[int]] = {}
+    for k in arriving:
+        outer.setdefault(paths[k][1], []).append(k)
+    reflected: dict[int, tuple[NDArray, NDArray]] = {}
+    for plane, members in outer.items():
+        # the reference of the last bounce: the source, or its image in the first plane
+        references = []
+        for k in members:
+            first = paths[k][0]
+            ref = source if first is None else first_refs[first][0]
+            references.append(np.broadcast_to(ref, in_plane[k].shape))
+        valid_points = [pts[paths[k][2]] for k in members]
+        e2, h2 = _image_transform(
+            np.vstack([arriving[k][0] for k in members]),
+            np.vstack([arriving[k][1] for k in members]),
+            np.vstack(valid_points),
+            np.vstack(references),
+            refl[plane],
+            frequency_hz,
+        )
+        start = 0
+        for k, points in zip(members, valid_points, strict=True):
+            reflected[k] = (e2[start : start + len(points)], h2[start : start + len(points)])
+            start += len(points)
+    for k, ((first, last, valid), in_last) in enumerate(zip(paths, mirrored, strict=True)):
         e = np.zeros((n_pts, 3), dtype=complex)
         h = np.zeros((n_pts, 3), dtype=complex)
-        if valid is not None and in_last is not None:
-            assert e_all is not None and h_all is not None
-            count = in_last.shape[0]
-            e0, h0 = e_all[at : at + count], h_all[at : at + count]
-            at += count
+        if k in reflected and valid is not None and in_last is not None:
+            e[valid], h[valid] = reflected[k]
             rj = refl[last]
             factors = []
             if first is None:
-                e[valid], h[valid] = _image_transform(e0, h0, pts[valid], source, rj, frequency_hz)
                 if rj.is_finite:
                     factors.append(len(asked))
                     asked.append((last, first_refs[last], pts[valid]))
             else:
                 ri, s_i = refl[first], first_refs[first]
-                e1, h1 = _image_transform(e0, h0, in_last, source, ri, frequency_hz)
-                e[valid], h[valid] = _image_transform(e1, h1, pts[valid], s_i[0], rj, frequency_hz)
                 if rj.is_finite:  # last bounce: the unfolded ray s_ij -> p
                     factors.append(len(asked))
                     asked.append((last, rj.mirror_points(s_i), pts[valid]))
