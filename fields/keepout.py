@@ -315,11 +315,14 @@ class _Search:
         origins: NDArray[np.float64],
         directions: NDArray[np.float64],
         ends_m: NDArray[np.float64] | None = None,
+        asked: NDArray[np.bool_] | None = None,
     ) -> NDArray:
         """Outermost radius from each ray's origin where the quotient reaches one, (rows, D).
 
         ``ends_m`` (D,) limits a ray to its first ``ends_m`` metres (infinite: the whole
-        grid); see :meth:`_rays_here`.  A batch of at least :data:`SHARED_RAYS` rays is
+        grid); see :meth:`_rays_here`.  ``asked`` (rows, D) says which rows a ray answers
+        (all by default); a row not asked of a ray gets 0 there.  A batch of at least
+        :data:`SHARED_RAYS` rays is
         shared between worker processes when there are cores to spare and no field
         sharing between variants is under way
         (:mod:`keepclear.fields.workers`): worker ``j`` of ``k`` takes rays ``j, j + k,
@@ -327,18 +330,21 @@ class _Search:
         :meth:`_rays_here` on the whole batch (see :meth:`_shared_rays`).
         """
         ends = np.full(len(directions), np.inf) if ends_m is None else np.asarray(ends_m)
+        if asked is None:
+            asked = np.ones((len(self.rows), len(directions)), dtype=bool)
         count = worker_count()
         if count > 1 and len(directions) >= SHARED_RAYS and active_memo() is None:
-            shared = self._shared_rays(origins, directions, ends, count)
+            shared = self._shared_rays(origins, directions, ends, asked, count)
             if shared is not None:
                 return shared
-        return self._rays_here(origins, directions, ends)
+        return self._rays_here(origins, directions, ends, asked)
 
     def _shared_rays(
         self,
         origins: NDArray[np.float64],
         directions: NDArray[np.float64],
         ends_m: NDArray[np.float64],
+        asked: NDArray[np.bool_],
         count: int,
     ) -> NDArray | None:
         """:meth:`_rays_here` of the batch, computed in ``count`` interleaved shares.
@@ -357,7 +363,9 @@ class _Search:
         models = [t.radiator for t in self.terms]
 
         def share(index: NDArray[np.intp]) -> tuple[NDArray, float, list[frozenset]]:
-            radius = self._rays_here(origins[index], directions[index], ends_m[index])
+            radius = self._rays_here(
+                origins[index], directions[index], ends_m[index], asked[:, index]
+            )
             return radius, self.r_max, [m.built_on_demand() for m in models]
 
         done = run_each([functools.partial(share, index) for index in shares], count)
@@ -378,6 +386,7 @@ class _Search:
         origins: NDArray[np.float64],
         directions: NDArray[np.float64],
         ends_m: NDArray[np.float64],
+        asked: NDArray[np.bool_],
     ) -> NDArray:
         """:meth:`rays` in this process.
 
@@ -402,10 +411,11 @@ class _Search:
         ends = np.array(ends_m, dtype=float)
         for _ in range(8):
             radii = _radii(reach, wavelength, self.coherent)
-            last = self._outermost(origins, directions, radii, ends)
+            last = self._outermost(origins, directions, radii, ends, asked)
             if last is not None:
                 last = self._past_ends(origins, directions, radii, ends, last)
             if last is not None:
+                last = np.where(asked, last, -1)
                 break
             reach *= 2.0
             self.r_max *= 2.0
@@ -531,11 +541,13 @@ class _Search:
         directions: NDArray[np.float64],
         radii: NDArray,
         ends_m: NDArray[np.float64],
+        asked: NDArray[np.bool_],
     ) -> NDArray[np.intp] | None:
         """Index of the outermost radius at or above the limit, (rows, D); -1 where none.
 
         None when the outermost sample of some ray is above (the grid must reach farther).
-        The samples of a ray beyond its end (``ends_m``) are not evaluated (taken as 0).
+        The samples of a ray beyond its end (``ends_m``) are not evaluated (taken as 0), and
+        a row not ``asked`` of a ray is closed on it from the start (-1).
         The samples are evaluated from the outside in, :data:`RADIAL_BLOCK` radii a pass,
         and a ray is dropped once every row has found its outermost exceedance on it: the
         samples inside it cannot change the answer, and they are the costly ones (close to
@@ -545,7 +557,7 @@ class _Search:
         """
         n_rows, n_dirs, n_radii = len(self.rows), len(directions), len(radii)
         last = np.full((n_rows, n_dirs), -1, dtype=np.intp)
-        closed = np.zeros((n_rows, n_dirs), dtype=bool)
+        closed = ~asked
         boxed_below = self._boxed_prefix(origins, directions, radii)
         outside_rows = np.array([row.outside_only for row in self.rows], dtype=bool)
         offsets = np.linalg.norm(origins - self.centre, axis=1)
@@ -571,7 +583,7 @@ class _Search:
             hit = above.any(axis=2)
             index = start + rr.size - 1 - np.argmax(above[:, :, ::-1], axis=2)
             current = last[:, open_rays]
-            found = (current < 0) & hit
+            found = (current < 0) & hit & asked[:, open_rays]
             last[:, open_rays] = np.where(found, index, current)
             shut = closed[:, open_rays] | found
             # a row that counts only points outside the enclosure cannot reach the limit
@@ -920,16 +932,16 @@ def _distinct_starts(
     kind: NDArray[np.intp],
     spacing: float,
     az_step: float,
-) -> list[int]:
+) -> dict[int, list[int]]:
     """The refinement starts, less those that another start's refinement already covers.
 
     A start from the same origin within half its refinement's reach of an earlier start
     (half the cap's half-angle, 0.75 ``spacing``; along a plane, half the azimuth span,
     0.75 ``az_step``) adds rays interleaved with that start's own, at the same density:
     it is left out.  The first of such starts is kept, in the order given (the same on
-    every machine).
+    every machine).  Returns each kept start with the starts it stands for (itself first).
     """
-    kept: list[int] = []
+    kept: dict[int, list[int]] = {}
     for j in starts:
         covered = False
         for i in kept:
@@ -946,9 +958,10 @@ def _distinct_starts(
                 gap = abs(float(np.angle(np.exp(1j * (a_i - a_j)))))
                 covered = gap < 0.75 * az_step
             if covered:
+                kept[i].append(j)
                 break
         if not covered:
-            kept.append(j)
+            kept[j] = [j]
     return kept
 
 
@@ -986,23 +999,34 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
 
     spacing = np.sqrt(4 * np.pi / n_directions)
     az_step = 2 * np.pi / PLANE_AZIMUTHS
+    outside_rows = np.array([row.outside_only for row in search.rows], dtype=bool)
     for level in range(3):
         shrink = 3.0**-level
-        new_o, new_d, new_kind, new_end = [], [], [], []
+        new_o, new_d, new_kind, new_end, new_asked = [], [], [], [], []
         starts: list[int] = []
+        rows_of: dict[int, set[int]] = {}
         for k in range(len(search.rows)):
             # equally far rays (to the bracket) in the order they were laid out: the same
             # starts on every machine, whatever the last bits of their distances
             for j in _tied_first(dist[k], 3):
-                if dist[k, j] > 0 and j not in starts:
-                    starts.append(j)
-        for j in _distinct_starts(search, starts, o, d, kind, spacing * shrink, az_step * shrink):
+                if dist[k, j] > 0:
+                    if j not in starts:
+                        starts.append(j)
+                    rows_of.setdefault(j, set()).add(k)
+        distinct = _distinct_starts(search, starts, o, d, kind, spacing * shrink, az_step * shrink)
+        for j, stands_for in distinct.items():
+            # a start's rays answer the rows it refines (and the enclosure rows, which use
+            # every ray's end), not the others: a row's own starts refine it
+            asked = outside_rows.copy()
+            for i in stands_for:
+                asked[sorted(rows_of[i])] = True
             if kind[j] < 0:
                 cap = _cap(d[j], 1.5 * spacing * shrink, 24)
                 new_o.append(np.tile(o[j], (len(cap), 1)))
                 new_d.append(cap)
                 new_kind.append(np.full(len(cap), -1))
                 new_end.append(np.full(len(cap), np.inf))
+                new_asked.append(np.tile(asked[:, None], (1, len(cap))))
             else:
                 reflector = search.scenario.reflectors[int(kind[j])]
                 u, v, _ = _basis(np.asarray(reflector.normal, dtype=float))
@@ -1014,11 +1038,12 @@ def _search_all(search: _Search, n_directions: int) -> _Best:
                 new_d.append(dd[ee > 0])
                 new_kind.append(np.full(int(np.count_nonzero(ee > 0)), int(kind[j])))
                 new_end.append(ee[ee > 0])
+                new_asked.append(np.tile(asked[:, None], (1, int(np.count_nonzero(ee > 0)))))
         if not new_o:
             break
         o, d, kind = np.vstack(new_o), np.vstack(new_d), np.concatenate(new_kind)
         end = np.concatenate(new_end)
-        dist = best.add(o, d, search.rays(o, d, end))
+        dist = best.add(o, d, search.rays(o, d, end, np.hstack(new_asked)))
     best.settle()
     return best
 

@@ -157,7 +157,7 @@ def test_refinement_starts_that_another_start_covers_are_refined_once(write_scen
     )
     kind = np.array([-1, -1, -1, -1, 0, 0])
     kept = keepout_mod._distinct_starts(search, [0, 1, 2, 3, 4, 5], o, d, kind, spacing, az_step)
-    assert kept == [0, 2, 3, 4]
+    assert kept == {0: [0, 1], 2: [2], 3: [3], 4: [4, 5]}
 
 
 def test_rays_along_a_plate_run_over_it_and_a_little_beyond():
@@ -224,3 +224,44 @@ def test_an_exceedance_past_a_plate_is_followed_to_its_end(write_scenario, monke
         assert a.distance_with_uncertainty_m == pytest.approx(
             b.distance_with_uncertainty_m, rel=1e-12
         )
+
+
+def test_refinement_rays_answer_the_limits_they_refine(write_scenario, monkeypatch):
+    # An isotropic 6 dBi source, 100 W, over a concrete floor: the general-public and
+    # occupational limits (ICNIRP 2020 Table 5 at 2.45 GHz: 10 and 50 W/m^2) reach
+    # different distances.  The first pass asks every limit of every ray; a refinement
+    # ray answers only the limits whose farthest rays it refines.  Each keep-out still
+    # holds the free-space radius of FCC OET Bulletin 65, Ed. 97-01, eq. (3), and stays
+    # within the floor's envelope factor (1 + |Gamma|)^2 <= 4 of it (OET 65 sec. 2).
+    monkeypatch.setenv("KEEPCLEAR_WORKERS", "1")
+    path = write_scenario(
+        """
+        [[source]]
+        antenna = "isotropic"
+        gain_dbi = 6.0
+        power_w = 100.0
+        position_m = [0.0, 0.0, 1.5]
+        [[reflector]]
+        point_m = [0.0, 0.0, 0.0]
+        normal = [0.0, 0.0, 1.0]
+        material = "concrete"
+        [exposure]
+        limits = ["icnirp-2020/general-public", "icnirp-2020/occupational"]
+        """
+    )
+    scenario = load_scenario(path)
+    masks: list[np.ndarray] = []
+    rays = keepout_mod._Search.rays
+
+    def recording(self, origins, directions, ends_m=None, asked=None):
+        masks.append(np.ones((len(self.rows), len(directions)), bool) if asked is None else asked)
+        return rays(self, origins, directions, ends_m, asked)
+
+    monkeypatch.setattr(keepout_mod._Search, "rays", recording)
+    results = keepout_distances(scenario)
+    assert masks[0].all()
+    assert len(masks) > 1 and not all(m.all() for m in masks[1:])
+    assert all(m.any(axis=0).all() for m in masks)  # every ray answers some limit
+    for result, limit_w_m2 in zip(results, (10.0, 50.0), strict=True):
+        free = np.sqrt(100.0 * 10**0.6 / (4 * np.pi * limit_w_m2))
+        assert free <= result.distance_m <= 2 * free * (1 + RADIUS_TOLERANCE)
