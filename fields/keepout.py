@@ -86,7 +86,7 @@ from keepclear.antennas.memo import active_memo
 from . import limits as limits_mod
 from .field import evaluate, radiating_terms
 from .scenario import Scenario
-from .workers import run_each, worker_count
+from .workers import start_each, worker_count
 
 #: Field reflection assumed for a non-metal plane in the screening estimate (OET 65).
 SCREENING_GROUND_FIELD_REFLECTION = 0.6
@@ -97,9 +97,6 @@ RADIAL_BLOCK = 12
 #: Fewest rays of a batch shared between worker processes (a smaller batch costs less
 #: than starting them).
 SHARED_RAYS = 100
-#: Points whose quotients one search keeps for a second asking (rows x 8 bytes each).
-SEEN_POINTS = 2_000_000
-_POINT_KEY = np.dtype((np.void, 24))
 
 
 @dataclass(frozen=True)
@@ -216,9 +213,6 @@ class _Search:
         self.centre = scenario.centre_m
         self.terms = radiating_terms(scenario)
         self.coherent = scenario.reflections == "coherent" and bool(scenario.reflectors)
-        self._seen: dict[bytes, int] = {}
-        self._kept = np.empty((len(self.rows), 4096))
-        self._size = 0
         self.uncertainty_db = max(
             (float(t.radiator.gain_uncertainty_db) for t in self.terms),
             default=0.0,
@@ -262,41 +256,8 @@ class _Search:
         """Exposure quotient times the row's margin, shape (rows, N), each on its basis.
 
         A ``"time-averaged"`` limit sees the duty-cycle-averaged fields; a ``"while-on"``
-        limit (a device threshold) the fields while every source radiates.  A point asked
-        for again (to the last bit of its coordinates: a refinement cap's central ray is
-        the ray it refines, rows with the same bracket bisect at the same point) is looked
-        up; up to :data:`SEEN_POINTS` points are kept.
+        limit (a device threshold) the fields while every source radiates.
         """
-        pts = np.ascontiguousarray(points, dtype=np.float64)
-        keys = pts.view(_POINT_KEY).ravel().tolist()
-        get = self._seen.get
-        at = np.fromiter((get(k, -1) for k in keys), dtype=np.intp, count=len(keys))
-        miss = np.flatnonzero(at < 0)
-        if miss.size == 0:
-            return self._kept[:, at]
-        first: dict[bytes, int] = {}
-        for i in miss.tolist():
-            first.setdefault(keys[i], i)
-        new = np.fromiter(first.values(), dtype=np.intp, count=len(first))
-        q_new = self._quotients(pts[new])
-        if self._size + new.size > SEEN_POINTS:
-            out = np.empty((len(self.rows), len(keys)))
-            out[:, at >= 0] = self._kept[:, at[at >= 0]]
-            position = {k: j for j, k in enumerate(first)}
-            out[:, miss] = q_new[:, [position[keys[i]] for i in miss.tolist()]]
-            return out
-        if self._size + new.size > self._kept.shape[1]:
-            grown = np.empty((len(self.rows), max(2 * self._kept.shape[1], self._size + new.size)))
-            grown[:, : self._size] = self._kept[:, : self._size]
-            self._kept = grown
-        self._kept[:, self._size : self._size + new.size] = q_new
-        self._seen.update(zip(first, range(self._size, self._size + new.size), strict=True))
-        self._size += new.size
-        at[miss] = [self._seen[keys[i]] for i in miss.tolist()]
-        return self._kept[:, at]
-
-    def _quotients(self, points: NDArray[np.float64]) -> NDArray[np.float64]:
-        """The quotients of :meth:`quotients`, evaluated."""
         res = evaluate(self.scenario, points)
         per_limit = [limits_mod.field_quotient(v, res) for v in self.values]
         q = np.empty((len(self.rows), points.shape[0]))
@@ -322,12 +283,12 @@ class _Search:
         ``ends_m`` (D,) limits a ray to its first ``ends_m`` metres (infinite: the whole
         grid); see :meth:`_rays_here`.  ``asked`` (rows, D) says which rows a ray answers
         (all by default); a row not asked of a ray gets 0 there.  A batch of at least
-        :data:`SHARED_RAYS` rays is
-        shared between worker processes when there are cores to spare and no field
-        sharing between variants is under way
-        (:mod:`keepclear.fields.workers`): worker ``j`` of ``k`` takes rays ``j, j + k,
-        ...`` (each its share of every direction), and the answers are those of
-        :meth:`_rays_here` on the whole batch (see :meth:`_shared_rays`).
+        :data:`SHARED_RAYS` rays is shared between worker processes when there are cores
+        to spare and no field sharing between variants is under way
+        (:mod:`keepclear.fields.workers`): share ``j`` of ``k`` takes rays ``j, j + k,
+        ...`` (each its share of every direction; the first is searched in this
+        process), and the answers are those of :meth:`_rays_here` on the whole batch
+        (see :meth:`_shared_rays`).
         """
         ends = np.full(len(directions), np.inf) if ends_m is None else np.asarray(ends_m)
         if asked is None:
@@ -357,6 +318,10 @@ class _Search:
         starts, the keep-out and its direction are the same.  When a share had to
         reach farther out than the bound (the reach is doubled for the whole batch),
         None is returned and the batch is searched here.
+
+        The first share is searched here while the worker processes search the others
+        (:func:`~keepclear.fields.workers.start_each`): one child fewer to start, and
+        what this process evaluates and builds stays with it for the next batches.
         """
         shares = [np.arange(j, len(directions), count) for j in range(count)]
         r_max = self.r_max
@@ -368,11 +333,17 @@ class _Search:
             )
             return radius, self.r_max, [m.built_on_demand() for m in models]
 
-        done = run_each([functools.partial(share, index) for index in shares], count)
+        pending = start_each([functools.partial(share, index) for index in shares[1:]])
+        try:
+            here = share(shares[0])
+        finally:
+            others = pending.results()
+        done = [here, *others]
+        self.r_max = r_max  # a share here that had to reach farther changed it
         # what a worker built on first use (tables near the metal) is built here too, so
         # that the workers of the next batch find it
         for k, model in enumerate(models):
-            wanted = frozenset().union(*(built[k] for _, _, built in done))
+            wanted = frozenset().union(*(built[k] for _, _, built in others))
             model.build_on_demand(wanted - model.built_on_demand())
         if any(reach != r_max for _, reach, _ in done):
             return None
@@ -411,10 +382,11 @@ class _Search:
         ends = np.array(ends_m, dtype=float)
         for _ in range(8):
             radii = _radii(reach, wavelength, self.coherent)
-            last = self._outermost(origins, directions, radii, ends, asked)
-            if last is not None:
-                last = self._past_ends(origins, directions, radii, ends, last)
-            if last is not None:
+            swept = self._outermost(origins, directions, radii, ends, asked)
+            if swept is not None:
+                swept = self._past_ends(origins, directions, radii, ends, *swept)
+            if swept is not None:
+                last, q_lo, q_hi = swept
                 last = np.where(asked, last, -1)
                 break
             reach *= 2.0
@@ -422,8 +394,6 @@ class _Search:
         else:  # pragma: no cover - the bound doubled 8 times: a model fault, not input
             raise RuntimeError("keep-out search did not close: the field does not decay")
         any_above = last >= 0
-        # the quotients at the bracket's ends (the sweep's samples, kept by quotients())
-        q_lo, q_hi = self._bracket_quotients(origins, directions, radii, last)
         last = np.maximum(last, 0)
         lo = np.where(any_above, radii[last], 0.0)
         hi = np.where(any_above, radii[np.minimum(last + 1, len(radii) - 1)], 0.0)
@@ -485,18 +455,21 @@ class _Search:
         radii: NDArray[np.float64],
         ends_m: NDArray[np.float64],
         last: NDArray[np.intp],
-    ) -> NDArray[np.intp] | None:
+        q_lo: NDArray[np.float64],
+        q_hi: NDArray[np.float64],
+    ) -> tuple[NDArray[np.intp], NDArray[np.float64], NDArray[np.float64]] | None:
         """:meth:`_outermost`'s answer, with the rays whose exceedance runs past their end.
 
         Where a row's outermost exceedance on a ray is the ray's last sample before its
         end, every sample beyond the end is evaluated (all in one pass) and each row's
         outermost exceedance taken from them where there is one: the answer of the ray
-        without an end.  None when the grid's outermost sample is above the limit.
+        without an end, with the quotients at its bracket's ends.  None when the grid's
+        outermost sample is above the limit.
         """
         at_end = np.searchsorted(radii, ends_m, side="right") - 1
         cut = np.isfinite(ends_m) & (at_end < len(radii) - 1) & (last == at_end).any(axis=0)
         if not cut.any():
-            return last
+            return last, q_lo, q_hi
         rays = np.flatnonzero(cut)
         n_radii = len(radii)
         beyond = np.arange(n_radii)[None, :] > at_end[rays, None]  # (rays, radii)
@@ -509,31 +482,17 @@ class _Search:
             return None
         hit = above.any(axis=2)
         outer = n_radii - 1 - np.argmax(above[:, :, ::-1], axis=2)
-        out = last.copy()
-        out[:, rays] = np.where(hit, outer, last[:, rays])
-        return out
-
-    def _bracket_quotients(
-        self,
-        origins: NDArray[np.float64],
-        directions: NDArray[np.float64],
-        radii: NDArray[np.float64],
-        last: NDArray[np.intp],
-    ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-        """Each row's quotient at its bracket's inner and outer sample, (rows, D) each.
-
-        The samples are the sweep's own (the same points to the last bit), so
-        :meth:`quotients` looks them up rather than evaluating them again.
-        """
-        rows, dirs = np.nonzero(last >= 0)
-        out = []
-        for index in (last, last + 1):
-            r = radii[index[rows, dirs]]
-            pts = origins[dirs][:, None, :] + directions[dirs][:, None, :] * r[:, None, None]
-            q = np.full(last.shape, np.nan)
-            q[rows, dirs] = self.quotients(pts.reshape(-1, 3))[rows, np.arange(rows.size)]
-            out.append(q)
-        return out[0], out[1]
+        out, lo, hi = last.copy(), q_lo.copy(), q_hi.copy()
+        new = np.where(hit, outer, last[:, rays])
+        out[:, rays] = new
+        row = np.arange(len(self.rows))[:, None]
+        col = np.arange(rays.size)[None, :]
+        lo[:, rays] = np.where(hit, q[row, col, np.maximum(new, 0)], q_lo[:, rays])
+        # the sample outside a bracket that ends at or past the ray's end: evaluated here
+        moved = hit | (last[:, rays] == at_end[rays][None, :])
+        outside = q[row, col, np.minimum(np.maximum(new, 0) + 1, n_radii - 1)]
+        hi[:, rays] = np.where(moved, outside, q_hi[:, rays])
+        return out, lo, hi
 
     def _outermost(
         self,
@@ -542,9 +501,11 @@ class _Search:
         radii: NDArray,
         ends_m: NDArray[np.float64],
         asked: NDArray[np.bool_],
-    ) -> NDArray[np.intp] | None:
+    ) -> tuple[NDArray[np.intp], NDArray[np.float64], NDArray[np.float64]] | None:
         """Index of the outermost radius at or above the limit, (rows, D); -1 where none.
 
+        With it, each row's quotient at that sample and at the one outside it (the ends
+        of the bracket the crossing is narrowed in; NaN where none).
         None when the outermost sample of some ray is above (the grid must reach farther).
         The samples of a ray beyond its end (``ends_m``) are not evaluated (taken as 0), and
         a row not ``asked`` of a ray is closed on it from the start (-1).
@@ -557,6 +518,9 @@ class _Search:
         """
         n_rows, n_dirs, n_radii = len(self.rows), len(directions), len(radii)
         last = np.full((n_rows, n_dirs), -1, dtype=np.intp)
+        q_lo = np.full((n_rows, n_dirs), np.nan)
+        q_hi = np.full((n_rows, n_dirs), np.nan)
+        edge = np.zeros((n_rows, n_dirs))  # each ray's quotient at radii[stop]
         closed = ~asked
         boxed_below = self._boxed_prefix(origins, directions, radii)
         outside_rows = np.array([row.outside_only for row in self.rows], dtype=bool)
@@ -585,6 +549,15 @@ class _Search:
             current = last[:, open_rays]
             found = (current < 0) & hit & asked[:, open_rays]
             last[:, open_rays] = np.where(found, index, current)
+            r_f, o_f = np.nonzero(found)
+            if r_f.size:
+                at = index[r_f, o_f] - start
+                q_lo[r_f, open_rays[o_f]] = q[r_f, o_f, at]
+                outer_q = q[r_f, o_f, np.minimum(at + 1, rr.size - 1)]
+                q_hi[r_f, open_rays[o_f]] = np.where(
+                    at + 1 < rr.size, outer_q, edge[r_f, open_rays[o_f]]
+                )
+            edge[:, open_rays] = q[:, :, 0]
             shut = closed[:, open_rays] | found
             # a row that counts only points outside the enclosure cannot reach the limit
             # on the samples still below when all of them lie in the box or its walls
@@ -602,7 +575,7 @@ class _Search:
                 shut = closed[:, open_rays]
             open_rays = open_rays[~shut.all(axis=0)]
             stop = start
-        return last
+        return last, q_lo, q_hi
 
     @staticmethod
     def _outranked(

@@ -100,7 +100,7 @@ def test_the_isotropic_keep_out_is_the_closed_form_to_the_bracket(write_scenario
     scenario = load_scenario(path)
     stages: list[str] = []
     outermost = keepout_mod._Search._outermost
-    quotients = keepout_mod._Search._quotients
+    quotients = keepout_mod._Search.quotients
 
     def marking(self, *args):
         stages.append("sweep")
@@ -114,11 +114,11 @@ def test_the_isotropic_keep_out_is_the_closed_form_to_the_bracket(write_scenario
         return quotients(self, points)
 
     monkeypatch.setattr(keepout_mod._Search, "_outermost", marking)
-    monkeypatch.setattr(keepout_mod._Search, "_quotients", counting)
+    monkeypatch.setattr(keepout_mod._Search, "quotients", counting)
     result = keepout_distances(scenario, ["icnirp-2020/general-public"])[0]
     exact = np.sqrt(100.0 * 10**0.6 / (4 * np.pi * 10.0))
     assert exact <= result.distance_m <= exact * (1 + RADIUS_TOLERANCE)
-    # after every sweep, at most one pass narrows (the bracket ends are looked up)
+    # after every sweep, at most one pass narrows (the sweep keeps the bracket's ends)
     runs = "/".join(stages).split("sweep")
     assert all(run.count("narrow pass") <= 1 for run in runs)
 
@@ -208,10 +208,10 @@ def test_an_exceedance_past_a_plate_is_followed_to_its_end(write_scenario, monke
     followed: list[int] = []
     past_ends = keepout_mod._Search._past_ends
 
-    def counting(self, origins, directions, radii, ends_m, last):
-        out = past_ends(self, origins, directions, radii, ends_m, last)
+    def counting(self, origins, directions, radii, ends_m, last, q_lo, q_hi):
+        out = past_ends(self, origins, directions, radii, ends_m, last, q_lo, q_hi)
         if out is not None:
-            followed.append(int(np.count_nonzero((out != last).any(axis=0))))
+            followed.append(int(np.count_nonzero((out[0] != last).any(axis=0))))
         return out
 
     monkeypatch.setattr(keepout_mod._Search, "_past_ends", counting)
