@@ -757,25 +757,33 @@ def _check_source_side(
 
 
 def _accessible(
-    reflectors: Sequence[ReflectorModel], points_m: NDArray[np.float64], exclude: Sequence[int]
+    reflectors: Sequence[ReflectorModel],
+    points_m: NDArray[np.float64],
+    exclude: Sequence[int],
+    distances_m: Sequence[NDArray[np.float64]] | None = None,
 ) -> NDArray[np.bool_]:
     """Points on the source side (or on) every infinite plane not in ``exclude``.
 
-    Finite plates do not bound the space: rays pass beside them.
+    Finite plates do not bound the space: rays pass beside them.  ``distances_m``, when
+    given, are the points' signed distances from each plane, already computed.
     """
     ok = np.ones(points_m.shape[0], dtype=bool)
     for k, r in enumerate(reflectors):
         if k not in exclude and not r.is_finite:
-            ok &= r.signed_distance_m(points_m) >= -PLANE_TOLERANCE_M
+            d = r.signed_distance_m(points_m) if distances_m is None else distances_m[k]
+            ok &= d >= -PLANE_TOLERANCE_M
     return ok
 
 
 def _crossing_either_way(
-    reflector: ReflectorModel, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+    reflector: ReflectorModel,
+    start_m: NDArray[np.float64],
+    end_m: NDArray[np.float64],
+    end_distance_m: NDArray[np.float64] | None = None,
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
     """Where segments with ends on opposite sides (or on) of the plane meet it."""
     d0 = reflector.signed_distance_m(start_m)
-    d1 = reflector.signed_distance_m(end_m)
+    d1 = reflector.signed_distance_m(end_m) if end_distance_m is None else end_distance_m
     span = d0 - d1
     good = (d0 * d1 <= PLANE_TOLERANCE_M**2) & (np.abs(span) > 0)
     t = np.clip(np.where(good, d0 / np.where(good, span, 1.0), 0.0), 0.0, 1.0)
@@ -783,11 +791,17 @@ def _crossing_either_way(
 
 
 def _crossing(
-    reflector: ReflectorModel, start_m: NDArray[np.float64], end_m: NDArray[np.float64]
+    reflector: ReflectorModel,
+    start_m: NDArray[np.float64],
+    end_m: NDArray[np.float64],
+    end_distance_m: NDArray[np.float64] | None = None,
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
-    """Where segments from ``start`` (far side or on) to ``end`` (near side) meet the plane."""
+    """Where segments from ``start`` (far side or on) to ``end`` (near side) meet the plane.
+
+    ``end_distance_m``, when given, is the ends' signed distance from the plane.
+    """
     d0 = reflector.signed_distance_m(start_m)
-    d1 = reflector.signed_distance_m(end_m)
+    d1 = reflector.signed_distance_m(end_m) if end_distance_m is None else end_distance_m
     span = d1 - d0
     good = (d0 <= PLANE_TOLERANCE_M) & (d1 >= -PLANE_TOLERANCE_M) & (span > 0)
     t = np.where(good, -d0 / np.where(good, span, 1.0), 0.0)
@@ -1010,14 +1024,16 @@ def _fields_and_images(  # noqa: PLR0913
     n_pts = pts.shape[0]
     source = np.asarray(radiator.position_m, dtype=float)
     _check_source_side(refl, source[None, :])
-    inside = _accessible(refl, pts, exclude=())
+    # the points' signed distances from each plane, used by every image
+    heights = [r.signed_distance_m(pts) for r in refl]
+    inside = _accessible(refl, pts, exclude=(), distances_m=heights)
     first_refs = [r.mirror_points(source[None, :]) for r in refl]
 
     # (first plane i or None, last plane j, where the image exists, points in plane j)
     paths: list[tuple[int | None, int, NDArray[np.bool_] | None]] = []
     valid: NDArray[np.bool_] | None
     for j, rj in enumerate(refl):
-        q_j, met = _crossing(rj, np.broadcast_to(first_refs[j], pts.shape), pts)
+        q_j, met = _crossing(rj, np.broadcast_to(first_refs[j], pts.shape), pts, heights[j])
         paths.append((None, j, inside & met & _accessible(refl, q_j, exclude=(j,))))
     if order == 2:
         for i, ri in enumerate(refl):
@@ -1030,7 +1046,9 @@ def _fields_and_images(  # noqa: PLR0913
                 # an infinite plane reflects on its source side only; a plate on both faces
                 if d_ij > PLANE_TOLERANCE_M or (rj.is_finite and d_ij < -PLANE_TOLERANCE_M):
                     s_ij = rj.mirror_points(s_i)
-                    q_j, met_j = _crossing_either_way(rj, np.broadcast_to(s_ij, pts.shape), pts)
+                    q_j, met_j = _crossing_either_way(
+                        rj, np.broadcast_to(s_ij, pts.shape), pts, heights[j]
+                    )
                     valid = inside & met_j & _accessible(refl, q_j, exclude=(j,))
                     q_i, met_i = _crossing(ri, np.broadcast_to(s_i, pts.shape), q_j)
                     valid &= met_i & _accessible(refl, q_i, exclude=(i,))
