@@ -1262,7 +1262,13 @@ class OutgoingExpansion:
         rows = ((i_t + pad)[:, :, None] * m + (i_p % m)[:, None, :]).reshape(-1, p * p)
         w = (w_t[:, :, None] * w_p[:, None, :]).reshape(-1, 1, p * p)
         x = np.clip(2.0 * s_m / self._s_max - 1.0, -1.0, 1.0)
-        cheb = np.cos(np.outer(np.arccos(x), np.arange(q)))[:, None, :]
+        # T_l(x) by the three-term recurrence (T_l = cos(l arccos x) on [-1, 1])
+        cheb = np.empty((x.size, 1, q))
+        cheb[:, 0, 0] = 1.0
+        if q > 1:
+            cheb[:, 0, 1] = x
+        for k in range(2, q):
+            cheb[:, 0, k] = 2.0 * x * cheb[:, 0, k - 1] - cheb[:, 0, k - 2]
         grid = self._grid.view(np.float64)
         out = np.empty((rel.shape[0], 12))
         step = max(32, 2**21 // (p * p * grid.shape[1] * 8))
@@ -1481,8 +1487,20 @@ def _lagrange_stencil(
     The nodes are floor(t) - p/2 + 1 ... floor(t) + p/2 (p even), so t lies in the
     middle interval; returns the node indices (N, p) and weights (N, p).
     """
-    base = np.floor(t).astype(np.int64) - (p // 2 - 1)
+    floor = np.floor(t)
+    base = floor.astype(np.int64) - (p // 2 - 1)
     idx = base[:, None] + np.arange(p)[None, :]
+    if p == 4:
+        # the cubic's four weights written out (nodes -1, 0, 1, 2 about floor(t)):
+        # the same polynomials as the loop below, in fewer passes over the points
+        f = t - floor
+        fp, fm, fm2 = f + 1.0, f - 1.0, f - 2.0
+        w4 = np.empty(idx.shape)
+        w4[:, 0] = -(f * fm * fm2) / 6.0
+        w4[:, 1] = (fp * fm * fm2) / 2.0
+        w4[:, 2] = -(fp * f * fm2) / 2.0
+        w4[:, 3] = (fp * f * fm) / 6.0
+        return idx, w4
     d = t[:, None] - idx  # distance to each node
     w = np.ones(idx.shape)
     for j in range(p):  # L_j(t) = prod over i != j of (t - x_i) / (x_j - x_i), x_j - x_i = j - i
