@@ -4,7 +4,17 @@ from __future__ import annotations
 
 import os
 
-from _common import SUMMARY
+# The benchmarks time what the command line runs: one BLAS thread a process, unless the
+# user chose otherwise (fields/cli.py, _one_blas_thread).  Set before numpy loads (the
+# next import loads it); the worker processes of a search inherit it.
+if not any(
+    os.environ.get(name)
+    for name in ("OPENBLAS_NUM_THREADS", "GOTO_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+):
+    os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    os.environ["MKL_NUM_THREADS"] = "1"
+
+from _common import SUMMARY  # noqa: E402
 
 #: Figures shown in the end-of-run table, in this order, where a benchmark has them.
 _COLUMNS = (
