@@ -156,7 +156,15 @@ class FieldMemo:
             self._remember_chunk(store, digest, pts, rows)
             e, h = store.e[rows], store.h[rows]
             return (e, h) if factor is None else (e * factor, h * factor)
-        e_new, h_new = evaluate(pts[miss])
+        # a point asked twice in one call (a point on a plane is its own mirror image) is
+        # evaluated and kept once
+        first: dict[bytes, int] = {}
+        for i in miss.tolist():
+            first.setdefault(keys[i], len(first))
+        order = np.fromiter((first[keys[i]] for i in miss.tolist()), dtype=np.intp)
+        _, at = np.unique(order, return_index=True)
+        unique = miss[at]
+        e_new, h_new = evaluate(pts[unique])
         e = np.empty((len(keys), 3), dtype=complex)
         h = np.empty((len(keys), 3), dtype=complex)
         hit = np.flatnonzero(rows >= 0)
@@ -165,16 +173,17 @@ class FieldMemo:
             if factor is not None:
                 e[hit] *= factor
                 h[hit] *= factor
-        e[miss], h[miss] = e_new, h_new
-        if self.kept + miss.size <= self.max_points:
-            missing = [keys[i] for i in miss.tolist()]
+        e[miss], h[miss] = e_new[order], h_new[order]
+        self.evaluated += unique.size - miss.size
+        if self.kept + unique.size <= self.max_points:
             back = None if factor is None else 1.0 / factor
-            rows[miss] = store.append(
-                missing,
+            kept_rows = store.append(
+                list(first),
                 e_new if back is None else e_new * back,
                 h_new if back is None else h_new * back,
             )
-            self.kept += miss.size
+            rows[miss] = kept_rows[order]
+            self.kept += unique.size
             self._remember_chunk(store, digest, pts, rows)
         return e, h
 

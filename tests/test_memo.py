@@ -15,7 +15,7 @@ import pytest
 
 from keepclear.antennas.base import Radiator
 from keepclear.antennas.horn import PyramidalHorn
-from keepclear.antennas.memo import radiator_fields, shared_field_evaluations
+from keepclear.antennas.memo import isolated, radiator_fields, shared_field_evaluations
 from keepclear.antennas.wire import Dipole
 from keepclear.fields.keepout import RADIUS_TOLERANCE, keepout_distances
 from keepclear.fields.scenario import load_scenario, shared_radiators
@@ -68,6 +68,26 @@ def test_memo_gives_the_fields_of_a_fresh_evaluation():
     np.testing.assert_allclose(h2, plain_h, rtol=1e-12, atol=1e-15 * np.abs(plain_h).max())
     np.testing.assert_allclose(e1, plain_e[:200], **tol)
     np.testing.assert_allclose(e3, half_e, **tol)
+
+
+def test_a_point_asked_twice_in_one_call_is_evaluated_and_kept_once():
+    # A point on a reflecting plane is its own mirror image: the field evaluation asks the
+    # radiator for it twice in one call.  It is evaluated once, both answers are its field,
+    # and what was kept is forgotten cleanly at the end of an isolated block.
+    horn = _horn(800.0)
+    pts = _points(50)
+    twice = np.vstack([pts, pts[:10]])
+    plain_e, plain_h = horn.fields(twice)
+    with shared_field_evaluations() as memo:
+        with isolated():
+            e, h = horn.fields(twice)
+            assert memo.evaluated == 50
+        e_again, _ = horn.fields(twice)  # forgotten: evaluated afresh
+        assert memo.evaluated == 100
+    tol = dict(rtol=1e-12, atol=1e-15 * np.abs(plain_e).max())
+    np.testing.assert_allclose(e, plain_e, **tol)
+    np.testing.assert_allclose(h, plain_h, rtol=1e-12, atol=1e-15 * np.abs(plain_h).max())
+    np.testing.assert_allclose(e_again, plain_e, **tol)
 
 
 def test_a_whole_array_asked_again_is_looked_up_and_a_changed_one_is_not_confused():
