@@ -197,6 +197,22 @@ def as_points(points_m: ArrayLike) -> NDArray[np.float64]:
     return p
 
 
+def row_norms(vectors: NDArray) -> NDArray[np.float64]:
+    """Euclidean length of each row of a real or complex (N, 3) array, (N,).
+
+    The three squares (six for complex rows: real and imaginary parts) are added column by
+    column in a fixed order: the same bits whatever the processor's vector unit, and a
+    few times faster than ``np.linalg.norm(..., axis=1)`` on short rows.
+    """
+    v = np.ascontiguousarray(vectors)
+    if np.iscomplexobj(v):
+        v = v.view(np.float64)
+    total = v[:, 0] * v[:, 0]
+    for k in range(1, v.shape[1]):
+        total += v[:, k] * v[:, k]
+    return np.sqrt(total)
+
+
 class Radiator(abc.ABC):
     """A source of 2.45 GHz-class fields: the interface every model implements.
 

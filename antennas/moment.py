@@ -134,7 +134,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from .base import C_M_S, ETA0_OHM, ModelInputError
+from .base import C_M_S, ETA0_OHM, ModelInputError, row_norms
 
 #: Largest number of segments accepted (NEC-2's dense matrix: 16 N^2 bytes, N^3/3 steps).
 MAX_SEGMENTS = 4000
@@ -1212,7 +1212,7 @@ class OutgoingExpansion:
 
     def covers(self, points_m: NDArray[np.float64]) -> NDArray[np.bool_]:
         """Which points lie in the expansion's region (r >= inner radius)."""
-        r = np.linalg.norm(points_m - self.centre_m, axis=1)
+        r = row_norms(points_m - self.centre_m)
         return np.asarray(r >= self.inner_radius_m)
 
     def fields(
@@ -1223,7 +1223,7 @@ class OutgoingExpansion:
             return self.fields_exact(points_m)
         pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
         rel = pts - self.centre_m
-        r = np.linalg.norm(rel, axis=1)
+        r = row_norms(rel)
         a = self._interpolate(rel, 1.0 / r)
         a *= (np.exp(-1j * self.wavenumber_rad_m * r) / r)[:, None]
         return a[:, :3], a[:, 3:]
@@ -1253,7 +1253,7 @@ class OutgoingExpansion:
         is read as pairs of reals, which halves the products (the same sums, term by term).
         """
         m, pad, p, q = self._m, self._pad, self.STENCIL, self._q
-        norm = np.linalg.norm(rel, axis=1)
+        norm = row_norms(rel)
         theta = np.arccos(np.clip(rel[:, 2] / norm, -1.0, 1.0))
         phi = np.arctan2(rel[:, 1], rel[:, 0])
         h = 2.0 * np.pi / m

@@ -35,7 +35,7 @@ from numpy.typing import NDArray
 from scipy.optimize import minimize
 
 from . import moment
-from .base import ETA0_OHM, Radiator, fibonacci_sphere
+from .base import ETA0_OHM, Radiator, fibonacci_sphere, row_norms
 
 #: Distance, in units of max(D, lambda), beyond which the radiation field is used.
 FAR_ZONE_FACTOR = 1000.0
@@ -157,7 +157,7 @@ class SolvedWireRadiator(Radiator):
     def _local_fields(
         self, points_local_m: NDArray[np.float64]
     ) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
-        r = np.linalg.norm(points_local_m, axis=1)
+        r = row_norms(points_local_m)
         far = r > FAR_ZONE_FACTOR * max(self.largest_dimension_m, self.wavelength_m)
         e = np.empty((points_local_m.shape[0], 3), dtype=complex)
         h = np.empty_like(e)

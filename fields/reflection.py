@@ -165,6 +165,7 @@ from keepclear.antennas.base import (
     ModelInputError,
     Radiator,
     as_points,
+    row_norms,
     unit_vector,
 )
 from keepclear.antennas.memo import radiator_fields
@@ -838,7 +839,7 @@ def _image_transform(
         return e_img, h_img
     image_ref = reflector.mirror_points(np.reshape(reference_m, (-1, 3)))
     ray = points_m - image_ref
-    dist = np.linalg.norm(ray, axis=1)
+    dist = row_norms(ray)
     safe = np.where(dist > 0, dist, 1.0)
     cos = np.where(dist > 0, np.abs(ray @ n) / safe, 1.0)
     a_s, a_p = reflector.image_factors(frequency_hz, np.clip(cos, 0.0, 1.0))
@@ -852,7 +853,7 @@ def _image_transform(
             n[0] * ray[:, 1] - n[1] * ray[:, 0],
         ]
     )
-    s_norm = np.linalg.norm(s_hat, axis=1)
+    s_norm = row_norms(s_hat)
     ok = s_norm > 1e-12 * np.maximum(dist, 1e-300)
     s_hat = s_hat / np.where(ok, s_norm, 1.0)[:, None]
     if not ok.all():
@@ -1324,11 +1325,11 @@ def combine(
             h += hi
         return np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
     if mode == "envelope":
-        e_mag = np.linalg.norm(e_direct, axis=1)
-        h_mag = np.linalg.norm(h_direct, axis=1)
+        e_mag = row_norms(e_direct)
+        h_mag = row_norms(h_direct)
         for ei, hi in images:
-            e_mag = e_mag + np.linalg.norm(ei, axis=1)
-            h_mag = h_mag + np.linalg.norm(hi, axis=1)
+            e_mag = e_mag + row_norms(ei)
+            h_mag = h_mag + row_norms(hi)
         return e_mag**2, h_mag**2
     raise ValueError(f"mode must be one of {', '.join(REFLECTION_MODES)}, got {mode!r}")
 

@@ -242,3 +242,16 @@ def test_isotropic_polarization_is_its_e_direction(write_scenario, polarization)
     e, _ = radiator.fields(2.0 * ray[None, :])
     direction = np.abs(e[0]) / np.linalg.norm(np.abs(e[0]))
     np.testing.assert_allclose(direction, np.abs(pol), atol=1e-12)
+
+
+def test_row_norms_are_the_euclidean_lengths_of_real_and_complex_rows():
+    # |v| = sqrt(sum |v_k|^2), the Euclidean length (a definition; common practice, no
+    # source): the written-out sum equals numpy's norm to the last bits.
+    from keepclear.antennas.base import row_norms
+
+    rng = np.random.default_rng(5)
+    real = rng.normal(size=(500, 3)) * 10.0 ** rng.uniform(-9, 3, (500, 1))
+    cplx = real + 1j * rng.normal(size=(500, 3))
+    np.testing.assert_allclose(row_norms(real), np.linalg.norm(real, axis=1), rtol=1e-15)
+    np.testing.assert_allclose(row_norms(cplx), np.linalg.norm(cplx, axis=1), rtol=1e-15)
+    assert row_norms(np.zeros((2, 3))).tolist() == [0.0, 0.0]  # exact by construction
