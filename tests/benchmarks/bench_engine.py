@@ -274,19 +274,19 @@ def test_bench_demo_map(benchmark, side, shift):
     fast_s = benchmark.stats.stats.min
     pts = grid.points_m()
     radiator = direct.sources[0].radiator
+    label = f"demo horn map {side}x{side}" + (" off-axis" if shift else "")
+    timing = {
+        "points": len(pts),
+        "seconds": fast_s,
+        "points_per_s": len(pts) / fast_s,
+        "seconds_per_million": fast_s / len(pts) * 1e6,
+    }
     if not hasattr(radiator, "direct_orders"):
         # the bundled horn is solved with its walls (a wire grid): its fast path against
         # every segment's exact kernel is bench_finite_ground.py's "demo horn with its
         # walls"; here the map is timed alone
-        record(
-            benchmark,
-            f"demo horn map {side}x{side}" + (" off-axis" if shift else ""),
-            points=len(pts),
-            seconds=fast_s,
-            points_per_s=len(pts) / fast_s,
-            seconds_per_million=fast_s / len(pts) * 1e6,
-            note="wire-grid horn; accuracy against the segment kernel: bench_finite_ground.py",
-        )
+        note = "wire-grid horn; accuracy against the segment kernel: bench_finite_ground.py"
+        record(benchmark, label, **timing, note=note)
         assert np.all(np.isfinite(result.power_density_w_m2))
         return
     nx, ny = radiator.direct_orders()
@@ -309,11 +309,8 @@ def test_bench_demo_map(benchmark, side, shift):
         )
     record(
         benchmark,
-        f"demo horn map {side}x{side}" + (" off-axis" if shift else ""),
-        points=len(pts),
-        seconds=fast_s,
-        points_per_s=len(pts) / fast_s,
-        seconds_per_million=fast_s / len(pts) * 1e6,
+        label,
+        **timing,
         direct_points_timed=len(sub),
         direct_s=direct_s,
         speedup=direct_s / fast_s,
