@@ -185,7 +185,7 @@ def read_scenario_document(path: str | Path) -> dict[str, Any]:
     if len(raw) > MAX_SCENARIO_BYTES:
         raise ScenarioError(f"is {len(raw)} bytes; a scenario file is at most 2 MB", label)
     try:
-        text = raw.decode("utf-8")
+        text = raw.decode("utf-8-sig")  # a byte-order mark (some Windows editors) is dropped
     except UnicodeDecodeError:
         raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", label) from None
     try:

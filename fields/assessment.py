@@ -1589,7 +1589,7 @@ def assess(
     check_rank_by(scenario, rank_by)
     scenario = with_sweeps(scenario, sweeps)
     if scenario_text is None and scenario.path and Path(scenario.path).is_file():
-        scenario_text = Path(scenario.path).read_text(encoding="utf-8")
+        scenario_text = Path(scenario.path).read_text(encoding="utf-8-sig")
     if out is None:
         return _assess(scenario, ids, height_m, grid, scenario_text, progress, readings, rank_by)
     protected = [Path(scenario.path)] if scenario.path else []

@@ -951,7 +951,7 @@ def assess_command(
     check_rank_by(loaded, rank_by)
     loaded = api.with_sweeps(loaded, sweep)
     api.refuse_assessment_overwrites(out, [scenario], height_m)
-    text = Path(scenario).read_text(encoding="utf-8")
+    text = Path(scenario).read_text(encoding="utf-8-sig")
     with Progress() as progress:
         result = api.assess(
             loaded,

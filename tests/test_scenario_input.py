@@ -104,6 +104,22 @@ def test_very_long_and_odd_strings(tmp_path, name):
         assert strict_json(result.stdout)["scenario"] == name
 
 
+def test_a_byte_order_mark_is_read_as_utf_8(tmp_path):
+    # Some Windows editors start a UTF-8 file with a byte-order mark (U+FEFF, Unicode
+    # Standard sec. 23.8, from memory); TOML 1.0 has no BOM, so it is dropped before
+    # parsing: the same answer as the file without it.
+    text = (
+        'name = "BOM test"\n[[source]]\nantenna = "isotropic"\npower_w = 10.0\n'
+        "position_m = [0.0, 0.0, 1.0]\n"
+    )
+    plain, marked = tmp_path / "plain.toml", tmp_path / "marked.toml"
+    plain.write_text(text, encoding="utf-8")
+    marked.write_bytes(b"\xef\xbb\xbf" + text.encode("utf-8"))
+    a, b = run("keepout", plain, "--json"), run("keepout", marked, "--json")
+    assert b.exit_code == 0, b.stderr
+    assert strict_json(b.stdout)["keepout"] == strict_json(a.stdout)["keepout"]
+
+
 @EXPECTED_PLAUSIBILITY_WARNING
 def test_file_over_2_mb_is_refused(tmp_path):
     path = tmp_path / "big.toml"
