@@ -326,8 +326,9 @@ def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
     """Whether an option raises the keep-out or a named place's value above the base's.
 
     Returns ``(raises_keepout, raised place names, note)``; the note (None when nothing is
-    raised) names the likely cause when the option changes only the shield sheets and not
-    the power: a sheet's lit-side edge diffraction (README, "Shield sheets").
+    raised) names the likely cause when the option changes the shield sheets and not the
+    power: a sheet of the base left out (what it shaded is open), or else a sheet's lit-side
+    edge diffraction (README, "Shield sheets").
     """
     if v.is_base:
         return False, [], None
@@ -347,11 +348,15 @@ def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
     if shield.shields_differ(v.scenario.shields, base.scenario.shields) and (
         v.scenario.average_power_w <= base.scenario.average_power_w
     ):
-        ripple_db = 20 * math.log10(RECTANGLE_RIPPLE)
-        note += (
-            f": the sheet's edge diffraction beside it (up to +{ripple_db:.2f} dB in the "
-            "light); widen the sheet or move it"
-        )
+        if len(v.scenario.shields) < len(base.scenario.shields):
+            # a sheet taken away: what it shaded is open, no edge is to blame
+            note += ": it leaves out a shield sheet of the base, and what that sheet shaded is open"
+        else:
+            ripple_db = 20 * math.log10(RECTANGLE_RIPPLE)
+            note += (
+                f": the sheet's edge diffraction beside it (up to +{ripple_db:.2f} dB in the "
+                "light); widen the sheet or move it"
+            )
     return keepout, raised, note
 
 

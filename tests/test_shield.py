@@ -488,3 +488,51 @@ def test_an_option_whose_sheet_raises_the_keepout_is_marked(write_scenario):
     text = comparison_table(data)
     assert 'Above the base: option "small sheet" raises the keep-out' in text
     assert text.count("Above the base:") == 1
+
+
+SHEET_TAKEN_AWAY = """
+name = "sheet taken away"
+frequency_hz = 2.45e9
+[exposure]
+limits = ["icnirp-2020/general-public"]
+
+[[source]]
+id = "s"
+antenna = "isotropic"
+power_w = 100.0
+position_m = [0.0, 0.0, 1.0]
+
+[[shield]]
+center_m = [0.5, 0.0, 1.0]
+normal = [1.0, 0.0, 0.0]
+width_m = 0.5
+height_m = 0.5
+type = "sheet"
+metal = "aluminium"
+thickness_m = 0.001
+
+[[point]]
+name = "behind the sheet"
+position_m = [2.0, 0.0, 1.0]
+
+[[option]]
+name = "no sheet"
+shield = []
+"""
+
+
+def test_an_option_that_takes_the_sheet_away_is_not_blamed_on_edge_diffraction(
+    write_scenario,
+):
+    # Behind a 1 mm aluminium sheet the field is far below the free field (common practice,
+    # no source: a solid metal sheet passes nothing but its edges' diffraction); without it
+    # the place behind gets the free field, so the option raises it.  The note says the
+    # sheet was left out, not that an edge diffracts.
+    from keepclear.fields.compare import compare_options
+    from keepclear.fields.scenario import load_scenario
+
+    data = compare_options(load_scenario(write_scenario(SHEET_TAKEN_AWAY)), pixels=21).data()
+    row = {r["name"]: r for r in data["options"]}["no sheet"]
+    assert row["raised_places"] == ["behind the sheet"]
+    assert "leaves out a shield sheet" in row["above_base_note"]
+    assert "edge diffraction" not in row["above_base_note"]
