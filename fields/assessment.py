@@ -175,7 +175,7 @@ def with_sweeps(scenario: Scenario, sweeps: Sequence[SweepSpec] | None) -> Scena
             key, values = spec[0], list(spec[1])
         scenario = with_sweep(scenario, key, list(values))
     # The file's options were checked when it was loaded; the swept values are new.
-    warn_implausible(o.scenario for o in scenario.options[given:])
+    warn_implausible(scenario, scenario.options[given:], with_base=False)
     return scenario
 
 

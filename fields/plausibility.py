@@ -187,9 +187,25 @@ def _issue(messages: Iterable[str]) -> None:
         warnings.warn(message, PlausibilityWarning, stacklevel=1)
 
 
-def warn_implausible(scenarios: Iterable[Any]) -> None:
-    """Issue each distinct plausibility message of the scenarios once."""
-    _issue(m for scenario in scenarios for m in plausibility_messages(scenario))
+def warn_implausible(
+    scenario: Any, options: Iterable[Any] | None = None, *, with_base: bool = True
+) -> None:
+    """Issue each distinct plausibility message of a scenario and of its options once.
+
+    An option's own findings are prefixed with its name (``option 'NAME': ...``); what it
+    shares with the base (a value the option does not change) is the base's message alone.
+    ``options`` defaults to the scenario's; without ``with_base`` the base's messages are
+    not issued again (they were when it was loaded).
+    """
+    base = plausibility_messages(scenario)
+    chosen = scenario.options if options is None else options
+    own = [
+        f"option '{o.name}': {m}"
+        for o in chosen
+        for m in plausibility_messages(o.scenario)
+        if m not in base
+    ]
+    _issue([*(base if with_base else []), *own])
 
 
 def warn_limits(scenario: Any, limit_ids: Iterable[str]) -> None:

@@ -843,7 +843,7 @@ def _scenario_from_document(document: dict[str, Any], source: str, allow_options
     if allow_options:
         from .plausibility import warn_implausible
 
-        warn_implausible([scenario, *(o.scenario for o in scenario.options)])
+        warn_implausible(scenario)
     return scenario
 
 

@@ -259,3 +259,30 @@ def test_each_run_carries_its_own_load_warnings(write_scenario):
         m.startswith("option 'low-f': ") and "0.9 GHz" in m
         for m in input_warnings(scenario, options=True)
     )
+
+
+def test_an_options_own_finding_is_named_after_it_on_stderr(write_scenario):
+    # The base's 200 kW is the base's finding (every option shares it, so it is given once,
+    # without an option's name); a 1 m sheet that only one option adds is that option's.
+    path = write_scenario(
+        ISOTROPIC.replace("power_w = 100.0", "power_w = 250000.0")
+        + """
+[[option]]
+name = "thick sheet"
+[[option.shield]]
+center_m = [0.5, 0.0, 1.0]
+normal = [1.0, 0.0, 0.0]
+width_m = 0.5
+height_m = 0.5
+type = "sheet"
+metal = "aluminium"
+thickness_m = 1.0
+"""
+    )
+    result = runner.invoke(app, ["compare", str(path), "--pixels", "11", "--json"])
+    assert result.exit_code == 0, result.output
+    assert result.stderr.count("above 100 kW") == 1
+    assert "option 'thick sheet': shield.1.thickness_m = 1 m is thicker than 5 cm" in (
+        result.stderr
+    )
+    assert "option 'thick sheet': source.1.power_w" not in result.stderr
