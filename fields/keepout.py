@@ -363,8 +363,9 @@ class _Search:
 
         A ray with a finite end (``ends_m``) is sampled up to it only (the samples beyond
         count as below the limit); one whose last sample before its end is at or above
-        the limit is searched again along the whole grid, so its outermost crossing is
-        never cut short by its end.
+        the limit is followed past it, every sample beyond evaluated in one pass
+        (:meth:`_past_ends`), so its outermost crossing is never cut short by its end.
+        A row not ``asked`` of a ray gets 0 there.
 
         Zero where the ray never reaches the limit.  The grid is sampled outward, the
         outermost sample at or above the limit kept, and the interval beyond it narrowed
