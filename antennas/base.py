@@ -206,7 +206,7 @@ def row_norms(vectors: NDArray) -> NDArray[np.float64]:
     """
     v = np.ascontiguousarray(vectors)
     if np.iscomplexobj(v):
-        v = v.view(np.float64)
+        v = v.view(v.real.dtype)  # (N, 6): real and imaginary parts side by side
     total = v[:, 0] * v[:, 0]
     for k in range(1, v.shape[1]):
         total += v[:, k] * v[:, k]

@@ -327,8 +327,9 @@ def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
 
     Returns ``(raises_keepout, raised place names, note)``; the note (None when nothing is
     raised) names the likely cause when the option changes the shield sheets and not the
-    power: a sheet of the base left out (what it shaded is open), or else a sheet's lit-side
-    edge diffraction (README, "Shield sheets").
+    power: a sheet of the base left out, moved or changed (what it shaded may be open), or
+    else, when every sheet of the base is still there, an added sheet's lit-side edge
+    diffraction (README, "Shield sheets").
     """
     if v.is_base:
         return False, [], None
@@ -348,9 +349,13 @@ def above_base(v: Variant, base: Variant) -> tuple[bool, list[str], str | None]:
     if shield.shields_differ(v.scenario.shields, base.scenario.shields) and (
         v.scenario.average_power_w <= base.scenario.average_power_w
     ):
-        if len(v.scenario.shields) < len(base.scenario.shields):
-            # a sheet taken away: what it shaded is open, no edge is to blame
-            note += ": it leaves out a shield sheet of the base, and what that sheet shaded is open"
+        kept = {shield.sheet_key(s) for s in v.scenario.shields}
+        if any(shield.sheet_key(s) not in kept for s in base.scenario.shields):
+            # a sheet of the base taken away, moved or changed: what it shaded may be open
+            note += (
+                ": it leaves out, moves or changes a shield sheet of the base, and what that "
+                "sheet shaded may be open"
+            )
         else:
             ripple_db = 20 * math.log10(RECTANGLE_RIPPLE)
             note += (

@@ -985,8 +985,8 @@ def _aperture_factors(
 ) -> list[NDArray[np.complex128]]:
     """:meth:`Reflector.aperture_factor` for each (plate, start, ends) asked, in order.
 
-    The rays asked of one plate go to it in one call (the values are those of one call
-    a request: the factor is computed ray by ray).
+    The rays asked of one plate go to it in one call; each ray's factor is computed on its
+    own, so the values equal those of separate calls.
     """
     out: list[NDArray[np.complex128]] = [np.empty(0, dtype=complex)] * len(asked)
     for plate in sorted({k for k, _, _ in asked}):
@@ -1341,12 +1341,12 @@ __all__ = [
     "Reflector",
     "behind",
     "combine",
+    "direct_and_reflected_fields",
     "fresnel_coefficients",
     "has_obstacles",
     "image_labels",
     "normal_incidence_coefficient_from_permittivity",
     "plate_obstacle_factor",
-    "direct_and_reflected_fields",
     "reflected_fields",
     "transmission_power_factor",
 ]

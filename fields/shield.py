@@ -575,23 +575,24 @@ class Shield:
         return out
 
 
+def sheet_key(s: object) -> tuple[object, ...]:
+    """What makes a shield sheet the same sheet: place, size, margin and make-up."""
+    if not isinstance(s, Shield):
+        return (id(s),)
+    return (
+        tuple(s.center_m),
+        tuple(s.normal),
+        tuple(s.height_axis),
+        s.width_m,
+        s.height_m,
+        s.edge_margin_m,
+        repr(s.spec),
+    )
+
+
 def shields_differ(a: Sequence[object], b: Sequence[object]) -> bool:
     """Whether two scenarios' shield sheets differ (place, size, margin or make-up)."""
-
-    def key(s: object) -> tuple[object, ...]:
-        if not isinstance(s, Shield):
-            return (id(s),)
-        return (
-            tuple(s.center_m),
-            tuple(s.normal),
-            tuple(s.height_axis),
-            s.width_m,
-            s.height_m,
-            s.edge_margin_m,
-            repr(s.spec),
-        )
-
-    return [key(s) for s in a] != [key(s) for s in b]
+    return [sheet_key(s) for s in a] != [sheet_key(s) for s in b]
 
 
 __all__ = [
@@ -605,5 +606,6 @@ __all__ = [
     "Shield",
     "ShieldSpec",
     "SlotSpec",
+    "sheet_key",
     "shields_differ",
 ]

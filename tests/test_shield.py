@@ -534,5 +534,28 @@ def test_an_option_that_takes_the_sheet_away_is_not_blamed_on_edge_diffraction(
     data = compare_options(load_scenario(write_scenario(SHEET_TAKEN_AWAY)), pixels=21).data()
     row = {r["name"]: r for r in data["options"]}["no sheet"]
     assert row["raised_places"] == ["behind the sheet"]
-    assert "leaves out a shield sheet" in row["above_base_note"]
+    assert "leaves out, moves or changes a shield sheet" in row["above_base_note"]
+    assert "edge diffraction" not in row["above_base_note"]
+
+
+def test_an_option_that_moves_the_sheet_aside_is_not_blamed_on_edge_diffraction(
+    write_scenario,
+):
+    # The same sheet moved 2.5 m aside no longer shades the place behind it: the cause is
+    # the base's sheet gone from where it was, not an edge's ripple (common practice, no
+    # source), and the advice to widen or move a sheet would be wrong.
+    from keepclear.fields.compare import compare_options
+    from keepclear.fields.scenario import load_scenario
+
+    moved = SHEET_TAKEN_AWAY.replace(
+        'name = "no sheet"\nshield = []',
+        'name = "sheet moved aside"\n[[option.shield]]\ncenter_m = [0.5, 2.5, 1.0]\n'
+        'normal = [1.0, 0.0, 0.0]\nwidth_m = 0.5\nheight_m = 0.5\ntype = "sheet"\n'
+        'metal = "aluminium"\nthickness_m = 0.001',
+    )
+    assert "sheet moved aside" in moved
+    data = compare_options(load_scenario(write_scenario(moved)), pixels=21).data()
+    row = {r["name"]: r for r in data["options"]}["sheet moved aside"]
+    assert row["raised_places"] == ["behind the sheet"]
+    assert "moves or changes a shield sheet" in row["above_base_note"]
     assert "edge diffraction" not in row["above_base_note"]
