@@ -281,8 +281,10 @@ class _Search:
         """Outermost radius from each ray's origin where the quotient reaches one, (rows, D).
 
         ``ends_m`` (D,) limits a ray to its first ``ends_m`` metres (infinite: the whole
-        grid); see :meth:`_rays_here`.  ``asked`` (rows, D) says which rows a ray answers
-        (all by default); a row not asked of a ray gets 0 there.  A batch of at least
+        grid); see :meth:`_rays_here`.  ``asked`` (rows, D) says which rows a ray is
+        sampled for (all by default): a row not asked of a ray does not keep it open, and
+        gets the outermost exceedance among the samples taken for the others (0 if none).
+        A batch of at least
         :data:`SHARED_RAYS` rays is shared between worker processes when there are cores
         to spare and no field sharing between variants is under way
         (:mod:`keepclear.fields.workers`): share ``j`` of ``k`` takes rays ``j, j + k,
@@ -336,8 +338,10 @@ class _Search:
         pending = start_each([functools.partial(share, index) for index in shares[1:]])
         try:
             here = share(shares[0])
-        finally:
-            others = pending.results()
+        except BaseException:  # an interrupt or an error here: the workers' shares are moot
+            pending.cancel()
+            raise
+        others = pending.results()
         done = [here, *others]
         self.r_max = r_max  # a share here that had to reach farther changed it
         # what a worker built on first use (tables near the metal) is built here too, so
@@ -365,7 +369,8 @@ class _Search:
         count as below the limit); one whose last sample before its end is at or above
         the limit is followed past it, every sample beyond evaluated in one pass
         (:meth:`_past_ends`), so its outermost crossing is never cut short by its end.
-        A row not ``asked`` of a ray gets 0 there.
+        A row not ``asked`` of a ray keeps the outermost exceedance among the samples
+        taken for the rows asked (0 where they hold none).
 
         Zero where the ray never reaches the limit.  The grid is sampled outward, the
         outermost sample at or above the limit kept, and the interval beyond it narrowed
@@ -388,7 +393,6 @@ class _Search:
                 swept = self._past_ends(origins, directions, radii, ends, *swept)
             if swept is not None:
                 last, q_lo, q_hi = swept
-                last = np.where(asked, last, -1)
                 break
             reach *= 2.0
             self.r_max *= 2.0
@@ -432,7 +436,7 @@ class _Search:
             q_try = q_all[ri[pair], inverse]
             # trials from the outside in: one above the limit raises lo, one below lowers
             # hi, each only inside the bracket, which stays [above, below] with a crossing
-            # in it (the outer one kept, as bisection keeps it)
+            # in it (the outermost crossing among the trials kept)
             for k in reversed(range(trials.shape[1])):
                 at = np.flatnonzero(keep.reshape(-1, trials.shape[1])[:, k])
                 if not at.size:
@@ -509,7 +513,9 @@ class _Search:
         of the bracket the crossing is narrowed in; NaN where none).
         None when the outermost sample of some ray is above (the grid must reach farther).
         The samples of a ray beyond its end (``ends_m``) are not evaluated (taken as 0), and
-        a row not ``asked`` of a ray is closed on it from the start (-1).
+        a row not ``asked`` of a ray does not keep it open: it is closed from the start
+        and keeps the outermost exceedance among the samples taken for the others (all the
+        samples outside it were taken, so it is that row's outermost on the ray).
         The samples are evaluated from the outside in, :data:`RADIAL_BLOCK` radii a pass,
         and a ray is dropped once every row has found its outermost exceedance on it: the
         samples inside it cannot change the answer, and they are the costly ones (close to
@@ -548,7 +554,7 @@ class _Search:
             hit = above.any(axis=2)
             index = start + rr.size - 1 - np.argmax(above[:, :, ::-1], axis=2)
             current = last[:, open_rays]
-            found = (current < 0) & hit & asked[:, open_rays]
+            found = (current < 0) & hit
             last[:, open_rays] = np.where(found, index, current)
             r_f, o_f = np.nonzero(found)
             if r_f.size:
@@ -591,7 +597,7 @@ class _Search:
         Of a batch of rays only the farthest ends of each row are used: the row's keep-out
         is the largest of them, its direction the first within :data:`TIE_TOLERANCE` of
         it, and the refinement starts from the three farthest (:func:`_tied_first`).  A
-        ray whose outermost exceedance has been found at sample ``i`` ends, once bisected,
+        ray whose outermost exceedance has been found at sample ``i`` ends, once narrowed,
         at least ``radii[i] - |origin - centre|`` from the centre; a ray still open below
         sample ``start`` ends at most ``|origin - centre| + radii[start]`` from it (its
         bracket lies inside ``radii[start]``).  Where that upper bound is below the third
@@ -632,7 +638,7 @@ class _Search:
 #: far (twice the bracket: each end is known to RADIUS_TOLERANCE).
 TIE_TOLERANCE = 2 * RADIUS_TOLERANCE
 #: Relative margin of the bounds that leave a ray out (rounding of the distances computed
-#: from the bisected radii).
+#: from the narrowed radii).
 _SAFETY = 1e-9
 
 
@@ -698,10 +704,13 @@ def _next_block(
 
     A ray is left only once every row has found its outermost exceedance on it or been
     outranked, so no ray is left while every open (row, ray) pair is well below the
-    limit: the passes there can be long without evaluating a sample a shorter pass would
-    skip.  The next pass reaches inwards to where the largest open quotient ``q_max``
-    would reach :data:`_GROW_BELOW` if it grew as 1/r^2 (and no farther than a factor
-    :data:`_GROW_SPAN` in radius); at least :data:`RADIAL_BLOCK` radii.
+    limit: the passes there can be long.  The next pass reaches inwards to where the
+    largest open quotient ``q_max`` would reach :data:`_GROW_BELOW` if it grew as 1/r^2
+    (and no farther than a factor :data:`_GROW_SPAN` in radius); at least
+    :data:`RADIAL_BLOCK` radii.  A heuristic on the quotients evaluated (samples not
+    evaluated count as 0; the 1/r^2 law fails in the reactive near field): a long pass
+    can evaluate samples a short one would have skipped, but the answer does not depend
+    on the pass lengths.
     """
     if start <= 0:
         return RADIAL_BLOCK
@@ -736,7 +745,7 @@ def _rank_threshold(lower: NDArray[np.float64]) -> NDArray[np.float64]:
 def _tied_first(dist: NDArray[np.float64], count: int) -> list[int]:
     """The ``count`` farthest rays, ties (within :data:`TIE_TOLERANCE`) in the rays' order.
 
-    Distances come from a bisection known to :data:`RADIUS_TOLERANCE`: rays equally far
+    Distances come from a bracket known to :data:`RADIUS_TOLERANCE`: rays equally far
     (an isotropic source, a ring about a wire) differ in their last bits, and those bits
     depend on the processor and the BLAS build.  Every ray within the tie tolerance of
     the farthest is taken first, in the order the rays were laid out (the same on every

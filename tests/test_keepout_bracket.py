@@ -265,3 +265,21 @@ def test_refinement_rays_answer_the_limits_they_refine(write_scenario, monkeypat
     for result, limit_w_m2 in zip(results, (10.0, 50.0), strict=True):
         free = np.sqrt(100.0 * 10**0.6 / (4 * np.pi * limit_w_m2))
         assert free <= result.distance_m <= 2 * free * (1 + RADIUS_TOLERANCE)
+
+
+def test_the_keepout_outside_an_enclosure_is_never_beyond_the_whole_one(monkeypatch):
+    # The points outside the box are some of all the points: the sphere that holds every
+    # exceedance outside the box cannot be larger than the one that holds every
+    # exceedance (a set inclusion; common practice, no source).  The enclosure's rows are
+    # asked of every ray, the others only of their own refinement rays: an exceedance met
+    # on samples taken for the enclosure's rows counts for the others too.
+    from pathlib import Path
+
+    monkeypatch.setenv("KEEPCLEAR_WORKERS", "1")
+    scenario = load_scenario(
+        Path(__file__).resolve().parent.parent / "scenarios" / "drying-line-enclosure.toml"
+    )
+    for result in keepout_distances(scenario):
+        outside = result.outside_enclosure
+        assert outside is not None
+        assert outside["distance_m"] <= result.distance_m * (1 + 1e-12), result.limit_id
