@@ -158,12 +158,13 @@ class FieldMemo:
             return (e, h) if factor is None else (e * factor, h * factor)
         # a point asked twice in one call (a point on a plane is its own mirror image) is
         # evaluated and kept once
-        first: dict[bytes, int] = {}
-        for i in miss.tolist():
-            first.setdefault(keys[i], len(first))
-        order = np.fromiter((first[keys[i]] for i in miss.tolist()), dtype=np.intp)
-        _, at = np.unique(order, return_index=True)
-        unique = miss[at]
+        first: dict[bytes, int] = {}  # each point asked: its place among the new ones
+        order = np.fromiter(
+            (first.setdefault(keys[i], len(first)) for i in miss.tolist()),
+            dtype=np.intp,
+            count=miss.size,
+        )
+        unique = miss[np.unique(order, return_index=True)[1]]
         e_new, h_new = evaluate(pts[unique])
         e = np.empty((len(keys), 3), dtype=complex)
         h = np.empty((len(keys), 3), dtype=complex)

@@ -433,24 +433,19 @@ class _Search:
             inverse = inverse.reshape(-1)
             cols = unique[:, 0].astype(np.intp)
             q_all = self.quotients(origins[cols] + directions[cols] * unique[:, 1:2])
-            q_try = q_all[ri[pair], inverse]
+            q_trials = np.full(trials.shape, np.nan)
+            q_trials.reshape(-1)[keep] = q_all[ri[pair], inverse]
             # trials from the outside in: one above the limit raises lo, one below lowers
-            # hi, each only inside the bracket, which stays [above, below] with a crossing
-            # in it (the outermost crossing among the trials kept)
-            for k in reversed(range(trials.shape[1])):
-                at = np.flatnonzero(keep.reshape(-1, trials.shape[1])[:, k])
-                if not at.size:
-                    continue
-                sel = np.searchsorted(np.flatnonzero(keep), at * trials.shape[1] + k)
-                r_k, q_k = r_try[sel], q_try[sel]
-                rr, dd = ri[at], di[at]
-                inside = (r_k > lo[rr, dd]) & (r_k < hi[rr, dd])
+            # hi, each only inside the bracket (an unused trial, NaN, is inside none), which
+            # stays [above, below] with a crossing in it (the outermost among the trials)
+            for r_k, q_k in zip(trials.T[::-1], q_trials.T[::-1], strict=True):
+                inside = (r_k > lo[ri, di]) & (r_k < hi[ri, di])
                 up = inside & (q_k >= 1.0)
-                lo[rr[up], dd[up]] = r_k[up]
-                q_lo[rr[up], dd[up]] = q_k[up]
+                lo[ri[up], di[up]] = r_k[up]
+                q_lo[ri[up], di[up]] = q_k[up]
                 down = inside & (q_k < 1.0)
-                hi[rr[down], dd[down]] = r_k[down]
-                q_hi[rr[down], dd[down]] = q_k[down]
+                hi[ri[down], di[down]] = r_k[down]
+                q_hi[ri[down], di[down]] = q_k[down]
         return np.where(any_above, hi, 0.0)
 
     def _past_ends(
@@ -471,7 +466,7 @@ class _Search:
         without an end, with the quotients at its bracket's ends.  None when the grid's
         outermost sample is above the limit.
         """
-        at_end = np.searchsorted(radii, ends_m, side="right") - 1
+        at_end = _last_before(radii, ends_m)
         cut = np.isfinite(ends_m) & (at_end < len(radii) - 1) & (last == at_end).any(axis=0)
         if not cut.any():
             return last, q_lo, q_hi
@@ -535,7 +530,7 @@ class _Search:
         open_rays = np.arange(n_dirs)
         stop = n_radii
         block = RADIAL_BLOCK
-        at_end = np.searchsorted(radii, ends_m, side="right") - 1  # last sample before the end
+        at_end = _last_before(radii, ends_m)
         while stop > 0 and open_rays.size:
             start = max(0, stop - block)
             rr = radii[start:stop]
@@ -640,6 +635,11 @@ TIE_TOLERANCE = 2 * RADIUS_TOLERANCE
 #: Relative margin of the bounds that leave a ray out (rounding of the distances computed
 #: from the narrowed radii).
 _SAFETY = 1e-9
+
+
+def _last_before(radii: NDArray[np.float64], ends_m: NDArray[np.float64]) -> NDArray[np.intp]:
+    """Index of each ray's last sample at or before its end (the grid's last for no end)."""
+    return np.searchsorted(radii, ends_m, side="right") - 1
 
 
 def _bracket_trials(

@@ -994,10 +994,9 @@ def _aperture_factors(
         ends = [asked[n][2] for n in mine]
         starts = [np.broadcast_to(asked[n][1], asked[n][2].shape) for n in mine]
         a = reflectors[plate].aperture_factor(np.vstack(starts), np.vstack(ends), frequency_hz)
-        at = 0
-        for n, end in zip(mine, ends, strict=True):
-            out[n] = a[at : at + end.shape[0]]
-            at += end.shape[0]
+        cuts = np.cumsum([len(end) for end in ends])[:-1]
+        for n, part in zip(mine, np.split(a, cuts), strict=True):
+            out[n] = part
     return out
 
 
@@ -1055,87 +1054,72 @@ def _fields_and_images(  # noqa: PLR0913
                     valid &= met_i & _accessible(refl, q_i, exclude=(i,))
                 paths.append((i, j, valid))
 
-    # the source's field: at the points, and at each image's mirrored points
+    # the source's field: at the points, and at each image's points mirrored in its last
+    # plane (``in_plane``), then in its first
+    where: dict[int, NDArray[np.bool_]] = {}  # the points where each image exists
+    in_plane: dict[int, NDArray[np.float64]] = {}
     wanted = [pts] if direct else []
-    mirrored: list[NDArray[np.float64] | None] = []
-    for first, last, valid in paths:
-        if valid is None or not valid.any():
-            mirrored.append(None)
-            continue
-        in_j = refl[last].mirror_points(pts[valid])
-        mirrored.append(in_j)
-        wanted.append(in_j if first is None else refl[first].mirror_points(in_j))
-    e_all = h_all = None
+    for k, (first, last, valid) in enumerate(paths):
+        if valid is not None and valid.any():
+            where[k] = valid
+            in_plane[k] = refl[last].mirror_points(pts[valid])
+            wanted.append(in_plane[k] if first is None else refl[first].mirror_points(in_plane[k]))
+    e_direct = h_direct = None
+    arriving: dict[int, tuple[NDArray, NDArray]] = {}  # the field each image reflects
     if wanted:
         args = () if chunk_bytes is None else (chunk_bytes,)
         e_all, h_all = radiator_fields(radiator, np.vstack(wanted), *args)
-    at = n_pts if direct else 0
-    e_direct = e_all[:n_pts] if direct and e_all is not None else None
-    h_direct = h_all[:n_pts] if direct and h_all is not None else None
+        cuts = np.cumsum([len(w) for w in wanted])[:-1]
+        e_parts, h_parts = np.split(e_all, cuts), np.split(h_all, cuts)
+        if direct:
+            e_direct, h_direct = e_parts.pop(0), h_parts.pop(0)
+        arriving = dict(zip(in_plane, zip(e_parts, h_parts, strict=True), strict=True))
+
+    def by_plane(
+        plane_of: dict[int, int], points: dict[int, NDArray], reference: dict[int, NDArray]
+    ) -> None:
+        """Each plane's conductor image and factors, once for every image bouncing there."""
+        groups: dict[int, list[int]] = {}
+        for k, plane in plane_of.items():
+            groups.setdefault(plane, []).append(k)
+        for plane, members in groups.items():
+            e, h = _image_transform(
+                np.vstack([arriving[k][0] for k in members]),
+                np.vstack([arriving[k][1] for k in members]),
+                np.vstack([points[k] for k in members]),
+                np.vstack([np.broadcast_to(reference[k], points[k].shape) for k in members]),
+                refl[plane],
+                frequency_hz,
+            )
+            cuts = np.cumsum([len(points[k]) for k in members])[:-1]
+            parts = zip(np.split(e, cuts), np.split(h, cuts), strict=True)
+            arriving.update(zip(members, parts, strict=True))
+
+    # first the first bounce of the second-order images, at their points mirrored in the
+    # last plane (the reference: the source); then every image's last bounce, at the field
+    # points (the reference: the source, or its image in the first plane)
+    firsts = {k: first for k, (first, _, _) in enumerate(paths) if k in arriving}
+    by_plane(
+        {k: first for k, first in firsts.items() if first is not None},
+        in_plane,
+        {k: source for k in arriving},
+    )
+    by_plane(
+        {k: paths[k][1] for k in arriving},
+        {k: pts[where[k]] for k in arriving},
+        {k: source if first is None else first_refs[first][0] for k, first in firsts.items()},
+    )
 
     images: list[tuple[NDArray, NDArray]] = []
     # the plates' aperture factors, asked of each plate once: (plate, start, ends) per use
     asked: list[tuple[int, NDArray[np.float64], NDArray[np.float64]]] = []
     uses: list[tuple[int, list[int]]] = []  # (image, indices into asked, in product order)
-    # each plane's conductor image and factors, asked once a plane: first the first
-    # bounce of the second-order images (at the points mirrored in their last plane), then
-    # every image's last bounce (at the field points)
-    arriving: dict[int, tuple[NDArray, NDArray]] = {}  # the field each image reflects
-    in_plane: dict[int, NDArray[np.float64]] = {}  # its points mirrored in its last plane
-    inner: dict[int, list[int]] = {}
-    for k, ((first, _last, valid), in_last) in enumerate(zip(paths, mirrored, strict=True)):
-        if valid is None or in_last is None:
-            continue
-        assert e_all is not None and h_all is not None
-        count = in_last.shape[0]
-        arriving[k] = (e_all[at : at + count], h_all[at : at + count])
-        in_plane[k] = in_last
-        at += count
-        if first is not None:
-            inner.setdefault(first, []).append(k)
-    for plane, members in inner.items():
-        e1, h1 = _image_transform(
-            np.vstack([arriving[k][0] for k in members]),
-            np.vstack([arriving[k][1] for k in members]),
-            np.vstack([in_plane[k] for k in members]),
-            source,
-            refl[plane],
-            frequency_hz,
-        )
-        start = 0
-        for k in members:
-            count = in_plane[k].shape[0]
-            arriving[k] = (e1[start : start + count], h1[start : start + count])
-            start += count
-    outer: dict[int, list[int]] = {}
-    for k in arriving:
-        outer.setdefault(paths[k][1], []).append(k)
-    reflected: dict[int, tuple[NDArray, NDArray]] = {}
-    for plane, members in outer.items():
-        # the reference of the last bounce: the source, or its image in the first plane
-        references = []
-        for k in members:
-            first = paths[k][0]
-            ref = source if first is None else first_refs[first][0]
-            references.append(np.broadcast_to(ref, in_plane[k].shape))
-        valid_points = [pts[paths[k][2]] for k in members]
-        e2, h2 = _image_transform(
-            np.vstack([arriving[k][0] for k in members]),
-            np.vstack([arriving[k][1] for k in members]),
-            np.vstack(valid_points),
-            np.vstack(references),
-            refl[plane],
-            frequency_hz,
-        )
-        start = 0
-        for k, points in zip(members, valid_points, strict=True):
-            reflected[k] = (e2[start : start + len(points)], h2[start : start + len(points)])
-            start += len(points)
-    for k, ((first, last, valid), in_last) in enumerate(zip(paths, mirrored, strict=True)):
+    for k, (first, last, _) in enumerate(paths):
         e = np.zeros((n_pts, 3), dtype=complex)
         h = np.zeros((n_pts, 3), dtype=complex)
-        if k in reflected and valid is not None and in_last is not None:
-            e[valid], h[valid] = reflected[k]
+        if k in arriving:
+            valid = where[k]
+            e[valid], h[valid] = arriving[k]
             rj = refl[last]
             factors = []
             if first is None:
@@ -1149,13 +1133,13 @@ def _fields_and_images(  # noqa: PLR0913
                     asked.append((last, rj.mirror_points(s_i), pts[valid]))
                 if ri.is_finite:  # first bounce: the unfolded ray s_i -> M_j p
                     factors.append(len(asked))
-                    asked.append((first, s_i, in_last))
+                    asked.append((first, s_i, in_plane[k]))
             if factors:
                 uses.append((len(images), factors))
         images.append((e, h))
     answers = _aperture_factors(refl, asked, frequency_hz)
     for k, factors in uses:
-        valid = paths[k][2]
+        valid = where[k]
         a = answers[factors[0]]
         for f in factors[1:]:
             a = a * answers[f]

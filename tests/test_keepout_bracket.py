@@ -230,9 +230,10 @@ def test_refinement_rays_answer_the_limits_they_refine(write_scenario, monkeypat
     # An isotropic 6 dBi source, 100 W, over a concrete floor: the general-public and
     # occupational limits (ICNIRP 2020 Table 5 at 2.45 GHz: 10 and 50 W/m^2) reach
     # different distances.  The first pass asks every limit of every ray; a refinement
-    # ray answers only the limits whose farthest rays it refines.  Each keep-out still
-    # holds the free-space radius of FCC OET Bulletin 65, Ed. 97-01, eq. (3), and stays
-    # within the floor's envelope factor (1 + |Gamma|)^2 <= 4 of it (OET 65 sec. 2).
+    # ray is followed inwards only for the limits whose farthest rays it refines.  Each
+    # keep-out still holds the free-space radius of FCC OET Bulletin 65, Ed. 97-01, eq.
+    # (3), and stays within the floor's envelope factor (1 + |Gamma|)^2 <= 4 of it (OET 65
+    # sec. 2).
     monkeypatch.setenv("KEEPCLEAR_WORKERS", "1")
     path = write_scenario(
         """

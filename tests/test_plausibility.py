@@ -266,18 +266,8 @@ def test_an_options_own_finding_is_named_after_it_on_stderr(write_scenario):
     # without an option's name); a 1 m sheet that only one option adds is that option's.
     path = write_scenario(
         ISOTROPIC.replace("power_w = 100.0", "power_w = 250000.0")
-        + """
-[[option]]
-name = "thick sheet"
-[[option.shield]]
-center_m = [0.5, 0.0, 1.0]
-normal = [1.0, 0.0, 0.0]
-width_m = 0.5
-height_m = 0.5
-type = "sheet"
-metal = "aluminium"
-thickness_m = 1.0
-"""
+        + '\n[[option]]\nname = "thick sheet"\n'
+        + SHEET.format(thickness=1.0).replace("[[shield]]", "[[option.shield]]")
     )
     result = runner.invoke(app, ["compare", str(path), "--pixels", "11", "--json"])
     assert result.exit_code == 0, result.output

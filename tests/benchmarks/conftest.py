@@ -4,15 +4,12 @@ from __future__ import annotations
 
 import os
 
+from keepclear.fields.cli import _one_blas_thread
+
 # The benchmarks time what the command line runs: one BLAS thread a process, unless the
-# user chose otherwise (fields/cli.py, _one_blas_thread).  Set before numpy loads (the
-# next import loads it); the worker processes of a search inherit it.
-if not any(
-    os.environ.get(name)
-    for name in ("OPENBLAS_NUM_THREADS", "GOTO_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
-):
-    os.environ["OPENBLAS_NUM_THREADS"] = "1"
-    os.environ["MKL_NUM_THREADS"] = "1"
+# user chose otherwise.  Set before numpy loads (the next import loads it; the command
+# line's module does not); the worker processes of a search inherit it.
+_one_blas_thread()
 
 from _common import SUMMARY  # noqa: E402
 
