@@ -8,7 +8,7 @@ Each variant (the base, then every option as the loader merged it) gets
 * the leakage 5 cm from the enclosure where there is one (the enclosure model's
   ``face_density_5cm``, with the enclosed sources' power while radiating: the
   21 CFR 1030.10 reading is taken with the source on),
-* the worst named point: the ``[[point]]`` with the largest exposure quotient
+* the worst named place: the ``[[point]]`` with the largest exposure quotient
   over the selected limits.
 
 * the value at every named place (the ``places`` of ``compare --json``): the
@@ -20,7 +20,7 @@ Ranking (``rank_by``):
 * ``"keepout"`` (default): the smallest "largest keep-out distance across the
   selected limits" first (each with the model's gain uncertainty where one is
   stated, the figure to mark out), then the smaller zone area of the strictest
-  limit, then the worst named point's quotient;
+  limit, then the worst named place's quotient;
 * ``"place:NAME"``: the smallest time-averaged power density at the named place
   first, then as ``"keepout"``;
 * ``"zone-area"``: the smallest zone area (on that horizontal plane) of the
@@ -223,14 +223,14 @@ def ranked_by_text(rank_by: str, where: str = "source height") -> str:
     zone = f"zone area at {where} of the strictest limit"
     keepout = (
         "largest keep-out distance across the limits (with model uncertainty), "
-        f"then {zone}, then worst named point"
+        f"then {zone}, then worst named place"
     )
     if rank_by == "keepout":
         return keepout
     if rank_by == "zone-area":
         return (
             f"{zone}, then largest keep-out distance across "
-            "the limits (with model uncertainty), then worst named point"
+            "the limits (with model uncertainty), then worst named place"
         )
     return f"time-averaged power density at {rank_by.removeprefix('place:')}, then {keepout}"
 
@@ -755,7 +755,7 @@ def comparison_table(data: dict[str, Any]) -> str:
     }
     header = ["rank", "option", *(h for g in groups for h in heads[g])]
     leaks = shows_leakage(data["options"])
-    header += [*(["leak 5 cm W/m2 (mW/cm2)"] if leaks else []), "worst named point"]
+    header += [*(["leak 5 cm W/m2 (mW/cm2)"] if leaks else []), "worst named place"]
     widened = False
     rows = []
     for row in data["options"]:

@@ -1,4 +1,4 @@
-"""Option comparison: ranking, worst named point, JSON shape, the demo options file.
+"""Option comparison: ranking, worst named place, JSON shape, the demo options file.
 
 The ranking check rests on the far-field law of FCC OET Bulletin 65, Edition 97-01
 (1997), eq. (3): R = sqrt(P G / (4 pi S)), so a tenth of the power needs
