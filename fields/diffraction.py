@@ -387,6 +387,7 @@ def largest_over_corners(
     start_m: NDArray[np.float64],
     end_m: NDArray[np.float64],
     offsets_m: NDArray[np.float64],
+    plane: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None,
 ) -> NDArray[np.float64]:
     """The largest ``factor(start + offset, end)`` over the offsets (:func:`cube_offsets`).
 
@@ -398,13 +399,52 @@ def largest_over_corners(
 
     ``start_m`` and ``end_m`` are (N, 3), one ray a row; ``factor`` works ray by ray, so
     every corner's rays go to it in one call (the values are those of one call a corner).
+
+    ``plane`` (a point on it and its unit normal), when given, says that ``factor`` is
+    exactly 1 on a ray whose ends are not on opposite sides of that plane (a sheet's or a
+    plate's, :func:`rectangle_crossing`): a ray whose end and every corner's start lie on
+    the same side, farther from the plane than :data:`_SIDE_MARGIN_M` (far beyond the
+    rounding of the distances), gets 1 without being asked of ``factor`` (the same value:
+    every corner's factor is 1).
     """
+    if plane is not None:
+        return _largest_crossing(factor, start_m, end_m, offsets_m, plane)
     if len(offsets_m) == 1:
         return factor(start_m + offsets_m[0], end_m)
     n = end_m.shape[0]
     starts = (start_m[None, :, :] + offsets_m[:, None, :]).reshape(-1, 3)
     ends = np.broadcast_to(end_m, (len(offsets_m), n, 3)).reshape(-1, 3)
     return factor(starts, ends).reshape(len(offsets_m), n).max(axis=0)
+
+
+#: Rays whose ends lie this close to a sheet's plane (or closer) are always asked of
+#: the factor (see :func:`largest_over_corners`) [m].
+_SIDE_MARGIN_M: Final[float] = 1e-9
+
+
+def _largest_crossing(
+    factor: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.float64]],
+    start_m: NDArray[np.float64],
+    end_m: NDArray[np.float64],
+    offsets_m: NDArray[np.float64],
+    plane: tuple[NDArray[np.float64], NDArray[np.float64]],
+) -> NDArray[np.float64]:
+    """:func:`largest_over_corners` asked only of the rays that may cross ``plane``."""
+    point, normal = plane
+    d_end = (end_m - point) @ normal
+    d_start = (start_m - point) @ normal
+    shift = offsets_m @ normal
+    lowest = d_start + float(shift.min())
+    highest = d_start + float(shift.max())
+    clear = ((d_end > _SIDE_MARGIN_M) & (lowest > _SIDE_MARGIN_M)) | (
+        (d_end < -_SIDE_MARGIN_M) & (highest < -_SIDE_MARGIN_M)
+    )
+    out = np.ones(end_m.shape[0])
+    if clear.all():
+        return out
+    ask = ~clear
+    out[ask] = largest_over_corners(factor, start_m[ask], end_m[ask], offsets_m)
+    return out
 
 
 __all__ = [

@@ -740,7 +740,9 @@ class Reflector:
                 f[geo.crossing] = diffraction.obstacle_factor(geo.nu[:, geo.crossing])
             return f
 
-        return diffraction.largest_over_corners(factor, start, end, offsets)
+        return diffraction.largest_over_corners(
+            factor, start, end, offsets, plane=(self.point_m, self.normal)
+        )
 
 
 # ------------------------------------------------------------------ image method

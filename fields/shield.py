@@ -547,7 +547,9 @@ class Shield:
             raise ValueError(f"source_extent_m must be >= 0, got {source_extent_m!r}")
         axes = np.column_stack([self.width_axis, self.height_axis, self.normal])
         offsets = diffraction.cube_offsets(extent, axes)
-        return diffraction.largest_over_corners(self._factor_from, src, pts, offsets)
+        return diffraction.largest_over_corners(
+            self._factor_from, src, pts, offsets, plane=(self.center_m, self.normal)
+        )
 
     def _factor_from(self, src: NDArray[np.float64], pts: NDArray[np.float64]) -> NDArray:
         hw = self.width_m / 2 - float(self.edge_margin_m or 0.0)
