@@ -34,6 +34,7 @@ everything in this process).
 
 from __future__ import annotations
 
+import functools
 import os
 import pickle
 import select
@@ -289,3 +290,204 @@ class Pending(Generic[T]):
         if self._folder:
             shutil.rmtree(self._folder, ignore_errors=True)
             self._folder = ""
+
+
+def _send(fd: int, obj: object) -> None:
+    """Write ``obj`` pickled, after its length (8 bytes), to a pipe."""
+    data = pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL)
+    view = memoryview(len(data).to_bytes(8, "little") + data)
+    while view:
+        view = view[os.write(fd, view) :]
+
+
+def _receive(fd: int) -> tuple[bool, Any]:
+    """Read one object :func:`_send` wrote: (True, obj), or (False, None) at the pipe's end."""
+
+    def exactly(n: int) -> bytes | None:
+        parts, left = [], n
+        while left:
+            part = os.read(fd, min(left, 1 << 20))
+            if not part:
+                return None
+            parts.append(part)
+            left -= len(part)
+        return b"".join(parts)
+
+    head = exactly(8)
+    if head is None:
+        return False, None
+    body = exactly(int.from_bytes(head, "little"))
+    if body is None:
+        return False, None
+    return True, pickle.loads(body)  # noqa: S301 - our own child's answer
+
+
+def _serve(handler: Callable[[Any], Any], inbox: int, outbox: int) -> None:  # pragma: no cover
+    """In a crew's child: answer each request read from ``inbox`` until its end, then exit.
+
+    Each answer is ``(value, warnings)``, or :data:`_FAILED` when the handler raised or its
+    value does not pickle (the parent then answers that request itself).
+    """
+    global _IN_CHILD
+    _IN_CHILD = True
+    code = 1
+    try:
+        while True:
+            got, request = _receive(inbox)
+            if not got:
+                break
+            try:
+                with warnings.catch_warnings(record=True) as caught:
+                    warnings.simplefilter("always")
+                    value = _isolated(functools.partial(handler, request))
+                given = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
+                reply: Any = (value, given)
+                pickle.dumps(reply, protocol=pickle.HIGHEST_PROTOCOL)  # fails here, not below
+            except Exception:  # noqa: BLE001 - the parent answers it again and raises
+                reply = _FAILED
+            _send(outbox, reply)
+        code = 0
+    finally:
+        os._exit(code)
+
+
+class Crew(Generic[T]):
+    """Worker processes forked once that answer a series of requests with one handler.
+
+    The shares of a keep-out search's batches of rays follow one another (each batch
+    depends on the last).  Forking children anew for every batch (:func:`start_each`)
+    costs the fork, and in both processes a copy of every memory page written afterwards
+    (copy on write) while the children live.  A crew's children are forked at the first
+    request (they see this process's state then, like any child) and answer every later
+    one; they leave when the crew is closed, or when this process ends (their requests'
+    pipe closes).
+
+    ``handler(request)`` is called in a child for each request, inside
+    :func:`keepclear.antennas.memo.isolated`; requests and answers are pickled through
+    pipes.  What a child keeps from one request to the next is what ``handler`` keeps
+    (a model's tables built on first use): ``handler`` must answer every request as it
+    would from the state at the fork.  A warning the handler gives is given again here.
+    A request whose child fails (an error, an answer that cannot be pickled, a child
+    gone) is answered here, by ``handler(request)``, which raises its own error; the crew
+    is then closed, and the next request forks new children.  Without fork, or with one
+    worker, every request is answered here.
+
+    Parameters
+    ----------
+    handler : callable
+        Answers one request; its answer must pickle.
+    size : int
+        Children (at most; fewer when fewer requests are sent at once).
+    """
+
+    def __init__(self, handler: Callable[[Any], T], size: int) -> None:
+        self._handler = handler
+        self._size = max(0, int(size))
+        self._children: list[tuple[int, int, int]] = []  # (pid, inbox, outbox) as seen here
+        self._asked: list[tuple[int, Any]] = []  # (child index or -1, request) in order
+        self._stale = False  # a child was found gone: close the crew after these answers
+
+    def start(self, requests: Sequence[Any]) -> None:
+        """Send request ``k`` to child ``k`` (forking the children still missing)."""
+        if self._asked:
+            raise RuntimeError("the crew's last requests are not answered yet")
+        requests = list(requests)
+        use = len(requests) if _can_fork() and not _IN_CHILD else 0
+        use = min(use, self._size)
+        try:
+            while len(self._children) < use:
+                self._fork()
+        except OSError:  # no pipe or process to be had: the requests left are answered here
+            use = len(self._children)
+        asked: list[tuple[int, Any]] = []
+        for k, request in enumerate(requests):
+            if k < use:
+                try:
+                    _send(self._children[k][1], request)
+                except OSError:  # the child is gone: answered here, and the crew renewed
+                    asked.append((-1, request))
+                    self._stale = True
+                    continue
+                asked.append((k, request))
+            else:
+                asked.append((-1, request))
+        self._asked = asked
+
+    def results(self) -> list[T]:
+        """The answers to the requests of the last :meth:`start`, in their order."""
+        asked, self._asked = self._asked, []
+        got: list[Any] = []
+        broken, self._stale = self._stale, False
+        try:
+            for k, _ in asked:
+                if k < 0:
+                    got.append(_FAILED)
+                    continue
+                ok, reply = _receive(self._children[k][2])
+                if not ok or (isinstance(reply, str) and reply == _FAILED):
+                    broken = True
+                    got.append(_FAILED)
+                else:
+                    got.append(reply)
+        except BaseException:  # an interrupt while waiting: the children's work is moot
+            self.close()
+            raise
+        if broken:
+            self.close()
+        done: list[T] = []
+        for (_, request), item in zip(asked, got, strict=True):
+            if isinstance(item, str) and item == _FAILED:
+                done.append(_isolated(functools.partial(self._handler, request)))
+                continue
+            value, given = item
+            for message, category, filename, lineno in given:
+                warnings.warn_explicit(message, category, filename, lineno)
+            done.append(value)
+        return done
+
+    def close(self) -> None:
+        """Stop the children (any request still running is dropped)."""
+        children, self._children = self._children, []
+        self._asked = []
+        for pid, inbox, outbox in children:
+            for fd in (inbox, outbox):
+                try:
+                    os.close(fd)
+                except OSError:
+                    pass
+            try:
+                os.kill(pid, signal.SIGKILL)
+                os.waitpid(pid, 0)
+            except OSError:
+                pass
+
+    def __enter__(self) -> Crew[T]:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def _fork(self) -> None:
+        to_child = os.pipe()
+        from_child = os.pipe()
+        sys.stdout.flush()
+        sys.stderr.flush()
+        with warnings.catch_warnings():
+            # Python 3.12 warns when a process with threads forks (see Pending)
+            warnings.simplefilter("ignore", DeprecationWarning)
+            try:
+                pid = os.fork()
+            except OSError:
+                for fd in (*to_child, *from_child):
+                    os.close(fd)
+                raise
+        if pid == 0:  # pragma: no cover - the child
+            os.close(to_child[1])
+            os.close(from_child[0])
+            for _, inbox, outbox in self._children:  # the other children's pipes
+                os.close(inbox)
+                os.close(outbox)
+            _serve(self._handler, to_child[0], from_child[1])
+        os.close(to_child[0])
+        os.close(from_child[1])
+        self._children.append((pid, to_child[1], from_child[0]))

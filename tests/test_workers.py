@@ -157,6 +157,134 @@ def test_warnings_of_the_pieces_are_given_in_order(n: int) -> None:
     assert [str(w.message) for w in caught] == ["first", "second"]
 
 
+_SEEN = {"value": "at the fork"}
+
+
+def _answer(request: object) -> tuple[object, int, str]:
+    """A crew's handler: the request back, the process that answered, a module's state."""
+    if request == "fail":
+        raise ValueError("request 'fail' failed")
+    if request == "warn":
+        warnings.warn("a crew child's warning", UserWarning, stacklevel=1)
+    if request == "unpicklable":
+        return (lambda: 7, os.getpid(), _SEEN["value"])  # type: ignore[return-value]
+    return request, os.getpid(), _SEEN["value"]
+
+
+def _gone(pid: int) -> bool:
+    try:
+        os.waitpid(pid, os.WNOHANG)
+    except ChildProcessError:
+        return True
+    return False
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_a_crew_is_forked_once_and_answers_in_order(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The same children answer every round; they see this process's state at the fork."""
+    with workers.Crew(_answer, 2) as crew:
+        crew.start(["a", "b"])
+        first = crew.results()
+        monkeypatch.setitem(_SEEN, "value", "after the fork")
+        crew.start(["c", "d"])
+        second = crew.results()
+        crew.start(["e"])  # fewer requests than children: the first child answers
+        third = crew.results()
+        children = [pid for pid, _, _ in crew._children]
+    assert [r[0] for r in first + second + third] == ["a", "b", "c", "d", "e"]
+    assert [r[1] for r in first] == [r[1] for r in second] == children
+    assert third[0][1] == children[0] and os.getpid() not in children
+    assert {r[2] for r in first + second + third} == {"at the fork"}
+    assert all(_gone(pid) for pid in children)  # closed on leaving the block
+
+
+def test_a_crew_without_children_answers_here() -> None:
+    """Size 0 (one worker in all): every request is answered in this process."""
+    crew = workers.Crew(_answer, 0)
+    crew.start(["a", "b"])
+    assert crew.results() == [("a", os.getpid(), "at the fork"), ("b", os.getpid(), "at the fork")]
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_a_failing_request_raises_its_own_error_and_the_crew_starts_afresh() -> None:
+    with workers.Crew(_answer, 1) as crew:
+        crew.start(["a"])
+        (pid,) = {r[1] for r in crew.results()}
+        crew.start(["fail"])
+        with pytest.raises(ValueError, match="request 'fail' failed"):
+            crew.results()  # answered here again, where it raises
+        assert _gone(pid) and not crew._children
+        crew.start(["b"])
+        (answer,) = crew.results()
+        assert answer[0] == "b" and answer[1] not in (pid, os.getpid())
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_a_crew_child_gone_or_an_answer_that_does_not_pickle_is_answered_here() -> None:
+    with workers.Crew(_answer, 1) as crew:
+        crew.start(["unpicklable"])
+        (answer,) = crew.results()
+        assert answer[0]() == 7 and answer[1] == os.getpid()
+        crew.start(["a"])
+        (pid,) = {r[1] for r in crew.results()}
+        os.kill(pid, 9)  # not reaped here: the crew does, on renewing (no reused pid)
+        crew.start(["b"])
+        assert crew.results() == [("b", os.getpid(), "at the fork")]
+        crew.start(["c"])  # a new child
+        (answer,) = crew.results()
+        assert answer[0] == "c" and answer[1] not in (pid, os.getpid())
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_a_crew_childs_warnings_are_given_here() -> None:
+    with workers.Crew(_answer, 1) as crew, warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        crew.start(["warn"])
+        (answer,) = crew.results()
+    assert answer[1] != os.getpid()
+    assert [str(w.message) for w in caught] == ["a crew child's warning"]
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_an_interrupt_while_waiting_stops_the_crew(monkeypatch: pytest.MonkeyPatch) -> None:
+    crew = workers.Crew(_answer, 2)
+    crew.start(["a", "b"])
+    children = [pid for pid, _, _ in crew._children]
+
+    def interrupted(fd: int) -> tuple[bool, object]:
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(workers, "_receive", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        crew.results()
+    assert all(_gone(pid) for pid in children) and not crew._children
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_a_keepout_search_forks_its_workers_once(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Every shared batch of a search (first pass and refinements) goes to one crew."""
+    from keepclear.fields.keepout import keepout_distances
+
+    real_fork = os.fork
+    forks: list[int] = []
+
+    def counting_fork() -> int:
+        forks.append(1)
+        return real_fork()
+
+    batches: list[int] = []
+    real_start = workers.Crew.start
+
+    def counting_start(self, requests):  # noqa: ANN001, ANN202
+        batches.append(len(requests))
+        return real_start(self, requests)
+
+    monkeypatch.setattr(workers.os, "fork", counting_fork)
+    monkeypatch.setattr(workers.Crew, "start", counting_start)
+    keepout_distances(load_scenario(ROOT / "scenarios" / "plasma-bench.toml"))
+    assert len(batches) >= 2 and len(forks) == 1
+
+
 def test_a_child_starts_no_children_of_its_own() -> None:
     assert workers.worker_count() == 2  # the autouse fixture's
     assert workers.run_each([workers.worker_count, workers.worker_count], workers=2) == [1, 1]
@@ -222,13 +350,13 @@ def test_keepout_rays_shared_between_workers_give_the_same_answers(
     from keepclear.fields import keepout
 
     shared: list[int] = []
-    real = keepout.start_each
+    real = workers.Crew.start
 
-    def counting(tasks, count=None):  # noqa: ANN001, ANN202
-        shared.append(len(tasks))
-        return real(tasks, count)
+    def counting(self, requests):  # noqa: ANN001, ANN202
+        shared.append(len(requests))
+        return real(self, requests)
 
-    monkeypatch.setattr(keepout, "start_each", counting)
+    monkeypatch.setattr(workers.Crew, "start", counting)
     answers = []
     for n in ("1", "2"):
         monkeypatch.setenv(workers.WORKERS_VARIABLE, n)
