@@ -980,6 +980,20 @@ def direct_and_reflected_fields(
     return e, h, images
 
 
+def _pieces(array: NDArray, lengths: Sequence[int]) -> list[NDArray]:
+    """``array`` cut along its first axis into consecutive pieces of ``lengths`` (views)."""
+    out, start = [], 0
+    for n in lengths:
+        out.append(array[start : start + n])
+        start += n
+    return out
+
+
+def _repeat_rows(points: Sequence[NDArray], counts: Sequence[int]) -> NDArray[np.float64]:
+    """Each of ``points`` (one point, (3,) or (1, 3)) repeated ``counts`` times, (sum, 3)."""
+    return np.repeat(np.vstack([np.reshape(p, (1, 3)) for p in points]), counts, axis=0)
+
+
 def _aperture_factors(
     reflectors: Sequence[ReflectorModel],
     asked: Sequence[tuple[int, NDArray[np.float64], NDArray[np.float64]]],
@@ -994,10 +1008,9 @@ def _aperture_factors(
     for plate in sorted({k for k, _, _ in asked}):
         mine = [n for n, (k, _, _) in enumerate(asked) if k == plate]
         ends = [asked[n][2] for n in mine]
-        starts = [np.broadcast_to(asked[n][1], asked[n][2].shape) for n in mine]
-        a = reflectors[plate].aperture_factor(np.vstack(starts), np.vstack(ends), frequency_hz)
-        cuts = np.cumsum([len(end) for end in ends])[:-1]
-        for n, part in zip(mine, np.split(a, cuts), strict=True):
+        starts = _repeat_rows([asked[n][1] for n in mine], [len(end) for end in ends])
+        a = reflectors[plate].aperture_factor(starts, np.vstack(ends), frequency_hz)
+        for n, part in zip(mine, _pieces(a, [len(end) for end in ends]), strict=True):
             out[n] = part
     return out
 
@@ -1035,7 +1048,7 @@ def _fields_and_images(  # noqa: PLR0913
     paths: list[tuple[int | None, int, NDArray[np.bool_] | None]] = []
     valid: NDArray[np.bool_] | None
     for j, rj in enumerate(refl):
-        q_j, met = _crossing(rj, np.broadcast_to(first_refs[j], pts.shape), pts, heights[j])
+        q_j, met = _crossing(rj, first_refs[j], pts, heights[j])  # one start for all
         paths.append((None, j, inside & met & _accessible(refl, q_j, exclude=(j,))))
     if order == 2:
         for i, ri in enumerate(refl):
@@ -1048,11 +1061,9 @@ def _fields_and_images(  # noqa: PLR0913
                 # an infinite plane reflects on its source side only; a plate on both faces
                 if d_ij > PLANE_TOLERANCE_M or (rj.is_finite and d_ij < -PLANE_TOLERANCE_M):
                     s_ij = rj.mirror_points(s_i)
-                    q_j, met_j = _crossing_either_way(
-                        rj, np.broadcast_to(s_ij, pts.shape), pts, heights[j]
-                    )
+                    q_j, met_j = _crossing_either_way(rj, s_ij, pts, heights[j])
                     valid = inside & met_j & _accessible(refl, q_j, exclude=(j,))
-                    q_i, met_i = _crossing(ri, np.broadcast_to(s_i, pts.shape), q_j)
+                    q_i, met_i = _crossing(ri, s_i, q_j)
                     valid &= met_i & _accessible(refl, q_i, exclude=(i,))
                 paths.append((i, j, valid))
 
@@ -1071,8 +1082,8 @@ def _fields_and_images(  # noqa: PLR0913
     if wanted:
         args = () if chunk_bytes is None else (chunk_bytes,)
         e_all, h_all = radiator_fields(radiator, np.vstack(wanted), *args)
-        cuts = np.cumsum([len(w) for w in wanted])[:-1]
-        e_parts, h_parts = np.split(e_all, cuts), np.split(h_all, cuts)
+        lengths = [len(w) for w in wanted]
+        e_parts, h_parts = _pieces(e_all, lengths), _pieces(h_all, lengths)
         if direct:
             e_direct, h_direct = e_parts.pop(0), h_parts.pop(0)
         arriving = dict(zip(in_plane, zip(e_parts, h_parts, strict=True), strict=True))
@@ -1089,12 +1100,12 @@ def _fields_and_images(  # noqa: PLR0913
                 np.vstack([arriving[k][0] for k in members]),
                 np.vstack([arriving[k][1] for k in members]),
                 np.vstack([points[k] for k in members]),
-                np.vstack([np.broadcast_to(reference[k], points[k].shape) for k in members]),
+                _repeat_rows([reference[k] for k in members], [len(points[k]) for k in members]),
                 refl[plane],
                 frequency_hz,
             )
-            cuts = np.cumsum([len(points[k]) for k in members])[:-1]
-            parts = zip(np.split(e, cuts), np.split(h, cuts), strict=True)
+            lengths = [len(points[k]) for k in members]
+            parts = zip(_pieces(e, lengths), _pieces(h, lengths), strict=True)
             arriving.update(zip(members, parts, strict=True))
 
     # first the first bounce of the second-order images, at their points mirrored in the
@@ -1311,11 +1322,14 @@ def combine(
             h += hi
         return np.sum(np.abs(e) ** 2, axis=1), np.sum(np.abs(h) ** 2, axis=1)
     if mode == "envelope":
-        e_mag = row_norms(e_direct)
-        h_mag = row_norms(h_direct)
-        for ei, hi in images:
-            e_mag = e_mag + row_norms(ei)
-            h_mag = h_mag + row_norms(hi)
+        # every field's row lengths in one call, added in the images' order
+        n = e_direct.shape[0]
+        e_mags = row_norms(np.concatenate([e_direct, *(ei for ei, _ in images)]))
+        h_mags = row_norms(np.concatenate([h_direct, *(hi for _, hi in images)]))
+        e_mag, h_mag = e_mags[:n], h_mags[:n]
+        for k in range(1, len(images) + 1):
+            e_mag = e_mag + e_mags[k * n : (k + 1) * n]
+            h_mag = h_mag + h_mags[k * n : (k + 1) * n]
         return e_mag**2, h_mag**2
     raise ValueError(f"mode must be one of {', '.join(REFLECTION_MODES)}, got {mode!r}")
 
