@@ -354,9 +354,10 @@ def _precheck(
     """The scenario's TOML document, with what can be refused without numpy refused.
 
     A missing or unreadable file, a TOML syntax error, an unknown ``--option`` or
-    ``--limit`` id, a ``--rank-by`` naming no place and a malformed ``--sweep`` are
-    refused here, with the messages of the full checks, before numpy and the models are
-    imported.  Whatever only the full reading can tell is left to it.
+    ``--limit`` id, a ``--rank-by`` naming no place, and a malformed ``--sweep`` or one
+    whose key names no table or entry of the scenario are refused here, with the messages
+    of the full checks, before numpy and the models are imported.  Whatever only the full
+    reading can tell is left to it (a key the entry does not take, an impossible value).
     """
     document = checks.read_scenario_document(path)
     if option is not None:
@@ -376,10 +377,11 @@ def _precheck(
         if points is not None:
             checks.check_rank_by_names(rank_by, points)
     if sweep:
-        from .sweep import parse_sweep_argument
+        from .sweep import check_sweep_key, parse_sweep_argument
 
         for spec in sweep:
-            parse_sweep_argument(spec)
+            key, _ = parse_sweep_argument(spec)
+            check_sweep_key(document, key, ("argument", "--sweep"))
     return document
 
 

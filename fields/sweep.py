@@ -133,6 +133,28 @@ def _target(
     return entry, f"{entry_path(table, index)}.{leaf}", f"[[{table}]] {named}"
 
 
+def check_sweep_key(document: dict[str, Any], key: str, where: tuple[str, str]) -> None:
+    """Refuse a sweep ``key`` that names no table or entry of ``document``.
+
+    The check :func:`expand_sweep` makes first, with its message, without building a
+    scenario (so the command line refuses it before numpy and the models are imported).
+    A key the entry does not take, or an impossible value, is told by building.
+
+    Raises
+    ------
+    ScenarioError
+        Located as :func:`expand_sweep` locates it (``where``: the file or
+        ``"argument"``, and the sweep's key path).
+    """
+    source, path = where
+    try:
+        _target(document, key)
+    except ValueError as exc:
+        raise ScenarioError(
+            str(exc), source, path if source == "argument" else f"{path}.key"
+        ) from None
+
+
 def _unknown_key_message(key: str, exc: UnknownKeyError, entry: str) -> str:
     """The sweep's key names a key its table does not take: which, the closest, the list."""
     prefix = key[: len(key) - len(exc.word)]

@@ -78,6 +78,18 @@ REFUSALS = {
     ),
     "sweep": (["compare", OPTIONS, "--sweep", "foo"], "--sweep: 'foo' is not KEY=V1,V2,..."),
     "sweep-empty": (["compare", OPTIONS, "--sweep", "a=1,,2"], "has an empty value"),
+    "sweep-no-entry": (
+        ["compare", OPTIONS, "--sweep", "source.9.power_w=1,2"],
+        "--sweep: 'source.9.power_w': no [[source]] is named or numbered '9'",
+    ),
+    "sweep-no-table": (
+        ["assess", OPTIONS, "--out", "o", "--sweep", "cabinet.power_w=1,2"],
+        "'cabinet.power_w' starts with 'cabinet', not a table a sweep can vary",
+    ),
+    "sweep-no-enclosure": (
+        ["compare", OPTIONS, "--sweep", "enclosure.wall_m=1"],
+        "'enclosure.wall_m': the scenario has no [enclosure]",
+    ),
     "at": (["probe", OPTIONS, "--at", "1,2"], "--at: expects three finite numbers X,Y,Z"),
     "through": (["map", OPTIONS, "--out", "o", "--through", "1,2,x"], "--through: expects"),
     "u-vector": (
