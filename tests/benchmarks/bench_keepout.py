@@ -59,7 +59,7 @@ def test_bench_keepout(benchmark, path: Path):
         distances_m=distances,
         note=(
             "median of 3; seconds: loading the scenario afresh and the search; search_s: "
-            "the search alone (wall); cpu_s: this process's share of it (a search of 200 "
+            "the search alone (wall); cpu_s: this process's share of it (a batch of 100 "
             "rays or more is shared with worker processes, fields/workers.py)"
         ),
     )
