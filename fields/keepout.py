@@ -717,7 +717,7 @@ _TRIAL_OFFSETS = np.array(
 #: A pass of the sweep grows beyond :data:`RADIAL_BLOCK` radii only while the largest
 #: quotient still asked of a ray is below this, and covers at most this ratio of radii.
 _GROW_BELOW = 0.25
-_GROW_SPAN = 8.0
+_GROW_SPAN = 2.0
 
 
 def _next_block(
