@@ -153,6 +153,75 @@ def _isolated(task: Callable[[], T]) -> T:
 _FAILED = "keepclear-piece-failed"
 
 
+def _block_interrupts() -> Any:
+    """Block SIGINT in this thread; the mask before, for :func:`_restore_interrupts`."""
+    try:
+        return signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+    except (AttributeError, OSError, ValueError):  # pragma: no cover - no signal masks
+        return None
+
+
+def _restore_interrupts(mask: Any) -> None:
+    if mask is not None:
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+
+
+def _fork_child(run: Callable[[], None]) -> int:
+    """Fork a child that calls ``run`` and exits; here, the child's pid.
+
+    SIGINT is blocked across the fork: an interrupt that reached the child before it was
+    inside ``run`` would unwind through the caller's code in the child.  The child
+    unblocks it inside ``run``'s guard (any way out of it ends the child), this process
+    on return.  Flush stdout and stderr before (and before making the child's pipes, so
+    that a failing flush leaves none open).
+    """
+    with warnings.catch_warnings():
+        # Python 3.12 warns when a process with threads forks (a progress bar's thread, a
+        # test runner's): the child only runs its pieces and exits
+        warnings.simplefilter("ignore", DeprecationWarning)
+        mask = _block_interrupts()
+        try:
+            pid = os.fork()
+        except BaseException:
+            _restore_interrupts(mask)
+            raise
+    if pid == 0:  # pragma: no cover - the child
+        try:
+            _restore_interrupts(mask)
+            run()
+        finally:
+            os._exit(1)
+    _restore_interrupts(mask)
+    return pid
+
+
+def _reap(pids: Sequence[int], fds: Sequence[int]) -> None:
+    """Close ``fds`` and stop and wait for the children ``pids``, with SIGINT held back.
+
+    An interrupt during the clean-up is given once it is done, so that no child is left
+    running or unwaited.
+    """
+    mask = _block_interrupts()
+    try:
+        for fd in fds:
+            try:
+                os.close(fd)
+            except OSError:
+                pass
+        for pid in pids:
+            try:
+                os.kill(pid, signal.SIGKILL)
+            except OSError:
+                pass
+        for pid in pids:
+            try:
+                os.waitpid(pid, 0)
+            except OSError:
+                pass
+    finally:
+        _restore_interrupts(mask)
+
+
 def _child(tasks: Sequence[Callable[[], Any]], path: str) -> None:  # pragma: no cover
     """In a forked child: run ``tasks``, write [(result, warnings)] to ``path``, exit.
 
@@ -214,22 +283,20 @@ class Pending(Generic[T]):
         while self._waiting and len(self._children) < self._running:
             share = self._waiting.pop(0)
             path = os.path.join(self._folder, f"{share[0]}.pickle")
-            read_end, write_end = os.pipe()
             sys.stdout.flush()
             sys.stderr.flush()
-            with warnings.catch_warnings():
-                # Python 3.12 warns when a process with threads forks (a progress bar's
-                # thread, a test runner's): the child runs its pieces and exits at once
-                warnings.simplefilter("ignore", DeprecationWarning)
-                try:
-                    pid = os.fork()
-                except OSError:
-                    os.close(read_end)
-                    os.close(write_end)
-                    raise
-            if pid == 0:  # pragma: no cover - the child
+            read_end, write_end = os.pipe()
+
+            def run(share: list[int] = share, path: str = path, read_end: int = read_end) -> None:
+                os.close(read_end)  # pragma: no cover - the child
+                _child([self._tasks[i] for i in share], path)  # pragma: no cover
+
+            try:
+                pid = _fork_child(run)
+            except OSError:
                 os.close(read_end)
-                _child([self._tasks[i] for i in share], path)
+                os.close(write_end)
+                raise
             os.close(write_end)
             self._children[read_end] = (share, pid, path)
 
@@ -278,14 +345,9 @@ class Pending(Generic[T]):
 
     def cancel(self) -> None:
         """Stop the children still running (their pieces are not run) and tidy up."""
-        for fd, (_, pid, _) in self._children.items():
-            os.close(fd)
-            try:
-                os.kill(pid, signal.SIGKILL)
-                os.waitpid(pid, 0)
-            except OSError:
-                pass
+        children = dict(self._children)
         self._children.clear()
+        _reap([pid for _, pid, _ in children.values()], list(children))
         self._waiting.clear()
         if self._folder:
             shutil.rmtree(self._folder, ignore_errors=True)
@@ -394,23 +456,27 @@ class Crew(Generic[T]):
         requests = list(requests)
         use = len(requests) if _can_fork() and not _IN_CHILD else 0
         use = min(use, self._size)
-        try:
-            while len(self._children) < use:
-                self._fork()
-        except OSError:  # no pipe or process to be had: the requests left are answered here
-            use = len(self._children)
         asked: list[tuple[int, Any]] = []
-        for k, request in enumerate(requests):
-            if k < use:
-                try:
-                    _send(self._children[k][1], request)
-                except OSError:  # the child is gone: answered here, and the crew renewed
+        try:
+            try:
+                while len(self._children) < use:
+                    self._fork()
+            except OSError:  # no pipe or process to be had: the rest are answered here
+                use = len(self._children)
+            for k, request in enumerate(requests):
+                if k < use:
+                    try:
+                        _send(self._children[k][1], request)
+                    except OSError:  # the child is gone: answered here, the crew renewed
+                        asked.append((-1, request))
+                        self._stale = True
+                        continue
+                    asked.append((k, request))
+                else:
                     asked.append((-1, request))
-                    self._stale = True
-                    continue
-                asked.append((k, request))
-            else:
-                asked.append((-1, request))
+        except BaseException:  # an interrupt part way: a child may hold a request
+            self.close()
+            raise
         self._asked = asked
 
     def results(self) -> list[T]:
@@ -423,7 +489,10 @@ class Crew(Generic[T]):
                 if k < 0:
                     got.append(_FAILED)
                     continue
-                ok, reply = _receive(self._children[k][2])
+                try:
+                    ok, reply = _receive(self._children[k][2])
+                except Exception:  # noqa: BLE001 - an answer that does not read back here
+                    ok, reply = False, None
                 if not ok or (isinstance(reply, str) and reply == _FAILED):
                     broken = True
                     got.append(_FAILED)
@@ -449,17 +518,8 @@ class Crew(Generic[T]):
         """Stop the children (any request still running is dropped)."""
         children, self._children = self._children, []
         self._asked = []
-        for pid, inbox, outbox in children:
-            for fd in (inbox, outbox):
-                try:
-                    os.close(fd)
-                except OSError:
-                    pass
-            try:
-                os.kill(pid, signal.SIGKILL)
-                os.waitpid(pid, 0)
-            except OSError:
-                pass
+        self._stale = False
+        _reap([pid for pid, _, _ in children], [fd for _, *fds in children for fd in fds])
 
     def __enter__(self) -> Crew[T]:
         return self
@@ -468,26 +528,30 @@ class Crew(Generic[T]):
         self.close()
 
     def _fork(self) -> None:
-        to_child = os.pipe()
-        from_child = os.pipe()
         sys.stdout.flush()
         sys.stderr.flush()
-        with warnings.catch_warnings():
-            # Python 3.12 warns when a process with threads forks (see Pending)
-            warnings.simplefilter("ignore", DeprecationWarning)
-            try:
-                pid = os.fork()
-            except OSError:
-                for fd in (*to_child, *from_child):
-                    os.close(fd)
-                raise
-        if pid == 0:  # pragma: no cover - the child
+        to_child = os.pipe()
+        try:
+            from_child = os.pipe()
+        except OSError:
+            os.close(to_child[0])
+            os.close(to_child[1])
+            raise
+
+        def run() -> None:  # pragma: no cover - the child
             os.close(to_child[1])
             os.close(from_child[0])
             for _, inbox, outbox in self._children:  # the other children's pipes
                 os.close(inbox)
                 os.close(outbox)
             _serve(self._handler, to_child[0], from_child[1])
+
+        try:
+            pid = _fork_child(run)
+        except OSError:
+            for fd in (*to_child, *from_child):
+                os.close(fd)
+            raise
         os.close(to_child[0])
         os.close(from_child[1])
         self._children.append((pid, to_child[1], from_child[0]))

@@ -168,7 +168,17 @@ def _answer(request: object) -> tuple[object, int, str]:
         warnings.warn("a crew child's warning", UserWarning, stacklevel=1)
     if request == "unpicklable":
         return (lambda: 7, os.getpid(), _SEEN["value"])  # type: ignore[return-value]
+    if request == "unreadable":  # pickles in the child, but cannot be read back here
+        return (_TwoArguments("x", "y"), os.getpid(), _SEEN["value"])  # type: ignore[return-value]
     return request, os.getpid(), _SEEN["value"]
+
+
+class _TwoArguments(Exception):  # noqa: N818 - a test value, not an error raised
+    """An object whose pickle (its args, one) does not build it again (two needed)."""
+
+    def __init__(self, first: str, second: str) -> None:
+        super().__init__(first)
+        self.second = second
 
 
 def _gone(pid: int) -> bool:
@@ -233,6 +243,59 @@ def test_a_crew_child_gone_or_an_answer_that_does_not_pickle_is_answered_here() 
         crew.start(["c"])  # a new child
         (answer,) = crew.results()
         assert answer[0] == "c" and answer[1] not in (pid, os.getpid())
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_an_answer_that_does_not_read_back_is_answered_here() -> None:
+    with workers.Crew(_answer, 1) as crew:
+        crew.start(["a"])
+        (pid,) = {r[1] for r in crew.results()}
+        crew.start(["unreadable"])
+        (answer,) = crew.results()
+        assert isinstance(answer[0], _TwoArguments) and answer[0].second == "y"
+        assert answer[1] == os.getpid() and _gone(pid) and not crew._children
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_an_interrupted_child_is_replaced() -> None:
+    """Ctrl-C reaches the whole process group: a child it stops is answered for here."""
+    import signal
+
+    with workers.Crew(_answer, 1) as crew:
+        crew.start(["a"])
+        (pid,) = {r[1] for r in crew.results()}
+        os.kill(pid, signal.SIGINT)
+        crew.start(["b"])
+        assert crew.results() == [("b", os.getpid(), "at the fork")]
+        crew.start(["c"])
+        (answer,) = crew.results()
+        assert answer[0] == "c" and answer[1] not in (pid, os.getpid())
+
+
+@pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
+def test_an_interrupt_while_sending_closes_the_crew(monkeypatch: pytest.MonkeyPatch) -> None:
+    """No child is left holding a request whose answer would pair with the next one."""
+    crew = workers.Crew(_answer, 2)
+    crew.start(["a", "b"])
+    crew.results()
+    children = [pid for pid, _, _ in crew._children]
+    real_send = workers._send
+    sent: list[object] = []
+
+    def interrupted_second(fd: int, obj: object) -> None:
+        if sent:
+            raise KeyboardInterrupt
+        sent.append(obj)
+        real_send(fd, obj)
+
+    monkeypatch.setattr(workers, "_send", interrupted_second)
+    with pytest.raises(KeyboardInterrupt):
+        crew.start(["old-0", "old-1"])
+    assert all(_gone(pid) for pid in children) and not crew._children
+    monkeypatch.setattr(workers, "_send", real_send)
+    crew.start(["new-0", "new-1"])
+    assert [r[0] for r in crew.results()] == ["new-0", "new-1"]
+    crew.close()
 
 
 @pytest.mark.skipif(not LINUX, reason="a crew's children are forked on Linux only")
@@ -357,6 +420,14 @@ def test_keepout_rays_shared_between_workers_give_the_same_answers(
         return real(self, requests)
 
     monkeypatch.setattr(workers.Crew, "start", counting)
+    real_fork = os.fork
+    forks: list[int] = []
+
+    def counting_fork() -> int:
+        forks.append(1)
+        return real_fork()
+
+    monkeypatch.setattr(workers.os, "fork", counting_fork)
     answers = []
     for n in ("1", "2"):
         monkeypatch.setenv(workers.WORKERS_VARIABLE, n)
@@ -376,6 +447,7 @@ def test_keepout_rays_shared_between_workers_give_the_same_answers(
             ]
         )
     assert shared and set(shared) == {1}
+    assert forks == [1]  # one worker forked for the two-worker search, none for one
     for one, two in zip(*answers, strict=True):
         assert one[0] == pytest.approx(two[0], rel=1e-12)
         assert one[1] == pytest.approx(two[1], rel=1e-12)
@@ -393,8 +465,8 @@ def test_tables_the_workers_built_are_built_here_too() -> None:
     """The near-metal tables a worker builds on first use are built in this process too.
 
     The desk box's guide needs its near tables (the search samples close to it); after a
-    search shared with workers, this process has them, so the next batch's workers inherit
-    them instead of building them again.
+    search shared with workers, this process has them, so the workers of a later search
+    (forked from here) inherit them instead of building them again.
     """
     from keepclear.fields.keepout import keepout_distances
 
