@@ -21,7 +21,8 @@ from __future__ import annotations
 
 import copy
 import re
-from collections.abc import Callable, Iterator
+import warnings
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
@@ -316,6 +317,19 @@ def _feed_dimensions(t: Table) -> tuple[float, float]:
     return broad, narrow
 
 
+#: Set while a scenario is read only to be checked (:func:`check_sweeps`): a guide, a horn
+#: or a monopole on a finite ground (a NEC-2 solve on its first run, tables built on every
+#: run) gets a point source at its place instead, once every key of its table is read.
+_STAND_IN: ContextVar[bool] = ContextVar("keepclear_stand_in_models", default=False)
+
+
+def _stand_in(f: float, p: float, placement: Placement) -> Radiator:
+    """A point source at the model's place: enough to check the rest of the scenario."""
+    from keepclear.antennas.isotropic import IsotropicSource
+
+    return IsotropicSource(f, p, placement=placement)
+
+
 def _build_isotropic(t: Table, f: float, p: float) -> Radiator:
     from keepclear.antennas.isotropic import IsotropicSource
 
@@ -373,8 +387,6 @@ def _pair(t: Table, key: str, default: Any, positive: bool) -> tuple[float, floa
 
 def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None) -> Radiator:
     """A monopole on a finite plate or through the face of a box (contract: Additions)."""
-    from keepclear.antennas.finite_ground import FiniteGroundMonopole
-
     ground = t.string("ground")
     if not t.has("ground_size_m"):
         raise t.error(
@@ -405,6 +417,10 @@ def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None)
             f"{np.degrees(np.arccos(np.clip(np.dot(up / np.linalg.norm(up), a), -1, 1))):.4g} deg",
         )
     placement = t.build(Placement.from_axes, position, axis, up)
+    if _STAND_IN.get():
+        return _stand_in(f, p, placement)
+    from keepclear.antennas.finite_ground import FiniteGroundMonopole
+
     return t.build(
         FiniteGroundMonopole,
         f,
@@ -419,11 +435,15 @@ def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None)
 
 
 def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
+    broad, narrow = _feed_dimensions(t)
+    placement = _placement(t, "boresight", polarization=True)
+    if _STAND_IN.get():
+        _flange(t)
+        t.number("guide_length_m", 1.0, unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0)
+        return _stand_in(f, p, placement)
     from keepclear.antennas.aperture import OpenWaveguide
     from keepclear.antennas.walls import WalledAperture
 
-    broad, narrow = _feed_dimensions(t)
-    placement = _placement(t, "boresight", polarization=True)
     guide = t.build(OpenWaveguide, f, p, broad, narrow, placement=placement)
     flange = _flange(t)
     length = None
@@ -464,8 +484,6 @@ def _flange(t: Table) -> Any:
 
 
 def _build_horn(t: Table, f: float, p: float) -> Radiator:
-    from keepclear.antennas.horn import PyramidalHorn
-
     broad, narrow = _feed_dimensions(t)
     width = t.number(
         "aperture_width_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
@@ -474,9 +492,13 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
         "aperture_height_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
     )
     length = t.number("length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0)
+    placement = _placement(t, "boresight", polarization=True)
+    if _STAND_IN.get():
+        _flange(t)
+        return _stand_in(f, p, placement)
+    from keepclear.antennas.horn import PyramidalHorn
     from keepclear.antennas.walls import WalledAperture
 
-    placement = _placement(t, "boresight", polarization=True)
     horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
     flange = _flange(t)
     from keepclear.antennas import guide_grid
@@ -974,6 +996,36 @@ def with_sweep(scenario: Scenario, key: str, values: list[Any]) -> Scenario:
     names = {o.name for o in scenario.options}
     options = _sweep_options(scenario, key, values, None, ("argument", "--sweep"), names)
     return replace(scenario, options=scenario.options + tuple(options))
+
+
+def check_sweeps(
+    document: dict[str, Any], path: str | Path, sweeps: Sequence[tuple[str, list[Any]]]
+) -> None:
+    """Refuse what the scenario and its command-line sweeps would be refused for, quickly.
+
+    The scenario (its options and sweeps too) and every swept value are read as
+    :func:`load_scenario` and :func:`with_sweep` read them, but a source that would be
+    solved as a wire grid gets its analytic model (once its keys are checked): a sweep's
+    key that its entry does not take, or a value that makes an impossible scenario, is
+    refused with the same message before any model is solved or its tables built (the
+    first run of a new horn solves it for half a minute).  Nothing is returned, and no
+    warning is given: the full reading that follows gives them.  A fault that only the
+    solved model finds is left to that reading.
+
+    Raises
+    ------
+    InputError
+        The first problem found, as the full reading would name it.
+    """
+    token = _STAND_IN.set(True)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            scenario = scenario_from_document(document, str(path))
+            for key, values in sweeps:
+                scenario = with_sweep(scenario, key, list(values))
+    finally:
+        _STAND_IN.reset(token)
 
 
 def load_scenario(path: str | Path, document: dict[str, Any] | None = None) -> Scenario:

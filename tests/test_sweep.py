@@ -8,6 +8,7 @@ scales as the square root of its power.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import pytest
 from typer.testing import CliRunner
@@ -160,3 +161,79 @@ def test_with_sweep_adds_options_to_a_loaded_scenario(write_scenario):
     with pytest.raises(ScenarioError) as caught:
         with_sweep(scenario, "source.s.duty_cycle", [0.0])
     assert caught.value.key == "--sweep"
+
+
+SCENARIO_FILES = sorted((Path(__file__).resolve().parents[1] / "scenarios").glob("*.toml"))
+
+
+@pytest.mark.parametrize("path", SCENARIO_FILES, ids=[p.stem for p in SCENARIO_FILES])
+def test_the_quick_sweep_check_accepts_what_the_full_reading_accepts(path, monkeypatch):
+    """Every bundled scenario (options and file sweeps too), with a sweep on its first
+    source, passes the check that stands point sources in for the models to be solved,
+    and no model is built by it."""
+    from keepclear.antennas import guide_grid
+    from keepclear.fields.arguments import read_scenario_document
+    from keepclear.fields.scenario import check_sweeps
+
+    def refuse(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
+        raise AssertionError("a model was built by the quick check")
+
+    monkeypatch.setattr(guide_grid, "GridOpenWaveguide", refuse)
+    monkeypatch.setattr(guide_grid, "GridHorn", refuse)
+    document = read_scenario_document(path)
+    check_sweeps(document, path, [("source.1.duty_cycle", [0.5, 0.25])])
+
+
+@pytest.mark.parametrize(
+    ("key", "values"),
+    [
+        ("source.1.bogus_key", [1.0]),  # a key the entry does not take
+        ("source.1.dutycycle", [0.5]),  # misspelt: "did you mean"
+        ("source.1.power_w", [10.0, -5.0]),  # the second value is impossible
+        ("source.1.boresight", [[0.0, 0.0, 0.0]]),  # a zero direction
+        ("source.1.waveguide", ["WR-999"]),  # no such guide
+    ],
+)
+def test_the_quick_sweep_check_refuses_as_the_full_reading_does(key, values):
+    """The same message as the sweep added to the fully read scenario gives."""
+    from keepclear.fields.arguments import read_scenario_document
+    from keepclear.fields.scenario import check_sweeps
+
+    path = Path(__file__).resolve().parents[1] / "scenarios" / "horn-bench-options.toml"
+    document = read_scenario_document(path)
+    with pytest.raises(ScenarioError) as full:
+        with_sweep(load_scenario(path, document), key, values)
+    with pytest.raises(ScenarioError) as quick:
+        check_sweeps(document, path, [(key, values)])
+    assert str(quick.value) == str(full.value)
+    assert quick.value.key == full.value.key == "--sweep"
+
+
+def test_a_refused_sweep_solves_no_model(tmp_path):
+    """On a first run (no model kept), a sweep typo is refused before the horn is solved:
+    nothing is written to the model folder."""
+    import os
+    import subprocess
+    import sys
+
+    path = Path(__file__).resolve().parents[1] / "scenarios" / "horn-bench-options.toml"
+    cache = tmp_path / "models"
+    done = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "keepclear.fields.cli",
+            "compare",
+            str(path),
+            "--sweep",
+            "source.1.power_watts=100,10",
+        ],
+        capture_output=True,
+        text=True,
+        env={**os.environ, "KEEPCLEAR_CACHE_DIR": str(cache)},
+        timeout=120,
+        check=False,
+    )
+    assert done.returncode == 2, done.stderr
+    assert "did you mean 'source.1.power_w'" in done.stderr
+    assert not cache.exists() or not any(cache.rglob("*"))
