@@ -1004,13 +1004,15 @@ def check_sweeps(
     """Refuse what the scenario and its command-line sweeps would be refused for, quickly.
 
     The scenario (its options and sweeps too) and every swept value are read as
-    :func:`load_scenario` and :func:`with_sweep` read them, but a source that would be
-    solved as a wire grid gets its analytic model (once its keys are checked): a sweep's
-    key that its entry does not take, or a value that makes an impossible scenario, is
-    refused with the same message before any model is solved or its tables built (the
-    first run of a new horn solves it for half a minute).  Nothing is returned, and no
-    warning is given: the full reading that follows gives them.  A fault that only the
-    solved model finds is left to that reading.
+    :func:`load_scenario` and :func:`with_sweep` read them, but a guide, a horn or a
+    monopole on a finite ground gets a point source at its place once every key of its
+    table is read and checked: a sweep's key that its entry does not take, or a value
+    that makes an impossible scenario, is refused with the same message before any model
+    is solved or its tables built (the first run of a new horn solves it for half a
+    minute).  Nothing is returned, and no warning is given: the full reading that follows
+    gives them.  What only the model itself can find (a guide below cut-off, a flange
+    smaller than the aperture) is left to that reading, which may then name a problem
+    this check did not.
 
     Raises
     ------
