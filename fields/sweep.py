@@ -97,8 +97,13 @@ def _target(
         return top, key, "the scenario's top level"
     table = parts[0]
     if table not in SWEEP_TABLES:
+        hint = ""
+        number = table.removeprefix("source")
+        if number.isdigit() and len(parts) >= 2:  # an unnamed source's id, source2, as a table
+            rest = ".".join(parts[1:])
+            hint = f" (did you mean 'source.{int(number)}.{rest}'?)"
         raise ValueError(
-            f"'{key}' starts with '{table}', not a table a sweep can vary; allowed: {allowed}"
+            f"'{key}' starts with '{table}', not a table a sweep can vary{hint}; allowed: {allowed}"
         )
     if table == "enclosure":
         if len(parts) != 2 or not isinstance(document.get("enclosure"), dict):

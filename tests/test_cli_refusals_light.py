@@ -86,6 +86,11 @@ REFUSALS = {
         ["assess", OPTIONS, "--out", "o", "--sweep", "cabinet.power_w=1,2"],
         "'cabinet.power_w' starts with 'cabinet', not a table a sweep can vary",
     ),
+    "sweep-source-id-as-table": (
+        ["compare", OPTIONS, "--sweep", "source2.power_w=1,2"],
+        "'source2.power_w' starts with 'source2', not a table a sweep can vary (did you mean "
+        "'source.2.power_w'?)",
+    ),
     "sweep-no-enclosure": (
         ["compare", OPTIONS, "--sweep", "enclosure.wall_m=1"],
         "'enclosure.wall_m': the scenario has no [enclosure]",
