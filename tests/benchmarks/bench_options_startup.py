@@ -115,8 +115,21 @@ STARTUP |= {
     "refused-option-name": (["keepout", _OPTIONS_SCENARIO, "--option", "nosuch"], 2),
     "refused-rank-by": (["compare", _OPTIONS_SCENARIO, "--rank-by", "bogus"], 2),
     "refused-sweep": (["compare", _OPTIONS_SCENARIO, "--sweep", "foo"], 2),
+    "refused-sweep-entry": (["compare", _OPTIONS_SCENARIO, "--sweep", "source.9.power_w=1"], 2),
     "refused-point": (["probe", _OPTIONS_SCENARIO, "--at", "1,2"], 2),
     "refused-pixels": (["map", _OPTIONS_SCENARIO, "--out", "unused", "--pixels", "1"], 2),
+}
+
+
+#: Refused by reading the scenario as changed (numpy and the scenario's reader imported; point
+#: sources stand in for the models to be solved): the one kind of refusal not answered
+#: before numpy.
+STARTUP |= {
+    "refused-sweep-value": (["compare", _OPTIONS_SCENARIO, "--sweep", "source.1.power_w=-5"], 2),
+    "refused-sweep-key": (
+        ["assess", _OPTIONS_SCENARIO, "--out", "unused", "--sweep", "source.1.power=5"],
+        2,
+    ),
 }
 
 
