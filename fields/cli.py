@@ -390,7 +390,7 @@ def _check_sweeps(path: Path, document: dict[str, Any], sweep: list[str] | None)
 
     A key its entry does not take, or a value that makes an impossible scenario, is told
     only by reading the scenario as changed; :func:`~keepclear.fields.scenario.check_sweeps`
-    reads it with point sources standing in for the models to be solved (about 0.4 s,
+    reads it with point sources standing in for the models to be solved (about 0.5 s,
     where the full reading took a second, and half a minute on a new horn's first run).
     """
     if not sweep:
