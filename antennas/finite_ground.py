@@ -157,6 +157,55 @@ def _face_count(lines_u: NDArray[np.float64], lines_v: NDArray[np.float64]) -> i
     return int(lines_u.size * (lines_v.size - 1) + lines_v.size * (lines_u.size - 1))
 
 
+def checked_inputs(
+    frequency_hz: float,
+    length_m: float | None,
+    *,
+    ground: str,
+    ground_size_m: ArrayLike,
+    ground_offset_m: ArrayLike = (0.0, 0.0),
+    box_depth_m: float | None = None,
+    wire_radius_m: float | None = None,
+) -> tuple[float, float, tuple[float, float], tuple[float, float], float]:
+    """The checks of :class:`FiniteGroundMonopole`'s inputs, without solving it.
+
+    Returns the wire's length and radius [m], the face's size and the probe's offset
+    [m], and the box's depth (0 for a plate) [m].
+
+    Raises
+    ------
+    ModelInputError
+        As the constructor raises it, naming the parameter.
+    """
+    if ground not in GROUND_KINDS:
+        raise ModelInputError(
+            "ground", f"ground must be one of {', '.join(GROUND_KINDS)}, got {ground!r}"
+        )
+    length, radius = _validate_wire(frequency_hz, length_m, wire_radius_m, 0.25, "monopole")
+    width, height = _pair(ground_size_m, "ground_size_m", positive=True)
+    off_w, off_h = _pair(ground_offset_m, "ground_offset_m", positive=False)
+    if abs(off_w) > 0.5 * width or abs(off_h) > 0.5 * height:
+        raise ModelInputError(
+            "ground_offset_m",
+            f"ground_offset_m = [{off_w:g}, {off_h:g}] puts the probe's base off the "
+            f"{width:g} x {height:g} m face: each offset must be within half the size "
+            f"(|w| <= {0.5 * width:g} m, |h| <= {0.5 * height:g} m)",
+        )
+    if ground == "box":
+        if box_depth_m is None:
+            raise ModelInputError("box_depth_m", 'box_depth_m is required for ground = "box"')
+        depth = float(box_depth_m)
+        if not (math.isfinite(depth) and depth > 0.0):
+            raise ModelInputError("box_depth_m", f"box_depth_m must be > 0 m, got {box_depth_m!r}")
+    else:
+        if box_depth_m is not None:
+            raise ModelInputError(
+                "box_depth_m", 'box_depth_m applies to ground = "box" only, not to a plate'
+            )
+        depth = 0.0
+    return length, radius, (width, height), (off_w, off_h), depth
+
+
 class FiniteGroundMonopole(SolvedWireRadiator):
     """Base-fed monopole on a finite plate or through the face of a closed box.
 
@@ -231,36 +280,15 @@ class FiniteGroundMonopole(SolvedWireRadiator):
         fed_face_segment_wavelengths: float = FED_FACE_SEGMENT_WAVELENGTHS,
     ) -> None:
         super().__init__(frequency_hz, power_w, placement)
-        if ground not in GROUND_KINDS:
-            raise ModelInputError(
-                "ground", f"ground must be one of {', '.join(GROUND_KINDS)}, got {ground!r}"
-            )
-        length, radius = _validate_wire(
-            self.frequency_hz, length_m, wire_radius_m, 0.25, "monopole"
+        length, radius, (width, height), (off_w, off_h), depth = checked_inputs(
+            self.frequency_hz,
+            length_m,
+            ground=ground,
+            ground_size_m=ground_size_m,
+            ground_offset_m=ground_offset_m,
+            box_depth_m=box_depth_m,
+            wire_radius_m=wire_radius_m,
         )
-        width, height = _pair(ground_size_m, "ground_size_m", positive=True)
-        off_w, off_h = _pair(ground_offset_m, "ground_offset_m", positive=False)
-        if abs(off_w) > 0.5 * width or abs(off_h) > 0.5 * height:
-            raise ModelInputError(
-                "ground_offset_m",
-                f"ground_offset_m = [{off_w:g}, {off_h:g}] puts the probe's base off the "
-                f"{width:g} x {height:g} m face: each offset must be within half the size "
-                f"(|w| <= {0.5 * width:g} m, |h| <= {0.5 * height:g} m)",
-            )
-        if ground == "box":
-            if box_depth_m is None:
-                raise ModelInputError("box_depth_m", 'box_depth_m is required for ground = "box"')
-            depth = float(box_depth_m)
-            if not (math.isfinite(depth) and depth > 0.0):
-                raise ModelInputError(
-                    "box_depth_m", f"box_depth_m must be > 0 m, got {box_depth_m!r}"
-                )
-        else:
-            if box_depth_m is not None:
-                raise ModelInputError(
-                    "box_depth_m", 'box_depth_m applies to ground = "box" only, not to a plate'
-                )
-            depth = 0.0
         self.ground = ground
         self.length_m = length
         self.height_m = length

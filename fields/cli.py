@@ -385,21 +385,37 @@ def _precheck(
     return document
 
 
-def _check_sweeps(path: Path, document: dict[str, Any], sweep: list[str] | None) -> None:
+def _check_sweeps(
+    path: Path,
+    document: dict[str, Any],
+    sweep: list[str] | None,
+    limit: list[str] | None = None,
+    rank_by: str | None = None,
+) -> None:
     """Refuse a ``--sweep`` the scenario cannot take before its models are solved.
 
     A key its entry does not take, or a value that makes an impossible scenario, is told
     only by reading the scenario as changed; :func:`~keepclear.fields.scenario.check_sweeps`
-    reads it with point sources standing in for the models to be solved (about 0.5 s,
+    reads it with point sources standing in for the wire grids to be solved (under a second,
     where the full reading took a second, and half a minute on a new horn's first run).
+    ``--limit`` and ``--rank-by`` are checked on the scenario first, as after the full
+    reading.
     """
     if not sweep:
         return
-    from .scenario import check_sweeps
+    from .scenario import Scenario, check_sweeps
     from .sweep import parse_sweep_argument
 
+    def check_base(base: Scenario) -> None:
+        if limit:
+            api.select_limits(base, limit)
+        if rank_by is not None:
+            from .compare import check_rank_by
+
+            check_rank_by(base, rank_by)
+
     try:
-        check_sweeps(document, path, [parse_sweep_argument(spec) for spec in sweep])
+        check_sweeps(document, path, [parse_sweep_argument(spec) for spec in sweep], check_base)
     except InputError:
         raise
     except Exception:  # noqa: BLE001 - not for this check to judge: the full reading will
@@ -856,7 +872,7 @@ def compare_command(
     checks.check_height(height_m)
     checks.check_grid_ranges(extent_m, step_m, pixels)
     document = _precheck(scenario, limit=limit, rank_by=rank_by, sweep=sweep)
-    _check_sweeps(scenario, document, sweep)
+    _check_sweeps(scenario, document, sweep, limit, rank_by)
     from .compare import check_rank_by, comparison_table
     from .outputs import json_text
     from .plots import figure_bytes
@@ -959,16 +975,16 @@ def assess_command(
     checks.check_height(height_m)
     checks.check_grid_ranges(extent_m, step_m, pixels)
     document = _precheck(scenario, limit=limit, rank_by=rank_by, sweep=sweep)
-    _check_sweeps(scenario, document, sweep)
-    from .outputs import json_text
-    from .report import summary_text
-
-    grid = api.GridSettings(extent_m, step_m, pixels)
     readings = None
     if readings_csv is not None:
         from .readings import read_readings_csv
 
         readings = read_readings_csv(readings_csv, "--readings")
+    _check_sweeps(scenario, document, sweep, limit, rank_by)
+    from .outputs import json_text
+    from .report import summary_text
+
+    grid = api.GridSettings(extent_m, step_m, pixels)
     from .compare import check_rank_by
 
     loaded = _load(scenario, document)

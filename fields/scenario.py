@@ -319,7 +319,8 @@ def _feed_dimensions(t: Table) -> tuple[float, float]:
 
 #: Set while a scenario is read only to be checked (:func:`check_sweeps`): a guide, a horn
 #: or a monopole on a finite ground (a NEC-2 solve on its first run, tables built on every
-#: run) gets a point source at its place instead, once every key of its table is read.
+#: run) gets a point source at its place instead, once every key of its table is read and
+#: every input check of the model has passed.
 _STAND_IN: ContextVar[bool] = ContextVar("keepclear_stand_in_models", default=False)
 
 
@@ -417,10 +418,19 @@ def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None)
             f"{np.degrees(np.arccos(np.clip(np.dot(up / np.linalg.norm(up), a), -1, 1))):.4g} deg",
         )
     placement = t.build(Placement.from_axes, position, axis, up)
-    if _STAND_IN.get():
-        return _stand_in(f, p, placement)
-    from keepclear.antennas.finite_ground import FiniteGroundMonopole
+    from keepclear.antennas.finite_ground import FiniteGroundMonopole, checked_inputs
 
+    if _STAND_IN.get():  # the model's own checks, without its solve
+        t.build(
+            checked_inputs,
+            f,
+            length,
+            ground=ground,
+            ground_size_m=size,
+            ground_offset_m=offset,
+            box_depth_m=depth,
+        )
+        return _stand_in(f, p, placement)
     return t.build(
         FiniteGroundMonopole,
         f,
@@ -435,15 +445,11 @@ def _build_grounded_monopole(t: Table, f: float, p: float, length: float | None)
 
 
 def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
-    broad, narrow = _feed_dimensions(t)
-    placement = _placement(t, "boresight", polarization=True)
-    if _STAND_IN.get():
-        _flange(t)
-        t.number("guide_length_m", 1.0, unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0)
-        return _stand_in(f, p, placement)
     from keepclear.antennas.aperture import OpenWaveguide
     from keepclear.antennas.walls import WalledAperture
 
+    broad, narrow = _feed_dimensions(t)
+    placement = _placement(t, "boresight", polarization=True)
     guide = t.build(OpenWaveguide, f, p, broad, narrow, placement=placement)
     flange = _flange(t)
     length = None
@@ -458,6 +464,8 @@ def _build_open_waveguide(t: Table, f: float, p: float) -> Radiator:
         flange = t.build(
             check_flange, flange, broad + 2 * DEFAULT_WALL_M, narrow + 2 * DEFAULT_WALL_M
         )
+    if _STAND_IN.get():  # every input checked: a point source for the solved guide
+        return _stand_in(f, p, placement)
     needed = guide_grid.segments_needed(
         broad, narrow, f, length or guide_grid.default_guide_length_m(broad, f), flange
     )
@@ -484,6 +492,8 @@ def _flange(t: Table) -> Any:
 
 
 def _build_horn(t: Table, f: float, p: float) -> Radiator:
+    from keepclear.antennas.horn import PyramidalHorn
+
     broad, narrow = _feed_dimensions(t)
     width = t.number(
         "aperture_width_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
@@ -492,13 +502,9 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
         "aperture_height_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=20.0
     )
     length = t.number("length_m", unit="m", minimum=0.0, exclusive_minimum=True, maximum=50.0)
-    placement = _placement(t, "boresight", polarization=True)
-    if _STAND_IN.get():
-        _flange(t)
-        return _stand_in(f, p, placement)
-    from keepclear.antennas.horn import PyramidalHorn
     from keepclear.antennas.walls import WalledAperture
 
+    placement = _placement(t, "boresight", polarization=True)
     horn = t.build(PyramidalHorn, f, p, broad, narrow, width, height, length, placement=placement)
     flange = _flange(t)
     from keepclear.antennas import guide_grid
@@ -506,6 +512,8 @@ def _build_horn(t: Table, f: float, p: float) -> Radiator:
 
     if flange is not None:
         flange = t.build(check_flange, flange, width, height)
+    if _STAND_IN.get():  # every input checked: a point source for the solved horn
+        return _stand_in(f, p, placement)
     needed = guide_grid.horn_segments_needed(broad, narrow, width, height, length, f, flange)
     if needed <= guide_grid.HORN_MAX_SEGMENTS:
         # The horn solved with its flare, feed and probes, and its flange if it has one
@@ -999,35 +1007,44 @@ def with_sweep(scenario: Scenario, key: str, values: list[Any]) -> Scenario:
 
 
 def check_sweeps(
-    document: dict[str, Any], path: str | Path, sweeps: Sequence[tuple[str, list[Any]]]
+    document: dict[str, Any],
+    path: str | Path,
+    sweeps: Sequence[tuple[str, list[Any]]],
+    check_base: Callable[[Scenario], None] | None = None,
 ) -> None:
     """Refuse what the scenario and its command-line sweeps would be refused for, quickly.
 
     The scenario (its options and sweeps too) and every swept value are read as
-    :func:`load_scenario` and :func:`with_sweep` read them, but a guide, a horn or a
-    monopole on a finite ground gets a point source at its place once every key of its
-    table is read and checked: a sweep's key that its entry does not take, or a value
-    that makes an impossible scenario, is refused with the same message before any model
-    is solved or its tables built (the first run of a new horn solves it for half a
-    minute).  Nothing is returned, and no warning is given: the full reading that follows
-    gives them.  What only the model itself can find (a guide below cut-off, a flange
-    smaller than the aperture) is left to that reading, which may then name a problem
-    this check did not.
+    :func:`load_scenario` and :func:`with_sweep` read them, model input checks included,
+    except that a guide, a horn or a monopole on a finite ground then gets a point source
+    at its place instead of its solved wire grid: a sweep's key that its entry does not
+    take, or a value that makes an impossible scenario, is refused with the full
+    reading's message before any model is solved or its tables built (the first run of a
+    new horn solves it for half a minute).  ``check_base``, when given, is called on the
+    scenario before the sweeps are added (the command line's ``--limit`` and
+    ``--rank-by`` checks, so that they keep their turn).  Nothing is returned, and no
+    warning is given: the full reading that follows gives them.  The scenarios read here
+    never share models with others (the radiators of :func:`shared_radiators` are left
+    alone).  What only a solve can find is left to the full reading.
 
     Raises
     ------
     InputError
         The first problem found, as the full reading would name it.
     """
-    token = _STAND_IN.set(True)
+    stand_in = _STAND_IN.set(True)
+    pool = _RADIATORS.set(None)  # point sources must never reach a shared pool
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             scenario = scenario_from_document(document, str(path))
+            if check_base is not None:
+                check_base(scenario)
             for key, values in sweeps:
                 scenario = with_sweep(scenario, key, list(values))
     finally:
-        _STAND_IN.reset(token)
+        _RADIATORS.reset(pool)
+        _STAND_IN.reset(stand_in)
 
 
 def load_scenario(path: str | Path, document: dict[str, Any] | None = None) -> Scenario:

@@ -178,8 +178,11 @@ def test_the_quick_sweep_check_accepts_what_the_full_reading_accepts(path, monke
     def refuse(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
         raise AssertionError("a model was built by the quick check")
 
+    from keepclear.antennas import finite_ground
+
     monkeypatch.setattr(guide_grid, "GridOpenWaveguide", refuse)
     monkeypatch.setattr(guide_grid, "GridHorn", refuse)
+    monkeypatch.setattr(finite_ground, "FiniteGroundMonopole", refuse)
     document = read_scenario_document(path)
     check_sweeps(document, path, [("source.1.duty_cycle", [0.5, 0.25])])
 
@@ -192,6 +195,10 @@ def test_the_quick_sweep_check_accepts_what_the_full_reading_accepts(path, monke
         ("source.1.power_w", [10.0, -5.0]),  # the second value is impossible
         ("source.1.boresight", [[0.0, 0.0, 0.0]]),  # a zero direction
         ("source.1.waveguide", ["WR-999"]),  # no such guide
+        # the first value fails the horn model's own check (narrower than its feed), the
+        # second the reader's range: the first is named, as the full reading names it
+        ("source.1.aperture_width_m", [0.05, 30.0]),
+        ("source.1.flange_m", [[0.1, 0.1]]),  # a flange smaller than the horn's mouth
     ],
 )
 def test_the_quick_sweep_check_refuses_as_the_full_reading_does(key, values):
@@ -237,3 +244,39 @@ def test_a_refused_sweep_solves_no_model(tmp_path):
     assert done.returncode == 2, done.stderr
     assert "did you mean 'source.1.power_w'" in done.stderr
     assert not cache.exists() or not any(cache.rglob("*"))
+
+
+def test_the_quick_sweep_check_leaves_shared_models_alone(monkeypatch):
+    """Inside shared_radiators() (several readings of one run share their models), the
+    point sources of the quick check never reach the shared models: a scenario read next
+    gets its solved horn."""
+    from keepclear.antennas.guide_grid import GridHorn
+    from keepclear.fields.arguments import read_scenario_document
+    from keepclear.fields.scenario import check_sweeps, shared_radiators
+
+    path = Path(__file__).resolve().parents[1] / "scenarios" / "horn-bench-options.toml"
+    document = read_scenario_document(path)
+    with shared_radiators():
+        check_sweeps(document, path, [("source.1.duty_cycle", [0.5])])
+        scenario = load_scenario(path, document)
+    assert isinstance(scenario.sources[0].radiator, GridHorn)
+
+
+def test_command_line_checks_limits_before_the_sweep(write_scenario):
+    """An out-of-band --limit is named before a bad --sweep, as it was before the quick
+    check (the limit is checked on the scenario first)."""
+    path = write_scenario(ISOTROPIC.replace("[[source]]", "frequency_hz = 5.8e9\n[[source]]", 1))
+    result = runner.invoke(
+        app,
+        [
+            "compare",
+            str(path),
+            "--limit",
+            "iec-60601-1-2/wireless-2450",  # published for 2.4-2.57 GHz only
+            "--sweep",
+            "source.s.power_w=-1",
+        ],
+    )
+    assert result.exit_code == 2
+    assert "--limit" in result.stderr and "never extrapolated" in result.stderr
+    assert "--sweep" not in result.stderr

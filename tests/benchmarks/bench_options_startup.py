@@ -121,9 +121,9 @@ STARTUP |= {
 }
 
 
-#: Refused by reading the scenario as changed (numpy and the scenario's reader imported; point
-#: sources stand in for the models to be solved): the one kind of refusal not answered
-#: before numpy.
+#: Refused by reading the scenario as changed (numpy, the scenario's reader and the models'
+#: input checks imported; point sources stand in for the wire grids to be solved): the one
+#: kind of refusal not answered before numpy.
 STARTUP |= {
     "refused-sweep-value": (["compare", _OPTIONS_SCENARIO, "--sweep", "source.1.power_w=-5"], 2),
     "refused-sweep-key": (
