@@ -172,6 +172,20 @@ def read_scenario_document(path: str | Path) -> dict[str, Any]:
     ScenarioError
         If the file is missing, a directory, unreadable, too large, not UTF-8 or not TOML.
     """
+    return read_scenario_file(path)[1]
+
+
+def read_scenario_file(path: str | Path) -> tuple[str, dict[str, Any]]:
+    """A scenario file's text (a byte-order mark dropped) and its TOML document.
+
+    The text is the one the document was parsed from (``assess`` copies it into its
+    output folder and report: what was assessed, even if the file changes meanwhile).
+
+    Raises
+    ------
+    ScenarioError
+        As :func:`read_scenario_document`.
+    """
     p = Path(path)
     label = str(path)
     if not p.exists():
@@ -189,7 +203,7 @@ def read_scenario_document(path: str | Path) -> dict[str, Any]:
     except UnicodeDecodeError:
         raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", label) from None
     try:
-        return tomllib.loads(text)
+        return text, tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ScenarioError(f"is not valid TOML: {exc}", label) from None
     except RecursionError:

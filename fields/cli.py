@@ -350,8 +350,11 @@ def _precheck(
     option: str | None = None,
     rank_by: str | None = None,
     sweep: list[str] | None = None,
+    text: list[str] | None = None,
 ) -> dict[str, Any]:
     """The scenario's TOML document, with what can be refused without numpy refused.
+
+    ``text``, when given, receives the file's text, the one the document was parsed from.
 
     A missing or unreadable file, a TOML syntax error, an unknown ``--option`` or
     ``--limit`` id, a ``--rank-by`` naming no place, and a malformed ``--sweep`` or one
@@ -359,7 +362,9 @@ def _precheck(
     of the full checks, before numpy and the models are imported.  Whatever only the full
     reading can tell is left to it (a key the entry does not take, an impossible value).
     """
-    document = checks.read_scenario_document(path)
+    file_text, document = checks.read_scenario_file(path)
+    if text is not None:
+        text.append(file_text)
     if option is not None:
         names = checks.document_option_names(document)
         if names is not None and option not in names:
@@ -974,7 +979,8 @@ def assess_command(
     """
     checks.check_height(height_m)
     checks.check_grid_ranges(extent_m, step_m, pixels)
-    document = _precheck(scenario, limit=limit, rank_by=rank_by, sweep=sweep)
+    written: list[str] = []  # the file's text as read: the copy in the report is what ran
+    document = _precheck(scenario, limit=limit, rank_by=rank_by, sweep=sweep, text=written)
     readings = None
     if readings_csv is not None:
         from .readings import read_readings_csv
@@ -992,7 +998,7 @@ def assess_command(
     check_rank_by(loaded, rank_by)
     loaded = api.with_sweeps(loaded, sweep)
     api.refuse_assessment_overwrites(out, [scenario], height_m)
-    text = Path(scenario).read_text(encoding="utf-8-sig")
+    (text,) = written
     with Progress() as progress:
         result = api.assess(
             loaded,

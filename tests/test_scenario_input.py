@@ -120,6 +120,19 @@ def test_a_byte_order_mark_is_read_as_utf_8(tmp_path):
     assert strict_json(b.stdout)["keepout"] == strict_json(a.stdout)["keepout"]
 
 
+def test_the_text_read_is_the_text_parsed(tmp_path):
+    """read_scenario_file gives the text the document came from, byte-order mark dropped
+    (assess copies that text into its report: what was assessed)."""
+    from keepclear.fields.arguments import read_scenario_file
+
+    text = 'name = "copy test"\n[[source]]\nantenna = "isotropic"\npower_w = 10.0\n'
+    marked = tmp_path / "marked.toml"
+    marked.write_bytes(b"\xef\xbb\xbf" + text.encode("utf-8"))
+    read, document = read_scenario_file(marked)
+    assert read == text
+    assert document["name"] == "copy test" and document["source"][0]["power_w"] == 10.0
+
+
 @EXPECTED_PLAUSIBILITY_WARNING
 def test_file_over_2_mb_is_refused(tmp_path):
     path = tmp_path / "big.toml"
