@@ -153,6 +153,36 @@ def _isolated(task: Callable[[], T]) -> T:
 _FAILED = "keepclear-piece-failed"
 
 
+def _attempt(task: Callable[[], Any]) -> Any:
+    """In a child: ``(value, warnings)`` of ``task``, or :data:`_FAILED`.
+
+    :data:`_FAILED` when the task raised or its value does not pickle: the parent then
+    runs it again itself, where it raises its own error (or gives its value).
+    """
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            value = _isolated(task)
+        given = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
+        pickle.dumps(value, protocol=pickle.HIGHEST_PROTOCOL)  # fails here, not when sent
+    except Exception:  # noqa: BLE001 - the parent runs it again and raises
+        return _FAILED
+    return value, given
+
+
+def _settle(item: Any, task: Callable[[], T]) -> T:
+    """Here: a child's :func:`_attempt` as a value, or ``task`` run here where it failed.
+
+    The child's warnings are given again; a task run here raises its own error.
+    """
+    if isinstance(item, str) and item == _FAILED:
+        return _isolated(task)
+    value, given = item
+    for message, category, filename, lineno in given:
+        warnings.warn_explicit(message, category, filename, lineno)
+    return value
+
+
 def _block_interrupts() -> Any:
     """Block SIGINT in this thread; the mask before, for :func:`_restore_interrupts`."""
     try:
@@ -231,17 +261,7 @@ def _child(tasks: Sequence[Callable[[], Any]], path: str) -> None:  # pragma: no
     _IN_CHILD = True
     code = 1
     try:
-        out: list[Any] = []
-        for task in tasks:
-            try:
-                with warnings.catch_warnings(record=True) as caught:
-                    warnings.simplefilter("always")
-                    value = _isolated(task)
-                given = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
-                pickle.dumps(value, protocol=pickle.HIGHEST_PROTOCOL)  # fails here, not below
-                out.append((value, given))
-            except Exception:  # noqa: BLE001 - the parent runs the piece again and raises
-                out.append(_FAILED)
+        out = [_attempt(task) for task in tasks]
         with open(path, "wb") as handle:
             pickle.dump(out, handle, protocol=pickle.HIGHEST_PROTOCOL)
         code = 0
@@ -331,15 +351,7 @@ class Pending(Generic[T]):
                         got[i] = item
         finally:
             self.cancel()
-        done: list[T] = []
-        for i, item in enumerate(got):
-            if isinstance(item, str) and item == _FAILED:
-                done.append(_isolated(self._tasks[i]))  # raises the piece's own error
-                continue
-            value, given = item
-            for message, category, filename, lineno in given:
-                warnings.warn_explicit(message, category, filename, lineno)
-            done.append(value)
+        done = [_settle(item, task) for item, task in zip(got, self._tasks, strict=True)]
         self._done = done
         return done
 
@@ -398,16 +410,7 @@ def _serve(handler: Callable[[Any], Any], inbox: int, outbox: int) -> None:  # p
             got, request = _receive(inbox)
             if not got:
                 break
-            try:
-                with warnings.catch_warnings(record=True) as caught:
-                    warnings.simplefilter("always")
-                    value = _isolated(functools.partial(handler, request))
-                given = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
-                reply: Any = (value, given)
-                pickle.dumps(reply, protocol=pickle.HIGHEST_PROTOCOL)  # fails here, not below
-            except Exception:  # noqa: BLE001 - the parent answers it again and raises
-                reply = _FAILED
-            _send(outbox, reply)
+            _send(outbox, _attempt(functools.partial(handler, request)))
         code = 0
     finally:
         os._exit(code)
@@ -503,16 +506,10 @@ class Crew(Generic[T]):
             raise
         if broken:
             self.close()
-        done: list[T] = []
-        for (_, request), item in zip(asked, got, strict=True):
-            if isinstance(item, str) and item == _FAILED:
-                done.append(_isolated(functools.partial(self._handler, request)))
-                continue
-            value, given = item
-            for message, category, filename, lineno in given:
-                warnings.warn_explicit(message, category, filename, lineno)
-            done.append(value)
-        return done
+        return [
+            _settle(item, functools.partial(self._handler, request))
+            for (_, request), item in zip(asked, got, strict=True)
+        ]
 
     def close(self) -> None:
         """Stop the children (any request still running is dropped)."""
